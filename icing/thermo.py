@@ -1,0 +1,267 @@
+"""Thermodynamics: a thin, unit-free layer over :mod:`metpy.calc`.
+
+Plain numpy arrays in, plain numpy arrays out, SI units (K, Pa, kg/kg, m).
+Saturation vapour pressures come from MetPy (Ambaum 2020 formulation), so the
+package shares one saturation law; the rest are closed forms cited below.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .constants import EPSILON, G, LAPSE_STD, P0_STD, RD, T0_STD
+
+__all__ = [
+    "saturation_vapor_pressure",
+    "saturation_mixing_ratio",
+    "vapor_pressure_from_specific_humidity",
+    "relative_humidity_from_dewpoint",
+    "relative_humidity_from_specific_humidity",
+    "specific_humidity_from_relative_humidity",
+    "dewpoint_from_vapor_pressure",
+    "virtual_temperature",
+    "air_density",
+    "air_viscosity",
+    "air_conductivity",
+    "vapor_diffusivity",
+    "height_from_pressure_hypsometric",
+    "standard_atmosphere_pressure",
+    "standard_atmosphere_height",
+]
+
+
+def saturation_vapor_pressure(temperature, *, phase="liquid"):
+    """Saturation vapour pressure over plane water or ice, MetPy (Ambaum 2020).
+
+    Parameters
+    ----------
+    temperature : array_like
+        Air temperature. [K]
+    phase : {"liquid", "solid"}
+        Saturation over liquid water (also supercooled) or over ice.
+
+    Returns
+    -------
+    numpy.ndarray
+        Saturation vapour pressure. [Pa]
+
+    References
+    ----------
+    Ambaum, M. H. P. (2020), QJRMS 146, 4252-4258, via ``metpy.calc``.
+
+    Examples
+    --------
+    >>> round(float(saturation_vapor_pressure(273.16)), 1)
+    611.2
+    """
+    import metpy.calc as mpcalc
+    from metpy.units import units
+
+    t = np.asarray(temperature, dtype=float)
+    es = mpcalc.saturation_vapor_pressure(units.Quantity(t, "K"), phase=phase)
+    return np.asarray(es.m_as("Pa"))
+
+
+def saturation_mixing_ratio(pressure, temperature, *, phase="liquid"):
+    """Saturation mixing ratio ``eps e_s / (p - e_s)``. [kg/kg]
+
+    Parameters
+    ----------
+    pressure : array_like
+        Air pressure. [Pa]
+    temperature : array_like
+        Air temperature. [K]
+    phase : {"liquid", "solid"}
+        Over water or over ice.
+
+    Examples
+    --------
+    >>> round(float(saturation_mixing_ratio(100000.0, 283.15)) * 1000, 2)
+    7.72
+    """
+    es = saturation_vapor_pressure(temperature, phase=phase)
+    p = np.asarray(pressure, dtype=float)
+    es = np.minimum(es, 0.5 * p)  # guard: never above half the air pressure
+    return EPSILON * es / (p - es)
+
+
+def vapor_pressure_from_specific_humidity(pressure, specific_humidity):
+    """Vapour pressure from specific humidity, ``e = p q / (eps + (1 - eps) q)``. [Pa]"""
+    q = np.asarray(specific_humidity, dtype=float)
+    return np.asarray(pressure, dtype=float) * q / (EPSILON + (1.0 - EPSILON) * q)
+
+
+def relative_humidity_from_dewpoint(temperature, dewpoint):
+    """Relative humidity over water, ``e_s(Td) / e_s(T)``, as a fraction. [1]"""
+    return saturation_vapor_pressure(dewpoint) / saturation_vapor_pressure(temperature)
+
+
+def relative_humidity_from_specific_humidity(pressure, temperature, specific_humidity):
+    """Relative humidity over water (vapour-pressure ratio) as a fraction. [1]"""
+    e = vapor_pressure_from_specific_humidity(pressure, specific_humidity)
+    return e / saturation_vapor_pressure(temperature)
+
+
+def specific_humidity_from_relative_humidity(pressure, temperature, relative_humidity):
+    """Specific humidity from relative humidity over water (fraction). [kg/kg]"""
+    e = np.asarray(relative_humidity, dtype=float) * saturation_vapor_pressure(temperature)
+    p = np.asarray(pressure, dtype=float)
+    return EPSILON * e / (p - (1.0 - EPSILON) * e)
+
+
+def dewpoint_from_vapor_pressure(vapor_pressure):
+    """Dew point over water by inverting MetPy's saturation law. [K]"""
+    import metpy.calc as mpcalc
+    from metpy.units import units
+
+    e = np.asarray(vapor_pressure, dtype=float)
+    return np.asarray(mpcalc.dewpoint(units.Quantity(e, "Pa")).m_as("K"))
+
+
+def virtual_temperature(temperature, specific_humidity):
+    """Virtual temperature ``T (1 + 0.608 q)`` (Wallace & Hobbs 2006, eq. 3.60). [K]"""
+    q = np.asarray(specific_humidity, dtype=float)
+    return np.asarray(temperature, dtype=float) * (1.0 + (1.0 / EPSILON - 1.0) * q)
+
+
+def air_density(pressure, temperature, specific_humidity=0.0):
+    """Moist-air density ``p / (Rd Tv)``. [kg m-3]
+
+    Examples
+    --------
+    >>> round(float(air_density(101325.0, 288.15)), 4)
+    1.225
+    """
+    return np.asarray(pressure, dtype=float) / (
+        RD * virtual_temperature(temperature, specific_humidity)
+    )
+
+
+def air_viscosity(temperature):
+    """Dynamic viscosity of air by Sutherland's law.
+
+    ``mu = 1.458e-6 T^1.5 / (T + 110.4)`` (U.S. Standard Atmosphere 1976, eq. 51).
+
+    Parameters
+    ----------
+    temperature : array_like
+        Air temperature. [K]
+
+    Returns
+    -------
+    numpy.ndarray
+        Dynamic viscosity. [Pa s]
+
+    References
+    ----------
+    NOAA/NASA/USAF (1976), U.S. Standard Atmosphere, 1976, eq. 51.
+
+    Examples
+    --------
+    >>> round(float(air_viscosity(273.15)) * 1e5, 3)
+    1.716
+    """
+    t = np.asarray(temperature, dtype=float)
+    return 1.458e-6 * t**1.5 / (t + 110.4)  # U.S. Std Atm 1976 eq. 51
+
+
+def air_conductivity(temperature):
+    """Thermal conductivity of air (U.S. Standard Atmosphere 1976, eq. 53). [W m-1 K-1]
+
+    ``k = 2.64638e-3 T^1.5 / (T + 245.4 * 10^(-12/T))``
+
+    Examples
+    --------
+    >>> round(float(air_conductivity(273.15)), 5)
+    0.02414
+    """
+    t = np.asarray(temperature, dtype=float)
+    return 2.64638e-3 * t**1.5 / (t + 245.4 * 10.0 ** (-12.0 / t))  # eq. 53
+
+
+def vapor_diffusivity(temperature, pressure):
+    """Diffusivity of water vapour in air, ``2.26e-5 (T/T0)^1.81 (p0/p)``. [m2 s-1]
+
+    Pruppacher & Klett (1997), eq. 13-3 (2.11e-5 at 0 C in their form; the value
+    2.26e-5 used here is the Rogers & Yau 1989 table value, from memory).
+    """
+    t = np.asarray(temperature, dtype=float)
+    return 2.26e-5 * (t / 273.15) ** 1.81 * (101325.0 / np.asarray(pressure, dtype=float))
+
+
+def height_from_pressure_hypsometric(
+    pressure, temperature, *, specific_humidity=None, base_height=None, base_pressure=None
+):
+    """Geopotential height of every level by the hypsometric equation.
+
+    Integrates ``dz = (Rd Tv / g) d ln p`` level by level (layer-mean Tv) from a
+    base: ``base_height`` at ``base_pressure`` (e.g. surface elevation and
+    surface pressure); without a base the lowest level is placed at its ICAO
+    standard-atmosphere height.
+
+    Parameters
+    ----------
+    pressure, temperature : array_like, shape (..., level)
+        Level pressure [Pa] and temperature [K], levels in any monotonic order.
+    specific_humidity : array_like, optional
+        Specific humidity (..., level). [kg/kg]
+    base_height, base_pressure : array_like, optional, shape (...)
+        Height [m] and pressure [Pa] of the reference level.
+
+    Returns
+    -------
+    numpy.ndarray
+        Height of every level, shape (..., level). [m]
+
+    References
+    ----------
+    Wallace, J. M. & Hobbs, P. V. (2006), Atmospheric Science, eq. 3.29.
+    """
+    p = np.asarray(pressure, dtype=float)
+    t = np.asarray(temperature, dtype=float)
+    q = 0.0 if specific_humidity is None else np.asarray(specific_humidity, dtype=float)
+    tv = np.broadcast_to(virtual_temperature(t, q), np.broadcast_shapes(p.shape, t.shape))
+    p = np.broadcast_to(p, tv.shape)
+    lnp = np.log(p)
+    layer = RD / G * 0.5 * (tv[..., 1:] + tv[..., :-1]) * (lnp[..., :-1] - lnp[..., 1:])
+    z = np.concatenate([np.zeros(tv.shape[:-1] + (1,)), np.cumsum(layer, axis=-1)], axis=-1)
+    if base_pressure is None:
+        # anchor: lowest (highest-pressure) level at its standard-atmosphere height
+        i = np.argmax(p, axis=-1)[..., None]
+        anchor = standard_atmosphere_height(np.take_along_axis(p, i, -1))
+        return z - np.take_along_axis(z, i, -1) + anchor
+    bp = np.asarray(base_pressure, dtype=float)[..., None]
+    bz = np.asarray(0.0 if base_height is None else base_height, dtype=float)[..., None]
+    # height of the base pressure within the column, log-pressure interpolation
+    i = np.argmax(p, axis=-1)[..., None]
+    tv_b = np.take_along_axis(tv, i, -1)
+    z_at_pmax = np.take_along_axis(z, i, -1)
+    z_base_in_column = z_at_pmax + RD / G * tv_b * (np.log(np.take_along_axis(p, i, -1)) - np.log(bp))
+    return z - z_base_in_column + bz
+
+
+def standard_atmosphere_pressure(height):
+    """Pressure of the ICAO standard atmosphere below 11 km. [Pa]
+
+    ``p = p0 (1 - L h / T0)^(g / (Rd L))``; this also converts pressure altitude
+    to pressure (FL100 = 3048 m -> 696.8 hPa).
+
+    Examples
+    --------
+    >>> round(float(standard_atmosphere_pressure(3048.0)) / 100, 1)
+    696.8
+    """
+    h = np.asarray(height, dtype=float)
+    return P0_STD * (1.0 - LAPSE_STD * h / T0_STD) ** (G / (RD * LAPSE_STD))
+
+
+def standard_atmosphere_height(pressure):
+    """Height (pressure altitude) of a pressure in the ICAO standard atmosphere. [m]
+
+    Examples
+    --------
+    >>> round(float(standard_atmosphere_height(69681.7)))
+    3048
+    """
+    p = np.asarray(pressure, dtype=float)
+    return T0_STD / LAPSE_STD * (1.0 - (p / P0_STD) ** (RD * LAPSE_STD / G))
