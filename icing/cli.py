@@ -1,0 +1,450 @@
+"""The ``icing`` command: a thin layer over the public API.
+
+Exit codes: 0 screened (whatever the hazard), 3 when ``--fail-on`` or
+``--fail-on-gap`` is met, 2 on bad input or usage, 1 on an internal error.
+Output files are written to a temporary file beside the target and renamed, so
+a failed run leaves nothing half-written.
+"""
+
+from __future__ import annotations
+
+import argparse
+import csv
+import io
+import json
+import os
+import sys
+import tempfile
+from datetime import datetime
+from pathlib import Path
+
+from . import codes
+from ._version import __version__
+from .caution import CAUTION
+from .errors import IcingError, InputError
+
+__all__ = ["main", "build_parser", "atomic_write"]
+
+EXIT_OK, EXIT_INTERNAL, EXIT_INPUT, EXIT_FAIL_ON = 0, 1, 2, 3
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that exits 2 with one line (its default) and no traceback."""
+
+
+def atomic_write(path, data, *, binary=False) -> Path:
+    """Write ``data`` to ``path`` through a temporary file and a rename."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
+    try:
+        with os.fdopen(fd, "wb" if binary else "w", **({} if binary else {"encoding": "utf-8"})) as fh:
+            fh.write(data)
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    return path
+
+
+def _iso_time(text: str):
+    try:
+        t = datetime.fromisoformat(text.replace("Z", "+00:00"))
+    except ValueError:
+        raise InputError(
+            f"time {text!r} is not ISO 8601",
+            where="--depart/--time",
+            fix="write e.g. 2027-01-14T09:00:00Z",
+        ) from None
+    if t.tzinfo is None:
+        raise InputError(
+            f"time {text!r} has no time zone",
+            where="--depart/--time",
+            fix="append Z (UTC) or an offset such as +00:00",
+        )
+    return t
+
+
+def _utc64(t):
+    """Timezone-aware datetime -> numpy datetime64[ms] in UTC."""
+    from datetime import UTC
+
+    import numpy as np
+
+    return np.datetime64(t.astimezone(UTC).replace(tzinfo=None), "ms")
+
+
+def _latlon(args):
+    if args.at:
+        try:
+            lat, lon = (float(x) for x in args.at.split(","))
+        except ValueError:
+            raise InputError(
+                f"--at {args.at!r} is not LAT,LON", where="--at",
+                fix="write e.g. --at=57.1,-24.3 (use = for negative values)",
+            ) from None
+    elif args.lat is not None and args.lon is not None:
+        lat, lon = args.lat, args.lon
+    else:
+        raise InputError("no position given", where="profile", fix="give --at LAT,LON or --lat and --lon")
+    if not (-90 <= lat <= 90 and -180 <= lon <= 360):
+        raise InputError(f"position {lat},{lon} out of range", where="--at", fix="latitude -90..90, longitude -180..180")
+    return lat, lon
+
+
+def _var_map(items):
+    out = {}
+    for item in items or []:
+        if "=" not in item:
+            raise InputError(f"--var {item!r} is not KEY=NAME", where="--var",
+                             fix="write e.g. --var temperature=TMP_P0_L100")
+        k, v = item.split("=", 1)
+        out[k.strip()] = v.strip()
+    return out
+
+
+def _forecast(args):
+    from .forecast import load_forecast
+
+    kwargs = {}
+    if getattr(args, "radius_km", None) is not None:
+        kwargs["radius_km"] = args.radius_km
+    if getattr(args, "time_tolerance", None) is not None:
+        kwargs["time_tolerance_h"] = args.time_tolerance
+    var_map = _var_map(getattr(args, "var", None))
+    if var_map:
+        kwargs["var_map"] = var_map
+    paths = []
+    for p in args.forecast:
+        if any(ch in p for ch in "*?["):
+            import glob
+
+            found = sorted(glob.glob(p))
+            if not found:
+                raise InputError(f"no file matches {p!r}", where="--forecast", fix="check the pattern")
+            paths.extend(found)
+        else:
+            paths.append(p)
+    return load_forecast(paths if len(paths) > 1 else paths[0], **kwargs)
+
+
+def _column_options(args):
+    from .column import ColumnOptions
+
+    if getattr(args, "air_mass", None):
+        return ColumnOptions(air_mass=args.air_mass)
+    return ColumnOptions()
+
+
+def _fmt(x, nd=1, none="-"):
+    if x is None:
+        return none
+    if isinstance(x, float):
+        return f"{x:.{nd}f}"
+    return str(x)
+
+
+def summary_table(summaries) -> str:
+    """Render route summaries as a plain-text table (with the caution)."""
+    head = ["route", "km", "worst", "min icing", "ice mm", "SLD", "freezing lvl ft", "gaps km",
+            "status"]
+    rows = []
+    for s in summaries:
+        fl = (s.get("freezing_level_ft_min"), s.get("freezing_level_ft_max"))
+        fl_txt = "-" if fl[0] is None else (f"{fl[0]}" if fl[0] == fl[1] else f"{fl[0]}-{fl[1]}")
+        rows.append([
+            s["route"], _fmt(s["distance_km"]), s["worst_severity"] or "unknown",
+            _fmt(s["minutes_in_icing"]), _fmt(s.get("accretion_mm_reference"), 2),
+            ",".join(x for x in s["sld"] if x != "none") or "none", fl_txt,
+            _fmt(s["gap_km"]), s["status"],
+        ])
+    widths = [max(len(str(r[i])) for r in rows + [head]) for i in range(len(head))]
+    lines = ["  ".join(str(c).ljust(w) for c, w in zip(head, widths, strict=True))]
+    lines.append("  ".join("-" * w for w in widths))
+    for r in rows:
+        lines.append("  ".join(str(c).ljust(w) for c, w in zip(r, widths, strict=True)))
+    for s in summaries:
+        for cand in s.get("candidate_altitudes_ft") or []:
+            if isinstance(cand, dict) and cand.get("text"):
+                lines.append(f"  {s['route']}: {cand['text']}")
+    lines.append("")
+    lines.append(CAUTION)
+    return "\n".join(lines)
+
+
+def _samples_csv(screenings) -> str:
+    from .hazards import SAMPLE_COLUMNS, sample_table
+
+    buf = io.StringIO()
+    w = csv.DictWriter(buf, fieldnames=SAMPLE_COLUMNS, lineterminator="\n")
+    w.writeheader()
+    for s in screenings:
+        for row in sample_table(s):
+            w.writerow(row)
+    return buf.getvalue()
+
+
+def _sibling_json(path: Path) -> Path:
+    return path.with_name(path.stem + ".summary.json")
+
+
+def _write_outputs(screenings, args, *, out_geojson=None, plot=None, map_=None, report=None,
+                   samples=None):
+    """Compute every output in memory first, then write them all (atomic each)."""
+    from .hazards import feature_collection
+
+    fc = feature_collection(screenings)
+    pending = []
+    if out_geojson:
+        p = Path(out_geojson)
+        pending.append((p, json.dumps(fc, indent=1, allow_nan=False)))
+        side = {k: v for k, v in fc.items() if k not in ("type", "features")}
+        pending.append((_sibling_json(p), json.dumps(side, indent=1, allow_nan=False)))
+    if samples:
+        pending.append((Path(samples), _samples_csv(screenings)))
+    for p, text in pending:
+        atomic_write(p, text)
+    written = [p for p, _ in pending]
+    if plot:
+        from .plot import plot_cross_section
+
+        plot = Path(plot)
+        for i, s in enumerate(screenings):
+            target = plot if len(screenings) == 1 else plot.with_name(
+                f"{plot.stem}-{_safe(s.route_name)}{plot.suffix}")
+            written.append(_atomic_picture(plot_cross_section, s, target))
+    if map_:
+        from .plot import plot_route_map
+
+        written.append(_atomic_picture(plot_route_map, screenings, Path(map_)))
+    if report:
+        from .report import write_report
+
+        written.append(write_report(screenings, Path(report)))
+    return fc, written
+
+
+def _atomic_picture(fn, obj, target: Path) -> Path:
+    target.parent.mkdir(parents=True, exist_ok=True)
+    tmp = target.with_name(f".{target.stem}.part{target.suffix}")
+    try:
+        fn(obj, tmp)
+        os.replace(tmp, target)
+    finally:
+        tmp.unlink(missing_ok=True)
+    return target
+
+
+def _safe(name: str) -> str:
+    return "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in name).strip("-") or "route"
+
+
+def _check_suffix(path, allowed, flag):
+    if path and Path(path).suffix.lower() not in allowed:
+        raise InputError(f"{flag} {path!r} has an unsupported extension", where=flag,
+                         fix=f"use one of {', '.join(sorted(allowed))}")
+
+
+def _fail_code(summaries, args) -> int:
+    if args.fail_on:
+        level = codes.severity_code(args.fail_on)
+        for s in summaries:
+            w = s.get("worst_severity")
+            if w is not None and codes.severity_code(w) >= level:
+                return EXIT_FAIL_ON
+    if args.fail_on_gap and any(s.get("gap_km", 0) > 0 or s.get("worst_severity") is None
+                                for s in summaries):
+        return EXIT_FAIL_ON
+    return EXIT_OK
+
+
+def cmd_screen(args) -> int:
+    from .airframes import load_airframe
+    from .pipeline import ScreenOptions, screen_routes
+    from .route import load_routes
+
+    _check_suffix(args.plot, {".png", ".svg"}, "--plot")
+    _check_suffix(args.map, {".png", ".svg"}, "--map")
+    _check_suffix(args.report, {".html", ".htm"}, "--report")
+    depart = _iso_time(args.depart) if args.depart else None
+    airframe = load_airframe(args.airframe)
+    routes = [r for path in args.routes for r in load_routes(path)]
+    forecast = _forecast(args)
+    opts = ScreenOptions(step_km=args.step_km, all_segments=args.all_segments)
+    screenings = screen_routes(
+        routes, forecast, airframe=airframe, tas_kt=args.tas_kt, departure=depart,
+        options=opts, column_options=_column_options(args),
+    )
+    out = args.output
+    fc, written = _write_outputs(screenings, args, out_geojson=out, plot=args.plot, map_=args.map,
+                                 report=args.report, samples=args.samples)
+    summaries = fc["summaries"]
+    if args.json:
+        print(json.dumps({"summaries": summaries, "caution": CAUTION}, indent=1, allow_nan=False))
+    else:
+        print(summary_table(summaries))
+        for p in written:
+            print(f"wrote {p}", file=sys.stderr)
+    return _fail_code(summaries, args)
+
+
+def cmd_demo(args) -> int:
+    from .demo import run_demo
+
+    out = Path(args.out)
+    summaries, written = run_demo(out)
+    print(summary_table(summaries))
+    for p in written:
+        print(f"wrote {p}")
+    return EXIT_OK
+
+
+def cmd_profile(args) -> int:
+    from .pipeline import diagnose_point
+
+    lat, lon = _latlon(args)
+    forecast = _forecast(args)
+    t = _iso_time(args.time) if args.time else None
+    tt = None if t is None else _utc64(t)
+    result = diagnose_point(forecast, lat, lon, tt, airframe=args.airframe,
+                            column_options=_column_options(args))
+    result.update(lat=lat, lon=lon, caution=CAUTION, provenance=forecast.describe(),
+                  assumptions=_column_options(args).describe())
+    if args.json:
+        print(json.dumps(result, indent=1, allow_nan=False, default=str))
+        return EXIT_OK
+    if not result["covered"]:
+        print(f"coverage gap at {lat},{lon}: {result['gap_reason']} (icing unknown, not absent)")
+        print(CAUTION)
+        return EXIT_OK
+    head = ["p hPa", "z m", "T C", "RH %", "cloud", "LWC g/m3", "MVD um", "SLD", "E", "mm/h",
+            "ice", "severity"]
+    rows = []
+    for lv in result["levels"]:
+        rows.append([
+            _fmt(lv["pressure_hpa"], 0), _fmt(lv["height_m"], 0), _fmt(lv["temperature_c"], 1),
+            _fmt(lv["relative_humidity_pct"], 0), "yes" if lv["cloud"] else "",
+            _fmt(lv["lwc_g_m3"], 3), _fmt(lv["mvd_um"], 1), lv["sld"] if lv["sld"] != "none" else "",
+            _fmt(lv["collection_efficiency"], 2), _fmt(lv["accretion_rate_mm_h"], 1),
+            lv["ice_type"] if lv["ice_type"] not in (None, "none") else "",
+            ("below ground" if lv["below_ground"] else (lv["severity"] or "")),
+        ])
+    widths = [max(len(str(r[i])) for r in rows + [head]) for i in range(len(head))]
+    print("  ".join(h.rjust(w) for h, w in zip(head, widths, strict=True)))
+    for r in reversed(rows):
+        print("  ".join(str(c).rjust(w) for c, w in zip(r, widths, strict=True)))
+    for w in result.get("warnings", []):
+        print(f"warning: {w}")
+    print(CAUTION)
+    return EXIT_OK
+
+
+def cmd_airframes(args) -> int:
+    from .airframes import airframes_to_json, format_airframes, list_airframes
+
+    frames = list_airframes()
+    if args.json:
+        print(json.dumps(airframes_to_json(frames), indent=1))
+    else:
+        print(format_airframes(frames))
+    return EXIT_OK
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """Return the argument parser of the ``icing`` command."""
+    p = _Parser(
+        prog="icing",
+        description="Estimate the in-flight icing hazard along a route for an airframe, as "
+        "GeoJSON. " + CAUTION,
+    )
+    p.add_argument("--version", action="version", version=f"icing {__version__}")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+    sub.required = True
+
+    def forecast_args(sp):
+        sp.add_argument("--forecast", "-f", nargs="+", required=True, metavar="FILE",
+                        help="forecast file(s): profile JSON/CSV or CF-NetCDF; several files "
+                        "(lead times, or a glob) form one forecast")
+        sp.add_argument("--radius-km", type=float, default=None,
+                        help="coverage radius around profile soundings (default 50 km)")
+        sp.add_argument("--time-tolerance", type=float, default=None, metavar="HOURS",
+                        help="how far outside the forecast valid times a sample may lie "
+                        "(default 3 h)")
+        sp.add_argument("--var", action="append", metavar="KEY=NAME",
+                        help="map a quantity to a NetCDF variable name, e.g. "
+                        "--var temperature=TMP (repeatable)")
+        sp.add_argument("--air-mass", default=None,
+                        help="CCN air mass for droplet number: maritime (default, conservative) "
+                        "or continental")
+
+    d = sub.add_parser("demo", help="screen the bundled demo scenario and write its outputs")
+    d.add_argument("--out", default="icing-demo", help="output folder (default ./icing-demo)")
+    d.set_defaults(func=cmd_demo)
+
+    s = sub.add_parser("screen", help="screen route(s) against a forecast")
+    s.add_argument("routes", nargs="+", metavar="ROUTE", help="route file(s): GeoJSON, CSV or GPX")
+    forecast_args(s)
+    s.add_argument("--airframe", "-a", default="light-piston",
+                   help="airframe preset name or TOML file (see `icing airframes`)")
+    s.add_argument("--depart", default=None, metavar="ISO8601",
+                   help="departure time (with zone), overrides the route's")
+    s.add_argument("--tas-kt", type=float, default=None, help="true airspeed [kt]")
+    s.add_argument("--step-km", type=float, default=1.0, help="largest sample spacing [km]")
+    s.add_argument("-o", "--output", default=None, metavar="OUT.geojson",
+                   help="GeoJSON output (and OUT.summary.json beside it)")
+    s.add_argument("--plot", default=None, metavar="OUT.png|svg", help="cross-section picture")
+    s.add_argument("--map", default=None, metavar="OUT.png|svg", help="plan-view picture")
+    s.add_argument("--report", default=None, metavar="OUT.html", help="self-contained HTML report")
+    s.add_argument("--samples", default=None, metavar="OUT.csv", help="per-sample audit table")
+    s.add_argument("--all-segments", action="store_true", help="also write no-icing segments")
+    s.add_argument("--json", action="store_true", help="print the summaries as JSON")
+    s.add_argument("--fail-on", choices=codes.SEVERITY[1:], default=None,
+                   help="exit 3 when a route reaches this severity")
+    s.add_argument("--fail-on-gap", action="store_true",
+                   help="exit 3 when a route has any coverage gap")
+    s.set_defaults(func=cmd_screen)
+
+    pr = sub.add_parser("profile", help="the forecast column at one point, level by level")
+    forecast_args(pr)
+    pr.add_argument("--at", default=None, metavar="LAT,LON",
+                    help="position; use --at=-33.9,151.2 for negative values")
+    pr.add_argument("--lat", type=float, default=None)
+    pr.add_argument("--lon", type=float, default=None)
+    pr.add_argument("--time", default=None, metavar="ISO8601", help="valid time (with zone)")
+    pr.add_argument("--airframe", "-a", default=None, help="airframe preset or TOML file")
+    pr.add_argument("--json", action="store_true", help="print one JSON object")
+    pr.set_defaults(func=cmd_profile)
+
+    a = sub.add_parser("airframes", help="list the airframe presets and their collectors")
+    a.add_argument("--json", action="store_true")
+    a.set_defaults(func=cmd_airframes)
+    return p
+
+
+def main(argv=None) -> int:
+    """Run the ``icing`` command; return its exit code."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return args.func(args)
+    except InputError as err:
+        print(f"icing: error: {err.one_line()}", file=sys.stderr)
+        return EXIT_INPUT
+    except FileNotFoundError as err:
+        print(f"icing: error: {err.filename}: file not found (fix: check the path)", file=sys.stderr)
+        return EXIT_INPUT
+    except IcingError as err:
+        print(f"icing: error: {err}", file=sys.stderr)
+        return EXIT_INPUT
+    except KeyboardInterrupt:
+        return 130
+    except Exception as err:  # an internal error: say so, in one line, and exit 1
+        if os.environ.get("ICING_DEBUG"):
+            raise
+        print(f"icing: internal error: {type(err).__name__}: {err} "
+              "(set ICING_DEBUG=1 for the traceback; please report it)", file=sys.stderr)
+        return EXIT_INTERNAL
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
