@@ -1,0 +1,530 @@
+"""Candidate altitudes with less icing for a stretch of the route.
+
+For an icing segment the whole stretch is evaluated again at other altitudes of
+the curtain (``icing.results.Curtain``): every multiple of the altitude step
+from the floor (the terrain under the stretch plus a stated margin, or an
+operator's minimum) to the ceiling (the airframe's ceiling, or a drone's
+maximum height above the ground). The nearest altitude above and below the
+planned one with no icing over the whole stretch is reported, or the least
+severe one when none is clear, together with the icing met while climbing or
+descending to it. These are candidate altitudes to check against official
+advisories, never advice to fly.
+
+Rules of the search (all conservative, all stated in the ``basis`` text):
+
+* a candidate altitude takes the worse of the two curtain rows around it (a
+  category is never interpolated);
+* a candidate with any coverage gap (``codes.GAP``) on the stretch is never
+  proposed, nor one below the terrain plus margin, nor one outside the
+  curtain's altitude range;
+* a candidate with supercooled large drops in sub-freezing air on the stretch
+  is never called clear, whatever its severity code;
+* a warm layer (above 0 degC over the whole stretch) is a real option; the
+  freezing rain beneath it (``codes.SLD_RAIN`` below the candidate) is named,
+  because the descent out of it passes through that rain;
+* the transit is flown at the stated climb or descent rate and true airspeed
+  and ends where the stretch begins (the level change is made before the
+  stretch); the return to the planned altitude starts where it ends. Both are
+  sampled through every altitude between, and the worst severity met, its
+  minutes and any coverage gap on the way are reported.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from . import codes
+from .constants import FT
+from .errors import InputError
+
+__all__ = [
+    "CANDIDATE_WORDING",
+    "candidate_altitudes",
+    "annotate_segments",
+]
+
+#: How every candidate altitude is worded in outputs.
+CANDIDATE_WORDING = "candidate altitudes to check against official advisories; not advice to fly"
+
+_FPM = FT / 60.0  # one foot per minute [m/s]
+_TRANSIT_POINTS = 64  # points along each climb/descent path (about 100 ft apart or closer)
+
+
+def _stretch_indices(n, samples):
+    """Return the sample indices (ascending ints) selected by a slice, mask or index array."""
+    if isinstance(samples, slice):
+        idx = np.arange(n)[samples]
+    else:
+        arr = np.asarray(samples)
+        if arr.dtype == bool:
+            if arr.shape != (n,):
+                raise InputError(
+                    f"sample mask has shape {arr.shape}, expected ({n},)",
+                    where="candidate_altitudes(samples=...)",
+                    fix="pass a boolean mask with one value per curtain sample",
+                )
+            idx = np.flatnonzero(arr)
+        else:
+            idx = np.unique(arr.astype(int).ravel())
+            if idx.size and (idx[0] < 0 or idx[-1] >= n):
+                raise InputError(
+                    f"sample indices outside 0..{n - 1}",
+                    where="candidate_altitudes(samples=...)",
+                    fix="pass indices of curtain samples",
+                )
+    if idx.size == 0:
+        raise InputError(
+            "the stretch selects no curtain samples",
+            where="candidate_altitudes(samples=...)",
+            fix="pass a slice, mask or indices selecting at least one sample",
+        )
+    return np.sort(idx)
+
+
+def _bracket_rows(altitudes_m, heights_m):
+    """Rows just below and just above each height (equal where a row matches), and inside."""
+    alt = np.asarray(altitudes_m, dtype=float)
+    h = np.asarray(heights_m, dtype=float)
+    hi = np.searchsorted(alt, h, side="left")
+    lo = np.searchsorted(alt, h, side="right") - 1
+    inside = (lo >= 0) & (hi <= alt.size - 1)
+    lo_c = np.clip(lo, 0, alt.size - 1)
+    hi_c = np.clip(hi, 0, alt.size - 1)
+    return lo_c, hi_c, inside
+
+
+def _worst_pair(a, b):
+    """Worse of two severity arrays, GAP (-1) winning over every code."""
+    gap = (a == codes.GAP) | (b == codes.GAP)
+    return np.where(gap, codes.GAP, np.maximum(a, b))
+
+
+def _transit(curtain, start_km, end_km, h0_m, heights_m, *, climb_m_s, descent_m_s, tas):
+    """Worst severity, icing minutes and gap flag met changing level to/from each candidate.
+
+    The level change to a candidate ends at ``start_km`` (begins ``d`` earlier,
+    ``d = tas * |dh| / rate``); the return starts at ``end_km``. Both paths are
+    sampled at ``_TRANSIT_POINTS`` altitudes; each point takes the worse of the
+    two curtain columns and the two rows around it.
+    """
+    dist = np.asarray(curtain.distance_km, dtype=float)
+    h = np.asarray(heights_m, dtype=float)[:, None]  # (c, 1)
+    dh = h - h0_m
+    rate_to = np.where(dh > 0, climb_m_s, descent_m_s)
+    rate_back = np.where(dh > 0, descent_m_s, climb_m_s)
+    f = np.linspace(0.0, 1.0, _TRANSIT_POINTS)[None, :]  # (1, k)
+    t_to = np.abs(dh) / rate_to  # (c, 1) [s]
+    t_back = np.abs(dh) / rate_back
+    # Entry: h0 at start - d_to, candidate at start.  Return: candidate at end, h0 at end + d.
+    km_to = start_km - tas * t_to / 1000.0 * (1.0 - f)
+    km_back = end_km + tas * t_back / 1000.0 * f
+    alt_to = h0_m + dh * f
+    alt_back = h - dh * f
+    km = np.concatenate([km_to, km_back], axis=1)
+    alt = np.concatenate([alt_to, alt_back], axis=1)
+    km = np.clip(km, dist[0], dist[-1])
+    c_hi = np.clip(np.searchsorted(dist, km, side="left"), 0, dist.size - 1)
+    c_lo = np.clip(np.searchsorted(dist, km, side="right") - 1, 0, dist.size - 1)
+    r_lo, r_hi, inside = _bracket_rows(curtain.altitudes_m, alt)
+    sev = np.asarray(curtain.severity)
+    below = np.asarray(curtain.below_ground, dtype=bool)
+    worst = _worst_pair(
+        _worst_pair(sev[c_lo, r_lo], sev[c_lo, r_hi]),
+        _worst_pair(sev[c_hi, r_lo], sev[c_hi, r_hi]),
+    )
+    ground = below[c_lo, r_lo] | below[c_hi, r_lo]
+    gap = ((worst == codes.GAP) & ~ground) | ~inside
+    icing = np.where(worst > codes.SEV_NONE, worst, codes.SEV_NONE)
+    k = _TRANSIT_POINTS
+    minutes = (
+        (icing[:, :k] > 0).mean(axis=1) * t_to[:, 0]
+        + (icing[:, k:] > 0).mean(axis=1) * t_back[:, 0]
+    ) / 60.0
+    return {
+        "worst": icing.max(axis=1),
+        "entry": icing[:, :k].max(axis=1),
+        "return": icing[:, k:].max(axis=1),
+        "icing_min": minutes,
+        "gap": gap.any(axis=1),
+        "minutes": (t_to[:, 0] + t_back[:, 0]) / 60.0,
+    }
+
+
+def _ft_value(value_ft, step_ft):
+    """Altitude in feet as an int when the step is whole feet, else a float."""
+    return int(round(value_ft)) if float(step_ft).is_integer() else round(float(value_ft), 1)
+
+
+def candidate_altitudes(
+    curtain,
+    samples,
+    *,
+    flight_altitude_m,
+    ceiling_m=None,
+    floor_m=None,
+    terrain_margin_ft=1000.0,
+    max_agl_m=None,
+    step_ft=1000.0,
+    climb_rate_fpm=500.0,
+    descent_rate_fpm=500.0,
+    tas_m_s,
+):
+    """Nearest altitudes above and below with no icing along a stretch of the route.
+
+    Parameters
+    ----------
+    curtain : icing.results.Curtain
+        The diagnosis on the (sample, altitude) grid.
+    samples : slice, bool ndarray (n,) or int ndarray
+        The curtain samples of the stretch (an icing segment).
+    flight_altitude_m : float
+        The planned altitude over the stretch, in the curtain's reference. [m]
+    ceiling_m : float, optional
+        Highest altitude to consider (the airframe's ceiling); default the top of
+        the curtain. [m]
+    floor_m : float, optional
+        Lowest altitude to consider (an operator's minimum); the terrain under the
+        stretch plus ``terrain_margin_ft`` always applies as well. [m]
+    terrain_margin_ft : float
+        Height above the highest terrain of the stretch below which no altitude
+        is proposed (1,000 ft for aircraft; a drone's minimum height). [ft]
+    max_agl_m : float, optional
+        Largest height above the ground allowed (drones): the ceiling becomes at
+        most the lowest terrain of the stretch plus this. [m]
+    step_ft : float
+        Altitude step; candidates are its multiples. [ft]
+    climb_rate_fpm, descent_rate_fpm : float
+        Rates of the level change to the candidate and back. [ft/min]
+    tas_m_s : float
+        True airspeed during the level change. [m/s]
+
+    Returns
+    -------
+    dict
+        ``above`` and ``below`` (dict or None) with ``altitude_ft``, ``altitude_m``,
+        ``flight_level`` (pressure reference only, else None), ``change_ft``,
+        ``clear`` (bool), ``worst_severity`` (word), ``sld`` (worst SLD class word at
+        that altitude), ``warm_layer`` (bool), ``freezing_rain_below`` (bool),
+        ``transit_severity`` (word, the worse of ``entry_severity`` and
+        ``return_severity``), ``transit_icing_min``, ``transit_min``,
+        ``transit_gap`` (bool) and ``note``; ``ice_free_altitudes_ft`` (every clear
+        candidate, ascending, multiples of ``step_ft``); ``ice_free_flight_levels``
+        (pressure reference only); ``gap_altitudes_ft`` (candidates refused for a
+        coverage gap); ``planned_altitude_ft``, ``floor_ft``, ``ceiling_ft``,
+        ``stretch_km``; ``basis`` (the wording and the rules).
+
+    Raises
+    ------
+    InputError
+        When the stretch selects no sample or a rate or speed is not positive.
+
+    Notes
+    -----
+    The search rules are listed in the module docstring. It is a screening of
+    the forecast curtain, not a route clearance: a "clear" altitude is only as
+    good as the forecast and the diagnosis behind it.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from icing.results import Curtain
+    >>> alt = np.arange(0, 6001, 304.8)                       # every 1,000 ft
+    >>> sev = np.where((alt > 1000) & (alt < 2500), 2, 0)[None, :].repeat(3, 0)
+    >>> cur = Curtain(np.array([0.0, 1.0, 2.0]), alt, "msl", sev, np.zeros(sev.shape, bool),
+    ...               np.full(sev.shape, -5.0), sev > 0, np.zeros_like(sev), sev > 0,
+    ...               np.zeros(sev.shape), np.zeros(3))
+    >>> out = candidate_altitudes(cur, slice(None), flight_altitude_m=6000 * 0.3048,
+    ...                           tas_m_s=60.0, ceiling_m=5000.0)
+    >>> out["above"]["altitude_ft"], out["below"]["altitude_ft"]
+    (9000, 3000)
+    """
+    for name, value in (
+        ("climb_rate_fpm", climb_rate_fpm),
+        ("descent_rate_fpm", descent_rate_fpm),
+        ("tas_m_s", tas_m_s),
+        ("step_ft", step_ft),
+    ):
+        if not np.isfinite(value) or value <= 0:
+            raise InputError(
+                f"{name} must be a positive number, got {value!r}",
+                where="candidate_altitudes",
+                fix=f"pass a positive {name}",
+            )
+    alt = np.asarray(curtain.altitudes_m, dtype=float)
+    dist = np.asarray(curtain.distance_km, dtype=float)
+    idx = _stretch_indices(dist.size, samples)
+    sev = np.asarray(curtain.severity)[idx]  # (m, a)
+    below = np.asarray(curtain.below_ground, dtype=bool)[idx]
+    temp = np.asarray(curtain.temperature_c, dtype=float)[idx]
+    sld = np.asarray(curtain.sld_class)[idx]
+    ground = np.asarray(curtain.ground_m, dtype=float)[idx]
+    # Ground under the stretch: the given surface, else the top of the below-ground rows.
+    rows_below = np.where(below, alt[None, :], -np.inf).max(axis=1)
+    ground = np.where(np.isfinite(ground), ground, rows_below)
+    ground = np.where(np.isfinite(ground), ground, alt[0])
+
+    lo_m = ground.max() + terrain_margin_ft * FT
+    if floor_m is not None:
+        lo_m = max(lo_m, float(floor_m))
+    hi_m = alt[-1] if ceiling_m is None else min(float(ceiling_m), alt[-1])
+    if max_agl_m is not None:
+        hi_m = min(hi_m, ground.min() + float(max_agl_m))
+    # Multiples of the step in feet (compare in feet to keep them exact).
+    k_lo = np.ceil(lo_m / FT / step_ft - 1e-9)
+    k_hi = np.floor(hi_m / FT / step_ft + 1e-9)
+    cand_ft = np.arange(k_lo, k_hi + 1) * step_ft if k_hi >= k_lo else np.zeros(0)
+    cand_m = cand_ft * FT
+
+    r_lo, r_hi, inside = _bracket_rows(alt, cand_m)
+    sev_c = _worst_pair(sev[:, r_lo], sev[:, r_hi])  # (m, c)
+    below_c = below[:, r_lo] | below[:, r_hi] | (cand_m[None, :] < ground[:, None])
+    gap_c = ((sev_c == codes.GAP) & ~below_c).any(axis=0) | ~inside
+    ground_c = below_c.any(axis=0)
+    with np.errstate(invalid="ignore"):
+        t_c = np.fmin(temp[:, r_lo], temp[:, r_hi])  # colder row (NaN-safe)
+        warm_c = (t_c > 0.0).all(axis=0)
+        sld_c = np.maximum(sld[:, r_lo], sld[:, r_hi])
+        sld_freezing = ((sld_c > codes.SLD_NONE) & ~(t_c > 0.0)).any(axis=0)
+        rain_rows = (sld == codes.SLD_RAIN) & ~below  # (m, a)
+        fzra_below = (rain_rows[:, None, :] & (alt[None, None, :] < cand_m[None, :, None])).any(
+            axis=(0, 2)
+        )
+    worst_c = np.where(sev_c == codes.GAP, codes.SEV_NONE, sev_c).max(axis=0)
+    eligible = ~gap_c & ~ground_c
+    clear = eligible & (worst_c == codes.SEV_NONE) & ~sld_freezing
+
+    h0 = float(flight_altitude_m)
+    start_km, end_km = float(dist[idx[0]]), float(dist[idx[-1]])
+    tr = _transit(
+        curtain,
+        start_km,
+        end_km,
+        h0,
+        cand_m,
+        climb_m_s=climb_rate_fpm * _FPM,
+        descent_m_s=descent_rate_fpm * _FPM,
+        tas=float(tas_m_s),
+    )
+    tr_sev, tr_icing_min, tr_gap, tr_min = tr["worst"], tr["icing_min"], tr["gap"], tr["minutes"]
+    pressure = getattr(curtain, "altitude_reference", "msl") == "pressure"
+
+    def option(j, direction):
+        ft = _ft_value(cand_ft[j], step_ft)
+        notes = []
+        if clear[j]:
+            notes.append(f"no icing diagnosed along the whole stretch at {ft} ft")
+        else:
+            notes.append(
+                f"no clear altitude {direction}; least severe along the stretch: "
+                f"{codes.SEVERITY[worst_c[j]]} at {ft} ft"
+            )
+        if warm_c[j]:
+            notes.append("warm layer (above 0 C along the stretch)")
+        if fzra_below[j]:
+            notes.append("freezing rain beneath this altitude: met again on descent")
+        if sld_freezing[j]:
+            notes.append("supercooled large drops at this altitude")
+        if tr_sev[j] > codes.SEV_NONE:
+            notes.append(
+                f"icing while changing level: {codes.SEVERITY[tr['entry'][j]]} on the way "
+                f"there, {codes.SEVERITY[tr['return'][j]]} on the way back "
+                f"(about {tr_icing_min[j]:.1f} min of {tr_min[j]:.1f} min)"
+            )
+        if tr_gap[j]:
+            notes.append("coverage gap crossed while changing level: icing unknown there")
+        notes.append(CANDIDATE_WORDING)
+        return {
+            "altitude_ft": ft,
+            "altitude_m": round(float(cand_m[j]), 1),
+            "flight_level": int(round(cand_ft[j] / 100.0)) if pressure else None,
+            "change_ft": _ft_value(cand_ft[j] - h0 / FT, 1.0),
+            "clear": bool(clear[j]),
+            "worst_severity": codes.SEVERITY[int(worst_c[j])],
+            "sld": codes.SLD_CLASSES[int(sld_c[:, j].max())],
+            "warm_layer": bool(warm_c[j]),
+            "freezing_rain_below": bool(fzra_below[j]),
+            "transit_severity": codes.SEVERITY[int(tr_sev[j])],
+            "entry_severity": codes.SEVERITY[int(tr["entry"][j])],
+            "return_severity": codes.SEVERITY[int(tr["return"][j])],
+            "transit_icing_min": round(float(tr_icing_min[j]), 2),
+            "transit_min": round(float(tr_min[j]), 2),
+            "transit_gap": bool(tr_gap[j]),
+            "note": "; ".join(notes),
+        }
+
+    def pick(side):
+        sel = eligible & ((cand_m > h0 + 1e-6) if side == "above" else (cand_m < h0 - 1e-6))
+        if not sel.any():
+            return None
+        j_all = np.flatnonzero(sel)
+        dist_ft = np.abs(cand_m[j_all] - h0)
+        # Clear first, then least severe, then nearest (transit icing is reported, not ranked).
+        order = np.lexsort((dist_ft, worst_c[j_all], ~clear[j_all]))
+        return option(j_all[order[0]], side)
+
+    ice_free = [_ft_value(v, step_ft) for v in cand_ft[clear]]
+    return {
+        "above": pick("above"),
+        "below": pick("below"),
+        "ice_free_altitudes_ft": ice_free,
+        "ice_free_flight_levels": (
+            [int(round(v / 100.0)) for v in cand_ft[clear]] if pressure else None
+        ),
+        "gap_altitudes_ft": [_ft_value(v, step_ft) for v in cand_ft[gap_c]],
+        "planned_altitude_ft": _ft_value(h0 / FT, 1.0),
+        "floor_ft": _ft_value(k_lo * step_ft, step_ft) if cand_ft.size else None,
+        "ceiling_ft": _ft_value(k_hi * step_ft, step_ft) if cand_ft.size else None,
+        "stretch_km": [round(start_km, 3), round(end_km, 3)],
+        "altitude_reference": getattr(curtain, "altitude_reference", "msl"),
+        "basis": (
+            f"{CANDIDATE_WORDING}. Whole stretch {start_km:.1f}-{end_km:.1f} km evaluated "
+            f"every {step_ft:g} ft from {terrain_margin_ft:g} ft above the highest terrain"
+            + ("" if floor_m is None else " (or the stated floor)")
+            + " to the ceiling"
+            + ("" if max_agl_m is None else " (within the stated height above ground)")
+            + "; the worse curtain row around each altitude is used; altitudes with any "
+            "coverage gap or below the terrain margin are never proposed; level change at "
+            f"{climb_rate_fpm:g} ft/min up, {descent_rate_fpm:g} ft/min down, "
+            f"{float(tas_m_s):.0f} m/s true airspeed, made before the stretch and undone "
+            "after it, its icing counted"
+        ),
+    }
+
+
+def _segment_mask(distance_km, props):
+    """Curtain samples inside a segment's [start_km, end_km] (the nearest one if none)."""
+    d = np.asarray(distance_km, dtype=float)
+    a, b = float(props["start_km"]), float(props["end_km"])
+    tol = 1e-6 * max(1.0, abs(b))
+    mask = (d >= a - tol) & (d <= b + tol)
+    if not mask.any():
+        mask[np.argmin(np.abs(d - 0.5 * (a + b)))] = True
+    return mask
+
+
+def annotate_segments(
+    screening,
+    *,
+    ceiling_m=None,
+    floor_m=None,
+    terrain_margin_ft=1000.0,
+    max_agl_m=None,
+    step_ft=1000.0,
+    climb_rate_fpm=500.0,
+    descent_rate_fpm=500.0,
+    tas_m_s=None,
+    summary=True,
+):
+    """Fill ``ice_free_altitudes_ft`` and ``vertical_options`` in each icing segment.
+
+    Parameters
+    ----------
+    screening : icing.results.RouteScreening
+        Its ``segments`` (GeoJSON Feature dicts, ``kind == "icing"`` ones are
+        annotated) are changed in place.
+    ceiling_m, floor_m, terrain_margin_ft, max_agl_m, step_ft, climb_rate_fpm, descent_rate_fpm
+        As for :func:`candidate_altitudes`. ``ceiling_m`` defaults to
+        ``screening.ceiling_m`` (or ``screening.assumptions["ceiling_m"]``) when
+        present, else the top of the curtain; ``max_agl_m`` likewise.
+    tas_m_s : float, optional
+        True airspeed [m/s]; default the mean of ``screening.samples.tas`` over the
+        stretch, else ``screening.at_flight["tas_m_s"]``.
+    summary : bool
+        Also put the list of options into ``screening.summary["candidate_altitudes"]``.
+
+    Returns
+    -------
+    list of dict
+        One :func:`candidate_altitudes` result per icing segment, with its
+        ``segment_id``.
+    """
+    cur = screening.curtain
+    assumptions = getattr(screening, "assumptions", None) or {}
+    if ceiling_m is None:
+        ceiling_m = getattr(screening, "ceiling_m", None) or assumptions.get("ceiling_m")
+    if max_agl_m is None:
+        max_agl_m = getattr(screening, "max_agl_m", None) or assumptions.get("max_agl_m")
+    samples = getattr(screening, "samples", None)
+    at = getattr(screening, "at_flight", None) or {}
+    results = []
+    for feature in screening.segments:
+        props = feature.get("properties", feature)
+        if props.get("kind") != "icing":
+            continue
+        mask = _segment_mask(cur.distance_km, props)
+        h0 = _planned_altitude_m(screening, mask, props)
+        tas = tas_m_s
+        if tas is None:
+            tas_arr = getattr(samples, "tas", None)
+            if tas_arr is None:
+                tas_arr = at.get("tas_m_s")
+            if tas_arr is not None and np.size(tas_arr) == mask.size:
+                tas = float(np.nanmean(np.asarray(tas_arr, dtype=float)[mask]))
+        if tas is None or not np.isfinite(tas):
+            raise InputError(
+                "no true airspeed for the level-change exposure",
+                where=f"segment {props.get('segment_id')!r}",
+                fix="pass tas_m_s= or give the samples a tas array",
+            )
+        res = candidate_altitudes(
+            cur,
+            mask,
+            flight_altitude_m=h0,
+            ceiling_m=ceiling_m,
+            floor_m=floor_m,
+            terrain_margin_ft=terrain_margin_ft,
+            max_agl_m=max_agl_m,
+            step_ft=step_ft,
+            climb_rate_fpm=climb_rate_fpm,
+            descent_rate_fpm=descent_rate_fpm,
+            tas_m_s=tas,
+        )
+        res["segment_id"] = props.get("segment_id")
+        props["ice_free_altitudes_ft"] = list(res["ice_free_altitudes_ft"])
+        props["vertical_options"] = {
+            k: res[k]
+            for k in (
+                "above",
+                "below",
+                "ice_free_flight_levels",
+                "floor_ft",
+                "ceiling_ft",
+                "basis",
+            )
+        }
+        results.append(res)
+    if summary and isinstance(getattr(screening, "summary", None), dict):
+        screening.summary["candidate_altitudes"] = [
+            {
+                "segment_id": r["segment_id"],
+                "stretch_km": r["stretch_km"],
+                "above_ft": None if r["above"] is None else r["above"]["altitude_ft"],
+                "above_severity": None if r["above"] is None else r["above"]["worst_severity"],
+                "below_ft": None if r["below"] is None else r["below"]["altitude_ft"],
+                "below_severity": None if r["below"] is None else r["below"]["worst_severity"],
+                "ice_free_altitudes_ft": r["ice_free_altitudes_ft"],
+            }
+            for r in results
+        ]
+        screening.summary["candidate_altitudes_wording"] = CANDIDATE_WORDING
+    return results
+
+
+def _planned_altitude_m(screening, mask, props):
+    """Mean planned altitude over the stretch [m], from the samples or the segment."""
+    at = getattr(screening, "at_flight", None) or {}
+    samples = getattr(screening, "samples", None)
+    ft = at.get("altitude_ft")
+    if ft is not None and np.size(ft) == mask.size:
+        return float(np.nanmean(np.asarray(ft, dtype=float)[mask])) * FT
+    alt = getattr(samples, "altitude_m", None)
+    if alt is not None and np.size(alt) == mask.size:
+        return float(np.nanmean(np.asarray(alt, dtype=float)[mask]))
+    lo, hi = props.get("altitude_ft_min"), props.get("altitude_ft_max")
+    if lo is None or hi is None:
+        raise InputError(
+            "no planned altitude for the stretch",
+            where=f"segment {props.get('segment_id')!r}",
+            fix="give at_flight['altitude_ft'] or altitude_ft_min/max",
+        )
+    return 0.5 * (float(lo) + float(hi)) * FT
