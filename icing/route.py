@@ -1,0 +1,704 @@
+"""Routes: waypoints, reading route files, and geodesic sampling along the track.
+
+A :class:`Route` is a list of :class:`Waypoint` objects with an altitude in one
+reference (``"msl"``, ``"agl"`` or ``"pressure"``), optional times, holds and
+airspeeds. :func:`load_routes` reads GeoJSON, CSV and GPX files (the readers
+live in :mod:`icing.route_readers`); :func:`sample_route` turns a route into
+:class:`RouteSamples`, the points along the flight path at which the forecast
+is read.
+
+Sampling follows geodesics on the WGS 84 ellipsoid (``pyproj.Geod``). Between
+two waypoints the sample spacing is the smallest of the distance step, about
+20 s of flight and about 100 ft of altitude change, so short drone legs and
+climbs through thin layers are resolved. Altitude is linear in distance along
+each leg. A hold (``hold_min`` at a waypoint) puts samples at that point spread
+over the hold. Longitudes are normalised to [-180, 180), so routes across the
+antimeridian sample like any other.
+
+Times come from waypoint times (linear in distance between two timed
+waypoints) or from a departure time and the true airspeed, corrected by an
+optional wind (ground speed = TAS + along-track wind component, floored at
+:data:`GROUND_SPEED_FLOOR` of the TAS).
+
+Examples
+--------
+>>> from datetime import datetime, timezone
+>>> t0 = datetime(2027, 1, 14, 9, 0, tzinfo=timezone.utc)
+>>> route = Route("demo", [Waypoint("ODRIX", 56.5, -26.0, 3000.0),
+...                        Waypoint("QELTA", 56.95, -24.9, 3000.0)],
+...               departure_time=t0, true_airspeed_kt=250.0)
+>>> s = sample_route(route)
+>>> len(s), round(float(s.distance_m[-1]) / 1000, 1), round(float(s.dt_s.sum()))
+(85, 83.9, 653)
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import sys
+import warnings
+from dataclasses import dataclass, field
+from datetime import UTC, datetime, timedelta
+
+import numpy as np
+from pyproj import Geod
+
+from .constants import FT, KT
+from .errors import PlausibilityWarning, RouteError
+
+__all__ = [
+    "ALTITUDE_REFERENCES",
+    "GROUND_SPEED_FLOOR",
+    "Waypoint",
+    "Route",
+    "RouteSamples",
+    "load_routes",
+    "load_route",
+    "sample_route",
+]
+
+#: The altitude references a route may use: metres above mean sea level, metres
+#: above ground level, and pressure altitude in metres (flight level x 100 ft).
+ALTITUDE_REFERENCES = ("msl", "agl", "pressure")
+
+#: Ground speed is never taken below this fraction of the true airspeed when a
+#: head wind is applied (common practice, no source: an aircraft making less
+#: than a quarter of its airspeed over the ground would not fly the plan).
+GROUND_SPEED_FLOOR = 0.25
+
+_GEOD = Geod(ellps="WGS84")
+_MAX_SAMPLES = 2_000_000
+# metre inputs above these look like feet (common practice, no source):
+_FEET_LIKE_M = 20_000.0  # no icing-relevant flight above ~65,000 ft
+_FEET_LIKE_AGL_M = 1_500.0  # drone-class (AGL) routes stay far below 5,000 ft AGL
+_LOWEST_M = -1_000.0  # below the lowest land surface (Dead Sea, ~-430 m)
+_EPOCH = datetime(1970, 1, 1, tzinfo=UTC)
+
+
+@dataclass(frozen=True)
+class Waypoint:
+    """One point of a route.
+
+    Parameters
+    ----------
+    name : str
+        Waypoint name (readers name unnamed points ``WP1``, ``WP2``, ...).
+    lat, lon : float
+        WGS 84 latitude and longitude. [degrees]
+    altitude_m : float
+        Altitude in the reference ``altitude_reference``. [m]
+    altitude_reference : str
+        ``"msl"`` (above mean sea level), ``"agl"`` (above ground level) or
+        ``"pressure"`` (pressure altitude: FL100 = 3048 m, the 696.8 hPa surface
+        of the ICAO standard atmosphere).
+    time : datetime or None
+        Arrival time at the waypoint, timezone-aware (UTC).
+    hold_min : float
+        Time spent at the waypoint (hover or loiter) before leaving it. [min]
+    tas_kt : float or None
+        True airspeed on the leg leaving this waypoint and during its hold. [kt]
+    """
+
+    name: str
+    lat: float
+    lon: float
+    altitude_m: float
+    altitude_reference: str = "msl"
+    time: datetime | None = None
+    hold_min: float = 0.0
+    tas_kt: float | None = None
+
+
+@dataclass(frozen=True)
+class Route:
+    """A named sequence of waypoints.
+
+    Parameters
+    ----------
+    name : str
+        Route name (written into every output segment).
+    waypoints : sequence of Waypoint
+        In flight order (stored as a tuple).
+    departure_time : datetime or None
+        Time at the first waypoint, timezone-aware; ignored where the first
+        waypoint carries its own time (they must then agree).
+    true_airspeed_kt : float or None
+        Cruise true airspeed for legs without their own ``tas_kt``. [kt]
+    source : str or None
+        The file the route came from.
+    ground_elevation_m : float or None
+        Surface height for AGL routes when the forecast has none. [m]
+    altitude_reference : str or None
+        The reference shared by all waypoints; derived from them when None.
+    """
+
+    name: str
+    waypoints: tuple = ()
+    departure_time: datetime | None = None
+    true_airspeed_kt: float | None = None
+    source: str | None = None
+    ground_elevation_m: float | None = None
+    altitude_reference: str | None = None
+
+    def __post_init__(self):
+        object.__setattr__(self, "waypoints", tuple(self.waypoints))
+        if self.altitude_reference is None:
+            refs = {w.altitude_reference for w in self.waypoints}
+            object.__setattr__(self, "altitude_reference", refs.pop() if len(refs) == 1 else (
+                "msl" if not refs else "mixed"))
+
+    def __len__(self):
+        return len(self.waypoints)
+
+    @property
+    def __geo_interface__(self):
+        """The route as a GeoJSON LineString Feature (``[lon, lat, alt_m]``)."""
+        coords = [[round(w.lon, 6), round(w.lat, 6), round(w.altitude_m, 1)]
+                  for w in self.waypoints]
+        geometry = ({"type": "Point", "coordinates": coords[0]} if len(coords) == 1
+                    else {"type": "LineString", "coordinates": coords})
+        return {"type": "Feature", "geometry": geometry,
+                "properties": {"name": self.name,
+                               "altitude_reference": self.altitude_reference,
+                               "waypoint_names": [w.name for w in self.waypoints]}}
+
+
+@dataclass
+class RouteSamples:
+    """Points along a route at which the forecast is read; arrays shaped (n,).
+
+    Attributes
+    ----------
+    lat, lon : ndarray
+        WGS 84 position, longitude in [-180, 180). [degrees]
+    altitude_m : ndarray
+        Altitude in ``altitude_reference``. [m]
+    distance_m : ndarray
+        Geodesic distance along the track from the first waypoint. [m]
+    time : ndarray of datetime64[ms]
+        UTC time at the sample.
+    tas : ndarray
+        True airspeed (where no airspeed was given, the speed implied by the
+        waypoint times). [m/s]
+    leg : ndarray of int
+        Index of the leg (waypoint ``leg`` to ``leg + 1``).
+    from_waypoint, to_waypoint : ndarray of object
+        Names of the waypoints around the sample (the same name during a hold).
+    hold : ndarray of bool
+        The sample is at a hold waypoint during its hold.
+    dt_s : ndarray
+        Time each sample stands for (half the intervals to its neighbours); each
+        instant of the flight belongs to exactly one sample, so they add up to the
+        flight time. [s]
+    altitude_reference : str
+        ``"msl"``, ``"agl"`` or ``"pressure"``.
+    route_name : str
+        Name of the route.
+    waypoint_distance_m : ndarray
+        Distance along the track of each waypoint, shaped (number of waypoints,). [m]
+    waypoint_names : list of str
+        Names of the waypoints.
+    ground_elevation_m : float or None
+        The route's given surface height (for AGL routes). [m]
+    ground_speed : ndarray
+        Ground speed (3-D path speed) on the sample's leg; 0 during holds. [m/s]
+    """
+
+    lat: np.ndarray
+    lon: np.ndarray
+    altitude_m: np.ndarray
+    distance_m: np.ndarray
+    time: np.ndarray
+    tas: np.ndarray
+    leg: np.ndarray
+    from_waypoint: np.ndarray
+    to_waypoint: np.ndarray
+    hold: np.ndarray
+    dt_s: np.ndarray
+    altitude_reference: str = "msl"
+    route_name: str = ""
+    waypoint_distance_m: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    waypoint_names: list = field(default_factory=list)
+    ground_elevation_m: float | None = None
+    ground_speed: np.ndarray | None = None
+
+    def __len__(self):
+        return int(self.lat.shape[0])
+
+
+# --------------------------------------------------------------------------- helpers
+
+
+def warn_plausibility(message):
+    """Warn with :class:`PlausibilityWarning` at the first caller outside ``icing``."""
+    package = os.path.dirname(os.path.abspath(__file__)) + os.sep
+    frame, level = sys._getframe(1), 2
+    while frame is not None and os.path.abspath(frame.f_code.co_filename).startswith(package):
+        frame, level = frame.f_back, level + 1
+    warnings.warn(message, PlausibilityWarning, stacklevel=level)
+
+
+def parse_time(value, *, path=None, where=None, what="time"):
+    """Parse an ISO 8601 time with a zone into an aware UTC datetime.
+
+    Accepts a string, an aware ``datetime`` or a ``numpy.datetime64`` (taken as
+    UTC). Times without a zone are refused.
+
+    Examples
+    --------
+    >>> parse_time("2027-01-14T09:00:00+01:00").isoformat()
+    '2027-01-14T08:00:00+00:00'
+    """
+    if isinstance(value, np.datetime64):
+        ms = value.astype("datetime64[ms]").astype(np.int64)
+        return _EPOCH + timedelta(milliseconds=int(ms))
+    if isinstance(value, datetime):
+        parsed = value
+        shown = value.isoformat()
+    elif isinstance(value, str):
+        shown = value.strip()
+        try:
+            parsed = datetime.fromisoformat(shown)
+        except ValueError:
+            raise RouteError(f"{what} {shown!r} is not an ISO 8601 time", path=path, where=where,
+                             fix="write it like 2027-01-14T09:00:00Z") from None
+    else:
+        raise RouteError(f"{what} {value!r} is not an ISO 8601 time string", path=path,
+                         where=where, fix="write it like 2027-01-14T09:00:00Z")
+    if parsed.tzinfo is None or parsed.utcoffset() is None:
+        raise RouteError(f"{what} {shown!r} has no time zone", path=path, where=where,
+                         fix="append Z or +00:00 (UTC)")
+    return parsed.astimezone(UTC)
+
+
+def format_time(t):
+    """Format an aware datetime as ``YYYY-MM-DDTHH:MM:SSZ``."""
+    return t.astimezone(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+def check_number(value, what, *, path=None, where=None, low=None, high=None, fix=None):
+    """Return ``value`` as a finite float within [low, high], else raise RouteError."""
+    if isinstance(value, bool) or value is None:
+        number = math.nan
+    else:
+        try:
+            number = float(value)
+        except (TypeError, ValueError):
+            number = math.nan
+    if not math.isfinite(number):
+        raise RouteError(f"{what} {value!r} is not a number", path=path, where=where,
+                         fix=fix or f"give {what} as a number")
+    if (low is not None and number < low) or (high is not None and number > high):
+        raise RouteError(f"{what} {number:g} is outside {low:g}..{high:g}", path=path,
+                         where=where, fix=fix or f"give {what} within {low:g}..{high:g}")
+    return number
+
+
+def check_position(lat, lon, *, path=None, where=None):
+    """Return (lat, lon) as floats after checking their ranges."""
+    lat = check_number(lat, "latitude", path=path, where=where, low=-90.0, high=90.0,
+                       fix="latitude in degrees north, -90..90 (GeoJSON order is lon, lat)")
+    lon = check_number(lon, "longitude", path=path, where=where, low=-180.0, high=180.0,
+                       fix="longitude in degrees east, -180..180")
+    return lat, lon
+
+
+def check_altitude(altitude_m, reference, *, path=None, where=None, given_in_metres=False):
+    """Check an altitude [m] in its reference; warn when metres look like feet."""
+    if reference not in ALTITUDE_REFERENCES:
+        raise RouteError(f"altitude_reference {reference!r} is not one of "
+                         f"{', '.join(ALTITUDE_REFERENCES)}", path=path, where=where,
+                         fix='use "msl", "agl" or "pressure"')
+    altitude_m = check_number(altitude_m, "altitude", path=path, where=where,
+                              fix="give the altitude as a number")
+    low = 0.0 if reference == "agl" else _LOWEST_M
+    if altitude_m < low:
+        raise RouteError(f"altitude {altitude_m:g} m {reference.upper()} is below {low:g} m",
+                         path=path, where=where, fix="check the altitude and its unit")
+    if given_in_metres:
+        limit = _FEET_LIKE_AGL_M if reference == "agl" else _FEET_LIKE_M
+        if altitude_m > limit:
+            place = ": ".join(str(p) for p in (path, where) if p)
+            warn_plausibility(f"{place}: altitude {altitude_m:g} m {reference.upper()} is above "
+                              f"{limit:g} m; it looks like feet given as metres (positions "
+                              "carry metres; use altitude_ft for feet)")
+    return altitude_m
+
+
+def _where_waypoint(i, w):
+    return f"waypoint {i + 1} ({w.name})"
+
+
+def check_waypoints(route, *, path=None, where_of=None):
+    """Check a route as a whole; raise RouteError naming the place.
+
+    Checks: at least two waypoints (one is allowed with ``hold_min > 0``, a
+    hover), one altitude reference, positions and altitudes, aware and
+    increasing times that leave room for the holds, and a departure time that
+    agrees with the first waypoint's time.
+    """
+    path = path if path is not None else route.source
+    wps = route.waypoints
+    where_of = where_of or (lambda i: _where_waypoint(i, wps[i]))
+    if len(wps) == 0:
+        raise RouteError(f"route {route.name!r} has no waypoints", path=path,
+                         fix="give at least two waypoints")
+    if len(wps) == 1 and not (wps[0].hold_min and wps[0].hold_min > 0):
+        raise RouteError(f"route {route.name!r} has a single waypoint", path=path,
+                         where=where_of(0),
+                         fix="give at least two waypoints, or hold_min > 0 for a hover")
+    refs = [w.altitude_reference for w in wps]
+    for i, w in enumerate(wps):
+        check_position(w.lat, w.lon, path=path, where=where_of(i))
+        check_altitude(w.altitude_m, w.altitude_reference, path=path, where=where_of(i))
+        check_number(w.hold_min, "hold_min", path=path, where=where_of(i), low=0.0,
+                     high=24 * 60.0)
+        if w.tas_kt is not None:
+            check_number(w.tas_kt, "tas_kt", path=path, where=where_of(i), low=0.0,
+                         high=2000.0)
+        if w.time is not None:
+            parse_time(w.time, path=path, where=where_of(i))
+        if refs[i] != refs[0]:
+            raise RouteError(f"altitude reference {refs[i]!r} differs from {refs[0]!r} of the "
+                             "first waypoint", path=path, where=where_of(i),
+                             fix="use one altitude reference per route (flight levels or "
+                             "feet, not both)")
+    if route.altitude_reference not in (refs[0], None):
+        raise RouteError(f"route altitude_reference {route.altitude_reference!r} differs from "
+                         f"the waypoints' {refs[0]!r}", path=path,
+                         fix="use one altitude reference per route")
+    if route.true_airspeed_kt is not None:
+        check_number(route.true_airspeed_kt, "true_airspeed_kt", path=path, low=0.0,
+                     high=2000.0)
+    if route.departure_time is not None:
+        dep = parse_time(route.departure_time, path=path, where="departure_time")
+        if wps[0].time is not None and parse_time(wps[0].time) != dep:
+            raise RouteError(f"departure_time {format_time(dep)} differs from the first "
+                             f"waypoint's time {format_time(parse_time(wps[0].time))}",
+                             path=path, where=where_of(0),
+                             fix="give one of them, or make them agree")
+    timed = [i for i, w in enumerate(wps) if w.time is not None]
+    if len(timed) > 1:
+        lat = np.array([w.lat for w in wps])
+        lon = np.array([w.lon for w in wps])
+        _, _, dist = _GEOD.inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
+        cum = np.concatenate([[0.0], np.cumsum(np.atleast_1d(dist))])
+        for a, b in zip(timed[:-1], timed[1:], strict=True):
+            ta, tb = parse_time(wps[a].time), parse_time(wps[b].time)
+            holds = sum(w.hold_min for w in wps[a:b]) * 60.0
+            moving = (tb - ta).total_seconds() - holds
+            if moving < 0 or (moving == 0 and cum[b] > cum[a]):
+                extra = f" plus {holds / 60:g} min of hold" if holds else ""
+                raise RouteError(f"time {format_time(tb)} is not after {format_time(ta)}"
+                                 f"{extra} at {wps[a].name}", path=path, where=where_of(b),
+                                 fix="times must increase along the route")
+
+
+# --------------------------------------------------------------------------- reading
+
+
+def load_routes(path):
+    """Read every route in a GeoJSON, CSV or GPX file.
+
+    The format is chosen by content (``{`` JSON, ``<`` XML) and extension
+    (``.geojson``/``.json``, ``.csv``/``.txt``, ``.gpx``/``.xml``); see
+    :mod:`icing.route_readers` for what each format may carry.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The route file.
+
+    Returns
+    -------
+    list of Route
+        One or more routes, in file order.
+
+    Raises
+    ------
+    RouteError
+        The file is missing, empty, malformed or holds an unusable route; the
+        message names the file, the place and the fix.
+    """
+    from . import route_readers
+
+    return route_readers.read_routes(path)
+
+
+def load_route(path):
+    """Read the single route of a file (see :func:`load_routes`).
+
+    Raises
+    ------
+    RouteError
+        Also when the file holds several routes (they are named).
+    """
+    routes = load_routes(path)
+    if len(routes) != 1:
+        names = ", ".join(repr(r.name) for r in routes)
+        raise RouteError(f"file holds {len(routes)} routes ({names}), one was expected",
+                         path=path, fix="use load_routes to read them all")
+    return routes[0]
+
+
+# --------------------------------------------------------------------------- sampling
+
+
+def _epoch_s(t):
+    return (t - _EPOCH).total_seconds()
+
+
+def _interleave(a, b):
+    """[a0, b0, a1, b1, ..., a_last] for len(a) == len(b) + 1."""
+    out = np.empty(a.size + b.size, dtype=np.result_type(a, b))
+    out[0::2] = a
+    out[1::2] = b
+    return out
+
+
+def _check_step(value, what):
+    return check_number(value, what, where=what, low=1e-9, high=1e12,
+                        fix=f"give {what} as a positive number")
+
+
+def sample_route(route, *, step_km=1.0, max_step_s=20.0, max_step_ft=100.0, tas_kt=None,
+                 departure=None, wind=None, default_tas_kt=None):
+    """Sample a route along its geodesics in distance, time and altitude.
+
+    Parameters
+    ----------
+    route : Route
+        The route.
+    step_km : float
+        Largest distance between samples. [km]
+    max_step_s : float
+        Largest flight time between samples (in still air; a wind changes it
+        by the ratio of true airspeed to ground speed). [s]
+    max_step_ft : float
+        Largest altitude change between samples. [ft]
+    tas_kt : float, optional
+        True airspeed for every leg, overriding the route's. [kt]
+    departure : str, datetime or numpy.datetime64, optional
+        Departure time overriding the route's: the whole timeline (waypoint
+        times included) is shifted to start then.
+    wind : callable, optional
+        ``wind(lat, lon, altitude_m, time) -> (u, v)`` [m/s] on arrays (time as
+        datetime64[ms]); turns airspeed into ground speed on legs timed by the
+        airspeed (not between timed waypoints). NaN winds count as calm.
+    default_tas_kt : float, optional
+        True airspeed for legs without any other (e.g. the airframe's cruise
+        speed). [kt]
+
+    Returns
+    -------
+    RouteSamples
+
+    Raises
+    ------
+    RouteError
+        No waypoints, inconsistent times, no time to start from (give a
+        departure time) or no airspeed for a leg that needs one.
+
+    Notes
+    -----
+    Each leg is cut into ``max(d / step, |dz| / max_step_ft, t / max_step_s)``
+    equal parts, ``d`` its geodesic length, ``dz`` its altitude change and ``t``
+    its flight time. Between two timed waypoints time is linear in 3-D path
+    length (distance and climb), holds excepted; elsewhere a leg takes its
+    path length over the ground speed, one pass: the wind is read at the
+    middle of each part at the still-air time.
+    """
+    check_waypoints(route)
+    step_m = _check_step(step_km, "step_km") * 1000.0
+    step_s = _check_step(max_step_s, "max_step_s")
+    step_z = _check_step(max_step_ft, "max_step_ft") * FT
+    wps = route.waypoints
+    nw = len(wps)
+    name = np.array([w.name for w in wps], dtype=object)
+    lat = np.array([w.lat for w in wps], dtype=float)
+    lon = np.array([w.lon for w in wps], dtype=float)
+    alt = np.array([w.altitude_m for w in wps], dtype=float)
+    hold = np.array([w.hold_min for w in wps], dtype=float) * 60.0
+    anchor = np.array([np.nan if w.time is None else _epoch_s(parse_time(w.time)) for w in wps])
+    if np.isnan(anchor[0]) and route.departure_time is not None:
+        anchor[0] = _epoch_s(parse_time(route.departure_time))
+    dep_override = None if departure is None else _epoch_s(
+        parse_time(departure, where="departure", what="departure"))
+    if np.all(np.isnan(anchor)):
+        if dep_override is None:
+            raise RouteError(f"route {route.name!r} has no departure time and no waypoint "
+                             "times", path=route.source,
+                             fix="give departure_time in the route or --depart")
+        anchor[0] = dep_override
+
+    def speed_kt(value, what):
+        return None if value is None else check_number(value, what, where=what, low=0.0,
+                                                       high=2000.0)
+
+    tas_arg = speed_kt(tas_kt, "tas_kt")
+    tas_default = speed_kt(default_tas_kt, "default_tas_kt")
+    tas_wp = np.array([np.nan if w.tas_kt is None else w.tas_kt for w in wps], dtype=float)
+    tas_route = route.true_airspeed_kt
+    if tas_arg is not None:
+        tas_wp[:] = tas_arg
+    else:
+        fallback = tas_route if tas_route is not None else tas_default
+        if fallback is not None:
+            tas_wp[np.isnan(tas_wp)] = fallback
+    tas_wp = tas_wp * KT  # [m/s], NaN where unknown
+
+    # legs ------------------------------------------------------------------
+    nl = nw - 1
+    if nl > 0:
+        az12, _, dist = _GEOD.inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
+        az12, dist = np.atleast_1d(az12).astype(float), np.atleast_1d(dist).astype(float)
+    else:
+        az12 = dist = np.zeros(0)
+    dz = np.diff(alt)
+    path3 = np.hypot(dist, dz)
+    cum_h = np.concatenate([[0.0], np.cumsum(dist)])
+    cum_3 = np.concatenate([[0.0], np.cumsum(path3)])
+    cum_hold = np.concatenate([[0.0], np.cumsum(hold)])  # hold time before waypoint i
+
+    # leg durations: anchored spans from the times, else path length / TAS
+    duration = np.full(nl, np.nan)
+    anchored = np.zeros(nl, dtype=bool)
+    a_idx = np.flatnonzero(~np.isnan(anchor))
+    if a_idx.size > 1 and nl > 0:
+        k = np.arange(nl)
+        inside = (k >= a_idx[0]) & (k < a_idx[-1])
+        pos = np.searchsorted(a_idx, k[inside], side="right")
+        ai, aj = a_idx[pos - 1], a_idx[pos]
+        moving = anchor[aj] - anchor[ai] - (cum_hold[aj] - cum_hold[ai])
+        span = cum_3[aj] - cum_3[ai]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            share = np.where(span > 0, path3[inside] / span, 1.0 / (aj - ai))
+        duration[inside] = moving * share
+        anchored[inside] = True
+    tas_leg = tas_wp[:-1].copy()
+    free = ~anchored
+    missing = free & ~(tas_leg > 0) & (path3 > 0)
+    if np.any(missing):
+        i = int(np.flatnonzero(missing)[0])
+        raise RouteError(f"no true airspeed for the leg {name[i]} -> {name[i + 1]} of route "
+                         f"{route.name!r}", path=route.source,
+                         fix="give --tas-kt, an airframe, or true_airspeed_kt in the route")
+    with np.errstate(invalid="ignore", divide="ignore"):
+        duration[free] = np.where(path3[free] > 0, path3[free] / tas_leg[free], 0.0)
+        implied = np.where(duration > 0, path3 / duration, 0.0)
+    tas_leg = np.where(np.isnan(tas_leg), implied, tas_leg)
+
+    # subdivisions ------------------------------------------------------------
+    def parts(x):
+        return np.ceil(np.maximum(x, 0.0) * (1.0 - 1e-12))
+
+    n = np.maximum.reduce([np.ones(nl), parts(dist / step_m), parts(np.abs(dz) / step_z),
+                           parts(duration / step_s)]).astype(np.int64) if nl else np.zeros(
+        0, dtype=np.int64)
+    m = np.where(hold > 0, np.maximum(2, parts(hold / step_s)), 0).astype(np.int64)
+    block = np.where(hold > 0, m + 1, 1)
+    total = int(block.sum() + (n - 1).sum())
+    if total > _MAX_SAMPLES:
+        raise RouteError(f"route {route.name!r} would give {total} samples", path=route.source,
+                         fix="use a larger step_km / max_step_s / max_step_ft")
+
+    # samples: block 0, interior of leg 0, block 1, ..., block nw-1
+    counts = _interleave(block, n - 1)
+    seg = np.repeat(np.arange(counts.size), counts)
+    local = np.arange(total) - np.repeat(np.cumsum(counts) - counts, counts)
+    is_block = seg % 2 == 0
+    owner = seg // 2  # waypoint index for blocks, leg index for interiors
+    frac = np.where(is_block, 0.0, (local + 1) / np.where(is_block, 1, n[np.minimum(
+        owner, max(nl - 1, 0))] if nl else 1))
+    s_lat, s_lon = lat[owner].copy(), lon[owner].copy()
+    s_alt = alt[owner].copy()
+    s_dist = cum_h[owner].copy()
+    inner = ~is_block
+    if np.any(inner):
+        kk = owner[inner]
+        f = frac[inner]
+        lo, la, _ = _GEOD.fwd(lon[kk], lat[kk], az12[kk], f * dist[kk])
+        s_lon[inner], s_lat[inner] = lo, la
+        s_alt[inner] = alt[kk] + f * dz[kk]
+        s_dist[inner] = cum_h[kk] + f * dist[kk]
+
+    # intervals between samples: hold parts inside blocks, leg parts between them
+    hold_part = np.where(m > 0, hold / np.maximum(m, 1), 0.0)
+    i_counts = _interleave(block - 1, n)
+    i_seg = np.repeat(np.arange(i_counts.size), i_counts)
+    i_owner = i_seg // 2
+    i_leg = i_seg % 2 == 1
+    leg_sub = np.repeat(np.arange(nl), n)  # leg of each leg part, in order
+    sub_path = (path3 / np.maximum(n, 1))[leg_sub]
+    sub_dur = (duration / np.maximum(n, 1))[leg_sub]
+
+    def timeline(sub_dur):
+        dur = np.where(i_leg, 0.0, hold_part[i_owner])
+        dur[i_leg] = sub_dur
+        rel = np.concatenate([[0.0], np.cumsum(dur)])
+        first = np.concatenate([[0], np.cumsum(block + np.append(n - 1, 0))[:-1]])
+        start = anchor[a_idx[0]] - rel[first[a_idx[0]]]
+        return rel, start
+
+    rel, start = timeline(sub_dur)
+    gs_sub = np.where(sub_dur > 0, sub_path / np.where(sub_dur > 0, sub_dur, 1.0), 0.0)
+    windy = ~anchored[leg_sub] & (sub_path > 0)
+    if wind is not None and np.any(windy):
+        kk = leg_sub[windy]
+        j = (np.arange(leg_sub.size) - np.repeat(np.cumsum(n) - n, n))[windy]
+        f = (j + 0.5) / n[kk]
+        lo, la, back = _GEOD.fwd(lon[kk], lat[kk], az12[kk], f * dist[kk])
+        lo = (np.asarray(lo) + 180.0) % 360.0 - 180.0
+        track = np.radians(np.asarray(back) + 180.0)
+        interval_start = rel[:-1][i_leg][windy]
+        t_mid = start + interval_start + 0.5 * sub_dur[windy]
+        t_mid64 = np.round(t_mid * 1000.0).astype(np.int64).astype("datetime64[ms]")
+        u, v = wind(np.asarray(la), lo, alt[kk] + f * dz[kk], t_mid64)
+        u = np.nan_to_num(np.broadcast_to(np.asarray(u, dtype=float), kk.shape), nan=0.0)
+        v = np.nan_to_num(np.broadcast_to(np.asarray(v, dtype=float), kk.shape), nan=0.0)
+        tas_here = tas_leg[kk]
+        gs = tas_here + u * np.sin(track) + v * np.cos(track)
+        floor = GROUND_SPEED_FLOOR * tas_here
+        if np.any(gs < floor):
+            warn_plausibility(f"route {route.name!r}: the wind exceeds "
+                              f"{1 - GROUND_SPEED_FLOOR:.0%} of the true airspeed on "
+                              f"{int(np.sum(gs < floor))} of {gs.size} parts; ground speed "
+                              f"floored at {GROUND_SPEED_FLOOR:.0%} of it")
+        gs = np.maximum(gs, floor)
+        sub_dur = sub_dur.copy()
+        sub_dur[windy] = sub_path[windy] / gs
+        gs_sub[windy] = gs
+        rel, start = timeline(sub_dur)
+    if dep_override is not None:
+        start = dep_override
+    t_ms = np.round((start + rel) * 1000.0).astype(np.int64)
+    times = t_ms.astype("datetime64[ms]")
+    dt = 0.5 * (np.diff(rel, prepend=rel[0]) + np.diff(rel, append=rel[-1]))
+
+    # per-sample attributes
+    last_leg = max(nl - 1, 0)
+    s_leg = np.where(is_block, np.minimum(owner, last_leg), owner)
+    s_hold = is_block & (hold[owner] > 0)
+    if nl:
+        wp_of_leg_from, wp_of_leg_to = name[s_leg], name[s_leg + 1]
+        tas_s = tas_leg[s_leg]
+        gs_leg = np.zeros(nl)
+        np.add.at(gs_leg, leg_sub, gs_sub)
+        gs_s = (gs_leg / np.maximum(n, 1))[s_leg]
+    else:
+        wp_of_leg_from = wp_of_leg_to = name[owner]
+        tas_s = np.zeros(total)
+        gs_s = np.zeros(total)
+    from_wp = np.where(s_hold, name[owner], wp_of_leg_from).astype(object)
+    to_wp = np.where(s_hold, name[owner], wp_of_leg_to).astype(object)
+    tas_hold = tas_wp[owner]
+    tas_s = np.where(s_hold & np.isfinite(tas_hold), tas_hold, tas_s)
+    tas_s = np.nan_to_num(tas_s, nan=0.0)
+    gs_s = np.where(s_hold, 0.0, gs_s)
+    return RouteSamples(
+        lat=s_lat, lon=(s_lon + 180.0) % 360.0 - 180.0, altitude_m=s_alt, distance_m=s_dist,
+        time=times, tas=tas_s.astype(float), leg=s_leg.astype(np.int64), from_waypoint=from_wp,
+        to_waypoint=to_wp, hold=s_hold, dt_s=dt, altitude_reference=route.altitude_reference,
+        route_name=route.name, waypoint_distance_m=cum_h, waypoint_names=list(name),
+        ground_elevation_m=route.ground_elevation_m, ground_speed=gs_s)
