@@ -81,6 +81,8 @@ _GROUND = "#5c5346"
 _CLOUD_COLOUR = "#2b5fad"
 _CANDIDATE_COLOUR = "#1b7f3b"
 _ISOTHERMS = {0: ("solid", 1.6), -10: ((0, (5, 2.5)), 1.1), -20: ((0, (1.2, 1.8)), 1.1)}
+# A light box behind labels (a path-effect halo would turn SVG text into paths).
+_TEXT_BOX = {"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": "none", "alpha": 0.8}
 _SAVE_RC = {"svg.fonttype": "none", "hatch.linewidth": 0.7, "svg.hashsalt": "icing"}
 
 
@@ -480,7 +482,7 @@ def plot_cross_section(
                     fontsize=6,
                     color="black",
                     zorder=9,
-                    path_effects=[patheffects.withStroke(linewidth=2.0, foreground="white")],
+                    bbox=_TEXT_BOX,
                 )
             have_candidates = True
 
@@ -736,7 +738,7 @@ def plot_route_map(screenings_or_one, path, *, title=None, figsize=(9.0, 6.5), d
                     textcoords="offset points",
                     fontsize=7,
                     zorder=13,
-                    path_effects=[patheffects.withStroke(linewidth=2.5, foreground="white")],
+                    bbox=_TEXT_BOX,
                 )
 
     # Extent with a margin, the cos-lat aspect, the graticule.
