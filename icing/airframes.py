@@ -1,0 +1,465 @@
+"""Airframes and their collectors: presets and user files (TOML).
+
+An airframe is a set of *collectors*: the parts that catch supercooled water
+and whose ice matters (wing and tail leading edges, rotor and propeller blade
+sections, struts, arms, probes). Each is modelled as a circular cylinder
+across the flow (:mod:`icing.collection`):
+
+* ``cylinder``: ``diameter_m`` (struts, antennas, probes, wires, small-UAS arms).
+* ``airfoil``: ``chord_m``, ``thickness_ratio``; the equivalent cylinder has the
+  airfoil's leading-edge radius, ``D = 2 r_LE`` with ``r_LE = 1.1019 t^2 c``
+  (NACA 4-digit sections; Abbott & von Doenhoff 1959, sec. 6.4). This
+  equivalence suits the stagnation-line quantities (``beta0``, heat transfer,
+  local thickness); a slender cylinder catches relatively more than the
+  airfoil does around its leading edge, so the total catch ``E LWC V D`` is an
+  over-estimate (conservative). An optional ``catch_factor`` (default 1)
+  scales the total catch where a better figure is known for the section.
+* ``rotor``: a propeller or rotor blade section, ``chord_m``,
+  ``thickness_ratio``, ``section_radius_m``, ``rpm``; the same equivalent
+  cylinder, meeting the air at ``sqrt((omega r)^2 + V^2)`` (rotation plus
+  airspeed; a hovering multirotor has ~0 airspeed but fast blades).
+
+A collector may carry its own ``protection`` (else the airframe's
+``ice_protection``), its own ``ice_tolerance_mm``, and ``critical = false`` when
+its ice does not threaten the flight (it is reported but does not set severity).
+
+A user file (TOML)::
+
+    name = "survey-drone"
+    true_airspeed_kt = 30
+    ice_tolerance_mm = 1.0
+    ceiling_ft = 12000          # optional
+    ice_protection = "none"     # optional: none | de-ice | anti-ice
+    reference = "prop"          # optional: the collector that sets severity
+    [[collectors]]
+    name = "prop"
+    shape = "rotor"
+    chord_m = 0.03
+    thickness_ratio = 0.1
+    section_radius_m = 0.12
+    rpm = 5000
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import asdict, dataclass
+from importlib import resources
+from pathlib import Path
+
+import numpy as np
+
+from .constants import FT, KT
+from .errors import AirframeError
+
+__all__ = [
+    "SHAPES",
+    "PROTECTIONS",
+    "LEADING_EDGE_RADIUS_FACTOR",
+    "Collector",
+    "Airframe",
+    "load_airframe",
+    "list_airframes",
+    "airframe_from_dict",
+    "format_airframes",
+    "airframes_to_json",
+]
+
+#: Collector shapes and the keys each requires.
+SHAPES = {
+    "cylinder": ("diameter_m",),
+    "airfoil": ("chord_m", "thickness_ratio"),
+    "rotor": ("chord_m", "thickness_ratio", "section_radius_m", "rpm"),
+}
+#: Ice-protection kinds (their effect on severity: :mod:`icing.accretion`).
+PROTECTIONS = ("none", "de-ice", "anti-ice")
+#: NACA 4-digit leading-edge radius ``r_LE = 1.1019 t^2 c`` (Abbott & von Doenhoff
+#: 1959, Theory of Wing Sections, sec. 6.4).
+LEADING_EDGE_RADIUS_FACTOR = 1.1019
+
+_OPTIONAL_COLLECTOR = ("protection", "critical", "ice_tolerance_mm", "catch_factor",
+                       "description")
+_AIRFRAME_KEYS = ("name", "description", "true_airspeed_kt", "ceiling_ft", "ice_protection",
+                  "ice_tolerance_mm", "collectors", "reference", "min_altitude_ft",
+                  "max_altitude_agl_ft", "source")
+
+
+@dataclass(frozen=True)
+class Collector:
+    """One part of an airframe that catches water, as an equivalent cylinder.
+
+    Attributes
+    ----------
+    name : str
+    shape : {"cylinder", "airfoil", "rotor"}
+    diameter_m : float or None
+        Cylinder diameter (``cylinder``). [m]
+    chord_m, thickness_ratio : float or None
+        Section chord [m] and thickness-to-chord ratio [1] (``airfoil``, ``rotor``).
+    section_radius_m, rpm : float or None
+        Radius of the blade section [m] and rotation rate [1/min] (``rotor``).
+    protection : str or None
+        ``"none"``, ``"de-ice"``, ``"anti-ice"``; None: the airframe's.
+    critical : bool
+        Whether its ice sets the airframe's severity.
+    ice_tolerance_mm : float or None
+        Its own ice tolerance (None: the airframe's). [mm]
+    catch_factor : float
+        Multiplies the total catch (1: the equivalent cylinder's). [1]
+    description : str
+    """
+
+    name: str
+    shape: str
+    diameter_m: float | None = None
+    chord_m: float | None = None
+    thickness_ratio: float | None = None
+    section_radius_m: float | None = None
+    rpm: float | None = None
+    protection: str | None = None
+    critical: bool = True
+    ice_tolerance_mm: float | None = None
+    catch_factor: float = 1.0
+    description: str = ""
+
+    @property
+    def diameter(self) -> float:
+        """Equivalent cylinder diameter, ``diameter_m`` or ``2 * 1.1019 t^2 c`` [m]."""
+        if self.shape == "cylinder":
+            return float(self.diameter_m)
+        return 2.0 * LEADING_EDGE_RADIUS_FACTOR * self.thickness_ratio**2 * self.chord_m
+
+    @property
+    def rotation_speed(self) -> float:
+        """Speed of the section from rotation, ``omega r`` (0 unless a rotor) [m/s]."""
+        if self.shape != "rotor":
+            return 0.0
+        return 2.0 * math.pi * self.rpm / 60.0 * self.section_radius_m
+
+    def speed(self, airspeed):
+        """Return the air speed relative to the collector, ``sqrt((omega r)^2 + V^2)`` [m/s]."""
+        v = np.asarray(airspeed, dtype=float)
+        w = self.rotation_speed
+        return np.sqrt(w * w + v * v) if w else v
+
+    def describe(self) -> dict:
+        """JSON-able dict of the collector and its equivalent cylinder."""
+        d = {k: v for k, v in asdict(self).items() if v is not None and v != ""}
+        d["equivalent_diameter_m"] = round(self.diameter, 6)
+        if self.shape == "rotor":
+            d["rotation_speed_m_s"] = round(self.rotation_speed, 2)
+        return d
+
+
+@dataclass(frozen=True)
+class Airframe:
+    """An airframe: cruise speed, limits, ice protection, tolerance, collectors.
+
+    Attributes
+    ----------
+    name, description : str
+    true_airspeed_kt : float
+        Cruise true airspeed. [kt]
+    ceiling_ft : float or None
+        Service ceiling. [ft]
+    ice_protection : {"none", "de-ice", "anti-ice"}
+        Default protection of its collectors.
+    ice_tolerance_mm : float
+        Ice thickness the airframe tolerates on an unprotected critical
+        collector before flight is impaired (a planning figure). [mm]
+    collectors : tuple of Collector
+    reference : str
+        Name of the collector reported where nothing ices and named in summaries
+        as the airframe's main surface.
+    min_altitude_ft, max_altitude_agl_ft : float or None
+        Operating limits (drones: maximum height above ground). [ft]
+    source : str
+        ``"preset"`` or the file it was read from.
+    """
+
+    name: str
+    description: str
+    true_airspeed_kt: float
+    ceiling_ft: float | None
+    ice_protection: str
+    ice_tolerance_mm: float
+    collectors: tuple
+    reference: str
+    min_altitude_ft: float | None = None
+    max_altitude_agl_ft: float | None = None
+    source: str = "preset"
+
+    @property
+    def cruise_tas(self) -> float:
+        """Cruise true airspeed [m/s]."""
+        return self.true_airspeed_kt * KT
+
+    @property
+    def ceiling_m(self) -> float:
+        """Service ceiling (NaN if unknown) [m]."""
+        return math.nan if self.ceiling_ft is None else self.ceiling_ft * FT
+
+    def collector(self, name: str) -> Collector:
+        """Return the collector called ``name``."""
+        for c in self.collectors:
+            if c.name == name:
+                return c
+        raise KeyError(name)
+
+    def describe(self) -> dict:
+        """JSON-able dict of the airframe and its collectors."""
+        d = {
+            "name": self.name,
+            "description": self.description,
+            "true_airspeed_kt": self.true_airspeed_kt,
+            "cruise_tas_m_s": round(self.cruise_tas, 2),
+            "ceiling_ft": self.ceiling_ft,
+            "ice_protection": self.ice_protection,
+            "ice_tolerance_mm": self.ice_tolerance_mm,
+            "reference": self.reference,
+            "collectors": [c.describe() for c in self.collectors],
+            "source": self.source,
+        }
+        if self.min_altitude_ft is not None:
+            d["min_altitude_ft"] = self.min_altitude_ft
+        if self.max_altitude_agl_ft is not None:
+            d["max_altitude_agl_ft"] = self.max_altitude_agl_ft
+        return d
+
+
+def _number(table, key, path, where, *, positive=True, required=True, default=None):
+    if key not in table:
+        if required:
+            raise AirframeError(f"missing key {key!r}", path=path, where=where,
+                                fix=f"add {key} = <number>")
+        return default
+    v = table[key]
+    if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
+        raise AirframeError(f"{key!r} must be a number, got {v!r}", path=path, where=where,
+                            fix=f"write {key} = <number>")
+    if positive and v <= 0:
+        raise AirframeError(f"{key!r} must be positive, got {v!r}", path=path, where=where,
+                            fix=f"give a positive {key}")
+    return float(v)
+
+
+def _protection(value, path, where, key):
+    if value not in PROTECTIONS:
+        raise AirframeError(f"{key!r} must be one of {', '.join(PROTECTIONS)}, got {value!r}",
+                            path=path, where=where, fix=f'write {key} = "none"')
+    return value
+
+
+def _collector_from_dict(t, path, where):
+    if not isinstance(t, dict):
+        raise AirframeError("a collector must be a table", path=path, where=where,
+                            fix="write each collector as a [[collectors]] table")
+    if "name" not in t or not isinstance(t["name"], str) or not t["name"]:
+        raise AirframeError("missing key 'name'", path=path, where=where,
+                            fix='add name = "<collector name>"')
+    where = f"{where} ({t['name']})"
+    shape = t.get("shape")
+    if shape is None:
+        raise AirframeError("missing key 'shape'", path=path, where=where,
+                            fix=f"add shape = one of {', '.join(SHAPES)}")
+    if shape not in SHAPES:
+        raise AirframeError(f"unknown shape {shape!r}", path=path, where=where,
+                            fix=f"use shape = one of {', '.join(SHAPES)}")
+    allowed = set(SHAPES[shape]) | set(_OPTIONAL_COLLECTOR) | {"name", "shape"}
+    unknown = sorted(set(t) - allowed)
+    if unknown:
+        raise AirframeError(f"unknown key {unknown[0]!r} for shape {shape!r}", path=path,
+                            where=where,
+                            fix=f"use only {', '.join(sorted(allowed))}")
+    kw = {k: _number(t, k, path, where) for k in SHAPES[shape]}
+    if shape != "cylinder" and not kw["thickness_ratio"] < 1.0:
+        raise AirframeError(f"'thickness_ratio' must be below 1, got {kw['thickness_ratio']}",
+                            path=path, where=where, fix="give t/c as a fraction, e.g. 0.12")
+    if "protection" in t:
+        kw["protection"] = _protection(t["protection"], path, where, "protection")
+    if "critical" in t:
+        if not isinstance(t["critical"], bool):
+            raise AirframeError("'critical' must be true or false", path=path, where=where,
+                                fix="write critical = true")
+        kw["critical"] = t["critical"]
+    if "ice_tolerance_mm" in t:
+        kw["ice_tolerance_mm"] = _number(t, "ice_tolerance_mm", path, where)
+    if "catch_factor" in t:
+        kw["catch_factor"] = _number(t, "catch_factor", path, where)
+        if kw["catch_factor"] > 1.0:
+            raise AirframeError("'catch_factor' must be at most 1", path=path, where=where,
+                                fix="give a factor in (0, 1]")
+    if "description" in t:
+        kw["description"] = str(t["description"])
+    return Collector(name=t["name"], shape=shape, **kw)
+
+
+def airframe_from_dict(table: dict, *, path=None, source=None) -> Airframe:
+    """Build an :class:`Airframe` from a parsed TOML table, checking every key.
+
+    Raises
+    ------
+    icing.errors.AirframeError
+        A missing, unknown or invalid key; the message names it and the fix.
+    """
+    where0 = "airframe"
+    if not isinstance(table, dict):
+        raise AirframeError("an airframe must be a table", path=path, where=where0,
+                            fix="write the airframe keys at the top of the file")
+    name = table.get("name")
+    if not isinstance(name, str) or not name:
+        raise AirframeError("missing key 'name'", path=path, where=where0,
+                            fix='add name = "<airframe name>"')
+    where = f"airframe {name!r}"
+    unknown = sorted(set(table) - set(_AIRFRAME_KEYS))
+    if unknown:
+        raise AirframeError(f"unknown key {unknown[0]!r}", path=path, where=where,
+                            fix=f"use only {', '.join(_AIRFRAME_KEYS)}")
+    tas = _number(table, "true_airspeed_kt", path, where, positive=False)
+    if tas < 0:
+        raise AirframeError(f"'true_airspeed_kt' must be >= 0, got {tas}", path=path,
+                            where=where, fix="give the cruise true airspeed in knots")
+    tol = _number(table, "ice_tolerance_mm", path, where)
+    ceiling = _number(table, "ceiling_ft", path, where, required=False)
+    prot = _protection(table.get("ice_protection", "none"), path, where, "ice_protection")
+    cols = table.get("collectors")
+    if not cols:
+        raise AirframeError("missing key 'collectors'", path=path, where=where,
+                            fix='add at least one [[collectors]] table with name and shape')
+    if not isinstance(cols, list):
+        raise AirframeError("'collectors' must be an array of tables", path=path, where=where,
+                            fix="write each collector as a [[collectors]] table")
+    collectors = tuple(_collector_from_dict(c, path, f"collectors[{i}]")
+                       for i, c in enumerate(cols))
+    names = [c.name for c in collectors]
+    dup = sorted({n for n in names if names.count(n) > 1})
+    if dup:
+        raise AirframeError(f"duplicate collector name {dup[0]!r}", path=path, where=where,
+                            fix="give every collector its own name")
+    if not any(c.critical for c in collectors):
+        raise AirframeError("no collector is critical", path=path, where=where,
+                            fix="set critical = true on the collector that sets severity")
+    ref = table.get("reference", names[0])
+    if ref not in names:
+        raise AirframeError(f"'reference' names no collector: {ref!r}", path=path,
+                            where=where, fix=f"use one of {', '.join(names)}")
+    return Airframe(
+        name=name,
+        description=str(table.get("description", "")),
+        true_airspeed_kt=tas,
+        ceiling_ft=ceiling,
+        ice_protection=prot,
+        ice_tolerance_mm=tol,
+        collectors=collectors,
+        reference=ref,
+        min_altitude_ft=_number(table, "min_altitude_ft", path, where, positive=False,
+                                required=False),
+        max_altitude_agl_ft=_number(table, "max_altitude_agl_ft", path, where,
+                                    required=False),
+        source=source or str(table.get("source", "preset")),
+    )
+
+
+def _read_toml(path):
+    try:
+        with open(path, "rb") as fh:
+            return tomllib.load(fh)
+    except tomllib.TOMLDecodeError as exc:
+        raise AirframeError(f"not valid TOML ({exc})", path=path, where=None,
+                            fix="check the quoting and brackets near the named line") from None
+    except OSError as exc:
+        raise AirframeError(f"cannot read the file ({exc.strerror})", path=path, where=None,
+                            fix="give an existing airframe file or a preset name") from None
+
+
+_PRESETS: dict | None = None
+
+
+def _presets() -> dict:
+    global _PRESETS
+    if _PRESETS is None:
+        ref = resources.files("icing").joinpath("data/airframes.toml")
+        with ref.open("rb") as fh:
+            data = tomllib.load(fh)
+        _PRESETS = {}
+        for t in data.get("airframes", []):
+            a = airframe_from_dict(t, path="icing/data/airframes.toml", source="preset")
+            _PRESETS[a.name] = a
+    return _PRESETS
+
+
+def list_airframes() -> list[Airframe]:
+    """Return the preset airframes, in the order of ``icing/data/airframes.toml``.
+
+    Examples
+    --------
+    >>> "light-piston" in [a.name for a in list_airframes()]
+    True
+    """
+    return list(_presets().values())
+
+
+def load_airframe(name_or_path) -> Airframe:
+    """Load a preset by name, or an airframe from a TOML file.
+
+    Parameters
+    ----------
+    name_or_path : str or os.PathLike or Airframe
+        A preset name (:func:`list_airframes`) or the path of a ``.toml`` file.
+        An :class:`Airframe` is returned unchanged.
+
+    Raises
+    ------
+    icing.errors.AirframeError
+        Unknown preset, unreadable or malformed file (the message names the key
+        and the fix).
+
+    Examples
+    --------
+    >>> load_airframe("twin-turboprop").ice_protection
+    'de-ice'
+    """
+    if isinstance(name_or_path, Airframe):
+        return name_or_path
+    presets = _presets()
+    s = str(name_or_path)
+    if s in presets:
+        return presets[s]
+    p = Path(s)
+    if p.suffix.lower() == ".toml" or p.exists():
+        return airframe_from_dict(_read_toml(p), path=str(p), source=str(p))
+    raise AirframeError(f"unknown airframe {s!r}", path=None, where="airframe",
+                        fix=f"use a preset ({', '.join(presets)}) or a .toml airframe file")
+
+
+def airframes_to_json(airframes) -> list[dict]:
+    """Return the airframes as JSON-able dicts (:meth:`Airframe.describe`)."""
+    return [a.describe() for a in airframes]
+
+
+def format_airframes(airframes) -> str:
+    """Return a plain-text table of airframes and their collectors.
+
+    Examples
+    --------
+    >>> print(format_airframes(list_airframes()[:1]).splitlines()[0].split()[0])
+    airframe
+    """
+    head = (f"{'airframe':<18} {'TAS kt':>6} {'ceiling ft':>10} {'protection':<10} "
+            f"{'tol mm':>6}  collectors (equivalent diameter mm, speed m/s at cruise)")
+    lines = [head, "-" * len(head)]
+    for a in airframes:
+        parts = []
+        for c in a.collectors:
+            mark = "*" if c.name == a.reference else ""
+            prot = c.protection or a.ice_protection
+            parts.append(f"{mark}{c.name} [{c.shape}, D {c.diameter * 1e3:.1f}, "
+                         f"{float(c.speed(a.cruise_tas)):.0f}, {prot}"
+                         f"{'' if c.critical else ', non-critical'}]")
+        ceiling = "-" if a.ceiling_ft is None else f"{a.ceiling_ft:.0f}"
+        lines.append(f"{a.name:<18} {a.true_airspeed_kt:>6.0f} {ceiling:>10} "
+                     f"{a.ice_protection:<10} {a.ice_tolerance_mm:>6.1f}  {parts[0]}")
+        lines.extend(" " * 57 + p for p in parts[1:])
+    lines.append("* reference collector")
+    return "\n".join(lines)
