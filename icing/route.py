@@ -389,9 +389,9 @@ def check_waypoints(route, *, path=None, where_of=None):
             holds = sum(w.hold_min for w in wps[a:b]) * 60.0
             moving = (tb - ta).total_seconds() - holds
             if moving < 0 or (moving == 0 and cum[b] > cum[a]):
-                extra = f" plus {holds / 60:g} min of hold" if holds else ""
-                raise RouteError(f"time {format_time(tb)} is not after {format_time(ta)}"
-                                 f"{extra} at {wps[a].name}", path=path, where=where_of(b),
+                extra = f" plus {holds / 60:g} min of holds" if holds else ""
+                raise RouteError(f"time {format_time(tb)} is not after {format_time(ta)} "
+                                 f"({wps[a].name}){extra}", path=path, where=where_of(b),
                                  fix="times must increase along the route")
 
 

@@ -407,7 +407,7 @@ def read_csv_routes(text, *, path=None):
         if not s or s.startswith("#"):
             continue
         try:
-            fields = next(csv.reader([s], skipinitialspace=True))
+            fields = next(csv.reader([s], skipinitialspace=True, strict=True))
         except csv.Error as err:
             raise RouteError(f"malformed CSV: {err}", path=path, where=f"line {lineno}",
                              fix="check the quoting") from None
