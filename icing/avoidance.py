@@ -211,7 +211,8 @@ def candidate_altitudes(
         candidate, ascending, multiples of ``step_ft``); ``ice_free_flight_levels``
         (pressure reference only); ``gap_altitudes_ft`` (candidates refused for a
         coverage gap); ``planned_altitude_ft``, ``floor_ft``, ``ceiling_ft``,
-        ``stretch_km``; ``basis`` (the wording and the rules).
+        ``stretch_km``; ``text`` (one line naming both options, worded as
+        candidates); ``basis`` (the wording and the rules).
 
     Raises
     ------
@@ -363,9 +364,11 @@ def candidate_altitudes(
         return option(j_all[order[0]], side)
 
     ice_free = [_ft_value(v, step_ft) for v in cand_ft[clear]]
+    above, below = pick("above"), pick("below")
     return {
-        "above": pick("above"),
-        "below": pick("below"),
+        "above": above,
+        "below": below,
+        "text": _one_line(start_km, end_km, above, below),
         "ice_free_altitudes_ft": ice_free,
         "ice_free_flight_levels": (
             [int(round(v / 100.0)) for v in cand_ft[clear]] if pressure else None
@@ -389,6 +392,26 @@ def candidate_altitudes(
             "after it, its icing counted"
         ),
     }
+
+
+def _one_line(start_km, end_km, above, below):
+    """One line for terminals and summaries: both options, worded as candidates."""
+    parts = []
+    for side, o in (("above", above), ("below", below)):
+        if o is None:
+            parts.append(f"{side}: none in range")
+            continue
+        alt = f"{o['altitude_ft']} ft"
+        if o["flight_level"] is not None:
+            alt += f" (FL{o['flight_level']:03d})"
+        state = "no icing on the stretch" if o["clear"] else f"{o['worst_severity']} at best"
+        extra = f", {o['transit_severity']} while changing level"
+        if o["transit_severity"] == "none":
+            extra = ""
+        if o["freezing_rain_below"]:
+            extra += ", freezing rain beneath"
+        parts.append(f"{side}: {alt}, {state}{extra}")
+    return f"{start_km:.0f}-{end_km:.0f} km: " + "; ".join(parts) + f" ({CANDIDATE_WORDING})"
 
 
 def _segment_mask(distance_km, props):
@@ -480,6 +503,8 @@ def annotate_segments(
             tas_m_s=tas,
         )
         res["segment_id"] = props.get("segment_id")
+        if res["segment_id"] is not None:
+            res["text"] = f"{res['segment_id']} {res['text']}"
         props["ice_free_altitudes_ft"] = list(res["ice_free_altitudes_ft"])
         props["vertical_options"] = {
             k: res[k]

@@ -89,22 +89,31 @@ _SAVE_RC = {"svg.fonttype": "none", "hatch.linewidth": 0.7, "svg.hashsalt": "ici
 # --------------------------------------------------------------------------- output
 
 
-def _check_picture_path(path):
+def _check_output_path(path, suffixes, *, what):
+    """Return ``(path, format)`` for an output file, or raise naming the fix.
+
+    ``suffixes`` lists the accepted formats (lower case, no dot); the first is
+    the one suggested in the message.
+    """
     path = pathlib.Path(path)
     fmt = path.suffix.lower().lstrip(".")
-    if fmt not in ("png", "svg"):
+    if fmt not in suffixes:
         raise InputError(
-            f"picture format {path.suffix or '(none)'!r} not supported",
+            f"{what} format {path.suffix or '(none)'!r} not supported",
             path=path,
-            fix="name the file *.png or *.svg",
+            fix="name the file " + " or ".join(f"*.{s}" for s in suffixes),
         )
     if not path.parent.is_dir():
         raise InputError(
-            "the folder for the picture does not exist",
+            f"the folder for the {what} does not exist",
             path=path,
             fix=f"create {path.parent} first",
         )
     return path, fmt
+
+
+def _check_picture_path(path):
+    return _check_output_path(path, ("png", "svg"), what="picture")
 
 
 def _replace_atomically(path, write):

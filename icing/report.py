@@ -20,7 +20,13 @@ import numpy as np
 
 from .caution import CAUTION
 from .errors import InputError
-from .plot import GAP_LABEL, _replace_atomically, plot_cross_section, plot_route_map
+from .plot import (
+    GAP_LABEL,
+    _check_output_path,
+    _replace_atomically,
+    plot_cross_section,
+    plot_route_map,
+)
 
 __all__ = ["write_report", "SEGMENT_COLUMNS"]
 
@@ -53,6 +59,9 @@ SEGMENT_COLUMNS = (
     ("basis", "liquid from"),
     ("ice_free_altitudes_ft", "candidate ice-free altitudes [ft]"),
 )
+
+#: Summary keys not shown as columns (the caution is shown top and bottom).
+_NOT_COLUMNS = ("route", "airframe", "caution", "candidate_altitudes_wording")
 
 _CANDIDATES_HEAD = (
     "Candidate altitudes with less icing \u2014 to check against official advisories; "
@@ -128,7 +137,7 @@ def _summary_table(items):
     keys = []
     for s in items:
         for k, v in (getattr(s, "summary", None) or {}).items():
-            if k not in ("route", "airframe") and _scalar(v) and k not in keys:
+            if k not in _NOT_COLUMNS and _scalar(v) and k not in keys:
                 keys.append(k)
     head = "".join(_cell(h.replace("_", " "), tag="th") for h in ["route", "airframe"] + keys)
     rows = []
@@ -219,21 +228,6 @@ def _picture(draw, screening, fmt, tmpdir, name, dpi):
     return f"data:{mime};base64,{data}"
 
 
-def _check_report_path(path):
-    path = pathlib.Path(path)
-    if path.suffix.lower() not in (".html", ".htm"):
-        raise InputError(
-            f"report format {path.suffix or '(none)'!r} not supported",
-            path=path,
-            fix="name the report *.html",
-        )
-    if not path.parent.is_dir():
-        raise InputError(
-            "the folder for the report does not exist", path=path, fix=f"create {path.parent}"
-        )
-    return path
-
-
 def write_report(
     screenings,
     path,
@@ -280,7 +274,7 @@ def write_report(
         When the suffix is not ``.html``, the folder does not exist or the picture
         format is unknown.
     """
-    path = _check_report_path(path)
+    path, _ = _check_output_path(path, ("html", "htm"), what="report")
     if picture_format not in ("png", "svg"):
         raise InputError(
             f"picture format {picture_format!r} not supported",
@@ -335,7 +329,8 @@ def write_report(
             extra = {
                 k: v
                 for k, v in (s.summary or {}).items()
-                if not _scalar(v) and k != "candidate_altitudes"  # shown in its own table
+                # candidate altitudes have their own table
+                if not _scalar(v) and not k.startswith("candidate_altitudes")
             }
             if extra:
                 parts.append("<h3>Route summary details</h3>" + _kv(extra))

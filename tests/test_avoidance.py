@@ -8,6 +8,7 @@ hand); none is a physical check value.
 from __future__ import annotations
 
 import dataclasses
+import json
 
 import numpy as np
 import pytest
@@ -225,6 +226,9 @@ def test_flight_levels_on_pressure_altitude():
 def test_annotate_segments_fills_properties_and_summary():
     scr = make_screening()
     results = annotate_segments(scr)
+    json.dumps(results, allow_nan=False)  # goes into GeoJSON and the sibling JSON as is
+    assert results[0]["text"].startswith(results[0]["segment_id"])
+    assert "above: 9000 ft" in results[0]["text"] and "not advice to fly" in results[0]["text"]
     icing = [f["properties"] for f in scr.segments if f["properties"]["kind"] == "icing"]
     assert len(results) == len(icing) > 0
     for p in icing:
