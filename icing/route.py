@@ -484,8 +484,10 @@ def sample_route(route, *, step_km=1.0, max_step_s=20.0, max_step_ft=100.0, tas_
         times included) is shifted to start then.
     wind : callable, optional
         ``wind(lat, lon, altitude_m, time) -> (u, v)`` [m/s] on arrays (time as
-        datetime64[ms]); turns airspeed into ground speed on legs timed by the
-        airspeed (not between timed waypoints). NaN winds count as calm.
+        datetime64[ms]; ``altitude_m`` an approximate height above mean sea
+        level: AGL plus the route's ``ground_elevation_m``, pressure altitude as
+        it is); turns airspeed into ground speed on legs timed by the airspeed
+        (not between timed waypoints). NaN winds count as calm.
     default_tas_kt : float, optional
         True airspeed for legs without any other (e.g. the airframe's cruise
         speed). [kt]
@@ -654,7 +656,10 @@ def sample_route(route, *, step_km=1.0, max_step_s=20.0, max_step_ft=100.0, tas_
         interval_start = rel[:-1][i_leg][windy]
         t_mid = start + interval_start + 0.5 * sub_dur[windy]
         t_mid64 = np.round(t_mid * 1000.0).astype(np.int64).astype("datetime64[ms]")
-        u, v = wind(np.asarray(la), lo, alt[kk] + f * dz[kk], t_mid64)
+        z_mid = alt[kk] + f * dz[kk]
+        if route.altitude_reference == "agl":  # the wind is read by height above sea level
+            z_mid = z_mid + (route.ground_elevation_m or 0.0)
+        u, v = wind(np.asarray(la), lo, z_mid, t_mid64)
         u = np.nan_to_num(np.broadcast_to(np.asarray(u, dtype=float), kk.shape), nan=0.0)
         v = np.nan_to_num(np.broadcast_to(np.asarray(v, dtype=float), kk.shape), nan=0.0)
         tas_here = tas_leg[kk]

@@ -440,3 +440,17 @@ def test_invariants_on_random_routes(points, tas):
     assert np.all((s.lon >= -180.0) & (s.lon < 180.0))
     assert np.all((s.altitude_m >= min(p[2] for p in points) - 1e-6)
                   & (s.altitude_m <= max(p[2] for p in points) + 1e-6))
+
+
+def test_wind_is_read_at_an_msl_height_for_agl_routes():
+    seen = []
+
+    def probe(lat, lon, alt, time):
+        seen.append(np.asarray(alt))
+        return np.zeros(np.shape(lat)), np.zeros(np.shape(lat))
+
+    drone = Route("agl", [Waypoint("JORVE", 57.2, -24.5, 100.0, "agl"),
+                          Waypoint("MAKTI", 57.2, -24.45, 100.0, "agl")],
+                  departure_time=DEPARTURE, true_airspeed_kt=30.0, ground_elevation_m=250.0)
+    sample_route(drone, wind=probe)
+    assert seen[0] == pytest.approx(350.0)

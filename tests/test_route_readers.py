@@ -87,7 +87,8 @@ def test_regional_dispatch_climbs_and_descends_within_its_band():
     ft = np.array([w.altitude_m for w in r.waypoints]) / FT
     assert ft.max() == pytest.approx(14000) and 8000 <= ft[1:-1].min()
     assert ft[0] < ft[3] > ft[-1]
-    assert r.true_airspeed_kt == 250 and r.departure_time.isoformat() == "2027-01-14T09:00:00+00:00"
+    assert r.true_airspeed_kt == 250
+    assert r.departure_time.isoformat() == "2027-01-14T09:00:00+00:00"
 
 
 def test_drone_inspection_has_agl_altitudes_times_and_a_hover():
