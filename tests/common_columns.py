@@ -126,3 +126,69 @@ def stack(*columns):
         out[k] = np.stack([np.broadcast_to(np.asarray(c.get(k, 0.0), float), shape)
                            for c in columns])
     return out
+
+
+def _hydrostatic_pressure(height, temperature, *, surface_pressure=101325.0):
+    """Pressure [Pa] of ascending levels by integrating dp/p = -g dz / (Rd T) (trapezoid)."""
+    from icing.constants import RD, G
+
+    z = np.asarray(height, dtype=float)
+    t = np.asarray(temperature, dtype=float)
+    layer = G / RD * np.diff(z, axis=-1) * 0.5 * (1.0 / t[..., 1:] + 1.0 / t[..., :-1])
+    lnp = np.concatenate([np.zeros(z.shape[:-1] + (1,)), -np.cumsum(layer, axis=-1)], axis=-1)
+    return surface_pressure * np.exp(lnp)
+
+
+def sld_warm_nose_column(*, cold_layer="shallow", precipitation_rate_mm_h=1.0):
+    """A +3 C warm nose aloft over a sub-freezing surface layer, on height levels.
+
+    ``cold_layer="shallow"``: -3 C at the ground, 0 C at 500 m, the warm nose between
+    500 and 2000 m (peak +3 C at 1250 m), then -6.5 K/km above.
+    ``cold_layer="deep"``: -10 C at the ground, 0 C at 1500 m, the same warm nose
+    between 1500 and 3000 m (peak +3 C at 2250 m). Levels every 250 m to 5 km;
+    saturated (RH 1, a cloud deck) above the warm nose, RH 0.97 below; no explicit
+    cloud water. Carries ``height`` (pressure integrated hydrostatically from
+    1013.25 hPa at the ground).
+    """
+    z = np.arange(0.0, 5001.0, 250.0)
+    if cold_layer == "shallow":
+        base, t_sfc = 500.0, -3.0
+    elif cold_layer == "deep":
+        base, t_sfc = 1500.0, -10.0
+    else:
+        raise ValueError(f"cold_layer must be 'shallow' or 'deep'; got {cold_layer!r}")
+    top = base + 1500.0
+    tc = np.interp(z, [0.0, base, base + 750.0, top], [t_sfc, 0.0, 3.0, 0.0])
+    tc = np.where(z > top, -6.5e-3 * (z - top), tc)
+    t = tc + T0
+    return {"pressure": _hydrostatic_pressure(z, t), "height": z, "temperature": t,
+            "relative_humidity": np.where(z > top, 1.0, 0.97),
+            "precipitation_rate_mm_h": float(precipitation_rate_mm_h)}
+
+
+def sld_drizzle_deck_column(*, top_c=-6.0, lwc_top_g_m3=0.8, ice_above_g_kg=0.0):
+    """A 600 m supercooled stratus deck under a dry inversion, no melting layer.
+
+    Cloud from 400 to 1000 m, ``top_c`` at its top, warming 5 K/km downward through
+    the cloud and below it to the ground (``top_c + 5`` C at the ground). Cloud
+    water rises linearly from 0 at base to ``lwc_top_g_m3`` at top (given as
+    ``cloud_liquid`` [kg/kg]). Above the top a dry (RH 0.4) inversion 4 K warmer,
+    then -6.5 K/km from 1100 m; no level above 0 C for ``top_c <= -5``.
+    ``ice_above_g_kg`` puts cloud ice in the levels from 1100 to 2000 m (a seeding
+    cloud above, RH 0.95 there). Levels every 100 m to 3 km; no precipitation rate.
+    """
+    from icing.constants import RD
+
+    z = np.arange(0.0, 3001.0, 100.0)
+    base, top = 400.0, 1000.0
+    tc = top_c + 5e-3 * (top - z)
+    tc = np.where(z > top, top_c + 4.0 - 6.5e-3 * np.maximum(z - top - 100.0, 0.0), tc)
+    t = tc + T0
+    p = _hydrostatic_pressure(z, t)
+    in_cloud = (z >= base) & (z <= top)
+    ice = np.where((z >= 1100.0) & (z <= 2000.0), ice_above_g_kg * 1e-3, 0.0)
+    rh = np.where(in_cloud, 1.0, np.where(z < base, 0.9, np.where(ice > 0.0, 0.95, 0.4)))
+    lwc = np.where(in_cloud, lwc_top_g_m3 * 1e-3 * (z - base) / (top - base), 0.0)
+    return {"pressure": p, "height": z, "temperature": t, "relative_humidity": rh,
+            "cloud_liquid": lwc / (p / (RD * t)), "cloud_ice": ice,
+            "precipitation_rate_mm_h": 0.0}

@@ -1,0 +1,362 @@
+"""Checks of icing.sld: freezing rain (Bourgouin 2000) and freezing drizzle (warm rain).
+
+The columns are invented fixtures (tests/common_columns.py), never check values;
+each check names the physics it stands on. Expected numbers are labelled
+published, derived (from the formulas by hand), regression or from memory.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from common_columns import sld_drizzle_deck_column, sld_warm_nose_column
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from icing import codes
+from icing.constants import CP_AIR, RD, T0
+from icing.droplets import marshall_palmer, marshall_palmer_from_lwc
+from icing.sld import (
+    DRIZZLE_LWC_MIN,
+    FZDZ_DMAX,
+    FZRA_DMAX,
+    appendix_o_class,
+    bourgouin_layer_areas,
+    diagnose_sld,
+    khairoutdinov_kogan_autoconversion,
+)
+
+PT = {name: i for i, name in enumerate(codes.PRECIP_TYPES)}
+
+
+def _layers(mask, z, t):
+    """Top temperature, top and base height of the cloud layer holding each level (1-D)."""
+    n = mask.size
+    ctt, cth, cbh = (np.full(n, np.nan) for _ in range(3))
+    i = 0
+    while i < n:  # test helper on one short column
+        if mask[i]:
+            j = i
+            while j + 1 < n and mask[j + 1]:
+                j += 1
+            ctt[i : j + 1], cth[i : j + 1], cbh[i : j + 1] = t[j], z[j], z[i]
+            i = j + 1
+        else:
+            i += 1
+    return ctt, cth, cbh
+
+
+def sld_inputs(col, *, number_cm3=50.0, **overrides):
+    """diagnose_sld arguments for a fixture column: cloud where liquid or RH >= 1."""
+    rho = col["pressure"] / (RD * col["temperature"])
+    ql = col.get("cloud_liquid", np.zeros_like(rho))
+    mask = (ql > 0.0) | (col["relative_humidity"] >= 1.0)
+    ctt, cth, cbh = _layers(mask, col["height"], col["temperature"])
+    kw = dict(
+        relative_humidity=col["relative_humidity"],
+        cloud=mask,
+        lwc=ql * rho,
+        droplet_number=np.full_like(rho, number_cm3 * 1e6),
+        cloud_top_temperature=ctt,
+        cloud_top_height=cth,
+        cloud_base_height=cbh,
+        precipitation_rate_mm_h=col["precipitation_rate_mm_h"],
+    )
+    if "cloud_ice" in col:
+        kw["cloud_ice"] = col["cloud_ice"]
+    kw.update(overrides)
+    return (col["pressure"], col["temperature"], col["height"]), kw
+
+
+def run(col, **kw):
+    args, kwargs = sld_inputs(col, **kw)
+    return diagnose_sld(*args, **kwargs)
+
+
+# --------------------------------------------------------------------------------------
+# Bourgouin areas and the autoconversion law
+# --------------------------------------------------------------------------------------
+def test_layer_area_isothermal_warm_layer():
+    # derived: for an isothermal layer ln(theta_t/theta_b) = kappa ln(p_b/p_t), so
+    # A = c_p (T - T0) kappa ln(p_b / p_t) (Bourgouin 2000 area form, from memory).
+    pa, na = bourgouin_layer_areas(85000.0, T0 + 2.0, 75000.0, T0 + 2.0)
+    assert float(pa) == pytest.approx(CP_AIR * 2.0 * RD / CP_AIR * np.log(85 / 75))
+    assert float(na) == 0.0
+
+
+def test_layer_area_crossing_zero_is_split():
+    # derived: T linear in ln(theta) from -1 to +3 C: the warm part holds 3^2/(2*4) of
+    # the mean-temperature integral, the cold part 1^2/(2*4); their difference is the
+    # signed mean (T_b + T_t)/2 = 1 K.
+    pa, na = bourgouin_layer_areas(90000.0, T0 - 1.0, 85000.0, T0 + 3.0)
+    th = np.log((T0 + 3.0) / (T0 - 1.0)) + RD / CP_AIR * np.log(90 / 85)
+    assert float(pa) == pytest.approx(CP_AIR * 9 / 8 * th)
+    assert float(na) == pytest.approx(CP_AIR * 1 / 8 * th)
+    assert float(pa - na) == pytest.approx(CP_AIR * 1.0 * th)
+
+
+def test_khairoutdinov_kogan_exponents():
+    # published: Khairoutdinov & Kogan (2000) dq_r/dt = 1350 q_c^2.47 N_c^-1.79
+    # (kg/kg/s, N_c in cm-3); check the law's value and its exponents.
+    base = khairoutdinov_kogan_autoconversion(5e-4, 50e6)
+    assert float(base) == pytest.approx(1350 * 5e-4**2.47 * 50**-1.79, rel=1e-12)
+    assert float(khairoutdinov_kogan_autoconversion(1e-3, 50e6) / base) == pytest.approx(2**2.47)
+    assert float(khairoutdinov_kogan_autoconversion(5e-4, 100e6) / base) == pytest.approx(
+        2**-1.79
+    )
+    assert float(khairoutdinov_kogan_autoconversion(0.0, 50e6)) == 0.0
+    assert np.isnan(khairoutdinov_kogan_autoconversion(5e-4, 0.0))
+
+
+# --------------------------------------------------------------------------------------
+# Freezing rain
+# --------------------------------------------------------------------------------------
+def test_warm_nose_over_shallow_cold_layer_gives_freezing_rain():
+    # Bourgouin (2000), thresholds from memory: the warm nose's PA (~80 J/kg, regression)
+    # exceeds the 13.2 J/kg of complete melting and the shallow layer's NA (~44 J/kg)
+    # stays below 46 + 0.66 PA: the drops reach the ground liquid.
+    col = sld_warm_nose_column(cold_layer="shallow")
+    d = run(col)
+    cold_below = (col["temperature"] <= T0) & (col["height"] <= 500.0)
+    assert np.all(d.sld_class[cold_below] == codes.SLD_RAIN)
+    assert np.all(d.sld_class[~cold_below] == codes.SLD_NONE)
+    assert d.precip_type == PT["freezing-rain"]
+    assert d.melting_area == pytest.approx(80.2, abs=0.5)  # regression
+    assert d.refreezing_area == pytest.approx(43.8, abs=0.5)  # regression
+    assert d.refreezing_area < 46.0 + 0.66 * d.melting_area
+    # drop sizes: Marshall & Palmer (1948) at the 1 mm/h rate (derived D0 = 0.90 mm)
+    q, d0 = marshall_palmer(1.0)
+    np.testing.assert_allclose(d.sld_lwc[cold_below], q)
+    np.testing.assert_allclose(d.sld_mvd[cold_below], d0)
+    assert np.all(d.sld_dmax[cold_below] <= FZRA_DMAX)
+    assert np.all(d.sld_dmax[cold_below] >= d0)
+
+
+def test_warm_nose_over_deep_cold_layer_gives_ice_pellets():
+    # Bourgouin (2000), from memory: NA > 66 + 0.66 PA -> ice pellets at the ground.
+    # Near the warm layer's base the drops have not yet refrozen (NA so far below the
+    # line): supercooled rain there is what ice pellets at the ground imply aloft.
+    col = sld_warm_nose_column(cold_layer="deep")
+    d = run(col)
+    assert d.precip_type == PT["ice-pellets"]
+    assert d.refreezing_area > 66.0 + 0.66 * d.melting_area
+    assert d.sld_class[0] == codes.SLD_NONE  # none at the ground
+    z = col["height"]
+    lower = z <= 500.0
+    assert np.all(d.sld_class[lower] == codes.SLD_NONE)  # refrozen in the lower cold layer
+    # where rain is flagged it is inside the cold layer, just under the warm nose
+    flagged = d.sld_class == codes.SLD_RAIN
+    assert flagged.any()
+    assert np.all((z[flagged] > 500.0) & (z[flagged] <= 1500.0))
+    assert np.all(col["temperature"][flagged] <= T0)
+
+
+def test_warm_nose_without_precipitation_gives_none():
+    col = sld_warm_nose_column(precipitation_rate_mm_h=0.0)
+    d = run(col)
+    assert np.all(d.sld_class == codes.SLD_NONE)
+    assert d.precip_type == PT["none"]
+
+
+def test_precipitation_inferred_from_cloud_only_without_precipitation_fields():
+    # with neither a rate nor rain/snow fields, cloud above the warm nose counts as
+    # precipitating (conservative), at the stated nominal 1 mm/h
+    col = sld_warm_nose_column()
+    d = run(col, precipitation_rate_mm_h=None)
+    assert np.any(d.sld_class == codes.SLD_RAIN)
+    no_cloud = run(col, precipitation_rate_mm_h=None, cloud=np.zeros(col["height"].shape, bool))
+    assert np.all(no_cloud.sld_class == codes.SLD_NONE)
+
+
+def test_freezing_rain_below_cloud_base_in_clear_air():
+    # SLD is not gated by the cloud mask: rain falls through clear air below cloud base
+    col = sld_warm_nose_column()
+    args, kw = sld_inputs(col)
+    assert not kw["cloud"][col["height"] <= 2000.0].any()  # clear below 2 km
+    d = diagnose_sld(*args, **kw)
+    clear_cold = (~kw["cloud"]) & (col["temperature"] <= T0) & (col["height"] <= 500.0)
+    assert clear_cold.any() and np.all(d.sld_class[clear_cold] == codes.SLD_RAIN)
+
+
+def test_model_rain_content_wins_over_the_rate():
+    # the model's rain content sets the drop sizes where present (Marshall-Palmer
+    # inverted for Lambda); the rate fills only levels without model rain
+    col = sld_warm_nose_column(precipitation_rate_mm_h=5.0)
+    z = col["height"]
+    rain = np.where(z <= 250.0, 2e-4, 0.0)  # 0.2 g/kg in the lowest two levels only
+    d = run(col, rain=rain)
+    rho = col["pressure"] / (RD * col["temperature"])
+    low = z <= 250.0
+    np.testing.assert_allclose(d.sld_lwc[low], rain[low] * rho[low])
+    np.testing.assert_allclose(d.sld_mvd[low], marshall_palmer_from_lwc(rain[low] * rho[low])[0])
+    lvl = z == 500.0
+    np.testing.assert_allclose(d.sld_lwc[lvl], marshall_palmer(5.0)[0])
+
+
+# --------------------------------------------------------------------------------------
+# Freezing drizzle
+# --------------------------------------------------------------------------------------
+def test_warm_topped_low_number_deck_gives_freezing_drizzle():
+    # Huffman & Norman (1988): warm top (-6 C), no ice aloft; Rasmussen et al. (2002):
+    # low droplet number; Khairoutdinov & Kogan (2000) autoconversion over 30 min
+    # gives ~0.04 g/m3 of drizzle at 50 cm-3 (regression), above the 0.01 g/m3 threshold.
+    col = sld_drizzle_deck_column(top_c=-6.0)
+    d = run(col, number_cm3=50.0)
+    z = col["height"]
+    in_and_below = z <= 1000.0
+    assert np.all(d.sld_class[in_and_below] == codes.SLD_DRIZZLE)  # down to the ground
+    assert np.all(d.sld_class[~in_and_below] == codes.SLD_NONE)
+    assert d.precip_type == PT["freezing-drizzle"]
+    assert float(d.drizzle_content.max()) * 1e3 == pytest.approx(0.040, abs=0.003)  # regression
+    assert np.all(d.sld_dmax[in_and_below] == FZDZ_DMAX)
+    mvd = d.sld_mvd[in_and_below]
+    assert np.all((mvd > 40e-6) & (mvd < FZDZ_DMAX))
+    # LWC bounded by the Appendix O drizzle envelope (0.18-0.29 g/m3, from memory)
+    assert np.all(d.sld_lwc[in_and_below] <= 0.29e-3)
+
+
+def test_many_droplets_suppress_drizzle():
+    # Rasmussen et al. (2002): drizzle needs low droplet numbers; at 300 cm-3 the
+    # autoconversion is (300/50)^1.79 = 25 times slower (K&K exponent, derived)
+    col = sld_drizzle_deck_column(top_c=-6.0)
+    d = run(col, number_cm3=300.0)
+    assert np.all(d.sld_class == codes.SLD_NONE)
+    assert float(d.drizzle_content.max()) < DRIZZLE_LWC_MIN
+
+
+def test_cold_topped_deck_gives_no_drizzle():
+    # Huffman & Norman (1988): tops colder than about -10 to -12 C glaciate; no warm rain
+    col = sld_drizzle_deck_column(top_c=-25.0)
+    d = run(col, number_cm3=50.0)
+    assert np.all(d.sld_class == codes.SLD_NONE)
+
+
+def test_ice_falling_into_the_deck_gives_no_drizzle():
+    # Huffman & Norman (1988): no ice cloud aloft seeding the deck
+    col = sld_drizzle_deck_column(top_c=-6.0, ice_above_g_kg=0.05)
+    d = run(col, number_cm3=50.0)
+    assert np.all(d.sld_class == codes.SLD_NONE)
+
+
+def test_drizzle_time_scale_scales_content():
+    col = sld_drizzle_deck_column()
+    a = run(col, drizzle_time_scale_s=900.0).drizzle_content.max()
+    b = run(col, drizzle_time_scale_s=1800.0).drizzle_content.max()
+    assert float(b / a) == pytest.approx(2.0)  # linear in the time scale, by construction
+
+
+# --------------------------------------------------------------------------------------
+# Vectorisation, level order, gaps
+# --------------------------------------------------------------------------------------
+def _stacked():
+    cols = [
+        sld_warm_nose_column(cold_layer="shallow"),
+        sld_warm_nose_column(cold_layer="deep"),
+        sld_warm_nose_column(precipitation_rate_mm_h=0.0),
+    ]
+    singles = [run(c) for c in cols]
+    parts = [sld_inputs(c) for c in cols]
+    args = tuple(np.stack([p[0][i] for p in parts]) for i in range(3))
+    kw = {k: np.stack([np.asarray(p[1][k]) for p in parts]) for k in parts[0][1]}
+    return singles, args, kw
+
+
+def test_vectorised_over_columns_matches_single_columns():
+    singles, args, kw = _stacked()
+    d = diagnose_sld(*args, **kw)
+    assert d.sld_class.shape == (3, 21) and d.precip_type.shape == (3,)
+    for i, s in enumerate(singles):
+        np.testing.assert_array_equal(d.sld_class[i], s.sld_class)
+        np.testing.assert_allclose(d.sld_lwc[i], s.sld_lwc)
+        np.testing.assert_allclose(d.sld_mvd[i], s.sld_mvd)
+        assert d.precip_type[i] == s.precip_type
+        assert d.melting_area[i] == pytest.approx(s.melting_area)
+    # (2, 3, level): any leading shape
+    d2 = diagnose_sld(
+        *(np.broadcast_to(a, (2,) + a.shape) for a in args),
+        **{k: np.broadcast_to(v, (2,) + v.shape) for k, v in kw.items()},
+    )
+    np.testing.assert_array_equal(d2.sld_class[1], d.sld_class)
+    assert d2.precip_type.shape == (2, 3)
+
+
+def test_levels_in_either_order():
+    col = sld_warm_nose_column()
+    args, kw = sld_inputs(col)
+    d = diagnose_sld(*args, **kw)
+    rev = {k: (v[::-1] if np.ndim(v) == 1 else v) for k, v in kw.items()}
+    r = diagnose_sld(*(a[::-1] for a in args), **rev)
+    np.testing.assert_array_equal(r.sld_class, d.sld_class[::-1])
+    np.testing.assert_allclose(r.sld_lwc, d.sld_lwc[::-1])
+    assert r.precip_type == d.precip_type
+
+
+def test_nan_level_is_a_gap_and_all_nan_column_is_a_gap():
+    col = sld_warm_nose_column()
+    args, kw = sld_inputs(col)
+    t = args[1].copy()
+    t[10] = np.nan
+    d = diagnose_sld(args[0], t, args[2], **kw)
+    assert d.sld_class[10] == codes.GAP and np.isnan(d.sld_lwc[10])
+    assert not d.complete
+    assert np.all(d.sld_class[:3] == codes.SLD_RAIN)  # the rest is still diagnosed
+    nan = np.full_like(t, np.nan)
+    g = diagnose_sld(args[0], nan, args[2], **kw)
+    assert np.all(g.sld_class == codes.GAP) and g.precip_type == codes.GAP
+    assert np.isnan(g.melting_area)
+
+
+def test_below_ground_levels_are_excluded():
+    col = sld_warm_nose_column()
+    args, kw = sld_inputs(col)
+    below = col["height"] < 250.0  # ground at 250 m: the lowest level is underground
+    d = diagnose_sld(*args, **kw, below_ground=below)
+    assert d.sld_class[0] == codes.SLD_NONE and d.sld_lwc[0] == 0.0
+    assert np.all(d.sld_class[1:3] == codes.SLD_RAIN)
+    assert d.complete
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    t_sfc=st.floats(-15.0, 5.0),
+    nose=st.floats(-5.0, 8.0),
+    nose_z=st.floats(600.0, 3000.0),
+    rate=st.floats(0.0, 10.0),
+    n_cm3=st.floats(20.0, 500.0),
+)
+def test_sld_only_at_or_below_freezing(t_sfc, nose, nose_z, rate, n_cm3):
+    # physical law: supercooled drops exist only where T <= 0 C; LWC >= 0 everywhere
+    z = np.arange(0.0, 5001.0, 250.0)
+    tc = np.interp(z, [0.0, nose_z, nose_z + 1500.0, 6000.0], [t_sfc, nose, -8.0, -40.0])
+    t = T0 + tc
+    p = 101325.0 * np.exp(-z / 8000.0)
+    cloud = (z >= 1000.0) & (z <= 2500.0)
+    ctt, cth, cbh = _layers(cloud, z, t)
+    lwc = np.where(cloud, 5e-4, 0.0)
+    d = diagnose_sld(
+        p, t, z, relative_humidity=np.ones_like(z), cloud=cloud, lwc=lwc,
+        droplet_number=np.full_like(z, n_cm3 * 1e6), cloud_top_temperature=ctt,
+        cloud_top_height=cth, cloud_base_height=cbh, precipitation_rate_mm_h=rate,
+    )  # fmt: skip
+    assert np.all(d.sld_class[t > T0] == codes.SLD_NONE)
+    assert np.all(d.sld_lwc >= 0.0)
+    sld = d.sld_class > 0
+    assert np.all(np.isfinite(d.sld_mvd[sld])) and np.all(np.isnan(d.sld_mvd[~sld]))
+
+
+# --------------------------------------------------------------------------------------
+# Appendix O words
+# --------------------------------------------------------------------------------------
+def test_appendix_o_class_words():
+    # 14 CFR 25 Appendix O: drizzle and rain environments, each split at MVD 40 um
+    c = np.array([codes.SLD_NONE, codes.SLD_DRIZZLE, codes.SLD_DRIZZLE, codes.SLD_RAIN,
+                  codes.SLD_RAIN, codes.GAP])  # fmt: skip
+    mvd = np.array([np.nan, 30e-6, 140e-6, 35e-6, 900e-6, np.nan])
+    assert appendix_o_class(c, mvd).tolist() == [
+        "none",
+        "freezing-drizzle MVD<40um",
+        "freezing-drizzle MVD>40um",
+        "freezing-rain MVD<40um",
+        "freezing-rain MVD>40um",
+        "gap",
+    ]
