@@ -74,6 +74,9 @@ _FEET_LIKE_M = 20_000.0  # no icing-relevant flight above ~65,000 ft
 _FEET_LIKE_AGL_M = 1_500.0  # drone-class (AGL) routes stay far below 5,000 ft AGL
 _LOWEST_M = -1_000.0  # below the lowest land surface (Dead Sea, ~-430 m)
 _EPOCH = datetime(1970, 1, 1, tzinfo=UTC)
+# waypoint times implying more ground speed look wrong (common practice, no source:
+# subsonic aircraft with a jet-stream tail wind stay below ~750 kt)
+_FASTEST_GROUND_SPEED = 800.0 * KT
 
 
 @dataclass(frozen=True)
@@ -251,6 +254,9 @@ def parse_time(value, *, path=None, where=None, what="time"):
     '2027-01-14T08:00:00+00:00'
     """
     if isinstance(value, np.datetime64):
+        if np.isnat(value):
+            raise RouteError(f"{what} is NaT (not a time)", path=path, where=where,
+                             fix="give a time like 2027-01-14T09:00:00Z")
         ms = value.astype("datetime64[ms]").astype(np.int64)
         return _EPOCH + timedelta(milliseconds=int(ms))
     if isinstance(value, datetime):
@@ -590,6 +596,12 @@ def sample_route(route, *, step_km=1.0, max_step_s=20.0, max_step_ft=100.0, tas_
         duration[free] = np.where(path3[free] > 0, path3[free] / tas_leg[free], 0.0)
         implied = np.where(duration > 0, path3 / duration, 0.0)
     tas_leg = np.where(np.isnan(tas_leg), implied, tas_leg)
+    fast = anchored & (implied > _FASTEST_GROUND_SPEED)
+    if np.any(fast):
+        i = int(np.flatnonzero(fast)[0])
+        warn_plausibility(f"route {route.name!r}: the waypoint times imply "
+                          f"{implied[i] / KT:.0f} kt over the ground from {name[i]} to "
+                          f"{name[i + 1]}; check the times")
 
     # subdivisions ------------------------------------------------------------
     def parts(x):

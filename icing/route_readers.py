@@ -82,10 +82,12 @@ def read_routes(path):
     if p.is_dir():
         raise RouteError("is a directory, not a route file", path=path, fix=_FORMAT_FIX)
     raw = p.read_bytes()
+    encoding = "utf-16" if raw[:2] in (b"\xff\xfe", b"\xfe\xff") else "utf-8-sig"
     try:
-        text = raw.decode("utf-8-sig")
+        text = raw.decode(encoding)
     except UnicodeDecodeError as err:
-        raise RouteError(f"not a UTF-8 text file (byte {err.start})", path=path,
+        raise RouteError(f"not a UTF-8 (or UTF-16 with BOM) text file (byte {err.start})",
+                         path=path,
                          fix=_FORMAT_FIX) from None
     text = text.lstrip("\ufeff")
     if not text.strip():
@@ -418,10 +420,11 @@ def read_csv_routes(text, *, path=None):
     head_line, header = rows[0]
     header = [h.lower() for h in header]
     if not {"lat", "lon"} <= set(header) or len(set(header)) != len(header):
+        separator = " separated by commas, not semicolons" if ";" in header[0] else ""
         raise RouteError(f"header {','.join(header)[:80]!r} is not a route header", path=path,
                          where=f"line {head_line}",
                          fix="start with the header name,lat,lon,altitude_ft[,time] "
-                         "(unique column names)")
+                         f"(unique column names{separator})")
     if "altitude_ft" not in header and "flight_level" not in header:
         raise RouteError("header has no altitude_ft or flight_level column (missing altitude)",
                          path=path, where=f"line {head_line}",

@@ -454,3 +454,18 @@ def test_wind_is_read_at_an_msl_height_for_agl_routes():
                   departure_time=DEPARTURE, true_airspeed_kt=30.0, ground_elevation_m=250.0)
     sample_route(drone, wind=probe)
     assert seen[0] == pytest.approx(350.0)
+
+
+def test_times_implying_an_impossible_ground_speed_warn():
+    t0 = DEPARTURE
+    r = Route("typo", [Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
+                       Waypoint("PENTU", 57.0, -15.0, 2500.0, time=t0 + timedelta(minutes=6))])
+    with pytest.warns(PlausibilityWarning, match="kt over the ground"):
+        sample_route(r)
+
+
+def test_nat_departure_is_refused():
+    with pytest.raises(RouteError, match="NaT"):
+        sample_route(STRAIGHT_ROUTE, departure=np.datetime64("NaT"))
+    s = sample_route(STRAIGHT_ROUTE, departure=np.datetime64("2027-01-14T07:00"))
+    assert s.time[0] == np.datetime64("2027-01-14T07:00:00.000")

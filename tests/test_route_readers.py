@@ -245,6 +245,18 @@ def test_csv_route_column_gives_several_routes(tmp_path):
                                                                                    "south"]
 
 
+def test_csv_in_utf16_as_spreadsheets_write_it(tmp_path):
+    text = "name,lat,lon,altitude_ft\nA,57,-25,5000\nB,57,-24,5000\n"
+    path = write_text(tmp_path, "excel.csv", text, encoding="utf-16")
+    assert [w.name for w in load_route(path).waypoints] == ["A", "B"]
+
+
+def test_csv_with_semicolons_gets_a_hint(tmp_path):
+    text = "name;lat;lon;altitude_ft\nA;57;-25;5000\nB;57;-24;5000\n"
+    with pytest.raises(RouteError, match="commas, not semicolons"):
+        load_routes(write_text(tmp_path, "semi.csv", text))
+
+
 def test_csv_content_without_known_extension(tmp_path):
     text = "name,lat,lon,altitude_ft\nA,57,-25,5000\nB,57,-24,5000\n"
     assert len(load_route(write_text(tmp_path, "plan.route", text)).waypoints) == 2
@@ -419,7 +431,7 @@ def test_unknown_extension_with_unrecognisable_content(tmp_path):
         load_routes(write_text(tmp_path, "x.route", "just some words\n"))
     with pytest.raises(RouteError, match="not a UTF-8"):
         p = tmp_path / "x.bin"
-        p.write_bytes(b"\xff\xfe\x00\x81garbage")
+        p.write_bytes(b"\x81\xff garbage")
         load_routes(p)
     with pytest.raises(RouteError, match="directory"):
         load_routes(tmp_path)
