@@ -56,6 +56,7 @@ source, [M] from memory, [C] common practice, no source, [O] our choice):
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 
 import numpy as np
@@ -114,6 +115,8 @@ _DMAX_OVER_D0 = float(special.gammaincinv(4.0, 0.999) / special.gammaincinv(4.0,
 #: Drizzle population MVD: an exponential spectrum whose Dmax is FZDZ_DMAX [O].
 _FZDZ_MVD = FZDZ_DMAX / _DMAX_OVER_D0
 _KAPPA = RD / CP_AIR
+_BLOCK_LEVELS = 200_000  # levels per block of columns (bounds the temporaries' memory)
+_PT = {name: i for i, name in enumerate(codes.PRECIP_TYPES)}
 
 
 @dataclass(frozen=True)
@@ -409,7 +412,9 @@ def diagnose_sld(
     freezing drizzle, else ice pellets (warm layer above but refrozen), else snow
     (precipitation, warm layer absent or with ``PA < PA_SNOW``); warm surface: snow if
     there is cold air aloft and the surface warm layer's area is below
-    ``PA_SURFACE_SNOW``, else rain. The three-layer cases of Bourgouin (warm layer
+    ``PA_SURFACE_SNOW``, else rain. Snow and rain need evidence of precipitation (a
+    rate or model rain/snow); cloud alone never makes them, only the melting-layer
+    inference for freezing rain and ice pellets. The three-layer cases of Bourgouin (warm layer
     over a cold one over a warm surface layer) are reduced to the surface layer.
 
     References
@@ -446,10 +451,57 @@ def diagnose_sld(
     shape = np.broadcast_shapes(p_in.shape, t_in.shape, z_in.shape, np.shape(cloud))
     if len(shape) == 0:
         raise ValueError("diagnose_sld needs arrays with a level axis (..., level)")
+    level = {
+        "pressure": p_in,
+        "temperature": t_in,
+        "height": z_in,
+        "relative_humidity": relative_humidity,
+        "cloud": cloud,
+        "lwc": lwc,
+        "droplet_number": droplet_number,
+        "cloud_top_temperature": cloud_top_temperature,
+        "cloud_top_height": cloud_top_height,
+        "cloud_base_height": cloud_base_height,
+        "rain": rain,
+        "snow": snow,
+        "cloud_ice": cloud_ice,
+        "valid": valid,
+        "below_ground": below_ground,
+    }
+    args = {k: (None if v is None else np.broadcast_to(v, shape)) for k, v in level.items()}
+    args["precipitation_rate_mm_h"] = (
+        None
+        if precipitation_rate_mm_h is None
+        else np.broadcast_to(np.asarray(precipitation_rate_mm_h, dtype=float), shape[:-1])
+    )
+    tau = float(drizzle_time_scale_s)
+    # blocks of columns along the first axis bound the memory of the temporaries
+    rows = max(1, _BLOCK_LEVELS // int(np.prod(shape[1:])))
+    if len(shape) == 1 or shape[0] <= rows:
+        return _diagnose_block(args, tau)
+    parts = [
+        _diagnose_block(
+            {k: (None if v is None else v[i : i + rows]) for k, v in args.items()}, tau
+        )
+        for i in range(0, shape[0], rows)
+    ]
+    return SLDDiagnosis(
+        **{
+            f.name: np.concatenate([getattr(b, f.name) for b in parts], axis=0)
+            for f in dataclasses.fields(SLDDiagnosis)
+        }
+    )
+
+
+def _diagnose_block(a, drizzle_time_scale_s):
+    """Diagnose one block of columns (``a``: broadcast arrays or None, see diagnose_sld)."""
+    p_in, t_in, z_in = a["pressure"], a["temperature"], a["height"]
+    shape = p_in.shape
     nlev = shape[-1]
-    p_in, t_in, z_in = (np.broadcast_to(a, shape) for a in (p_in, t_in, z_in))
-    valid_in = _level_array(valid, shape, True, bool)
-    below_in = _level_array(below_ground, shape, False, bool)
+    rain, snow = a["rain"], a["snow"]
+    precipitation_rate_mm_h = a["precipitation_rate_mm_h"]
+    valid_in = _level_array(a["valid"], shape, True, bool)
+    below_in = _level_array(a["below_ground"], shape, False, bool)
     finite = np.isfinite(p_in) & np.isfinite(t_in) & np.isfinite(z_in) & (p_in > 0)
     usable_in = valid_in & finite & ~below_in
     gap_in = ~usable_in & ~below_in
@@ -458,21 +510,22 @@ def diagnose_sld(
     order = np.argsort(np.where(usable_in, z_in, np.inf), axis=-1, kind="stable")
     inverse = np.argsort(order, axis=-1, kind="stable")
 
-    def srt(x, default=np.nan, dtype=float):
-        return _take(_level_array(x, shape, default, dtype), order)
+    def srt(name, default=np.nan, dtype=float):
+        return _take(_level_array(a[name], shape, default, dtype), order)
 
     u = _take(usable_in, order)
     p = np.where(u, _take(p_in, order), np.nan)
     t = np.where(u, _take(t_in, order), np.nan)
-    cld = srt(cloud, False, bool) & u
-    qliq = srt(lwc)
-    ndrop = srt(droplet_number)
-    ctt = srt(cloud_top_temperature)
-    cth = srt(cloud_top_height)
-    cbh = srt(cloud_base_height)
-    rain_s = srt(rain, 0.0)
-    snow_s = srt(snow, 0.0)
-    ice_s = srt(cloud_ice, 0.0)
+    cld = srt("cloud", False, bool) & u
+    qliq = srt("lwc")
+    ndrop = srt("droplet_number")
+    ctt = srt("cloud_top_temperature")
+    cth = srt("cloud_top_height")
+    cbh = srt("cloud_base_height")
+    rain_s = srt("rain", 0.0)
+    snow_s = srt("snow", 0.0)
+    ice_s = srt("cloud_ice", 0.0)
+    n_use = u.sum(axis=-1)
     idx = np.broadcast_to(np.arange(nlev), shape)
     n_use = u.sum(axis=-1)
 
@@ -564,20 +617,21 @@ def diagnose_sld(
     t0 = t[..., 0]
     cold_sfc = has & (t0 <= T0)
     warm_sfc = has & (t0 > T0)
-    pr0 = (
-        precip[..., 0] | (rate > PRECIP_RATE_MIN) | hydro.any(-1) | (no_info[..., 0] & cld.any(-1))
-    )
+    # precipitation evidence at the ground: a rate or model hydrometeors; cloud alone
+    # only through the melting-layer inference (``precip``), never as snow or rain
+    evidence = (rate > PRECIP_RATE_MIN) | hydro.any(-1)
     kc0 = first_cold[..., 0]
     pa_sfc = _take(cpos, np.clip(kc0, 0, nlev - 1)[..., None])[..., 0]
     cold_aloft = kc0 < nlev
     liquid_drizzle_0 = drizzle[..., 0] >= DRIZZLE_LWC_MIN
-    ptype = np.full(shape[:-1], 0, dtype=int)
-    ptype = np.where(cold_sfc & pr0, 2, ptype)  # snow
-    ptype = np.where(cold_sfc & pr0 & melted[..., 0] & ~fzra[..., 0], 3, ptype)  # pellets
-    ptype = np.where(cold_sfc & fzdz[..., 0], 5, ptype)  # freezing drizzle
-    ptype = np.where(cold_sfc & fzra[..., 0], 4, ptype)  # freezing rain
-    warm_type = np.where(cold_aloft & (pa_sfc < PA_SURFACE_SNOW), 2, 1)
-    ptype = np.where(warm_sfc & (pr0 | liquid_drizzle_0), warm_type, ptype)
+    ptype = np.full(shape[:-1], _PT["none"], dtype=int)
+    ptype = np.where(cold_sfc & evidence, _PT["snow"], ptype)
+    refrozen = precip[..., 0] & melted[..., 0] & ~fzra[..., 0]
+    ptype = np.where(cold_sfc & refrozen, _PT["ice-pellets"], ptype)
+    ptype = np.where(cold_sfc & fzdz[..., 0], _PT["freezing-drizzle"], ptype)
+    ptype = np.where(cold_sfc & fzra[..., 0], _PT["freezing-rain"], ptype)
+    warm_type = np.where(cold_aloft & (pa_sfc < PA_SURFACE_SNOW), _PT["snow"], _PT["rain"])
+    ptype = np.where(warm_sfc & (evidence | liquid_drizzle_0), warm_type, ptype)
     ptype = np.where(has, ptype, codes.GAP)
     melting = np.where(cold_sfc, pa[..., 0], np.where(warm_sfc, pa_sfc, np.nan))
     refreezing = np.where(cold_sfc, na[..., 0], np.where(warm_sfc, 0.0, np.nan))

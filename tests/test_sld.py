@@ -360,3 +360,25 @@ def test_appendix_o_class_words():
         "freezing-rain MVD>40um",
         "gap",
     ]
+
+
+def test_blocks_of_columns_give_the_same_answer(monkeypatch):
+    # the column blocks that bound memory must not change any result
+    import icing.sld as sld_module
+
+    _, args, kw = _stacked()
+    whole = diagnose_sld(*args, **kw)
+    monkeypatch.setattr(sld_module, "_BLOCK_LEVELS", 25)  # one column per block
+    blocked = diagnose_sld(*args, **kw)
+    for name in ("sld_class", "sld_lwc", "sld_mvd", "sld_dmax", "precip_type", "melting_area"):
+        np.testing.assert_array_equal(getattr(blocked, name), getattr(whole, name))
+
+
+def test_cloud_alone_is_not_snow_or_rain_at_the_ground():
+    # without a rate or model precipitation a stratus deck is not a snowfall: the
+    # cloud-only inference serves the melting-layer (freezing rain) case alone
+    col = sld_drizzle_deck_column(top_c=-6.0)
+    d = run(col, number_cm3=300.0, precipitation_rate_mm_h=None)
+    assert d.precip_type == PT["none"]
+    d = run(col, number_cm3=300.0, precipitation_rate_mm_h=0.5)
+    assert d.precip_type == PT["snow"]
