@@ -10,7 +10,9 @@ to "severe", and every severity also has its own hatch (cross-section) or line
 width and dash (map); SLD, coverage gaps and the ground have their own
 patterns and legend entries, so no information is carried by colour alone.
 
-SVG output keeps text as text (``svg.fonttype = none``); the caution and the
+SVG output keeps text and lines as vectors (``svg.fonttype = none``) and
+embeds the shaded fields as an image (rasterised at the ``dpi``), so that long
+routes stay small; the caution and the
 legend carry the element ids ``caution`` and ``legend`` so that tools (and the
 tests) can find them.
 """
@@ -216,6 +218,7 @@ def _mask_fill(ax, x, y, mask, *, hatch, hatch_colour, zorder):
     else:  # older matplotlib: the hatch takes the edge colour
         cs.set_edgecolor(hatch_colour)
     cs.set_linewidth(0.0)
+    cs.set_rasterized(True)  # fields as an image, lines and text stay vector (small SVG)
     return cs
 
 
@@ -244,8 +247,154 @@ def _props(feature):
     return feature.get("properties", feature) if isinstance(feature, dict) else {}
 
 
+def _candidate_runs(seg_props, join_km):
+    """Nearest clear candidates as runs: adjacent stretches with the same one are merged.
+
+    Returns a list of ``(side, altitude_ft, flight_level, start_km, end_km)``.
+    """
+    items = []
+    for p in seg_props:
+        opts = p.get("vertical_options") or {}
+        if p.get("kind") != "icing":
+            continue
+        for side in ("above", "below"):
+            o = opts.get(side)
+            if o and o.get("clear"):
+                items.append(
+                    (
+                        side,
+                        float(o["altitude_ft"]),
+                        o.get("flight_level"),
+                        float(p["start_km"]),
+                        float(p["end_km"]),
+                    )
+                )
+    items.sort(key=lambda t: (t[0], t[1], t[3]))
+    runs = []
+    for it in items:
+        last = runs[-1] if runs else None
+        if last and last[:2] == it[:2] and it[3] <= last[4] + join_km:
+            runs[-1] = (*last[:4], max(last[4], it[4]))
+        else:
+            runs.append(it)
+    return runs
+
+
+def _draw_candidates(ax, seg_props, x):
+    """Mark candidate ice-free altitudes; return True when any was drawn.
+
+    Every clear altitude of a stretch is a short tick at its middle; the nearest
+    clear altitudes above and below are a dashed line across the stretch (one per
+    run of adjacent stretches sharing it) with a triangle and a label.
+    """
+    drawn = False
+    for p in seg_props:
+        alts = p.get("ice_free_altitudes_ft") or []
+        if p.get("kind") != "icing" or not alts:
+            continue
+        mid = 0.5 * (float(p["start_km"]) + float(p["end_km"]))
+        ax.plot(
+            np.full(len(alts), mid),
+            alts,
+            linestyle="none",
+            marker="_",
+            markersize=9,
+            markeredgewidth=1.6,
+            color=_CANDIDATE_COLOUR,
+            zorder=9,
+        )
+        drawn = True
+    spacing = float(np.median(np.diff(x))) if x.size > 1 else 0.0
+    for side, h, fl, a, b in _candidate_runs(seg_props, join_km=2.5 * spacing):
+        mid = 0.5 * (a + b)
+        up = side == "above"
+        ax.hlines(
+            [h],
+            a,
+            max(b, a + 1e-3),
+            colors=_CANDIDATE_COLOUR,
+            linewidths=1.2,
+            linestyles=[(0, (2, 2))],
+            zorder=6,
+        )
+        ax.plot(
+            [mid],
+            [h],
+            marker="^" if up else "v",
+            markersize=7,
+            color=_CANDIDATE_COLOUR,
+            markeredgecolor="black",
+            zorder=9,
+        )
+        ax.annotate(
+            f"{h:.0f} ft" if fl is None else f"FL{int(fl):03d}",
+            (mid, h),
+            xytext=(0, 5 if up else -5),
+            textcoords="offset points",
+            ha="center",
+            va="bottom" if up else "top",
+            fontsize=6,
+            color="black",
+            zorder=9,
+            bbox=_TEXT_BOX,
+        )
+        drawn = True
+    return drawn
+
+
+def _altitude_top_ft(y, fy, seg_props):
+    """Top of the picture [ft]: enough above the path and the candidates, within the curtain."""
+    top = float(y[-1])
+    if fy is None or not np.isfinite(fy).any():
+        return top
+    high = float(np.nanmax(fy))
+    want = max(3.0 * high, high + 3000.0)
+    for p in seg_props:
+        for o in (p.get("vertical_options") or {}).values():
+            if isinstance(o, dict) and o.get("altitude_ft") is not None:
+                want = max(want, float(o["altitude_ft"]) + 1000.0)
+    return max(min(top, want), high + 500.0)  # the path is always inside
+
+
+def _label_gaps(ax, x, y, gap, y_bottom, y_top):
+    """Label each stretch of coverage gap once, on its tallest visible band."""
+    span = x[-1] - x[0] if x.size > 1 else 1.0
+    runs = _runs(gap.any(axis=1))
+    if not runs:
+        return
+    widest = max(runs, key=lambda r: x[r[1] - 1] - x[r[0]])
+    visible = (y >= y_bottom) & (y <= y_top)
+    for a, b in runs:
+        width = x[b - 1] - x[a]
+        if width < 0.015 * span and (a, b) != widest:
+            continue  # too narrow to carry a label; the legend names the pattern
+        bands = _runs(gap[a:b].any(axis=0) & visible)
+        if not bands:
+            continue
+        lo, hi = max(bands, key=lambda r: r[1] - r[0])
+        ax.text(
+            0.5 * (x[a] + x[b - 1]),
+            0.5 * (y[lo] + y[hi - 1]),
+            GAP_LABEL,
+            rotation=90 if width < 0.25 * span and (hi - lo) > 3 else 0,
+            ha="center",
+            va="center",
+            fontsize=7,
+            zorder=6,
+            gid="gap-label",
+            clip_on=True,
+            bbox={
+                "facecolor": "white",
+                "edgecolor": "#444444",
+                "alpha": 0.9,
+                "boxstyle": "round,pad=0.25",
+                "linewidth": 0.6,
+            },
+        )
+
+
 def plot_cross_section(
-    screening, path, *, title=None, figsize=(11.0, 6.5), dpi=150, candidates=True
+    screening, path, *, title=None, figsize=(11.0, 6.5), dpi=150, candidates=True, ylim_ft=None
 ):
     """Draw the route's vertical cross-section and write it as PNG or SVG.
 
@@ -272,6 +421,10 @@ def plot_cross_section(
         Resolution of PNG output. [1/in]
     candidates : bool
         Draw the candidate ice-free altitudes from the segment properties.
+    ylim_ft : (float, float), optional
+        Altitude range shown. [ft] Default: the curtain's bottom to its top, or
+        for low flights (drones) to three times the highest planned altitude,
+        at least 3,000 ft above it and above the nearest candidates.
 
     Returns
     -------
@@ -299,7 +452,7 @@ def plot_cross_section(
     cmap = ListedColormap([SEVERITY_COLOURS[k] for k in (1, 2, 3, 4)])
     norm = BoundaryNorm([0.5, 1.5, 2.5, 3.5, 4.5], cmap.N)
     ax.pcolormesh(
-        x, y, shown.T, cmap=cmap, norm=norm, shading="nearest", zorder=1, rasterized=fmt == "png"
+        x, y, shown.T, cmap=cmap, norm=norm, shading="nearest", zorder=1, rasterized=True
     )
     for k in (codes.SEV_LIGHT, codes.SEV_MODERATE, codes.SEV_SEVERE):
         _mask_fill(
@@ -316,31 +469,9 @@ def plot_cross_section(
             vmax=2,
             shading="nearest",
             zorder=1,
+            rasterized=True,
         )
         _mask_fill(ax, x, y, gap, hatch=_GAP_HATCH, hatch_colour=_GAP_HATCH_COLOUR, zorder=2)
-        for a, b in _runs(gap.any(axis=1)):
-            rows = np.flatnonzero(gap[a:b].any(axis=0))
-            xm = 0.5 * (x[a] + x[b - 1])
-            ym = 0.5 * (y[rows[0]] + y[rows[-1]])
-            narrow = (x[b - 1] - x[a]) < 0.25 * (x[-1] - x[0])
-            ax.text(
-                xm,
-                ym,
-                GAP_LABEL,
-                rotation=90 if narrow else 0,
-                ha="center",
-                va="center",
-                fontsize=7,
-                zorder=6,
-                gid="gap-label",
-                bbox={
-                    "facecolor": "white",
-                    "edgecolor": "#444444",
-                    "alpha": 0.9,
-                    "boxstyle": "round,pad=0.25",
-                    "linewidth": 0.6,
-                },
-            )
     # SLD: circle hatches with an outline.
     sld = np.asarray(cur.sld_class)
     for cls, hatch in _SLD_HATCH.items():
@@ -432,72 +563,14 @@ def plot_cross_section(
                     path_effects=[patheffects.withStroke(linewidth=6.0, foreground="white")],
                 )
     # Candidate ice-free altitudes of each icing segment.
-    have_candidates = False
-    if candidates:
-        for p in seg_props:
-            alts = p.get("ice_free_altitudes_ft") or []
-            if p.get("kind") != "icing" or not alts:
-                continue
-            a, b = float(p["start_km"]), float(p["end_km"])
-            mid = 0.5 * (a + b)
-            # Every clear altitude: a short tick at the middle of the stretch.
-            ax.plot(
-                np.full(len(alts), mid),
-                alts,
-                linestyle="none",
-                marker="_",
-                markersize=9,
-                markeredgewidth=1.6,
-                color=_CANDIDATE_COLOUR,
-                zorder=9,
-            )
-            # The nearest clear ones above and below: across the stretch, with a label.
-            opts = p.get("vertical_options") or {}
-            for side, mk, va in (("above", "^", "bottom"), ("below", "v", "top")):
-                o = opts.get(side)
-                if not (o and o.get("clear")):
-                    continue
-                h = float(o["altitude_ft"])
-                ax.hlines(
-                    [h],
-                    a,
-                    max(b, a + 1e-3),
-                    colors=_CANDIDATE_COLOUR,
-                    linewidths=1.2,
-                    linestyles=[(0, (2, 2))],
-                    zorder=6,
-                )
-                ax.plot(
-                    [mid],
-                    [h],
-                    marker=mk,
-                    markersize=7,
-                    color=_CANDIDATE_COLOUR,
-                    markeredgecolor="black",
-                    zorder=9,
-                )
-                label = (
-                    f"{h:.0f} ft"
-                    if o.get("flight_level") is None
-                    else (f"FL{int(o['flight_level']):03d}")
-                )
-                ax.annotate(
-                    label,
-                    (mid, h),
-                    xytext=(0, 5 if va == "bottom" else -5),
-                    textcoords="offset points",
-                    ha="center",
-                    va=va,
-                    fontsize=6,
-                    color="black",
-                    zorder=9,
-                    bbox=_TEXT_BOX,
-                )
-            have_candidates = True
+    have_candidates = _draw_candidates(ax, seg_props, x) if candidates else False
 
     # Axes, waypoints, labels.
     ax.set_xlim(x[0], x[-1])
-    ax.set_ylim(y[0], y[-1])
+    y_top = _altitude_top_ft(y, fy, seg_props) if ylim_ft is None else float(ylim_ft[1])
+    y_bottom = y[0] if ylim_ft is None else float(ylim_ft[0])
+    ax.set_ylim(y_bottom, y_top)
+    _label_gaps(ax, x, y, gap, y_bottom, y_top)
     ax.set_xlabel("distance along the route [km]")
     ax.set_ylabel("pressure altitude [ft]" if pressure else "altitude [ft MSL]")
     if pressure:

@@ -142,3 +142,17 @@ def test_nothing_half_written(tmp_path):
         _replace_atomically(target, broken)
     assert target.read_bytes() == b"old"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["keep.png"]
+
+
+def test_low_flights_get_a_closer_altitude_range():
+    from icing.plot import _altitude_top_ft
+
+    rows = np.arange(0.0, 12001.0, 500.0)
+    # A drone at 400 ft: three times its height, at least 3,000 ft above it.
+    assert _altitude_top_ft(rows, np.array([100.0, 400.0]), []) == 3400.0
+    # A nearest candidate higher up stays in view; the curtain top caps the range.
+    opts = [{"vertical_options": {"above": {"altitude_ft": 9000}}}]
+    assert _altitude_top_ft(rows, np.array([400.0]), opts) == 10000.0
+    assert _altitude_top_ft(rows, np.array([9000.0]), []) == 12000.0
+    # A path above the curtain is always inside the picture.
+    assert _altitude_top_ft(rows, np.array([13000.0]), []) == 13500.0
