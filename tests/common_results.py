@@ -97,7 +97,7 @@ def _segments(route, airframe, dist, lat, lon, alt_m, times, sev, sld, ice, rate
             "collection_efficiency_max": 0.6 if phys else None,
             "accretion_rate_mm_h_max": float(rate[sl].max()) if phys else None,
             "accretion_mm": float(rate[sl].mean() * dt_min / 60.0) if phys else None,
-            "ice_free_altitudes_ft": None,
+            "ice_free_altitudes_ft": [],
             "airframe": airframe,
             "caution": CAUTION,
         }

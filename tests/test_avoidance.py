@@ -238,7 +238,7 @@ def test_annotate_segments_fills_properties_and_summary():
         assert p["vertical_options"]["below"]["altitude_ft"] == 4000
         assert "official advisories" in p["vertical_options"]["basis"]
     gaps = [f["properties"] for f in scr.segments if f["properties"]["kind"] == "coverage-gap"]
-    assert gaps and all(p["ice_free_altitudes_ft"] is None for p in gaps)
+    assert gaps and all(p["ice_free_altitudes_ft"] == [] for p in gaps)
     assert all("vertical_options" not in p for p in gaps)
     assert len(scr.summary["candidate_altitudes"]) == len(icing)
     assert "not advice to fly" in scr.summary["candidate_altitudes_wording"]
