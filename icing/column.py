@@ -28,7 +28,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import clouds, codes, droplets, thermo
+from . import clouds, codes, droplets, sld, thermo
 from .constants import T0, T_HOMOGENEOUS
 from .errors import InputError
 
@@ -330,17 +330,13 @@ def diagnose_columns(pressure, temperature, *, dewpoint=None, relative_humidity=
 
 
 def _merge_warnings(warn_lists):
-    """Merge the chunk warnings (Appendix C counts added; notes kept once)."""
-    counts, notes = {}, []
+    """Merge the chunks' Appendix C counts into warning lines."""
+    counts = {}
     for warns in warn_lists:
         for key, value in warns.items():
-            if isinstance(value, str):
-                if value not in notes:
-                    notes.append(value)
-                continue
             c0, w0 = counts.get(key, (0, 0.0))
             counts[key] = (c0 + value[0], max(w0, value[1]))
-    return notes + clouds.appendix_c_warnings(counts)
+    return clouds.appendix_c_warnings(counts)
 
 
 def _diagnose_sorted(flat, cols, options):
@@ -494,7 +490,7 @@ def _diagnose_core(s, cols, o):
                 ice_radius=o.ice_crystal_radius_m, crystal_density=o.crystal_density_kg_m3,
                 residence_time=o.glaciation_residence_time_s)
         # --- SLD ---------------------------------------------------------------------------
-        sld = _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, o, warns)
+        sld_out = _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, o)
         # --- freezing level ----------------------------------------------------------------
         freezing = _freezing_level(t, z, air)
         # --- Appendix C ---------------------------------------------------------------------
@@ -507,7 +503,7 @@ def _diagnose_core(s, cols, o):
         "cloud_top_temperature": lay.top_temperature,
         "lwc": lwc, "lwc_model": lwc_model, "lwc_diagnosed": lwc_diag, "basis": basis,
         "glaciation": glac, "droplet_number": number, "mvd": mvd, "spectrum_shape": shape,
-        "freezing_level": freezing, **sld,
+        "freezing_level": freezing, **sld_out,
     }
     return out, warns
 
@@ -527,20 +523,9 @@ def _freezing_level(t, z, air):
     return np.where(any_cross, za + frac * (zb - za), np.nan)
 
 
-def _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, o, warns):
-    """Call ``icing.sld.diagnose_sld`` (ground-up arrays); outputs keyed by field name."""
-    try:
-        from . import sld as sld_module
-    except ImportError:
-        sld_module = None
-    if sld_module is None or not hasattr(sld_module, "diagnose_sld"):
-        warns["sld-missing"] = ("SLD not assessed: icing.sld is not available; sld_class "
-                                "0 here is not a finding of no SLD")
-        shape = p.shape
-        return {"sld_class": np.zeros(shape, np.int8), "sld_lwc": np.full(shape, np.nan),
-                "sld_mvd": np.full(shape, np.nan), "sld_dmax": np.full(shape, np.nan),
-                "precip_type": np.zeros(shape[:-1], np.int8)}
-    res = sld_module.diagnose_sld(
+def _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, o):
+    """Call :func:`icing.sld.diagnose_sld` on ground-up arrays; outputs keyed by field."""
+    res = sld.diagnose_sld(
         p, t, z, relative_humidity=rh, cloud=cloud, lwc=np.nan_to_num(lwc),
         droplet_number=number, cloud_top_temperature=lay.top_temperature,
         cloud_top_height=lay.top_height, cloud_base_height=lay.base_height,
@@ -551,4 +536,3 @@ def _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, o, warns):
             "sld_mvd": np.asarray(res.sld_mvd, float),
             "sld_dmax": np.asarray(res.sld_dmax, float),
             "precip_type": np.asarray(res.precip_type)}
-

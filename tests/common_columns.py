@@ -71,9 +71,11 @@ def supercooled_stratiform_deck():
 
 
 def warm_topped_drizzle_deck():
-    """A shallow deck with a warm top (-6 C) under a dry inversion: drizzle weather.
+    """A shallow deck with a warm top (-6 C) under a dry inversion, no model cloud water.
 
-    Saturated 950-850 hPa (-1 to -6 C), dry and warmer above; no ice aloft.
+    Saturated 950-850 hPa (-1 to -6 C), dry and warmer above; no ice aloft. Its
+    diagnosed liquid (~0.5 g/m3 at the top) sits below the freezing-drizzle gates at
+    maritime droplet numbers; ``sld_drizzle_deck_column`` is the drizzling case.
     """
     p = PRESSURE_40
     ph = p / 100.0

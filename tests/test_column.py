@@ -10,6 +10,7 @@ from common_columns import (
     all_nan_column,
     cold_dry_column,
     deep_frontal_deck_with_ice,
+    sld_drizzle_deck_column,
     stack,
     supercooled_stratiform_deck,
     thin_minus8_deck,
@@ -89,3 +90,178 @@ def test_basis_codes_are_known():
     d = diagnose_columns(**stack(*(f() for f in ALL)))
     assert set(np.unique(d.basis)) <= {codes.BASIS_NONE, codes.BASIS_MODEL,
                                        codes.BASIS_DIAGNOSED}
+
+
+# --- liquid: bounds, limits, basis ---------------------------------------------------------
+
+def test_lwc_nonnegative_and_none_below_homogeneous_freezing():
+    # physical laws: LWC >= 0; no liquid below homogeneous freezing (about -38 C, textbook
+    # -40 C; Rogers & Yau 1989 ch. 8) -- model liquid there is discarded too
+    cols = stack(*(f() for f in ALL))
+    d = diagnose_columns(**cols)
+    assert np.all(d.lwc[np.isfinite(d.lwc)] >= 0.0)
+    t = np.linspace(250.0, 225.0, 40)
+    p = np.linspace(60000.0, 25000.0, 40)
+    cold = diagnose_columns(p, t, relative_humidity=np.ones(40),
+                            cloud_liquid=np.full(40, 3e-4))
+    assert np.all(cold.lwc[t <= 233.15] == 0.0)
+    assert np.all(cold.lwc_model[t <= 235.15] == 0.0)
+    assert np.all(cold.basis[t <= 235.15] == codes.BASIS_NONE)
+    assert np.any(cold.lwc[t > 240.0] > 0.0)
+
+
+def test_model_liquid_larger_wins_and_is_never_added():
+    # DESIGN.md rule (conservative screening): the larger of model and diagnosed liquid,
+    # never their sum, with its basis
+    col = supercooled_stratiform_deck()
+    lots = dict(col, cloud_liquid=np.where(col["cloud_liquid"] > 0, 1.5e-3, 0.0))
+    d = diagnose_columns(**lots)
+    inside = d.cloud & (d.lwc_model > 0)
+    assert np.all(d.basis[inside] == codes.BASIS_MODEL)
+    np.testing.assert_allclose(d.lwc[inside], np.maximum(d.lwc_model, d.lwc_diagnosed)[inside])
+    little = dict(col, cloud_liquid=np.where(col["cloud_liquid"] > 0, 1e-6, 0.0))
+    d2 = diagnose_columns(**little)
+    deck = d2.cloud & (d2.lwc > 0)
+    assert np.all(d2.basis[deck] == codes.BASIS_DIAGNOSED)
+    np.testing.assert_allclose(d2.lwc[deck], d2.lwc_diagnosed[deck])
+    # model liquid kg/kg -> kg/m3 with the air density (p / Rd Tv)
+    rho = d.pressure / (287.0475 * d.temperature)
+    np.testing.assert_allclose(d.lwc_model[inside], 1.5e-3 * rho[inside], rtol=5e-3)
+
+
+def test_deep_column_lwc_bounded():
+    # common practice, no source: a 3 km saturated deck must not integrate to several
+    # g/m3 (sub-adiabatic factor after Braun et al. 2018 and Warner 1955); bound 1.5 g/m3
+    p = np.linspace(95000.0, 60000.0, 36)
+    t = np.linspace(273.15, 255.0, 36)
+    d = diagnose_columns(p, t, relative_humidity=np.ones(36))
+    assert d.cloud.all()
+    depth = d.cloud_top_height[0] - d.cloud_base_height[0]
+    assert depth > 3000.0
+    assert np.nanmax(d.lwc) < 1.5e-3
+
+
+def test_below_ground_levels_masked():
+    # DEVELOPERS.md contract: levels under the ground are flagged and carry no liquid
+    col = supercooled_stratiform_deck()
+    d = diagnose_columns(**col, surface_pressure=92000.0)
+    assert np.array_equal(d.below_ground, col["pressure"] > 92000.0)
+    assert not d.cloud[d.below_ground].any() and np.isnan(d.lwc[d.below_ground]).all()
+    ground = float(np.interp(92000.0, col["pressure"][::-1], diagnose_columns(
+        **col).height[::-1]))
+    dh = diagnose_columns(**col, surface_height=ground)
+    np.testing.assert_array_equal(dh.below_ground, d.below_ground)
+
+
+def test_heights_anchored_at_the_surface():
+    # regression of the hypsometric anchor: with surface pressure and height both given,
+    # the surface pressure sits at the surface height
+    col = supercooled_stratiform_deck()
+    d = diagnose_columns(**col, surface_pressure=100000.0, surface_height=250.0)
+    assert d.height[0] == pytest.approx(250.0, abs=0.01)
+
+
+def test_freezing_level():
+    # physical definition: lowest 0 C crossing; the stratiform deck crosses between
+    # 1000 hPa (+1 C) and 900 hPa (-4 C)
+    d = diagnose_columns(**supercooled_stratiform_deck())
+    z0 = float(d.freezing_level)
+    i = np.argmax(d.temperature <= T0)
+    assert d.height[i - 1] < z0 <= d.height[i]
+    assert np.isnan(diagnose_columns(**cold_dry_column()).freezing_level)
+
+
+# --- droplets ------------------------------------------------------------------------------
+
+def test_droplet_number_maritime_vs_continental_climatology():
+    # from memory: stratiform droplet number ~75 /cm3 marine, ~290 /cm3 continental
+    # (Miles et al. 2000, J. Atmos. Sci. 57, 295). Factor 2: their means come with
+    # standard deviations near the mean, and the updraft here is an assumed 0.25 m/s.
+    col = supercooled_stratiform_deck()
+    mar = diagnose_columns(**col, options=ColumnOptions(air_mass="maritime"))
+    con = diagnose_columns(**col, options=ColumnOptions(air_mass="continental"))
+    n_mar = np.nanmax(mar.droplet_number) / 1e6
+    n_con = np.nanmax(con.droplet_number) / 1e6
+    assert 75 / 2 <= n_mar <= 75 * 2
+    assert 290 / 2 <= n_con <= 290 * 2
+    # physical law: same liquid, more droplets -> smaller MVD
+    assert np.nanmax(con.mvd) < np.nanmax(mar.mvd)
+    # held constant up the layer
+    inside = mar.cloud & np.isfinite(mar.droplet_number)
+    assert np.ptp(mar.droplet_number[inside]) == 0.0
+
+
+def test_updraft_floor_by_cloud_type():
+    # stated defaults (ColumnOptions): stratiform floor 0.1 m/s, convective 1.0 m/s; a
+    # layer with |w| >= 1 m/s is convective and activates more droplets
+    col = supercooled_stratiform_deck()
+    calm = diagnose_columns(**dict(col, vertical_velocity=np.zeros(40)),
+                            options=ColumnOptions(subgrid_updraft_m_s=0.0))
+    conv = diagnose_columns(**dict(col, vertical_velocity=np.where(
+        col["cloud_liquid"] > 0, 1.2, 0.0)), options=ColumnOptions(subgrid_updraft_m_s=0.0))
+    assert np.nanmax(conv.droplet_number) > 2 * np.nanmax(calm.droplet_number)
+
+
+def test_default_air_mass_is_the_conservative_maritime():
+    # stated choice: maritime (fewer droplets -> larger MVD) is the default
+    o = ColumnOptions()
+    assert o.air_mass == "maritime"
+    assert "conservative" in o.describe()["air_mass_default_reason"]
+    with pytest.raises(InputError, match="air_mass"):
+        ColumnOptions(air_mass="volcanic")
+
+
+# --- glaciation ------------------------------------------------------------------------------
+
+def test_glaciation_deep_frontal_deck_with_ice_above_is_high():
+    # physical reasoning (seeder-feeder; Korolev & Mazin 2003): a deep -25 C deck with snow
+    # falling into it
+    d = diagnose_columns(**deep_frontal_deck_with_ice())
+    deck = d.cloud & (d.temperature < T0 - 20)
+    assert deck.any() and np.nanmin(d.glaciation[deck]) > 0.8
+    assert np.all(d.lwc[deck] == np.maximum(d.lwc_model, d.lwc_diagnosed)[deck])  # not thinned
+
+
+def test_glaciation_thin_minus8_deck_is_low():
+    # physical reasoning: few ice nuclei at -8 C (Meyers et al. 1992), no ice above
+    d = diagnose_columns(**thin_minus8_deck())
+    assert d.cloud.any() and np.nanmax(d.glaciation[d.cloud]) < 0.2
+    assert np.isnan(d.glaciation[~d.cloud]).all()
+
+
+def test_appendix_c_warning_in_the_output():
+    # 14 CFR 25 Appendix C continuous maximum (values from memory): 1.5 g/kg of model
+    # liquid in a -8 C stratiform deck passes it
+    col = supercooled_stratiform_deck()
+    d = diagnose_columns(**dict(col, cloud_liquid=np.where(col["cloud_liquid"] > 0, 1.5e-3,
+                                                           0.0)))
+    assert any("Appendix C continuous maximum" in w for w in d.warnings)
+    assert all(isinstance(w, str) for w in d.warnings)
+
+
+# --- SLD through the column ------------------------------------------------------------------
+
+def test_warm_nose_column_gives_freezing_rain_below_the_nose():
+    # Bourgouin (2000) via icing.sld: rain melted in the warm nose falls into a shallow
+    # sub-freezing surface layer as freezing rain -- also below cloud base (not gated by
+    # the cloud mask)
+    d = diagnose_columns(**warm_nose_column())
+    assert codes.PRECIP_TYPES[int(d.precip_type)] == "freezing-rain"
+    cold_below = (d.temperature <= T0) & (d.height < d.freezing_level + 1.0)
+    assert np.all(d.sld_class[cold_below] == codes.SLD_RAIN)
+    assert np.all(d.sld_lwc[d.sld_class == codes.SLD_RAIN] > 0)
+
+
+def test_drizzle_deck_through_the_column():
+    # warm-rain freezing drizzle (Huffman & Norman 1988; Khairoutdinov & Kogan 2000 via
+    # icing.sld): warm-topped deck, maritime droplet numbers, 0.8 g/m3 of model liquid
+    d = diagnose_columns(**sld_drizzle_deck_column())
+    assert np.any(d.sld_class == codes.SLD_DRIZZLE)
+    drizzle = d.sld_class == codes.SLD_DRIZZLE
+    assert np.all(np.isfinite(d.sld_mvd[drizzle]) & (d.sld_mvd[drizzle] > 0))
+
+
+def test_nan_column_sld_is_a_gap():
+    # a column without data is a coverage gap, never "no SLD"
+    d = diagnose_columns(**all_nan_column())
+    assert np.all(d.sld_class == codes.GAP) and int(d.precip_type) == codes.GAP
