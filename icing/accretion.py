@@ -58,6 +58,7 @@ References
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -66,11 +67,25 @@ from . import codes
 from .collection import (
     _model,
     _ratios_per_point,
+    _spectrum_fast,
     _spectrum_kernel,
     inertia_parameter,
     range_parameter,
+    spectrum_quadrature,
 )
-from .constants import CP_AIR, CP_WATER, EPSILON, LF0, LS0, LV0, PRANDTL_AIR, RHO_ICE, RV, T0
+from .constants import (
+    CP_AIR,
+    CP_WATER,
+    EPSILON,
+    LF0,
+    LS0,
+    LV0,
+    PRANDTL_AIR,
+    RHO_ICE,
+    RHO_WATER,
+    RV,
+    T0,
+)
 from .thermo import (
     air_conductivity,
     air_density,
@@ -112,6 +127,7 @@ TOLERANCE_MINUTES = (5.0, 20.0, 60.0)
 #: Floor of rime density. [kg m-3]
 RIME_DENSITY_MIN = 100.0
 
+_LOG_BRIDGE = np.log10(173.0 / 60.0)
 _PROTECTION_STEPS = {"none": 0, "de-ice": 1, "anti-ice": 2}
 
 
@@ -226,9 +242,15 @@ def evaporation_mass_flux(h_c, surface_vapor_pressure, ambient_vapor_pressure, *
     )
 
 
+@functools.lru_cache(maxsize=1)
+def _es_freezing():
+    """Return the saturation vapour pressure over water at 0 C [Pa]."""
+    return float(saturation_vapor_pressure(T0, phase="liquid"))
+
+
 def _glaze_fraction(t, v, m_imp, h_c, evap_coef, e_a, recovery_factor):
     """Messinger freezing fraction at T_s = 0 C in Anderson's (2004) form."""
-    e_f = 611.2  # saturation over water at 0 C (MetPy/Ambaum, 273.15 K) [Pa]
+    e_f = _es_freezing()  # saturation over water at 0 C [Pa]
     phi = T0 - t - v * v / (2.0 * CP_WATER)  # drop energy transfer term [K]
     evap = evap_coef * (e_f - e_a) * LV0  # evaporation term of theta [K]
     theta = (T0 - t - recovery_factor * v * v / (2.0 * CP_AIR)) + evap  # air energy term [K]
@@ -317,7 +339,7 @@ def _dry_surface_temperature(t, v, m_imp, h_c, evap_coef, e_a, recovery_factor, 
     t_r = t + recovery_factor * v * v / (2.0 * CP_AIR)
     gain = m_imp * (LF0 + 0.5 * v * v)  # latent heat of fusion + drop kinetic energy
     # first guess: sublimation at its 0 C value, linear balance in T_s
-    e_f = 611.2
+    e_f = _es_freezing()
     ts = (gain + h_c * t_r + m_imp * CP_WATER * t - h_c * evap_coef * (e_f - e_a) * LS0) / (
         h_c + m_imp * CP_WATER
     )
@@ -430,9 +452,11 @@ def ice_density(mvd, impact_speed, surface_temperature_, *, glaze=False, model="
     ``R = -MVD[um] v0 / (2 Ts[C])`` with ``v0`` the drop impact speed (we use the
     free-stream speed at the section, an upper bound of the impact speed: it
     over-states ``R`` and the density, i.e. under-states thickness slightly).
-    Outside the fit's range the density is held at the fit's edge value
-    (``R < 1``: the value at ``R = 1``, 378 kg/m3; ``R > 60``: the value at 60,
-    874 kg/m3), then bounded to [100, 917] kg/m3. ``model="macklin"`` uses
+    Outside the fit's range: ``R < 1`` holds the value at ``R = 1`` (378 kg/m3; no
+    extrapolation); ``R > 60`` bridges (ours) linearly in ``log10 R`` from the value
+    at 60 (874 kg/m3) to 917 kg/m3 at ``R = 173``, where the fit's own quadratic
+    reaches solid ice, so the density runs continuously into wet growth. The
+    result is bounded to [100, 917] kg/m3. ``model="macklin"`` uses
     Macklin (1962) where ``1 <= R <= 10`` and Makkonen-Stallabrass elsewhere.
 
     Parameters
@@ -454,8 +478,8 @@ def ice_density(mvd, impact_speed, surface_temperature_, *, glaze=False, model="
 
     Examples
     --------
-    >>> round(float(ice_density(20e-6, 60.0, 263.15)), 0)
-    873.0
+    >>> round(float(ice_density(20e-6, 20.0, 253.15)), 0)
+    721.0
     """
     if model not in ("makkonen", "macklin"):
         raise ValueError(f"unknown ice density model {model!r}; expected makkonen, macklin")
@@ -465,6 +489,12 @@ def ice_density(mvd, impact_speed, surface_temperature_, *, glaze=False, model="
     rho = rime_density_makkonen(rc)
     if model == "macklin":
         rho = np.where((r >= 1.0) & (r <= 10.0), rime_density_macklin62(rc), rho)
+    # bridge above R = 60 (ours): linear in log10 R from the fit's edge value to
+    # 917 kg/m3 at R = 173, where the fit's own curve reaches solid ice; this keeps
+    # the density continuous into wet growth (Ts -> 0 C, R -> infinity)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w = np.clip(np.log10(np.maximum(r, 60.0) / 60.0) / _LOG_BRIDGE, 0.0, 1.0)
+    rho = np.where(r > 60.0, rho + w * (RHO_ICE - rho), rho)
     rho = np.clip(rho, RIME_DENSITY_MIN, RHO_ICE)
     return np.where(np.asarray(glaze, bool), RHO_ICE, np.where(np.isnan(r), np.nan, rho))
 
@@ -503,8 +533,10 @@ def rate_severity(rate_mm_h):
     [0, 1, 2, 3, 4]
     """
     r = np.asarray(rate_mm_h, dtype=float)
-    sev = np.searchsorted(np.asarray(AIM_RATES_MM_H), r, side="right") + 1
-    return np.where(r > 0.0, sev, codes.SEV_NONE).astype(np.int8)
+    sev = (r > 0.0).astype(np.int8)
+    for bound in AIM_RATES_MM_H:
+        sev += r >= bound
+    return sev
 
 
 _FIELDS = (
@@ -570,43 +602,57 @@ class AirframeIcing:
     per_collector: dict = field(default_factory=dict)
 
 
-def _collector_icing(c, prot, tol_mm, v_air, t, p, rho, mu, h_c_fn, coef, e_a, lwc, mvd,
-                     ratios, fractions, sld_lwc, sld_mvd, sld_cls, sld_ratios, sld_fractions,
-                     model_fn, rh_ok, recovery_factor):
-    """All fields for one collector on flat arrays (n,)."""
+def _collector_icing(c, prot, tol_mm, st, recovery_factor):
+    """All fields for one collector on flat arrays (n,); ``st`` holds the air state."""
     d = float(c.diameter)
-    v = c.speed(v_air)
-    phi = range_parameter(d, v, rho, mu)
+    v = c.speed(st["v"])
+    lwc, sld_lwc = st["lwc"], st["sld_lwc"]
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        e, b0 = _spectrum_kernel(inertia_parameter(mvd, d, v, mu), phi, ratios, fractions,
-                                 model_fn)
+        if st["method"] == "table":
+            lv = np.log10(np.maximum(v, 1e-6))
+            ld = np.log10(d)
+            e, b0 = _spectrum_fast(st["lk0"] + lv - ld, st["lp0"] + lv + ld, st["shape"],
+                                   st["n_bins"], st["model"])
+        else:
+            phi = range_parameter(d, v, st["rho"], st["mu"])
+            e, b0 = _spectrum_kernel(inertia_parameter(st["mvd"], d, v, st["mu"]), phi,
+                                     st["ratios"], st["fractions"], st["model_fn"])
         e = np.where(lwc > 0.0, e * c.catch_factor, 0.0)
         b0 = np.where(lwc > 0.0, b0, 0.0)
         has_sld = sld_lwc > 0.0
         if np.any(has_sld):
-            es, bs = _spectrum_kernel(inertia_parameter(sld_mvd, d, v, mu), phi, sld_ratios,
-                                      sld_fractions, model_fn)
-            es = np.where(has_sld, es * c.catch_factor, 0.0)
-            bs = np.where(has_sld, bs, 0.0)
+            sel = has_sld
+            es = np.zeros_like(e)
+            bs = np.zeros_like(e)
+            vs = v[sel] if np.ndim(v) else np.broadcast_to(v, e.shape)[sel]
+            phi_s = range_parameter(d, vs, st["rho"][sel], st["mu"][sel])
+            k_s = inertia_parameter(st["sld_mvd"][sel], d, vs, st["mu"][sel])
+            es[sel], bs[sel] = _spectrum_kernel(k_s, phi_s, st["sld_ratios"],
+                                                st["sld_fractions"], st["model_fn"])
+            es *= c.catch_factor
         else:
             es = bs = np.zeros_like(e)
+        t, coef, e_a = st["t"], st["coef"], st["e_a"]
         flux_total = (e * lwc + es * sld_lwc) * v  # total catch per frontal area [kg m-2 s-1]
         m_imp = (b0 * lwc + bs * sld_lwc) * v  # stagnation impinging flux [kg m-2 s-1]
-        h_c = h_c_fn(d, v)
+        h_c = st["h_c"](d, v)
         n0 = _glaze_fraction(t, v, m_imp, h_c, coef, e_a, recovery_factor)
         freezes = m_imp > 0.0
         freezes &= n0 > 0.0
         dry = freezes & (n0 >= 1.0)
         ts = np.full_like(t, T0)
         if np.any(dry):
+            vd = np.broadcast_to(v, t.shape)[dry]
             ts[dry] = _dry_surface_temperature(
-                t[dry], v[dry], m_imp[dry], h_c[dry], coef[dry], e_a[dry], recovery_factor
+                t[dry], vd, m_imp[dry], h_c[dry], coef[dry], e_a[dry], recovery_factor
             )
-        mvd_eff = np.where(lwc > 0.0, mvd, sld_mvd)
+        mvd_eff = np.where(lwc > 0.0, st["mvd"], st["sld_mvd"])
         rho_i = np.where(freezes, ice_density(mvd_eff, v, ts, glaze=~dry), np.nan)
-        stag_rate = np.where(freezes, m_imp * np.minimum(n0, 1.0) / rho_i, 0.0) * 3.6e6
-        catch_rate = np.where(freezes, m_imp / rho_i, 0.0) * 3.6e6  # total-catch stagnation
-        outer_wing = np.where(freezes, flux_total / rho_i, 0.0) * 3.6e6
+        per_rho = np.where(freezes, 3.6e6 / rho_i, 0.0)  # kg m-2 s-1 -> mm/h of this ice
+        stag_rate = m_imp * np.minimum(n0, 1.0) * per_rho  # frozen at the stagnation line
+        catch_rate = m_imp * per_rho  # total catch at the stagnation line (runback freezes aft)
+        # equivalent outer-wing rate: caught mass as solid ice over the frontal height
+        outer_wing = np.where(freezes, flux_total * (3.6e6 / RHO_ICE), 0.0)
         ttt = np.where(freezes, 60.0 * tol_mm / catch_rate, np.inf)
     sev = rate_severity(outer_wing).astype(np.int16)
     step = _PROTECTION_STEPS[prot]
@@ -620,15 +666,16 @@ def _collector_icing(c, prot, tol_mm, v_air, t, p, rho, mu, h_c_fn, coef, e_a, l
         )
         sev = np.where(freezes, np.maximum(sev, floor), sev)
     sld_ice = freezes & has_sld & (bs > 0.0)
-    rain = sld_ice & (sld_cls == codes.SLD_RAIN)
-    drizzle = sld_ice & (sld_cls != codes.SLD_RAIN)
+    rain = sld_ice & (st["sld_class"] == codes.SLD_RAIN)
+    drizzle = sld_ice & (st["sld_class"] != codes.SLD_RAIN)
     sld_floor = {
         "none": (codes.SEV_SEVERE, codes.SEV_MODERATE),
         "de-ice": (codes.SEV_SEVERE, codes.SEV_SEVERE),
         "anti-ice": (codes.SEV_MODERATE, codes.SEV_MODERATE),
     }[prot]
-    sev = np.where(rain, np.maximum(sev, sld_floor[0]), sev)
-    sev = np.where(drizzle, np.maximum(sev, sld_floor[1]), sev)
+    if np.any(sld_ice):
+        sev = np.where(rain, np.maximum(sev, sld_floor[0]), sev)
+        sev = np.where(drizzle, np.maximum(sev, sld_floor[1]), sev)
     sev = np.where(freezes, np.maximum(sev, codes.SEV_TRACE), codes.SEV_NONE)
     return {
         "severity": sev.astype(np.int8),
@@ -641,7 +688,7 @@ def _collector_icing(c, prot, tol_mm, v_air, t, p, rho, mu, h_c_fn, coef, e_a, l
         "mass_rate": flux_total * d,
         "runback": freezes & (n0 < 1.0),
         "time_to_tolerance_min": ttt,
-        "_tie": np.where(freezes, catch_rate / tol_mm, 0.0),
+        "_tie": catch_rate / tol_mm,
     }
 
 
@@ -671,6 +718,7 @@ def airframe_icing(
     model="finstad88",
     n_bins=7,
     recovery_factor=1.0,
+    spectrum_method="table",
 ):
     """Icing of every collector of an airframe, and the airframe's severity.
 
@@ -713,6 +761,10 @@ def airframe_icing(
         Quadrature nodes of the spectra.
     recovery_factor : float
         Recovery factor at the stagnation line. [1]
+    spectrum_method : {"table", "direct"}
+        Cloud-drop collection from the precomputed spectrum table
+        (:func:`icing.collection.collection_table`, within 1e-3) or the direct
+        sum over the bins at every point.
 
     Returns
     -------
@@ -764,47 +816,65 @@ def airframe_icing(
     rho = air_density(p_w, t_w)
     mu = air_viscosity(t_w)
     kcond = air_conductivity(t_w)
-    coef = _evaporation_coefficient(p_w, t_w)
-    e_a = rh_w * saturation_vapor_pressure(t_w, phase="liquid")
-    ratios, fractions = _ratios_per_point(shape_w, n_bins, n)
-    sld_ratios, sld_fractions = _ratios_per_point(0.0, n_bins, n)
     pr04 = PRANDTL_AIR**0.4
 
-    def h_c_fn(d, v):
+    def h_c(d, v):
         return 1.14 * np.sqrt(rho * v * d / mu) * pr04 * kcond / d  # Nu = 1.14 Re^0.5 Pr^0.4
+
+    st = {
+        "v": v_w, "t": t_w, "rho": rho, "mu": mu, "lwc": lwc_w, "mvd": mvd_w,
+        "sld_lwc": sld_w, "sld_mvd": sld_mvd_w, "sld_class": cls_w, "h_c": h_c,
+        "model": model, "model_fn": fn,
+        "n_bins": n_bins, "method": spectrum_method, "shape": shape_w,
+        "coef": _evaporation_coefficient(p_w, t_w),
+        "e_a": rh_w * saturation_vapor_pressure(t_w, phase="liquid"),
+    }
+    st["sld_ratios"], st["sld_fractions"] = spectrum_quadrature(0.0, n_bins)
+    if spectrum_method == "table":
+        with np.errstate(divide="ignore"):
+            # log10 K - log10(V/D) and log10 phi - log10(V D)
+            st["lk0"] = 2.0 * np.log10(mvd_w) - np.log10(9.0 * mu / RHO_WATER)
+            st["lp0"] = np.log10(9.0 * rho * rho / (mu * RHO_WATER))
+    elif spectrum_method == "direct":
+        st["ratios"], st["fractions"] = _ratios_per_point(shape_w, n_bins, n)
+    else:
+        raise ValueError(f"unknown spectrum_method {spectrum_method!r}; expected table, direct")
 
     per = {}
     for c in airframe.collectors:
         prot = c.protection or airframe.ice_protection
         tol = c.ice_tolerance_mm if c.ice_tolerance_mm is not None else airframe.ice_tolerance_mm
-        per[c.name] = _collector_icing(
-            c, prot, float(tol), v_w, t_w, p_w, rho, mu, h_c_fn, coef, e_a, lwc_w, mvd_w,
-            ratios, fractions, sld_w, sld_mvd_w, cls_w, sld_ratios, sld_fractions, fn, rh_w,
-            recovery_factor,
-        )
+        per[c.name] = _collector_icing(c, prot, float(tol), st, recovery_factor)
     names = [c.name for c in airframe.collectors]
-    critical = np.array([c.critical for c in airframe.collectors])
     ref = names.index(airframe.reference)
-    sev_all = np.stack([per[nm]["severity"] for nm in names], axis=-1).astype(float)
-    tie = np.stack([per[nm]["_tie"] for nm in names], axis=-1)
-    score = sev_all + 0.5 * tie / (1.0 + tie)
-    score = np.where(critical, score, -1.0)
-    worst = np.argmax(score, axis=-1)
-    nothing = sev_all.max(axis=-1, where=critical, initial=0) <= 0
-    worst = np.where(nothing, ref, worst)
+    # worst critical collector: highest severity, ties to the one reaching its
+    # tolerance first; the reference collector where nothing ices
+    worst = np.full(n, ref, dtype=np.intp)
+    best = np.zeros(n)
+    for i, c in enumerate(airframe.collectors):  # collectors, not points
+        if not c.critical:
+            continue
+        tie = per[c.name].pop("_tie")
+        score = per[c.name]["severity"] + 0.5 * tie / (1.0 + tie)
+        better = score > best
+        worst[better] = i
+        best = np.maximum(best, score)
+    for c in airframe.collectors:
+        per[c.name].pop("_tie", None)
     out = {}
     for f in _FIELDS:
-        stack = np.stack([per[nm][f] for nm in names], axis=-1)
-        out[f] = np.take_along_axis(stack, worst[:, None], axis=-1)[:, 0]
-    sev = np.where(critical[worst], out["severity"], 0)
-    out["severity"] = np.where(gap, codes.GAP, sev).astype(np.int8)
+        pick = per[names[ref]][f]
+        for i, nm in enumerate(names):
+            if i != ref and airframe.collectors[i].critical:
+                pick = np.where(worst == i, per[nm][f], pick)
+        out[f] = pick
+    any_gap = bool(gap.any())
     for f in _FIELDS:
         for nm in names:
-            per[nm][f] = _mask_gap(per[nm][f], gap, f).reshape(shape)
-        if f != "severity":
+            a = _mask_gap(per[nm][f], gap, f) if any_gap else per[nm][f]
+            per[nm][f] = a.reshape(shape)
+        if any_gap:
             out[f] = _mask_gap(out[f], gap, f)
-    for nm in names:
-        per[nm].pop("_tie")
     return AirframeIcing(
         worst_collector=worst.reshape(shape),
         per_collector=per,

@@ -344,6 +344,9 @@ def airframe_from_dict(table: dict, *, path=None, source=None) -> Airframe:
     if ref not in names:
         raise AirframeError(f"'reference' names no collector: {ref!r}", path=path,
                             where=where, fix=f"use one of {', '.join(names)}")
+    if not collectors[names.index(ref)].critical:
+        raise AirframeError(f"the reference collector {ref!r} is not critical", path=path,
+                            where=where, fix="name a critical collector as reference")
     return Airframe(
         name=name,
         description=str(table.get("description", "")),
