@@ -163,10 +163,18 @@ def summary_table(summaries) -> str:
     lines.append("  ".join("-" * w for w in widths))
     for r in rows:
         lines.append("  ".join(str(c).ljust(w) for c, w in zip(r, widths, strict=True)))
+    shown = 3
     for s in summaries:
-        for cand in s.get("candidate_altitudes_ft") or []:
-            if isinstance(cand, dict) and cand.get("text"):
-                lines.append(f"  {s['route']}: {cand['text']}")
+        cands = [c for c in s.get("candidate_altitudes_ft") or [] if isinstance(c, dict)
+                 and c.get("text")]
+        if not cands:
+            continue
+        cands.sort(key=lambda c: -codes.SEVERITY.index(c.get("severity") or "none"))
+        lines.append(f"{s['route']}: candidate altitudes for the worst icing stretches:")
+        for cand in cands[:shown]:
+            lines.append(f"  {cand['text']}")
+        if len(cands) > shown:
+            lines.append(f"  ... {len(cands) - shown} more stretches in the summary JSON")
     lines.append("")
     lines.append(CAUTION)
     return "\n".join(lines)

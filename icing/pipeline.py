@@ -22,6 +22,9 @@ from .results import Curtain, RouteScreening
 
 __all__ = ["screen_route", "screen_routes", "read_off", "ScreenOptions", "diagnose_point"]
 
+#: Depth below a column's lowest level over which its values are held (near-surface air). [m]
+_EXTRAPOLATE_M = 300.0
+
 #: Fields of ColumnDiagnosis interpolated linearly in the vertical.
 _LINEAR = (
     "temperature",
@@ -121,6 +124,12 @@ def read_off(diag, column_index, target, *, reference="msl"):
     with np.errstate(invalid="ignore", divide="ignore"):
         w = np.clip((tz - z_lo) / (z_hi - z_lo), 0.0, 1.0)
     inside = present & np.isfinite(tz) & (tz >= z_lo) & (tz <= z_hi)
+    # Between the ground and the lowest forecast level the lowest level's values hold,
+    # over a limited depth only (a model's lowest level is its near-surface air).
+    z_min = col_z[..., 0]
+    depth = np.log(1.0 + _EXTRAPOLATE_M / 8000.0) if reference == "pressure" else _EXTRAPOLATE_M
+    near_base = present & np.isfinite(tz) & (tz < z_min) & (tz >= z_min - depth) & (lo == 0)
+    inside = inside | near_base
     i_lo = np.take_along_axis(order[c], lo[..., None], -1)[..., 0]
     i_hi = np.take_along_axis(order[c], hi[..., None], -1)[..., 0]
 
@@ -133,7 +142,7 @@ def read_off(diag, column_index, target, *, reference="msl"):
         a, b = pick(getattr(diag, name))
         a = np.asarray(a, float)
         b = np.asarray(b, float)
-        if name in ("mvd", "sld_mvd"):
+        if name in ("mvd", "sld_mvd", "droplet_number", "glaciation"):
             # a size exists only where its population does: take the other level's size
             a = np.where(np.isfinite(a), a, b)
             b = np.where(np.isfinite(b), b, a)
@@ -148,7 +157,8 @@ def read_off(diag, column_index, target, *, reference="msl"):
     sa, sb = pick(diag.sld_class)
     out["sld_class"] = np.maximum(sa, sb)
     mu = np.broadcast_to(np.asarray(getattr(diag, "spectrum_shape", 2.0), float), z.shape)
-    out["spectrum_shape"] = pick(mu)[0]
+    mu_a, mu_b = pick(mu)
+    out["spectrum_shape"] = np.where(np.isfinite(mu_a), mu_a, np.where(np.isfinite(mu_b), mu_b, 2.0))
     ba, bb = pick(diag.basis)
     la, lb = pick(diag.lwc)
     out["basis"] = np.where(np.nan_to_num(la) >= np.nan_to_num(lb), ba, bb)
@@ -283,10 +293,14 @@ def screen_route(
         forecast = load_forecast(forecast)
     if not hasattr(airframe, "collectors"):
         airframe = load_airframe(airframe)
-    tas = tas_kt or route.true_airspeed_kt or airframe.true_airspeed_kt
     wind = forecast.wind_at if getattr(forecast, "has_wind", False) else None
     samples = sample_route(
-        route, step_km=options.step_km, tas_kt=tas, departure=departure, wind=wind
+        route,
+        step_km=options.step_km,
+        tas_kt=tas_kt,
+        default_tas_kt=airframe.true_airspeed_kt,
+        departure=departure,
+        wind=wind,
     )
     n = len(samples.lat)
     colset = forecast.columns_at(samples.lat, samples.lon, samples.time)
@@ -312,6 +326,11 @@ def screen_route(
     tgt = np.broadcast_to(targets[:, :, None], targets.shape + (k,))
     ci = np.broadcast_to(cand[:, None, :], tgt.shape)
     state = read_off(diag, ci, tgt, reference=vref)
+    ground = _ground_height(route, samples, forecast, colset, diag)
+    with np.errstate(invalid="ignore"):
+        under = np.isfinite(ground)[:, None, None] & (state["height"] < ground[:, None, None] - 1.0)
+    state["below_ground"] = state["below_ground"] | under
+    state["valid"] = state["valid"] & ~under
     tas_ms = np.asarray(samples.tas, float)[:, None, None]
     result, sev = _icing_at(airframe, state, np.broadcast_to(tas_ms, tgt.shape))
     kbest = _worst_over_candidates(sev, result.accretion_rate_mm_h)  # (n, a+1)
@@ -382,7 +401,6 @@ def screen_route(
     at["freezing_level_m"] = np.where(col_best >= 0, fz[np.maximum(col_best, 0)], np.nan)
 
     # --- curtain ---------------------------------------------------------------------
-    ground = _ground_height(route, samples, forecast, colset, diag)
     below = best(state["below_ground"])[:, :f]
     curtain = Curtain(
         distance_km=at["distance_km"],
@@ -426,18 +444,39 @@ def screen_route(
         id_prefix=segment_prefix,
     )
     floor_m, ceiling_m = _altitude_limits(airframe, route, ground, options)
-    candidates = annotate_segments(screening, floor_m=floor_m, ceiling_m=ceiling_m)
+    candidates = annotate_segments(
+        screening, floor_m=floor_m, ceiling_m=ceiling_m, summary=False
+    )
     screening.summary = route_summary(screening, airframe=airframe)
-    screening.summary["candidate_altitudes_ft"] = _summary_candidates(candidates)
+    screening.summary["candidate_altitudes_ft"] = _summary_candidates(
+        candidates, screening.segments
+    )
+    from .avoidance import CANDIDATE_WORDING
+
+    screening.summary["candidate_altitudes_wording"] = CANDIDATE_WORDING
     screening.summary["caution"] = CAUTION
     return screening
 
 
-def _summary_candidates(candidates):
+def _summary_candidates(candidates, segments):
+    """Compact, JSON-ready candidate altitudes per icing segment, for the summary."""
+    severity = {f["properties"]["segment_id"]: f["properties"]["severity"] for f in segments}
     out = []
-    for c in candidates or []:
-        if isinstance(c, dict):
-            out.append(c)
+    for r in candidates or []:
+        above, below = r.get("above"), r.get("below")
+        out.append(
+            {
+                "segment_id": r.get("segment_id"),
+                "severity": severity.get(r.get("segment_id")),
+                "stretch_km": r.get("stretch_km"),
+                "above_ft": None if above is None else above.get("altitude_ft"),
+                "above_severity": None if above is None else above.get("worst_severity"),
+                "below_ft": None if below is None else below.get("altitude_ft"),
+                "below_severity": None if below is None else below.get("worst_severity"),
+                "ice_free_altitudes_ft": list(r.get("ice_free_altitudes_ft", [])),
+                "text": r.get("text"),
+            }
+        )
     return out
 
 

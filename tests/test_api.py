@@ -1,0 +1,42 @@
+"""The public API: ``__all__`` agrees with what exists and with the README."""
+
+import importlib
+import pkgutil
+import re
+from pathlib import Path
+
+import pytest
+
+import icing
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+@pytest.mark.parametrize("name", icing.__all__)
+def test_every_exported_name_resolves(name):
+    assert getattr(icing, name) is not None
+
+
+def _modules():
+    for info in pkgutil.iter_modules(icing.__path__):
+        if not info.name.startswith("_"):
+            yield info.name
+
+
+@pytest.mark.parametrize("module", sorted(_modules()))
+def test_module_all_is_literal_and_complete(module):
+    mod = importlib.import_module(f"icing.{module}")
+    assert isinstance(getattr(mod, "__all__", None), list), f"icing.{module} lacks a literal __all__"
+    for name in mod.__all__:
+        assert hasattr(mod, name), f"icing.{module}.__all__ names missing {name}"
+
+
+def test_readme_api_names_are_exported():
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    for name in set(re.findall(r"`icing\.([a-z_]+)`", text)):
+        assert name in icing.__all__, f"README documents icing.{name}, which is not exported"
+
+
+def test_unknown_attribute_raises():
+    with pytest.raises(AttributeError):
+        icing.not_a_function  # noqa: B018
