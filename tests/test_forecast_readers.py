@@ -1,0 +1,440 @@
+"""Forecast readers: profile JSON/CSV validation, CF variable discovery and units.
+
+Profile fixtures are the invented Skerrow Basin scenario (fixtures/make_fixtures.py);
+they exercise the readers, they are not check values.
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from icing.errors import ForecastError, PlausibilityWarning
+from icing.forecast import load_forecast
+from icing.forecast_readers import parse_time, profile_schema
+
+ROOT = Path(__file__).resolve().parents[1]
+PROFILES = ROOT / "fixtures" / "skerrow-profiles.json"
+PROFILES_CSV = ROOT / "fixtures" / "skerrow-profiles.csv"
+LATLON = ROOT / "fixtures" / "skerrow-latlon.nc"
+GOLDEN = ROOT / "fixtures" / "golden-columns.json"
+
+
+def _doc():
+    return json.loads(PROFILES.read_text())
+
+
+def _one_profile_doc(**levels):
+    """A small valid document (three levels), level fields overridable."""
+    lv = {"pressure_hpa": [1000, 850, 700], "temperature_c": [5.0, -3.0, -10.0],
+          "relative_humidity_pct": [80.0, 95.0, 60.0]}
+    lv.update(levels)
+    lv = {k: v for k, v in lv.items() if v is not None}
+    return {"format": "icing-profiles", "version": 1,
+            "profiles": [{"id": "P", "lat": 57.0, "lon": -24.0,
+                          "valid_time": "2027-01-14T12:00:00Z", "levels": lv}]}
+
+
+def _write(tmp_path, doc, name="p.json"):
+    p = tmp_path / name
+    p.write_text(doc if isinstance(doc, str) else json.dumps(doc))
+    return p
+
+
+def _error(tmp_path, doc, name="p.json"):
+    path = _write(tmp_path, doc, name)
+    with pytest.raises(ForecastError) as info:
+        load_forecast(path)
+    err = info.value
+    text = err.one_line()
+    assert "\n" not in text
+    assert err.path == str(path)  # names the file
+    assert err.fix  # says what to do
+    return err
+
+
+# --------------------------------------------------------------------- schema
+
+
+def test_schema_is_valid_and_fixtures_follow_it():
+    import jsonschema
+
+    schema = profile_schema()
+    jsonschema.Draft202012Validator.check_schema(schema)
+    for path in (PROFILES, GOLDEN):
+        jsonschema.validate(json.loads(path.read_text()), schema)
+
+
+def test_example_document_of_the_design_loads(tmp_path):
+    # DESIGN.md 3.3's illustrative profile (its heights are not hypsometric: kept as given)
+    doc = {"format": "icing-profiles", "version": 1, "profiles": [
+        {"id": "A", "lat": 51.2, "lon": -4.1, "valid_time": "2027-01-14T12:00:00Z",
+         "levels": {"pressure_hpa": [1000, 950, 900, 850, 800, 700, 600, 500],
+                    "height_m": [120, 540, 990, 1460, 1950, 3010, 4200, 5570],
+                    "temperature_c": [3.0, 0.5, -2.0, -4.5, -7.0, -13.0, -20.0, -28.0],
+                    "dewpoint_c": [2.0, 0.0, -2.3, -4.7, -7.3, -18.0, -30.0, -40.0],
+                    "cloud_liquid_g_kg": [0, 0.05, 0.20, 0.25, 0.10, 0, 0, 0],
+                    "vertical_velocity_m_s": [0, 0.1, 0.2, 0.3, 0.2, 0.1, 0, 0]},
+         "precipitation_rate_mm_h": 0.0}]}
+    fc = load_forecast(_write(tmp_path, doc))
+    lv = fc.table.levels
+    assert fc.table.humidity == "dewpoint"
+    np.testing.assert_allclose(lv["height"][0], [120, 540, 990, 1460, 1950, 3010, 4200, 5570])
+    np.testing.assert_allclose(lv["cloud_liquid"][0, 3], 0.25e-3)
+    np.testing.assert_allclose(lv["temperature"][0, 0], 276.15)
+
+
+# --------------------------------------------------------------------- bad JSON input
+
+
+BAD_JSON = {
+    # name: (document edit, expected words in the message, expected place)
+    "malformed": ('{"format": "icing-profiles", "version": 1, "profiles": [}', "malformed JSON",
+                  "line 1"),
+    "unknown-format": ({"format": "soundings", "version": 1, "profiles": []}, "unknown format",
+                       "format"),
+    "unknown-version": ({"format": "icing-profiles", "version": 2, "profiles": []},
+                        "version", "version"),
+    "ragged": (_one_profile_doc(temperature_c=[5.0, -3.0]), "ragged",
+               "profiles[0].levels.temperature_c"),
+    "not-monotonic": (_one_profile_doc(pressure_hpa=[1000, 700, 850]), "monotonic",
+                      "profiles[0].levels.pressure_hpa[2]"),
+    "repeated-pressure": (_one_profile_doc(pressure_hpa=[1000, 850, 850]), "monotonic",
+                          "profiles[0].levels.pressure_hpa[2]"),
+    "kelvin-in-celsius": (_one_profile_doc(temperature_c=[278.0, 270.0, 263.0]), "kelvin",
+                          "profiles[0].levels.temperature_c[0]"),
+    "kelvin-dewpoint": (_one_profile_doc(relative_humidity_pct=None,
+                                         dewpoint_c=[275.0, 268.0, 255.0]), "kelvin",
+                        "profiles[0].levels.dewpoint_c[0]"),
+    "pressure-in-pa": (_one_profile_doc(pressure_hpa=[100000, 85000, 70000]), "pascals",
+                       "profiles[0].levels.pressure_hpa[0]"),
+    "humidity-far-above": (_one_profile_doc(relative_humidity_pct=[80, 160, 60]),
+                           "far outside", "profiles[0].levels.relative_humidity_pct[1]"),
+    "humidity-negative": (_one_profile_doc(relative_humidity_pct=[80, -5, 60]), "far outside",
+                          "profiles[0].levels.relative_humidity_pct[1]"),
+    "humidity-fraction-as-kg-kg": (_one_profile_doc(relative_humidity_pct=None,
+                                                    specific_humidity_g_kg=[40, 30, 20]),
+                                   "far outside",
+                                   "profiles[0].levels.specific_humidity_g_kg[0]"),
+    "no-humidity": (_one_profile_doc(relative_humidity_pct=None), "no humidity",
+                    "profiles[0].levels"),
+    "missing-temperature": (_one_profile_doc(temperature_c=None), "temperature_c",
+                            "profiles[0].levels"),
+    "unknown-level-field": (_one_profile_doc(humidity=[1, 2, 3]), "humidity",
+                            "profiles[0].levels"),
+    "cloud-fraction-percent": (_one_profile_doc(cloud_fraction=[0, 80, 100]), "out of range",
+                               "profiles[0].levels.cloud_fraction[1]"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(BAD_JSON))
+def test_bad_profile_json_gives_one_line_error(tmp_path, case):
+    doc, words, where = BAD_JSON[case]
+    err = _error(tmp_path, doc)
+    assert words in err.one_line()
+    assert err.where is not None and err.where.startswith(where)
+
+
+@pytest.mark.parametrize("field, value, words", [
+    ("valid_time", "2027-01-14T12:00:00", "no time zone"),
+    ("valid_time", "14/01/2027 12:00", "not ISO 8601"),
+    ("valid_time", 20270114, "type"),
+    ("lat", 95.0, "maximum"),
+    ("precipitation_rate_mm_h", -1.0, "minimum"),
+    ("surface_pressure_hpa", 101325.0, "out of range"),
+])
+def test_bad_profile_fields(tmp_path, field, value, words):
+    doc = _one_profile_doc()
+    doc["profiles"][0][field] = value
+    err = _error(tmp_path, doc)
+    assert words in err.one_line()
+    assert err.where.startswith("profiles[0]")
+
+
+def test_time_without_zone_suggests_appending_z(tmp_path):
+    doc = _one_profile_doc()
+    doc["profiles"][0]["valid_time"] = "2027-01-14T12:00:00"
+    err = _error(tmp_path, doc)
+    assert "append Z" in err.fix and err.where == "profiles[0].valid_time"
+
+
+def test_missing_required_profile_field(tmp_path):
+    doc = _one_profile_doc()
+    del doc["profiles"][0]["lat"]
+    err = _error(tmp_path, doc)
+    assert "'lat' is a required property" in err.message and err.where == "profiles[0]"
+
+
+def test_missing_file_and_directory(tmp_path):
+    with pytest.raises(ForecastError, match="file not found") as info:
+        load_forecast(tmp_path / "nope.json")
+    assert info.value.path.endswith("nope.json") and info.value.fix
+    with pytest.raises(ForecastError, match="directory"):
+        load_forecast(tmp_path)
+
+
+def test_error_place_in_a_later_profile(tmp_path):
+    doc = _doc()
+    doc["profiles"][2]["levels"]["temperature_c"][4] = 290.0
+    err = _error(tmp_path, doc)
+    assert err.where == "profiles[2].levels.temperature_c[4]"
+
+
+# --------------------------------------------------------------------- humidity limits
+
+
+def test_relative_humidity_a_little_above_100_is_accepted_and_clipped(tmp_path):
+    # model output up to ~110 % over water is normal (DESIGN.md 3.3): accepted, clipped
+    fc = load_forecast(_write(tmp_path, _one_profile_doc(relative_humidity_pct=[80, 105, 60])))
+    rh = fc.table.levels["relative_humidity"][0]
+    np.testing.assert_allclose(rh, [0.80, 1.0, 0.60])
+    assert any("clipped" in n for n in fc.describe()["notes"])
+
+
+def test_relative_humidity_well_above_110_warns(tmp_path):
+    path = _write(tmp_path, _one_profile_doc(relative_humidity_pct=[80, 125, 60]))
+    with pytest.warns(PlausibilityWarning, match="relative_humidity_pct"):
+        load_forecast(path)
+
+
+def test_dewpoint_slightly_above_temperature_is_clipped(tmp_path):
+    doc = _one_profile_doc(relative_humidity_pct=None, dewpoint_c=[4.0, -2.8, -15.0])
+    fc = load_forecast(_write(tmp_path, doc))
+    td = fc.table.levels["dewpoint"][0]
+    t = fc.table.levels["temperature"][0]
+    assert np.all(td <= t)
+    np.testing.assert_allclose(td[1], t[1])
+
+
+def test_null_level_values_become_nan(tmp_path):
+    fc = load_forecast(_write(tmp_path, _one_profile_doc(temperature_c=[5.0, None, -10.0])))
+    t = fc.table.levels["temperature"][0]
+    assert np.isnan(t[1]) and np.isfinite(t[[0, 2]]).all()
+
+
+def test_mixed_humidity_kinds_become_relative_humidity(tmp_path):
+    a = _one_profile_doc()
+    b = _one_profile_doc(relative_humidity_pct=None, dewpoint_c=[2.0, -4.0, -20.0])
+    a["profiles"].append(copy.deepcopy(b["profiles"][0]) | {"id": "Q"})
+    fc = load_forecast(_write(tmp_path, a))
+    assert fc.table.humidity == "relative_humidity"
+    rh = fc.table.levels["relative_humidity"][1]
+    # RH from dew point over water, MetPy's saturation law (reference library)
+    import metpy.calc as mpcalc
+    from metpy.units import units
+
+    expect = mpcalc.relative_humidity_from_dewpoint(units.Quantity([5.0, -3.0, -10.0], "degC"),
+                                                    units.Quantity([2.0, -4.0, -20.0], "degC"))
+    np.testing.assert_allclose(rh, expect.m_as(""), rtol=1e-6)  # same formula, float noise
+
+
+# --------------------------------------------------------------------- CSV
+
+
+def test_csv_profiles_equal_json_profiles():
+    a = load_forecast(PROFILES_CSV).table
+    b = load_forecast(PROFILES).table
+    assert list(a.ids) == list(b.ids)
+    for key in b.levels:
+        np.testing.assert_allclose(a.levels[key], b.levels[key], equal_nan=True)
+    np.testing.assert_array_equal(a.time, b.time)
+
+
+CSV_HEAD = "id,lat,lon,valid_time,pressure_hpa,temperature_c,relative_humidity_pct"
+
+
+@pytest.mark.parametrize("text, words, where", [
+    ("id,lat,lon,pressure_hpa,temperature_c,relative_humidity_pct\n", "valid_time",
+     "line 1"),
+    ("id,lat,lon,valid_time,pressure_hpa,temperature_c\nP,57,-24,2027-01-14T12:00Z,1000,5\n",
+     "humidity", "line 1"),
+    (CSV_HEAD + ",wind\nP,57,-24,2027-01-14T12:00Z,1000,5,80,3\n", "unknown column", "line 1"),
+    (CSV_HEAD + "\nP,57,-24,2027-01-14T12:00Z,1000,5,80\nP,57,-24,2027-01-14T12:00Z,850,x,90\n",
+     "not a number", "line 3, column temperature_c"),
+    (CSV_HEAD + "\nP,57,-24,2027-01-14T12:00Z,1000,5,80\nP,57.5,-24,2027-01-14T12:00Z,850,1,90\n",
+     "differs", "lines 2-3, column lat"),
+    (CSV_HEAD + "\nP,57,-24,2027-01-14T12:00Z,1000,5,80\nP,57,-24,2027-01-14T12:00Z,1000,1,90\n",
+     "monotonic", "line 3, column pressure_hpa"),
+    (CSV_HEAD + "\nP,57,-24,2027-01-14T12:00,1000,5,80\nP,57,-24,2027-01-14T12:00,850,1,90\n",
+     "no time zone", "lines 2-3, column valid_time"),
+    (CSV_HEAD + "\nP,57,-24,2027-01-14T12:00Z,1000,280,80\nP,57,-24,2027-01-14T12:00Z,850,1,90\n",
+     "kelvin", "line 2, column temperature_c"),
+    (CSV_HEAD + "\nP,97,-24,2027-01-14T12:00Z,1000,5,80\nP,97,-24,2027-01-14T12:00Z,850,1,90\n",
+     "out of range", "lines 2-3, column lat"),
+    (CSV_HEAD + "\nP,57,-24,2027-01-14T12:00Z,1000,5,80\n", "fewer than 2 levels", "line"),
+    (CSV_HEAD + "\n", "no data rows", None),
+])
+def test_bad_profile_csv(tmp_path, text, words, where):
+    err = _error(tmp_path, text, name="p.csv")
+    assert words in err.one_line()
+    if where:
+        assert err.where.startswith(where)
+
+
+# --------------------------------------------------------------------- NetCDF
+
+
+_CACHE = {}
+
+
+def _latlon_ds():
+    """The lat-lon fixture in memory (a fresh copy), encodings dropped for fast writes."""
+    import xarray as xr
+
+    if "ds" not in _CACHE:
+        with xr.open_dataset(LATLON) as ds:
+            ds = ds.load()
+        for var in ds.variables.values():
+            var.encoding = {}
+        _CACHE["ds"] = ds
+    return _CACHE["ds"].copy(deep=True)
+
+
+def _to_nc(ds, tmp_path, name="f.nc"):
+    p = tmp_path / name
+    ds.to_netcdf(p)
+    return p
+
+
+def test_malformed_netcdf(tmp_path):
+    p = tmp_path / "broken.nc"
+    p.write_bytes(b"\x89HDF\r\n\x1a\n" + b"\x00" * 64)
+    with pytest.raises(ForecastError, match="not a readable NetCDF") as info:
+        load_forecast(p)
+    assert info.value.path == str(p) and info.value.fix
+
+
+def test_unknown_format(tmp_path):
+    p = tmp_path / "f.bin"
+    p.write_bytes(bytes(range(7)) * 3)
+    with pytest.raises(ForecastError, match="unknown forecast format"):
+        load_forecast(p)
+
+
+def test_no_temperature_names_the_var_option(tmp_path):
+    ds = _latlon_ds().drop_vars("t")
+    with pytest.raises(ForecastError, match="temperature") as info:
+        load_forecast(_to_nc(ds, tmp_path))
+    assert "--var temperature=NAME" in info.value.fix
+
+
+def test_no_humidity(tmp_path):
+    ds = _latlon_ds().drop_vars("r")
+    with pytest.raises(ForecastError, match="humidity") as info:
+        load_forecast(_to_nc(ds, tmp_path))
+    assert "--var" in info.value.fix
+
+
+def test_kelvin_values_labelled_celsius(tmp_path):
+    ds = _latlon_ds()
+    ds["t"].attrs["units"] = "degC"
+    with pytest.raises(ForecastError, match="implausible") as info:
+        load_forecast(_to_nc(ds, tmp_path))
+    assert info.value.where == "variable t"
+
+
+def test_units_not_understood(tmp_path):
+    ds = _latlon_ds()
+    ds["r"].attrs["units"] = "furlongs per fortnight squared"
+    with pytest.raises(ForecastError, match="units"):
+        load_forecast(_to_nc(ds, tmp_path))
+
+
+def test_unconvertible_units(tmp_path):
+    ds = _latlon_ds()
+    ds["u"].attrs["units"] = "K"
+    with pytest.raises(ForecastError, match="cannot be converted") as info:
+        load_forecast(_to_nc(ds, tmp_path))
+    assert info.value.where == "variable u"
+
+
+def test_model_levels_are_refused(tmp_path):
+    ds = _latlon_ds().rename({"pressure": "hybrid"})
+    ds["hybrid"] = ("hybrid", np.arange(ds.sizes["hybrid"], dtype=float),
+                    {"positive": "down", "long_name": "model level"})
+    with pytest.raises(ForecastError, match="model levels"):
+        load_forecast(_to_nc(ds, tmp_path))
+
+
+def test_extra_member_dimension_is_refused(tmp_path):
+    ds = _latlon_ds()
+    ds["t"] = ds["t"].expand_dims(number=[0, 1]).copy()
+    with pytest.raises(ForecastError, match="extra dimension 'number'") as info:
+        load_forecast(_to_nc(ds, tmp_path))
+    assert "member" in info.value.fix
+
+
+def test_var_map_errors(tmp_path):
+    with pytest.raises(ForecastError, match="unknown variable key") as info:
+        load_forecast(LATLON, var_map={"temp": "t"})
+    assert "temperature" in info.value.fix
+    with pytest.raises(ForecastError, match="not in the file"):
+        load_forecast(LATLON, var_map={"temperature": "nope"})
+    with pytest.raises(ForecastError, match="vertical dimension"):
+        load_forecast(LATLON, var_map={"temperature": "sp"})
+    with pytest.raises(ForecastError, match="gridded files only"):
+        load_forecast(PROFILES, var_map={"temperature": "t"})
+
+
+@pytest.mark.parametrize("units, scale", [("K", 1.0), ("degC", 1.0)])
+def test_temperature_units(tmp_path, units, scale):
+    ds = _latlon_ds()
+    if units == "degC":
+        ds["t"] = ds["t"] - 273.15
+    ds["t"].attrs.update(units=units, standard_name="air_temperature")
+    fc = load_forecast(_to_nc(ds, tmp_path))
+    t = np.datetime64("2027-01-14T12:00", "ms")
+    cs = fc.columns_at([57.0], [-24.5], [t])
+    ref = _latlon_ds()["t"].sel(latitude=57.0, longitude=-24.5, time=t).values
+    np.testing.assert_allclose(cs.columns["temperature"][0], ref, atol=1e-4)  # float32 input
+
+
+def test_geopotential_is_divided_by_g(tmp_path):
+    from icing.constants import G
+
+    ds = _latlon_ds()
+    ds["gh"] = ds["gh"] * G
+    ds["gh"].attrs.update(units="m2 s-2", standard_name="geopotential")
+    fc = load_forecast(_to_nc(ds, tmp_path))
+    t = np.datetime64("2027-01-14T12:00", "ms")
+    cs = fc.columns_at([57.0], [-24.5], [t])
+    ref = _latlon_ds()["gh"].sel(latitude=57.0, longitude=-24.5, time=t).values
+    np.testing.assert_allclose(cs.columns["height"][0], ref, rtol=1e-6)  # float32 round trip
+
+
+def test_units_guessed_when_missing_are_stated(tmp_path):
+    ds = _latlon_ds()
+    del ds["r"].attrs["units"]
+    fc = load_forecast(_to_nc(ds, tmp_path))
+    assert "assumed" in fc.describe()["variables"]["relative_humidity"]["units"]
+    t = np.datetime64("2027-01-14T12:00", "ms")
+    rh = fc.columns_at([57.0], [-24.5], [t]).columns["relative_humidity"]
+    assert np.nanmax(rh) <= 1.0 and np.nanmax(rh) > 0.9
+
+
+def test_specific_humidity_in_g_per_kg(tmp_path):
+    from icing.thermo import specific_humidity_from_relative_humidity
+
+    ds = _latlon_ds()
+    p = ds["pressure"] * 100.0
+    q = specific_humidity_from_relative_humidity(p.values[None, :, None, None],
+                                                 ds["t"].values, ds["r"].values / 100.0)
+    ds["q"] = (ds["t"].dims, (q * 1000.0).astype(np.float32),
+               {"standard_name": "specific_humidity", "units": "g kg-1"})
+    ds = ds.drop_vars("r")
+    fc = load_forecast(_to_nc(ds, tmp_path))
+    assert fc.humidity == "specific_humidity"
+    t = np.datetime64("2027-01-14T12:00", "ms")
+    cs = fc.columns_at([57.0], [-24.5], [t])
+    iy, ix = 14, 26  # 57.0 N, 24.5 W on the 0.25 deg grid (latitude descending)
+    np.testing.assert_allclose(cs.columns["specific_humidity"][0], q[1, :, iy, ix], rtol=1e-6)
+
+
+def test_parse_time():
+    assert parse_time("2027-01-14T13:00:00+01:00") == np.datetime64("2027-01-14T12:00", "ms")
+    with pytest.raises(ForecastError, match="no time zone"):
+        parse_time("2027-01-14T12:00:00", path="x.json", where="t")
