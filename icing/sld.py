@@ -57,6 +57,7 @@ source, [M] from memory, [C] common practice, no source, [O] our choice):
 from __future__ import annotations
 
 import dataclasses
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -65,7 +66,7 @@ from scipy import special
 from . import codes
 from .constants import CP_AIR, RD, T0
 from .droplets import marshall_palmer, marshall_palmer_from_lwc
-from .thermo import air_density
+from .thermo import air_density, saturation_vapor_pressure
 
 __all__ = [
     "SLDDiagnosis",
@@ -299,6 +300,21 @@ def khairoutdinov_kogan_autoconversion(cloud_water, droplet_number):
     return np.where(qc > 0.0, rate, np.where(np.isnan(qc) | ~(nc > 0.0), np.nan, 0.0))
 
 
+@functools.lru_cache(maxsize=1)
+def _ice_saturation_table():
+    """Water RH at ice saturation, ``e_si / e_sw`` (MetPy's law), on a 0.25 K grid."""
+    grid = np.arange(180.0, T0 + 0.25, 0.25)
+    ratio = saturation_vapor_pressure(grid, phase="solid") / saturation_vapor_pressure(grid)
+    return grid, np.minimum(ratio, 1.0)
+
+
+def _ice_saturation_rh(temperature):
+    """Relative humidity over water at ice saturation [1]; 1 at and above 0 C."""
+    grid, ratio = _ice_saturation_table()
+    t = np.asarray(temperature, dtype=float)
+    return np.where(t < T0, np.interp(t, grid, ratio), 1.0)
+
+
 def _rev_cummin(a):
     """Minimum over this and every higher level (last axis)."""
     return np.minimum.accumulate(a[..., ::-1], axis=-1)[..., ::-1]
@@ -347,8 +363,10 @@ def diagnose_sld(
         Pressure [Pa], temperature [K] and height [m] of every level, in either
         order (sorted internally by height; outputs keep the input order).
     relative_humidity : array_like, shape (..., level)
-        Relative humidity over water [1]. Accepted for the contract; sub-cloud
-        evaporation of drizzle and rain is not modelled (conservative).
+        Relative humidity over water [1]. Used to find air subsaturated over ice, in
+        which ice falling from a cloud aloft sublimates before it can seed a deck
+        below (NaN counts as dry). Sub-cloud evaporation of drizzle and rain is not
+        modelled (conservative).
     cloud : array_like of bool, shape (..., level)
         Cloud mask.
     lwc : array_like, shape (..., level)
@@ -386,7 +404,9 @@ def diagnose_sld(
     band counted as freezing rain); and precipitation is falling: a rate above
     ``PRECIP_RATE_MIN``, model rain or snow above ``HYDROMETEOR_MIN`` at or above the
     level, or -- only when the column carries neither a rate nor rain/snow fields --
-    cloud at or above the warm layer. Deep cold layers so give ice pellets at the
+    cloud at or above the warm layer. Model rain at a sub-freezing level beneath a
+    melting layer is freezing rain whatever the areas say (the model's own
+    microphysics kept it liquid; conservative). Deep cold layers give ice pellets at the
     surface while the upper part of the cold layer still holds supercooled rain,
     which is what ice pellets at the ground imply aloft.
 
@@ -398,15 +418,18 @@ def diagnose_sld(
     (3.5 D0), capped at ``FZRA_DMAX`` but never below D0.
 
     **Freezing drizzle**: in cloud levels whose layer has a top no colder than
-    ``DRIZZLE_TOP_T_MIN``, a depth of at least ``DRIZZLE_MIN_DEPTH`` and no ice at or
-    above the level (model cloud ice or snow above ``HYDROMETEOR_MIN``, or cloud colder
-    than ``ICE_ALOFT_T``), the drizzle content is
+    ``DRIZZLE_TOP_T_MIN``, a depth of at least ``DRIZZLE_MIN_DEPTH`` and no ice falling
+    into the level (model cloud ice or snow above ``HYDROMETEOR_MIN``, or cloud colder
+    than ``ICE_ALOFT_T``, at or above the level with no ice-subsaturated clear air in
+    between to sublimate the crystals), the drizzle content is
     ``rho_air x 1350 q_c^2.47 N_c^-1.79 x drizzle_time_scale_s``. Drizzle falls: each
     level receives the largest content produced at or above it (no evaporation, no
     summation). Levels with T <= 0 C receiving at least ``DRIZZLE_LWC_MIN`` are
     freezing drizzle, with LWC capped by the Appendix O envelope at the level's
     temperature, Dmax = ``FZDZ_DMAX`` and the MVD of an exponential spectrum with that
-    Dmax (143 um). Where both mechanisms apply, freezing rain wins.
+    Dmax (140 um). Model rain at a sub-freezing level with no melting layer above is
+    freezing drizzle with the model's content (not capped). Where both mechanisms
+    apply, freezing rain wins.
 
     **Surface type** (lowest usable level): cold surface: freezing rain, else
     freezing drizzle, else ice pellets (warm layer above but refrozen), else snow
@@ -573,12 +596,13 @@ def _diagnose_block(a, drizzle_time_scale_s):
         # ---- freezing rain
         na_limit = NA_PELLETS_OFFSET + NA_SLOPE * pa
         melted = warm_above & (pa >= PA_SNOW)
-        fzra = cold & melted & precip & (na <= na_limit)
+        q_rain = rain_s * rho
+        model_rain = (rain_s > HYDROMETEOR_MIN) & u if rain is not None else np.zeros(shape, bool)
+        # Bourgouin's verdict, or the model's own supercooled rain beneath a melting layer
+        fzra = cold & ((melted & precip & (na <= na_limit)) | (model_rain & warm_above))
 
         rate_eff = np.where(rate > PRECIP_RATE_MIN, rate, NOMINAL_RAIN_RATE)[..., None]
         lwc_mp, d0_mp = marshall_palmer(np.broadcast_to(rate_eff, shape))
-        q_rain = rain_s * rho
-        model_rain = (rain_s > HYDROMETEOR_MIN) & u if rain is not None else np.zeros(shape, bool)
         d0_model = marshall_palmer_from_lwc(np.where(model_rain, q_rain, np.nan))[0]
         ra_lwc = np.where(model_rain, q_rain, lwc_mp)
         ra_mvd = np.where(model_rain, d0_model, d0_mp)
@@ -588,7 +612,14 @@ def _diagnose_block(a, drizzle_time_scale_s):
         ice_flag = (
             (ice_s > HYDROMETEOR_MIN) | (snow_s > HYDROMETEOR_MIN) | (cld & (t < ICE_ALOFT_T))
         )
-        seeded = _rev_cummax((ice_flag & u).astype(np.int8)).astype(bool)
+        ice_flag &= u
+        # crystals fall until air subsaturated over ice (not cloud, no ice) sublimates them
+        rh_s = srt("relative_humidity")
+        ice_sat = _ice_saturation_rh(t)
+        dry = u & ~cld & ~ice_flag & ~(rh_s >= ice_sat)  # NaN humidity counts as dry
+        first_ice = _rev_cummin(np.where(ice_flag, idx, nlev))
+        first_dry = _rev_cummin(np.where(dry, idx, nlev))
+        seeded = first_ice < first_dry  # ice at or above, with no dry gap between
         source = (
             cld
             & (ctt >= DRIZZLE_TOP_T_MIN)
@@ -601,10 +632,15 @@ def _diagnose_block(a, drizzle_time_scale_s):
         produced = produced * float(drizzle_time_scale_s)
         produced = np.where(source & np.isfinite(produced), produced, 0.0)
         drizzle = _rev_cummax(produced)  # drizzle falls: the largest content from above
-        fzdz = cold & (drizzle >= DRIZZLE_LWC_MIN) & ~fzra
+        # model rain at a sub-freezing level without a melting layer above: warm-rain
+        # drizzle by the model's own microphysics, taken at its word with its content
+        model_drizzle = cold & model_rain & ~warm_above
+        fzdz = cold & ((drizzle >= DRIZZLE_LWC_MIN) | model_drizzle) & ~fzra
         (t_lo, q_lo), (t_hi, q_hi) = _FZDZ_LWC_ENVELOPE
         cap = np.interp(np.where(u, t, T0), [t_lo, t_hi], [q_lo, q_hi])
-        dz_lwc = np.minimum(drizzle, cap)
+        dz_lwc = np.where(
+            model_drizzle, np.maximum(q_rain, np.minimum(drizzle, cap)), np.minimum(drizzle, cap)
+        )
 
     # ---- per-level results (sorted order)
     cls = np.where(fzra, codes.SLD_RAIN, np.where(fzdz, codes.SLD_DRIZZLE, codes.SLD_NONE))

@@ -382,3 +382,37 @@ def test_cloud_alone_is_not_snow_or_rain_at_the_ground():
     assert d.precip_type == PT["none"]
     d = run(col, number_cm3=300.0, precipitation_rate_mm_h=0.5)
     assert d.precip_type == PT["snow"]
+
+
+def test_ice_aloft_behind_a_dry_gap_does_not_seed():
+    # crystals falling through clear air subsaturated over ice sublimate (Huffman &
+    # Norman 1988: freezing drizzle under a dry layer); through ice-saturated air
+    # they reach the deck and glaciate it
+    col = sld_drizzle_deck_column(top_c=-6.0)
+    z = col["height"]
+    ice = np.where((z >= 1500.0) & (z <= 2000.0), 5e-5, 0.0)
+    assert np.all(col["relative_humidity"][(z > 1000.0) & (z < 1500.0)] == 0.4)
+    d = run(col, number_cm3=50.0, cloud_ice=ice)
+    assert np.any(d.sld_class == codes.SLD_DRIZZLE)
+    moist = np.where((z > 1000.0) & (z < 1500.0), 1.0, col["relative_humidity"])
+    d = run(col, number_cm3=50.0, cloud_ice=ice, relative_humidity=moist)
+    assert np.all(d.sld_class == codes.SLD_NONE)
+
+
+def test_model_rain_below_freezing_is_taken_at_its_word():
+    # no melting layer: the model's sub-freezing rain is warm-rain drizzle, with the
+    # model's content (here 0.05 g/kg in the deck, where 300 cm-3 gives no diagnosed drizzle)
+    col = sld_drizzle_deck_column(top_c=-6.0)
+    z = col["height"]
+    rain = np.where((z >= 400.0) & (z <= 1000.0), 5e-5, 0.0)
+    d = run(col, number_cm3=300.0, rain=rain)
+    rho = col["pressure"] / (RD * col["temperature"])
+    deck = rain > 0.0
+    assert np.all(d.sld_class[deck] == codes.SLD_DRIZZLE)
+    np.testing.assert_allclose(d.sld_lwc[deck], rain[deck] * rho[deck])
+    # beneath a melting layer: supercooled rain even where Bourgouin's NA says refrozen
+    col = sld_warm_nose_column(cold_layer="deep")
+    low = col["height"] <= 250.0
+    d = run(col, rain=np.where(low, 1e-4, 0.0))
+    assert np.all(d.sld_class[low] == codes.SLD_RAIN)
+    assert d.precip_type == PT["freezing-rain"]
