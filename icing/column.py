@@ -342,14 +342,23 @@ def _merge_warnings(warn_lists):
 def _diagnose_sorted(flat, cols, options):
     """Diagnose a chunk shaped (n, level); sorts levels ground-up and back."""
     p_in = flat["pressure"]
-    # ground-up order: decreasing pressure (NaN pressures last, i.e. on top)
+    with np.errstate(invalid="ignore"):
+        step = np.diff(p_in, axis=-1)
+        if np.all(step < 0):  # already ground-up everywhere (the usual case): no copy
+            return _diagnose_core(dict(flat), cols, options)
+        if np.all(step > 0):  # top-down everywhere: reversed views
+            out, exceed = _diagnose_core({k: v[..., ::-1] for k, v in flat.items()}, cols,
+                                         options)
+            return {k: (v[..., ::-1] if k in _PER_LEVEL_OUT else v)
+                    for k, v in out.items()}, exceed
+    # mixed orders or missing pressures: decreasing pressure, NaN pressures on top
     order = np.argsort(np.where(np.isnan(p_in), -np.inf, -p_in), axis=-1, kind="stable")
     inverse = np.argsort(order, axis=-1, kind="stable")
-    srt = {k: np.take_along_axis(v, order, -1) for k, v in flat.items()}
-    out, warns = _diagnose_core(srt, cols, options)
+    out, exceed = _diagnose_core({k: np.take_along_axis(v, order, -1)
+                                  for k, v in flat.items()}, cols, options)
     for name in _PER_LEVEL_OUT:
         out[name] = np.take_along_axis(out[name], inverse, -1)
-    return out, warns
+    return out, exceed
 
 
 def _fill_invalid(values, valid):
@@ -401,11 +410,14 @@ def _diagnose_core(s, cols, o):
             z = s["height"]
         else:
             any_valid = valid.any(axis=-1, keepdims=True)
-            pf = _fill_invalid(np.where(valid, p, np.nan), valid)
-            tf = _fill_invalid(np.where(valid, t, np.nan), valid)
-            qf = np.nan_to_num(_fill_invalid(np.where(valid, q, np.nan), valid))
-            # keep the levels' own pressures where known, so heights stay ordered
-            pf = np.where(np.isfinite(p) & (p > 0), p, pf)
+            if valid.all():
+                pf, tf, qf = p, t, q
+            else:
+                pf = _fill_invalid(np.where(valid, p, np.nan), valid)
+                tf = _fill_invalid(np.where(valid, t, np.nan), valid)
+                qf = np.nan_to_num(_fill_invalid(np.where(valid, q, np.nan), valid))
+                # keep the levels' own pressures where known, so heights stay ordered
+                pf = np.where(np.isfinite(p) & (p > 0), p, pf)
             base = {}
             if "surface_pressure" in cols and "surface_height" in cols:
                 base = {"base_pressure": cols["surface_pressure"],
@@ -466,8 +478,9 @@ def _diagnose_core(s, cols, o):
         w_eff = np.maximum(w_base, floor)
         # --- droplets ---------------------------------------------------------------------
         am = droplets.air_mass(o.air_mass)
-        number, _ = droplets.twomey_activation(w_eff, c_per_cm3=am.c_per_cm3, k=am.k)
-        number = np.where(liquid_ok, number, np.nan)
+        number = np.full(p.shape, np.nan)
+        number[sel] = droplets.twomey_activation(w_eff[sel], c_per_cm3=am.c_per_cm3,
+                                                 k=am.k)[0]
         has_liquid = liquid_ok & (lwc >= clouds.IN_CLOUD_LWC)
         mvd = np.where(has_liquid, droplets.median_volume_diameter(
             np.where(has_liquid, lwc, 1e-3), np.where(has_liquid, number, 1e8),
