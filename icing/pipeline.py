@@ -443,10 +443,10 @@ def screen_route(
         all_segments=options.all_segments,
         id_prefix=segment_prefix,
     )
-    floor_m, ceiling_m = _altitude_limits(airframe, route, ground, options)
-    candidates = annotate_segments(
-        screening, floor_m=floor_m, ceiling_m=ceiling_m, summary=False
-    )
+    limits = _altitude_limits(airframe, options)
+    screening.ceiling_m = limits["ceiling_m"]
+    screening.max_agl_m = limits["max_agl_m"]
+    candidates = annotate_segments(screening, **limits, summary=False)
     screening.summary = route_summary(screening, airframe=airframe)
     screening.summary["candidate_altitudes_ft"] = _summary_candidates(
         candidates, screening.segments
@@ -480,14 +480,21 @@ def _summary_candidates(candidates, segments):
     return out
 
 
-def _altitude_limits(airframe, route, ground, options):
-    g = float(np.nanmax(ground)) if np.isfinite(ground).any() else 0.0
+def _altitude_limits(airframe, options):
+    """Search limits for candidate altitudes: terrain margin, ceiling, drone AGL limits."""
     agl_max = getattr(airframe, "max_altitude_agl_ft", None)
     if agl_max:
-        floor = g + float(getattr(airframe, "min_altitude_agl_ft", 0.0) or 0.0) * FT
-        return floor, g + float(agl_max) * FT
-    ceiling = float(airframe.ceiling_ft or 25000.0) * FT
-    return g + options.terrain_margin_ft * FT, ceiling
+        # drones: between their minimum and maximum height above the ground
+        return {
+            "ceiling_m": None if airframe.ceiling_ft is None else airframe.ceiling_ft * FT,
+            "max_agl_m": float(agl_max) * FT,
+            "terrain_margin_ft": float(getattr(airframe, "min_altitude_ft", None) or 100.0),
+        }
+    return {
+        "ceiling_m": float(airframe.ceiling_ft or 25000.0) * FT,
+        "max_agl_m": None,
+        "terrain_margin_ft": options.terrain_margin_ft,
+    }
 
 
 def _provenance(forecast, samples, colset):

@@ -87,6 +87,10 @@ class RouteScreening:
         Waypoint names and their distance along the route. [km]
     provenance : dict
     assumptions : dict
+    ceiling_m : float or None
+        Airframe ceiling used for the altitude search. [m]
+    max_agl_m : float or None
+        Height limit above the ground (drones). [m]
     """
 
     route_name: str
@@ -99,6 +103,8 @@ class RouteScreening:
     waypoints: list
     provenance: dict = field(default_factory=dict)
     assumptions: dict = field(default_factory=dict)
+    ceiling_m: float | None = None
+    max_agl_m: float | None = None
 
     def to_geojson(self) -> dict:
         """Return this route's hazard segments as a GeoJSON FeatureCollection dict."""
