@@ -472,8 +472,11 @@ def diagnose_sld(
     t_in = np.asarray(temperature, dtype=float)
     z_in = np.asarray(height, dtype=float)
     shape = np.broadcast_shapes(p_in.shape, t_in.shape, z_in.shape, np.shape(cloud))
-    if len(shape) == 0:
-        raise ValueError("diagnose_sld needs arrays with a level axis (..., level)")
+    if len(shape) == 0 or shape[-1] == 0:
+        raise ValueError(
+            f"diagnose_sld needs arrays with a level axis (..., level) of at least one "
+            f"level; got shape {shape}"
+        )
     level = {
         "pressure": p_in,
         "temperature": t_in,
@@ -499,7 +502,7 @@ def diagnose_sld(
     )
     tau = float(drizzle_time_scale_s)
     # blocks of columns along the first axis bound the memory of the temporaries
-    rows = max(1, _BLOCK_LEVELS // int(np.prod(shape[1:])))
+    rows = max(1, _BLOCK_LEVELS // max(1, int(np.prod(shape[1:]))))
     if len(shape) == 1 or shape[0] <= rows:
         return _diagnose_block(args, tau)
     parts = [

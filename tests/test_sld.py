@@ -101,9 +101,7 @@ def test_khairoutdinov_kogan_exponents():
     base = khairoutdinov_kogan_autoconversion(5e-4, 50e6)
     assert float(base) == pytest.approx(1350 * 5e-4**2.47 * 50**-1.79, rel=1e-12)
     assert float(khairoutdinov_kogan_autoconversion(1e-3, 50e6) / base) == pytest.approx(2**2.47)
-    assert float(khairoutdinov_kogan_autoconversion(5e-4, 100e6) / base) == pytest.approx(
-        2**-1.79
-    )
+    assert float(khairoutdinov_kogan_autoconversion(5e-4, 100e6) / base) == pytest.approx(2**-1.79)
     assert float(khairoutdinov_kogan_autoconversion(0.0, 50e6)) == 0.0
     assert np.isnan(khairoutdinov_kogan_autoconversion(5e-4, 0.0))
 
@@ -416,3 +414,24 @@ def test_model_rain_below_freezing_is_taken_at_its_word():
     d = run(col, rain=np.where(low, 1e-4, 0.0))
     assert np.all(d.sld_class[low] == codes.SLD_RAIN)
     assert d.precip_type == PT["freezing-rain"]
+
+
+def test_degenerate_shapes():
+    col = sld_warm_nose_column()
+    args, kw = sld_inputs(col)
+    # no columns: empty results of the right shape
+    d = diagnose_sld(
+        *(a[None][:0] for a in args),
+        **{k: (v[None][:0] if np.ndim(v) == 1 else np.zeros(0)) for k, v in kw.items()},
+    )
+    assert d.sld_class.shape == (0, 21) and d.precip_type.shape == (0,)
+    # one level: no layers, no areas; snow falls at -3 C with 1 mm/h
+    d = diagnose_sld(
+        *(a[:1] for a in args), **{k: (v[:1] if np.ndim(v) == 1 else v) for k, v in kw.items()}
+    )
+    assert d.sld_class.tolist() == [codes.SLD_NONE] and d.precip_type == PT["snow"]
+    # no levels at all is a usage error
+    with pytest.raises(ValueError, match="at least one level"):
+        diagnose_sld(
+            *(a[:0] for a in args), **{k: (v[:0] if np.ndim(v) == 1 else v) for k, v in kw.items()}
+        )
