@@ -131,7 +131,7 @@ def _as_samples(lat, lon, time):
 
 
 def _time_brackets(valid_times, t, tol_ms):
-    """Indices (i0, i1), weight of i1 and inside-window mask for sample times t."""
+    """Return the bracketing time indices (i0, i1), the weight of i1 and the window mask."""
     vt = valid_times.astype("datetime64[ms]").astype(np.int64).astype(float)
     ts = t.astype(np.int64).astype(float)
     inside = (ts >= vt[0] - tol_ms) & (ts <= vt[-1] + tol_ms)
@@ -555,7 +555,10 @@ class GridForecast(Forecast):
                                       it0[use], it1[use]) if use.size else {}
         vals = {}
         for key in keys:
-            if key in corners:
+            if key not in corners:  # no sample inside: empty arrays of the right shape
+                lev = self.variables[key].level_dim is not None
+                vals[key] = np.zeros((0, self.levels.size) if lev else (0,))
+            else:
                 v = self._combine(corners[key], wy[use], wx[use], wt[use])
                 info = self.variables[key]
                 if info.level_dim is not None:
@@ -590,7 +593,7 @@ class GridForecast(Forecast):
         covered = gap == ""
         keep = use[good]
         index = np.full(n, -1)
-        index[keep] = np.flatnonzero(good)
+        index[keep] = np.arange(keep.size)
         # drop the columns of samples without any usable level
         cols = {k: v[good] for k, v in cols.items()}
         wind_u = cols.pop("wind_u", None)

@@ -22,7 +22,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .constants import G, RHO_WATER, T0
+from .constants import RHO_WATER, T0, G
 from .errors import ForecastError, PlausibilityWarning
 from .thermo import (
     height_from_pressure_hypsometric,
@@ -155,7 +155,7 @@ class ProfileTable:
 
 
 def profile_schema():
-    """The JSON Schema (dict) of the profile input, ``icing/data/schemas/profiles-v1.json``."""
+    """Return the JSON Schema (dict) of the profile input (``data/schemas/profiles-v1.json``)."""
     return json.loads((Path(__file__).parent / "data" / "schemas" / "profiles-v1.json")
                       .read_text())
 
@@ -456,7 +456,7 @@ def _check_profile(prof, i, path, locate):
 
 
 def _build_table(profiles, path, locate, issue_time):
-    """Checked profile dicts -> ProfileTable (SI, surface first, NaN-padded)."""
+    """Turn checked profile dicts into a ProfileTable (SI, surface first, NaN-padded)."""
     checked = [_check_profile(prof, i, path, locate) for i, prof in enumerate(profiles)]
     times = np.array([parse_time(prof["valid_time"], path=path, where=locate(i, "valid_time"))
                       for i, prof in enumerate(profiles)], dtype="datetime64[ms]")
@@ -738,7 +738,7 @@ def _linear(units_str, target, *, path, name):
 
 
 def _conversion(key, var, *, path, name, sample):
-    """Unit conversion of a found variable to the SI target of ``key``."""
+    """Return the unit conversion of a found variable to the SI target of ``key``."""
     units_str = _units_of(var)
     transform = ""
     if units_str is None:  # guess from the values, say so
@@ -776,7 +776,7 @@ _LON_UNITS = {"degrees_east", "degree_east", "degree_e", "degrees_e", "degreee",
 
 
 def _classify_dim(ds, dim):
-    """What a dimension is: time, lat, lon, x, y, pressure, height, or None."""
+    """Classify a dimension: time, lat, lon, x, y, pressure, height, or None."""
     coord = ds.variables.get(dim)
     if coord is None:
         return None
@@ -1075,7 +1075,7 @@ def open_grid_file(path, var_map=None):
         add(key)
     if vertical == "height" and above_ground:
         notes.append("height levels are above ground (standard_name height)")
-    for key, info in variables.items():
+    for info in variables.values():
         if info.level_dim is not None and info.level_dim != level_dim:
             notes.append(f"{info.name} is on its own levels ({info.level_dim}); interpolated "
                          f"to the {level_dim} levels")
