@@ -10,35 +10,53 @@ every collector of an airframe over arrays of any shape.
 Conventions of ours, stated once:
 
 * **Ice type** from the stagnation freezing fraction ``n0``: ``n0 >= 1`` rime
-  (dry growth); ``MIXED_MIN_FRACTION <= n0 < 1`` mixed (wet growth, most water
-  freezes near the leading edge, some runs back); ``0 < n0 < MIXED_MIN_FRACTION``
-  clear (wet growth, most water runs back and freezes aft as clear ice);
-  ``n0 <= 0`` no ice. Runback is flagged wherever ``0 < n0 < 1``.
-* **Severity** maps the collector's *total catch* (runback freezes aft, so all
-  caught water counts, not only the frozen fraction) onto the earlier AIM
+  (dry growth); ``MIXED_MIN_FRACTION <= n0 < 1`` (0.3) mixed (wet growth, most
+  water freezes near the leading edge, some runs back); ``0 < n0 < 0.3`` clear
+  (wet growth, most water runs back and freezes aft as clear ice). Runback is
+  flagged wherever ``n0 < 1`` and ice forms.
+* **Aft of the stagnation line** the kinetic heating is smaller: the boundary
+  layer recovers only part of the dynamic temperature (``AFT_RECOVERY_FACTOR``
+  = 0.85 of the stagnation kinetic heating, air and drops; the low end of the
+  0.85-0.89 boundary-layer recovery factors). The same Messinger balance with
+  that heating gives the aft freezing fraction ``n_aft``. Where ``n0 <= 0`` at
+  the stagnation line but ``n_aft > 0``, water runs back and freezes aft: clear
+  ice with runback, nothing frozen at the stagnation line itself. Where neither
+  freezes there is no ice (a fast airframe's ram rise, e.g. a jet at cruise
+  near -10 C).
+* **Counted catch**: runback water freezes aft, so the severity counts the
+  caught water, not the fraction frozen at the stagnation line: all of it where
+  ``max(n0, n_aft) >= 0.3`` (it refreezes over a few such stretches aft), in
+  proportion ``max(n0, n_aft) / 0.3`` below (very wet growth: most water leaves
+  the surface unfrozen). This keeps the count continuous from rime through
+  clear ice to none.
+* **Severity** maps the collector's counted catch onto the earlier AIM
   edition's representative rates "on the outer wing" (trace < 6 mm/h, light
   6-25, moderate 25-75, severe > 75 mm/h). The collector's rate on that scale,
   the *equivalent outer-wing rate*, is the caught mass spread as solid ice over
-  the collector's frontal height: ``E (LWC V) / rho_ice`` [mm/h] (for an airfoil
-  the equivalent cylinder's frontal height, twice its leading-edge radius).
-  Then, for the collector's ice protection (the AIM words are defined by effect
-  on the aircraft and its protection):
+  the collector's frontal height, ``E LWC V / 917 kg m-3`` [mm/h] (for an airfoil
+  the equivalent cylinder's frontal height, twice its leading-edge radius), times
+  the fraction of it the collector's ice protection leaves on the airframe
+  (``PROTECTION_RESIDUAL``; the AIM words are defined by the effect on the
+  aircraft and by what its protection can do):
 
-  - ``none``: the time until the collector's ice tolerance is reached (from the
-    total-catch stagnation thickness rate) raises the word: under
-    ``TOLERANCE_MINUTES[0]`` (5) min severe, under 20 min at least moderate,
-    under 60 min at least light;
-  - ``de-ice`` (boots, cyclic electric): the protected surface sheds its ice
-    each cycle, so cloud-drop icing reads one step lower (never below trace);
-  - ``anti-ice`` (heated, evaporative or running-wet): the protected surface
-    stays clear; what remains is runback refreezing aft and unprotected parts,
-    so cloud-drop icing reads two steps lower (never below trace).
+  - ``none`` (1): all of it; and the time until the collector's ice tolerance is
+    reached (from the total-catch stagnation thickness rate at the ice's own
+    density) raises the word: under ``TOLERANCE_MINUTES`` 5 min severe, under
+    20 min at least moderate, under 60 min at least light;
+  - ``de-ice`` (1/3; boots, cyclic electric): the surface sheds its ice each
+    cycle; what counts is the ice between cycles and the residual after them;
+  - ``anti-ice`` (1/10; heated, evaporative or running-wet): the surface stays
+    clear; what counts is runback refreezing aft of the heated zone.
 
-  Supercooled large drops (SLD, at least 0.01 g/m3) impinge aft of the
-  protected areas, the AIM's mark of severe icing: freezing rain reads severe
-  on unprotected and boot-protected collectors and at least moderate on
-  anti-iced ones; freezing drizzle reads severe on boot-protected collectors
-  and at least moderate on unprotected and anti-iced ones.
+  A turboprop with boots in ordinary stratiform cloud thus reads moderate, not
+  the severe its unprotected wing rate would give; an anti-iced jet in the same
+  cloud at holding speed reads light.
+* **SLD** (at least 0.01 g/m3 of drizzle or rain drops that freeze on the
+  collector) impinge aft of the protected areas, the AIM's mark of severe
+  icing: freezing rain reads severe on unprotected and boot-protected
+  collectors and at least moderate on anti-iced ones; freezing drizzle reads
+  severe on boot-protected collectors and at least moderate on unprotected and
+  anti-iced ones.
 * "trace" needs at least 0.01 g/m3 of supercooled liquid (the in-cloud
   threshold of Korolev et al. 2003); less reads none.
 * Missing input (NaN) reads ``codes.GAP``, never none.
@@ -99,6 +117,8 @@ __all__ = [
     "IN_CLOUD_LWC",
     "AIM_RATES_MM_H",
     "TOLERANCE_MINUTES",
+    "PROTECTION_RESIDUAL",
+    "AFT_RECOVERY_FACTOR",
     "RIME_DENSITY_MIN",
     "recovery_temperature",
     "stagnation_heat_transfer",
@@ -128,7 +148,12 @@ TOLERANCE_MINUTES = (5.0, 20.0, 60.0)
 RIME_DENSITY_MIN = 100.0
 
 _LOG_BRIDGE = np.log10(173.0 / 60.0)
-_PROTECTION_STEPS = {"none": 0, "de-ice": 1, "anti-ice": 2}
+#: Fraction of the caught ice that each kind of ice protection leaves on the
+#: protected collector, for the severity scale (our convention, see module doc).
+PROTECTION_RESIDUAL = {"none": 1.0, "de-ice": 1.0 / 3.0, "anti-ice": 0.1}
+#: Recovery factor of the air energy term aft of the stagnation line (boundary
+#: layer, 0.85-0.89; the lower end, which is colder).
+AFT_RECOVERY_FACTOR = 0.85
 
 
 def recovery_temperature(temperature, airspeed, *, recovery_factor=1.0):
@@ -249,9 +274,13 @@ def _es_freezing():
 
 
 def _glaze_fraction(t, v, m_imp, h_c, evap_coef, e_a, recovery_factor):
-    """Messinger freezing fraction at T_s = 0 C in Anderson's (2004) form."""
+    """Messinger freezing fraction at T_s = 0 C in Anderson's (2004) form.
+
+    ``recovery_factor`` scales the kinetic heating of both the air and the drops
+    (1 at the stagnation line).
+    """
     e_f = _es_freezing()  # saturation over water at 0 C [Pa]
-    phi = T0 - t - v * v / (2.0 * CP_WATER)  # drop energy transfer term [K]
+    phi = T0 - t - recovery_factor * v * v / (2.0 * CP_WATER)  # drop energy term [K]
     evap = evap_coef * (e_f - e_a) * LV0  # evaporation term of theta [K]
     theta = (T0 - t - recovery_factor * v * v / (2.0 * CP_AIR)) + evap  # air energy term [K]
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -565,9 +594,10 @@ class AirframeIcing:
         Index into ``airframe.collectors`` of the collector setting severity (the
         reference collector where nothing ices).
     collection_efficiency : ndarray
-        Total collection efficiency ``E`` (cloud drops) of the worst collector. [1]
+        Overall total collection efficiency ``E`` of the worst collector: cloud and
+        SLD populations weighted by their liquid water content. [1]
     beta0 : ndarray
-        Stagnation-line efficiency (cloud drops). [1]
+        Stagnation-line efficiency, weighted the same way. [1]
     freezing_fraction : ndarray
         Stagnation freezing fraction ``n0`` (not clipped; NaN without water). [1]
     ice_type : ndarray int8
@@ -637,9 +667,14 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
         m_imp = (b0 * lwc + bs * sld_lwc) * v  # stagnation impinging flux [kg m-2 s-1]
         h_c = st["h_c"](d, v)
         n0 = _glaze_fraction(t, v, m_imp, h_c, coef, e_a, recovery_factor)
-        freezes = m_imp > 0.0
-        freezes &= n0 > 0.0
-        dry = freezes & (n0 >= 1.0)
+        n_aft = _glaze_fraction(t, v, m_imp, h_c, coef, e_a,
+                                recovery_factor * AFT_RECOVERY_FACTOR)
+        stag = (m_imp > 0.0) & (n0 > 0.0)  # ice at the stagnation line
+        # fraction of the catch that freezes somewhere on the collector (module doc)
+        counted = np.clip(np.fmax(n0, n_aft) / MIXED_MIN_FRACTION, 0.0, 1.0)
+        counted = np.where(m_imp > 0.0, counted, 0.0)
+        freezes = counted > 0.0
+        dry = stag & (n0 >= 1.0)
         ts = np.full_like(t, T0)
         if np.any(dry):
             vd = np.broadcast_to(v, t.shape)[dry]
@@ -649,16 +684,13 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
         mvd_eff = np.where(lwc > 0.0, st["mvd"], st["sld_mvd"])
         rho_i = np.where(freezes, ice_density(mvd_eff, v, ts, glaze=~dry), np.nan)
         per_rho = np.where(freezes, 3.6e6 / rho_i, 0.0)  # kg m-2 s-1 -> mm/h of this ice
-        stag_rate = m_imp * np.minimum(n0, 1.0) * per_rho  # frozen at the stagnation line
-        catch_rate = m_imp * per_rho  # total catch at the stagnation line (runback freezes aft)
-        # equivalent outer-wing rate: caught mass as solid ice over the frontal height
-        outer_wing = np.where(freezes, flux_total * (3.6e6 / RHO_ICE), 0.0)
+        stag_rate = np.where(stag, m_imp * np.minimum(n0, 1.0) * per_rho, 0.0)
+        catch_rate = m_imp * counted * per_rho  # caught at the stagnation line, frozen anywhere
+        # equivalent outer-wing rate: counted mass as solid ice over the frontal height
+        outer_wing = flux_total * counted * (3.6e6 / RHO_ICE * PROTECTION_RESIDUAL[prot])
         ttt = np.where(freezes, 60.0 * tol_mm / catch_rate, np.inf)
     sev = rate_severity(outer_wing).astype(np.int16)
-    step = _PROTECTION_STEPS[prot]
-    if step:
-        sev = np.where(sev > 0, np.maximum(sev - step, codes.SEV_TRACE), sev)
-    else:
+    if prot == "none":
         floor = np.select(
             [ttt < TOLERANCE_MINUTES[0], ttt < TOLERANCE_MINUTES[1], ttt < TOLERANCE_MINUTES[2]],
             [codes.SEV_SEVERE, codes.SEV_MODERATE, codes.SEV_LIGHT],
@@ -677,12 +709,17 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
         sev = np.where(rain, np.maximum(sev, sld_floor[0]), sev)
         sev = np.where(drizzle, np.maximum(sev, sld_floor[1]), sev)
     sev = np.where(freezes, np.maximum(sev, codes.SEV_TRACE), codes.SEV_NONE)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        total_lwc = lwc + sld_lwc
+        e_all = np.where(total_lwc > 0.0, (e * lwc + es * sld_lwc) / total_lwc, e)
+        b_all = np.where(total_lwc > 0.0, (b0 * lwc + bs * sld_lwc) / total_lwc, b0)
     return {
         "severity": sev.astype(np.int8),
-        "collection_efficiency": e,
-        "beta0": b0,
+        "collection_efficiency": e_all,
+        "beta0": b_all,
         "freezing_fraction": n0,
-        "ice_type": np.where(freezes, ice_type(n0), codes.ICE_NONE).astype(np.int8),
+        "ice_type": np.where(stag, ice_type(n0),
+                             np.where(freezes, codes.ICE_CLEAR, codes.ICE_NONE)).astype(np.int8),
         "ice_density": rho_i,
         "accretion_rate_mm_h": stag_rate,
         "mass_rate": flux_total * d,
