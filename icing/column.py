@@ -227,9 +227,9 @@ def _prepare(pressure, temperature, level_inputs, column_inputs):
         raise InputError(f"per-level inputs do not broadcast to one (..., level) shape: "
                          f"{given}", where="diagnose_columns",
                          fix="give every per-level array the shape (..., level)") from None
-    if len(shape) == 0:
-        raise InputError("pressure and temperature need a level axis", where="pressure",
-                         fix="pass arrays shaped (..., level)")
+    if len(shape) == 0 or shape[-1] == 0:
+        raise InputError("pressure and temperature need a level axis with levels",
+                         where="pressure", fix="pass arrays shaped (..., level), level >= 1")
     lead, n_lev = shape[:-1], shape[-1]
     n = int(np.prod(lead, dtype=int))
     flat = {k: np.broadcast_to(a, shape).reshape(n, n_lev) for k, a in arrays.items()}
@@ -309,6 +309,7 @@ def diagnose_columns(pressure, temperature, *, dewpoint=None, relative_humidity=
     column_inputs = {"precipitation_rate_mm_h": precipitation_rate_mm_h,
                      "surface_pressure": surface_pressure, "surface_height": surface_height}
     lead, n_lev, flat, cols = _prepare(pressure, temperature, level_inputs, column_inputs)
+    notes = _check_units(flat)
     n = int(np.prod(lead, dtype=int))
     chunk = max(1, int(options.chunk_columns))
     parts, warn_lists = [], []
@@ -325,8 +326,50 @@ def diagnose_columns(pressure, temperature, *, dewpoint=None, relative_humidity=
             lead + (n_lev,))
     for name in _PER_COLUMN_OUT:
         result[name] = np.concatenate([p[name] for p in parts], axis=0).reshape(lead)
-    warnings = _merge_warnings(warn_lists)
+    warnings = notes + _merge_warnings(warn_lists)
     return ColumnDiagnosis(**result, warnings=warnings, assumptions=options.describe())
+
+
+#: Unit mistakes caught at the edge: name -> (largest plausible value, what it looks
+#: like, fix). Values above the limit anywhere in the input raise InputError.
+_UNIT_LIMITS = {
+    "relative_humidity": (5.0, "percent", "give relative humidity as a fraction (0-1)"),
+    "specific_humidity": (0.1, "g/kg", "give specific humidity in kg/kg"),
+    "cloud_liquid": (0.05, "g/kg", "give mixing ratios in kg/kg"),
+    "cloud_ice": (0.05, "g/kg", "give mixing ratios in kg/kg"),
+    "rain": (0.05, "g/kg", "give mixing ratios in kg/kg"),
+    "snow": (0.05, "g/kg", "give mixing ratios in kg/kg"),
+    "cloud_fraction": (1.5, "percent", "give cloud fraction as a fraction (0-1)"),
+}
+
+
+def _finite_max(a):
+    finite = a[np.isfinite(a)]
+    return float(finite.max()) if finite.size else np.nan
+
+
+def _check_units(flat):
+    """Raise on clear unit mistakes; return plausibility notes (strings)."""
+    p_max = _finite_max(flat["pressure"])
+    if p_max < 2000.0:
+        raise InputError(f"pressure peaks at {p_max:g}, which looks like hPa", where="pressure",
+                         fix="give pressure in Pa (hPa x 100)")
+    t_max = _finite_max(flat["temperature"])
+    if t_max < 150.0:
+        raise InputError(f"temperature peaks at {t_max:g}, which looks like degrees Celsius",
+                         where="temperature", fix="give temperature in K (degC + 273.15)")
+    if "dewpoint" in flat and _finite_max(flat["dewpoint"]) < 150.0:
+        raise InputError("dewpoint looks like degrees Celsius", where="dewpoint",
+                         fix="give dewpoint in K (degC + 273.15)")
+    for name, (limit, looks, fix) in _UNIT_LIMITS.items():
+        if name in flat and _finite_max(flat[name]) > limit:
+            raise InputError(f"{name} peaks at {_finite_max(flat[name]):g}, which looks like "
+                             f"{looks}", where=name, fix=fix)
+    notes = []
+    if "relative_humidity" in flat and _finite_max(flat["relative_humidity"]) > 1.2:
+        notes.append("relative humidity above 120 % in the input: check its units and source "
+                     "(values a little above 100 % are normal model output)")
+    return notes
 
 
 def _merge_warnings(warn_lists):
@@ -455,7 +498,8 @@ def _diagnose_core(s, cols, o):
             f = clouds.sub_adiabatic_factor(
                 z[sel] - lay.base_height[sel], factor_at_base=o.sub_adiabatic_factor_at_base,
                 scale_height=o.sub_adiabatic_scale_height_m)
-            lwc_diag[sel] = np.nan_to_num(ad * f)
+            ad_f = np.nan_to_num(ad * f)
+            lwc_diag[sel] = np.where(ad_f > 1e-12, ad_f, 0.0)  # drop round-off at the base
         # --- combine: the larger, never the sum -----------------------------------------
         lwc = np.where(liquid_ok, np.maximum(lwc_model, lwc_diag), 0.0)
         lwc = np.where(air, lwc, np.nan)
@@ -523,6 +567,8 @@ def _diagnose_core(s, cols, o):
 
 def _freezing_level(t, z, air):
     """Height of the lowest 0 degC crossing (warm below, freezing above) in air; NaN if none."""
+    if t.shape[-1] < 2:
+        return np.full(t.shape[:-1], np.nan)
     t_lo, t_hi = t[..., :-1], t[..., 1:]
     ok = air[..., :-1] & air[..., 1:]
     cross = ok & (t_lo > T0) & (t_hi <= T0)

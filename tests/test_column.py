@@ -265,3 +265,53 @@ def test_nan_column_sld_is_a_gap():
     # a column without data is a coverage gap, never "no SLD"
     d = diagnose_columns(**all_nan_column())
     assert np.all(d.sld_class == codes.GAP) and int(d.precip_type) == codes.GAP
+
+
+# --- input checks ----------------------------------------------------------------------------
+
+@pytest.mark.parametrize(("change", "where"), [
+    ({"pressure": supercooled_stratiform_deck()["pressure"] / 100.0}, "pressure"),
+    ({"temperature": supercooled_stratiform_deck()["temperature"] - 273.15}, "temperature"),
+    ({"relative_humidity": supercooled_stratiform_deck()["relative_humidity"] * 100.0},
+     "relative_humidity"),
+    ({"cloud_liquid": supercooled_stratiform_deck()["cloud_liquid"] * 1000.0}, "cloud_liquid"),
+])
+def test_unit_mistakes_give_one_line_errors(change, where):
+    col = dict(supercooled_stratiform_deck(), **change)
+    with pytest.raises(InputError) as err:
+        diagnose_columns(**col)
+    assert err.value.where == where and err.value.fix
+    assert "\n" not in err.value.one_line()
+
+
+def test_shape_mismatch_is_a_clear_error():
+    col = supercooled_stratiform_deck()
+    with pytest.raises(InputError, match="broadcast"):
+        diagnose_columns(**dict(col, relative_humidity=col["relative_humidity"][:30]))
+    with pytest.raises(InputError, match="one value per column"):
+        diagnose_columns(**dict(col, surface_pressure=[1.0, 2.0]))
+
+
+def test_supersaturated_input_is_a_plausibility_note():
+    col = supercooled_stratiform_deck()
+    d = diagnose_columns(**dict(col, relative_humidity=np.full(40, 1.3)))
+    assert any("120 %" in w for w in d.warnings)
+
+
+def test_zero_columns_and_zero_levels():
+    # an empty batch is fine (shape kept); a column without levels is an input error
+    d = diagnose_columns(np.zeros((0, 40)), np.zeros((0, 40)),
+                         relative_humidity=np.zeros((0, 40)))
+    assert d.lwc.shape == (0, 40) and d.freezing_level.shape == (0,)
+    with pytest.raises(InputError, match="level"):
+        diagnose_columns(np.zeros((3, 0)), np.zeros((3, 0)), relative_humidity=np.zeros((3, 0)))
+
+
+def test_single_and_two_level_columns():
+    # edge cases: a one-level column has no depth above its base (no diagnosed liquid) and
+    # no 0 C crossing; two saturated levels make a layer with liquid in its upper level
+    d1 = diagnose_columns([90000.0], [265.0], relative_humidity=[1.0])
+    assert d1.cloud.tolist() == [True] and d1.lwc.tolist() == [0.0]
+    assert np.isnan(d1.freezing_level)
+    d2 = diagnose_columns([90000.0, 85000.0], [265.0, 262.0], relative_humidity=[1.0, 1.0])
+    assert d2.lwc[1] > 0 and d2.basis[1] == codes.BASIS_DIAGNOSED
