@@ -74,9 +74,9 @@ def water_surface_tension(temperature):
     -------
     numpy.ndarray
         Surface tension [N m-1]; NaN below 233.15 K (no bulk supercooled water) and
-        above the critical point. The release states the fit for 0.01-374 C and
-        "reasonable agreement" with supercooled data down to -25 C; below that it is
-        an extrapolation of a smooth fit (a 1-2 % matter for fall speeds).
+        above the critical point. The release states the fit for 0.01-374 C and,
+        from memory, reasonable agreement with supercooled data down to -25 C; below
+        that it is an extrapolation of a smooth fit (a 1-2 % matter for fall speeds).
 
     References
     ----------
@@ -435,8 +435,7 @@ AIR_MASSES = {
         0.7,
         round(float(gamma_shape_from_martin_k(0.80)), 2),
         "clean marine air: few CCN, narrow droplet spectra",
-        "C, k: Hobbs, Bowdle & Radke (1985); width k = 0.80: Martin et al. (1994), "
-        "from memory",
+        "C, k: Hobbs, Bowdle & Radke (1985); width k = 0.80: Martin et al. (1994), from memory",
     ),
     "continental": AirMass(
         "continental",
@@ -560,7 +559,8 @@ def median_volume_diameter(lwc, number_concentration, *, shape=2.0):
     References
     ----------
     Pruppacher, H. R. & Klett, J. D. (1997), Microphysics of Clouds and
-    Precipitation, 2nd ed., section 2.1 (gamma / Khrgian-Mazin spectra).
+    Precipitation, 2nd ed., ch. 2 (gamma and Khrgian-Mazin spectra; chapter from
+    memory). The moments are elementary properties of the gamma distribution.
 
     Examples
     --------
@@ -606,9 +606,9 @@ def marshall_palmer(rain_rate_mm_h):
 
     Notes
     -----
-    Marshall & Palmer fitted rates of about 1-23 mm/h; the exponential overstates
-    the number of the smallest drops. Above 100 mm/h the fit is extrapolated too
-    far and NaN is returned.
+    Marshall & Palmer fitted rates of about 1-23 mm/h (from memory); the
+    exponential overstates the number of the smallest drops. Above 100 mm/h (our
+    limit) the fit is extrapolated too far and NaN is returned.
 
     References
     ----------
@@ -731,8 +731,7 @@ def spectrum_bins(mvd, *, shape=2.0, n_bins=7, distribution="gamma"):
     valid = ("gamma", "langmuir-d")
     if distribution not in valid:
         raise ValueError(
-            f"unknown spectrum distribution {distribution!r}; expected one of "
-            f"{', '.join(valid)}"
+            f"unknown spectrum distribution {distribution!r}; expected one of {', '.join(valid)}"
         )
     n = int(n_bins)
     if n < 1:
@@ -752,4 +751,3 @@ def spectrum_bins(mvd, *, shape=2.0, n_bins=7, distribution="gamma"):
         ratios = special.gammaincinv(mu + 4.0, q) / special.gammaincinv(mu + 4.0, 0.5)
         fractions = np.full(n, 1.0 / n)
     return m[..., None] * ratios, fractions
-

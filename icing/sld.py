@@ -20,38 +20,35 @@ below cloud base. A level is an SLD level only where T <= 0 C.
 Thresholds (source tags as in the project's reference list: [V] read in the
 source, [M] from memory, [C] common practice, no source, [O] our choice):
 
-=============================  ==============  ===================================
-``PA_SNOW``                    2 J/kg          warm layer aloft too weak to melt
-                                               snow, Bourgouin (2000) [M]
-``PA_SURFACE_SNOW``            5.6 J/kg        surface warm layer: snow below,
-                                               Bourgouin (2000) [M]
-``PA_MELT``                    13.2 J/kg       complete melting, Bourgouin (2000) [M]
-``NA_PELLETS`` = 66 + 0.66 PA  J/kg            refreezing to ice pellets above;
-                                               freezing rain below 46 + 0.66 PA,
-                                               mixed between: Bourgouin (2000) [M];
-                                               we report the mixed band as
-                                               freezing rain [O, conservative]
-``PRECIP_RATE_MIN``            0.01 mm/h       precipitating [C]
-``HYDROMETEOR_MIN``            1e-6 kg/kg      model rain/snow/ice present [C]
-``NOMINAL_RAIN_RATE``          1 mm/h          rate assumed when precipitation is
-                                               inferred from cloud alone [C]
-``DRIZZLE_TOP_T_MIN``          -12 C           coldest cloud top for the warm-rain
-                                               process: Huffman & Norman (1988)
-                                               give 0 to -10/-12 C [V]; the warm
-                                               end is taken [O, conservative]
-``ICE_ALOFT_T``                -12 C           cloud colder than this above a level
-                                               counts as ice falling into it [O]
-``DRIZZLE_MIN_DEPTH``          300 m           cloud depth for drizzle [C]
-``DRIZZLE_LWC_MIN``            1e-5 kg/m3      0.01 g/m3, the in-cloud liquid
-                                               threshold of Korolev et al. (2003)
-                                               [V] borrowed as the smallest drizzle
-                                               content worth reporting [O]
-``FZDZ_DMAX``                  500 um          Appendix O freezing drizzle, Dmax
-                                               100-500 um [V structure]
-``FZRA_DMAX``                  2.2 mm          Appendix O freezing rain cap [M]
-``FZDZ_LWC_MAX``               0.29 g/m3 at 0 C, 0.18 at -25 C, linear:
-                                               Appendix O FZDZ MVD > 40 um [M]
-=============================  ==============  ===================================
+- ``PA_SNOW`` = 2 J/kg: a warm layer aloft too weak to melt snow, Bourgouin
+  (2000) [M].
+- ``PA_SURFACE_SNOW`` = 5.6 J/kg: a surface warm layer below this leaves snow,
+  Bourgouin (2000) [M].
+- ``PA_MELT`` = 13.2 J/kg: complete melting, Bourgouin (2000) [M] (documentary:
+  the refreezing line below decides between rain and pellets).
+- ``NA_PELLETS_OFFSET`` + ``NA_SLOPE`` PA = 66 + 0.66 PA J/kg: refrozen to ice
+  pellets above; freezing rain below 46 + 0.66 PA (``NA_FREEZING_RAIN_OFFSET``),
+  mixed between, Bourgouin (2000) [M]. The mixed band is reported as freezing
+  rain [O, conservative].
+- ``PRECIP_RATE_MIN`` = 0.01 mm/h: precipitating [C].
+- ``HYDROMETEOR_MIN`` = 1e-6 kg/kg: model rain, snow or ice present [C].
+- ``NOMINAL_RAIN_RATE`` = 1 mm/h: the rate assumed when precipitation is inferred
+  from cloud alone [C].
+- ``DRIZZLE_TOP_T_MIN`` = -12 C: the coldest cloud top for the warm-rain process;
+  Huffman & Norman (1988) give 0 to -10/-12 C [V]; the colder bound is taken so
+  that more decks qualify [O, conservative].
+- ``ICE_ALOFT_T`` = -12 C: cloud colder than this at or above a level counts as ice
+  falling into it [O].
+- ``DRIZZLE_MIN_DEPTH`` = 300 m: cloud depth for drizzle [C].
+- ``DRIZZLE_LWC_MIN`` = 1e-5 kg/m3 (0.01 g/m3): the in-cloud liquid threshold of
+  Korolev et al. (2003) [V], borrowed as the smallest drizzle content worth
+  reporting [O].
+- ``FZDZ_DMAX`` = 500 um: Appendix O freezing drizzle, Dmax 100-500 um [V for
+  the structure].
+- ``FZRA_DMAX`` = 2.2 mm: cap on the freezing-rain Dmax after Appendix O [M].
+- Freezing-drizzle LWC envelope: 0.29 g/m3 at 0 C to 0.18 g/m3 at -25 C, linear,
+  after Appendix O freezing drizzle MVD > 40 um [M]: read the published figures
+  before relying on it.
 """
 
 from __future__ import annotations
