@@ -391,3 +391,16 @@ def test_spectrum_bins_errors_and_nan():
         spectrum_bins(20e-6, shape=-1.0)
     d, _ = spectrum_bins(np.array([np.nan, 0.0]))
     assert np.all(np.isnan(d))
+
+
+def test_kohler_closed_form_is_the_curve_maximum():
+    # derived: the peak of S - 1 = a/r - b/r^3 found numerically (dense grid) matches
+    # r* = sqrt(3b/a) and S* - 1 = sqrt(4a^3/(27b)) (Rogers & Yau 1989, ch. 6)
+    m_g, t = 1e-15, 280.0
+    a = 3.3e-5 / t
+    b = 4.3 * 2 * m_g / 58.44
+    r = np.geomspace(1e-6, 1e-3, 200001)  # cm
+    s = a / r - b / r**3
+    r_star, s_star = kohler_critical(m_g * 1e-3, temperature=t)
+    assert float(r_star) * 100 == pytest.approx(r[np.argmax(s)], rel=1e-3)  # grid step
+    assert float(s_star) == pytest.approx(s.max(), rel=1e-6)

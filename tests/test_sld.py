@@ -435,3 +435,42 @@ def test_degenerate_shapes():
         diagnose_sld(
             *(a[:0] for a in args), **{k: (v[:0] if np.ndim(v) == 1 else v) for k, v in kw.items()}
         )
+
+
+@settings(max_examples=25, deadline=None)
+@given(seed=st.integers(0, 2**31 - 1), deep=st.booleans())
+def test_any_level_order_gives_the_same_diagnosis(seed, deep):
+    # levels may come in any order: results follow their levels
+    col = sld_warm_nose_column(cold_layer="deep" if deep else "shallow")
+    args, kw = sld_inputs(col)
+    d = diagnose_sld(*args, **kw)
+    perm = np.random.default_rng(seed).permutation(args[0].size)
+    kp = {k: (v[perm] if np.ndim(v) == 1 else v) for k, v in kw.items()}
+    r = diagnose_sld(*(a[perm] for a in args), **kp)
+    np.testing.assert_array_equal(r.sld_class, d.sld_class[perm])
+    np.testing.assert_allclose(r.sld_lwc, d.sld_lwc[perm])
+    assert r.precip_type == d.precip_type
+    assert r.refreezing_area == pytest.approx(d.refreezing_area)
+
+
+@settings(max_examples=25, deadline=None)
+@given(n1=st.floats(10.0, 500.0), f=st.floats(1.1, 5.0), top=st.floats(-12.0, -1.0))
+def test_fewer_droplets_never_less_drizzle(n1, f, top):
+    # Khairoutdinov & Kogan (2000): autoconversion falls with droplet number (N^-1.79)
+    col = sld_drizzle_deck_column(top_c=top)
+    many = run(col, number_cm3=n1 * f)
+    few = run(col, number_cm3=n1)
+    assert np.all(few.drizzle_content >= many.drizzle_content)
+    assert np.all(few.sld_class >= many.sld_class)
+
+
+@settings(max_examples=25, deadline=None)
+@given(r1=st.floats(0.05, 20.0), f=st.floats(1.1, 4.0))
+def test_more_rain_bigger_drops(r1, f):
+    # Marshall & Palmer (1948): LWC and D0 grow with the rate; the class does not change
+    col = sld_warm_nose_column(precipitation_rate_mm_h=r1)
+    a = run(col)
+    b = run(sld_warm_nose_column(precipitation_rate_mm_h=r1 * f))
+    rain = a.sld_class == codes.SLD_RAIN
+    np.testing.assert_array_equal(a.sld_class, b.sld_class)
+    assert np.all(b.sld_lwc[rain] > a.sld_lwc[rain]) and np.all(b.sld_mvd[rain] > a.sld_mvd[rain])
