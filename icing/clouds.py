@@ -290,8 +290,22 @@ def adiabatic_lwc_gradient(pressure, temperature):
 
     ``dLWC/dz = -rho dr_s/dz``, ``dr_s/dz = r_s [Lv/(Rv T^2) dT/dz + g/(Rd T)]`` along
     the moist adiabat (Clausius-Clapeyron with ``e_s << p``), with ``dT/dz`` from the
-    MetPy moist-lapse formula. About 2 g/m3 per km near 0 degC low down, falling in
-    the cold (Rogers & Yau 1989, fig. 3.? from memory).
+    MetPy moist-lapse formula. About 1.5-2 g/m3 per km near 0 degC low down, less in
+    the cold (textbook order, Rogers & Yau 1989 ch. 2, from memory).
+
+    Parameters
+    ----------
+    pressure, temperature : array_like
+        Pressure [Pa] and temperature [K] of saturated air.
+
+    Returns
+    -------
+    numpy.ndarray
+        ``dLWC_ad/dz`` [kg m-4]; NaN where inputs are NaN.
+
+    References
+    ----------
+    Rogers, R. R. & Yau, M. K. (1989), A Short Course in Cloud Physics, 3rd ed., ch. 2.
 
     Examples
     --------
@@ -413,6 +427,22 @@ def ice_crystal_mass_growth_rate(temperature, pressure, radius):
     ``C = r`` (a sphere: the simplest capacitance; plates ``2 r / pi``),
     ``S_i = e_sw / e_si``, ``F_k = (L_s/(R_v T) - 1) L_s/(k T)``,
     ``F_d = R_v T / (e_si D)``.
+
+    Parameters
+    ----------
+    temperature, pressure : array_like
+        [K], [Pa]. Zero growth at and above 0 degC.
+    radius : array_like
+        Crystal radius (the capacitance of a sphere). [m]
+
+    Returns
+    -------
+    numpy.ndarray
+        Mass growth rate, >= 0. [kg s-1]
+
+    References
+    ----------
+    Rogers, R. R. & Yau, M. K. (1989), A Short Course in Cloud Physics, eq. 9.4.
 
     Examples
     --------

@@ -275,7 +275,9 @@ def diagnose_columns(pressure, temperature, *, dewpoint=None, relative_humidity=
     precipitation_rate_mm_h : array_like, optional, shape (...)
         Surface precipitation rate. [mm h-1]
     surface_pressure, surface_height : array_like, optional, shape (...)
-        For the below-ground mask (height preferred when both). [Pa], [m]
+        For the below-ground mask: level heights against ``surface_height`` when
+        ``height`` is given, else pressure against ``surface_pressure``, else
+        computed heights against ``surface_height``. [Pa], [m]
     options : ColumnOptions, optional
         Physics choices; ``ColumnOptions()`` by default.
 
@@ -468,8 +470,11 @@ def _diagnose_core(s, cols, o):
             z = thermo.height_from_pressure_hypsometric(pf, tf, specific_humidity=qf, **base)
             z = np.where(any_valid & np.isfinite(p) & (p > 0), z, np.nan)
         # --- below ground -----------------------------------------------------------
+        # the exact test first: heights against surface height when the caller gave
+        # heights, else pressure against surface pressure; surface height against
+        # computed heights is the fallback (as good as the hypsometric anchor)
         below = np.zeros(p.shape, bool)
-        if "surface_height" in cols:
+        if "surface_height" in cols and ("height" in s or "surface_pressure" not in cols):
             sh = cols["surface_height"][:, None]
             below = np.isfinite(sh) & (z < sh)
         elif "surface_pressure" in cols:
