@@ -98,6 +98,12 @@ class ColumnSet:
         The profile id ("" for grid columns).
     candidate_distance_km : numpy.ndarray, shape (n, k)
         Geodesic distance from sample to candidate (NaN padded; 0 on grids).
+
+    Notes
+    -----
+    m >= 1 always: when no sample is covered one all-NaN placeholder column is
+    returned that no sample points to, so ``np.where(candidates >= 0,
+    candidates, 0)`` stays a valid index.
     """
 
     columns: dict
@@ -116,6 +122,23 @@ class ColumnSet:
     def n_columns(self) -> int:
         """Number of columns m."""
         return int(self.columns["pressure"].shape[0])
+
+
+def _placeholder_if_empty(cs):
+    """Give a ColumnSet without columns one all-NaN column (m = 1, never a candidate).
+
+    Callers index columns with ``np.where(candidates >= 0, candidates, 0)``;
+    with m >= 1 that stays valid when no sample is covered.
+    """
+    if cs.n_columns > 0:
+        return cs
+    one = {k: np.full((1,) + v.shape[1:], np.nan) for k, v in cs.columns.items()}
+    wind = [None if w is None else np.full((1,) + w.shape[1:], np.nan)
+            for w in (cs.wind_u, cs.wind_v)]
+    return ColumnSet(one, cs.candidates, cs.covered, cs.gap_reason, wind[0], wind[1],
+                     np.full(1, np.nan), np.full(1, np.nan),
+                     np.full(1, np.datetime64("NaT"), dtype="datetime64[ms]"),
+                     np.array([""], dtype=object), cs.candidate_distance_km)
 
 
 def _as_samples(lat, lon, time):
@@ -277,9 +300,10 @@ class ProfileForecast(Forecast):
             if vals is not None and np.isfinite(vals[used]).any():
                 cols[key] = vals[used]
         wind = {w: tab.levels[w][used] if w in tab.levels else None for w in ("wind_u", "wind_v")}
-        return ColumnSet(cols, candidates.astype(int), covered, gap.astype(str),
-                         wind["wind_u"], wind["wind_v"], tab.lat[used], tab.lon[used],
-                         tab.time[used], tab.ids[used].astype(str), cand_d)
+        return _placeholder_if_empty(ColumnSet(
+            cols, candidates.astype(int), covered, gap.astype(str), wind["wind_u"],
+            wind["wind_v"], tab.lat[used], tab.lon[used], tab.time[used],
+            tab.ids[used].astype(str), cand_d))
 
     def surface_height_at(self, lat, lon):
         """Surface elevation of the nearest profile within the radius that gives one [m]."""
@@ -599,9 +623,9 @@ class GridForecast(Forecast):
         wind_u = cols.pop("wind_u", None)
         wind_v = cols.pop("wind_v", None)
         cand_d = np.where(index >= 0, 0.0, np.nan)[:, None]
-        return ColumnSet(cols, index[:, None], covered, gap.astype(str), wind_u, wind_v,
-                         lat[keep], lon[keep], t[keep], np.full(keep.size, "", dtype=object),
-                         cand_d)
+        return _placeholder_if_empty(ColumnSet(
+            cols, index[:, None], covered, gap.astype(str), wind_u, wind_v, lat[keep],
+            lon[keep], t[keep], np.full(keep.size, "", dtype=object), cand_d))
 
     def _assemble(self, vals, m):
         """Interpolated values -> diagnose_columns keyword arrays (SI, surface first)."""

@@ -622,3 +622,11 @@ def test_fixture_generator_is_deterministic(tmp_path):
     assert a == GOLDEN.read_text()
     assert json.loads(mf.write_profiles(tmp_path / "p.json").read_text()) == \
         json.loads(PROFILES.read_text())
+
+
+@pytest.mark.parametrize("path", [LATLON, PROFILES])
+def test_no_sample_covered_gives_one_placeholder_column(path):
+    cs = load_forecast(path).columns_at([10.0, 11.0], [100.0, 100.0], [T12, T12])
+    assert not cs.covered.any() and (cs.candidates == -1).all()
+    assert cs.n_columns == 1 and np.isnan(cs.columns["temperature"]).all()
+    assert set(cs.gap_reason) <= {"outside-grid", "outside-radius"}
