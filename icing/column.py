@@ -314,21 +314,21 @@ def diagnose_columns(pressure, temperature, *, dewpoint=None, relative_humidity=
     notes = _check_units(flat)
     n = int(np.prod(lead, dtype=int))
     chunk = max(1, int(options.chunk_columns))
-    parts, warn_lists = [], []
+    parts, exceed_lists = [], []
     for start in range(0, max(n, 1), chunk):  # chunks of columns bound the memory
         sl = slice(start, min(start + chunk, n))
-        out, warns = _diagnose_sorted(
+        out, exceed = _diagnose_sorted(
             {k: v[sl] for k, v in flat.items()}, {k: v[sl] for k, v in cols.items()},
             options)
         parts.append(out)
-        warn_lists.append(warns)
+        exceed_lists.append(exceed)
     result = {}
     for name in _PER_LEVEL_OUT:
         result[name] = np.concatenate([p[name] for p in parts], axis=0).reshape(
             lead + (n_lev,))
     for name in _PER_COLUMN_OUT:
         result[name] = np.concatenate([p[name] for p in parts], axis=0).reshape(lead)
-    warnings = notes + _merge_warnings(warn_lists)
+    warnings = notes + _merge_warnings(exceed_lists)
     return ColumnDiagnosis(**result, warnings=warnings, assumptions=options.describe())
 
 
@@ -374,11 +374,11 @@ def _check_units(flat):
     return notes
 
 
-def _merge_warnings(warn_lists):
+def _merge_warnings(exceed_lists):
     """Merge the chunks' Appendix C counts into warning lines."""
     counts = {}
-    for warns in warn_lists:
-        for key, value in warns.items():
+    for exceed in exceed_lists:
+        for key, value in exceed.items():
             c0, w0 = counts.get(key, (0, 0.0))
             counts[key] = (c0 + value[0], max(w0, value[1]))
     return clouds.appendix_c_warnings(counts)
@@ -430,7 +430,7 @@ def _diagnose_core(s, cols, o):
     """Run the physics on ground-up sorted arrays shaped (n, level)."""
     p, t = s["pressure"], s["temperature"]
     n, n_lev = p.shape
-    warns = {}
+    exceed = {}
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         # --- humidity -------------------------------------------------------------
         if "relative_humidity" in s:
@@ -489,7 +489,9 @@ def _diagnose_core(s, cols, o):
         cloud = clouds.cloud_mask(rh, t, lwc_model=lwc_model if "cloud_liquid" in s else None,
                                   valid=air, warm=o.rh_threshold_warm,
                                   ice_fraction=o.rh_threshold_ice_fraction)
-        lay = clouds.cloud_layers(cloud, z, p, t)
+        # layer boundaries never reach into the ground or into missing levels
+        lay = clouds.cloud_layers(cloud, np.where(air, z, np.nan), np.where(air, p, np.nan),
+                                  np.where(air, t, np.nan))
         liquid_ok = cloud & (t > T_HOMOGENEOUS)
         lwc_model = np.where(air, np.where(t > T_HOMOGENEOUS, lwc_model, 0.0), np.nan)
         # --- diagnosed liquid (only cloudy liquid levels are integrated) ----------------
@@ -556,7 +558,7 @@ def _diagnose_core(s, cols, o):
         # --- freezing level ----------------------------------------------------------------
         freezing = _freezing_level(t, z, air)
         # --- Appendix C ---------------------------------------------------------------------
-        warns.update(clouds.appendix_c_exceedances(np.where(air, lwc, 0.0), t,
+        exceed.update(clouds.appendix_c_exceedances(np.where(air, lwc, 0.0), t,
                                                    convective=convective))
     out = {
         "pressure": p, "height": z, "temperature": t, "relative_humidity": rh,
@@ -567,7 +569,7 @@ def _diagnose_core(s, cols, o):
         "glaciation": glac, "droplet_number": number, "mvd": mvd, "spectrum_shape": shape,
         "freezing_level": freezing, **sld_out,
     }
-    return out, warns
+    return out, exceed
 
 
 def _freezing_level(t, z, air):

@@ -17,6 +17,8 @@ from common_columns import (
     warm_nose_column,
     warm_topped_drizzle_deck,
 )
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from icing import codes
 from icing.column import ColumnOptions, diagnose_columns
@@ -315,3 +317,45 @@ def test_single_and_two_level_columns():
     assert np.isnan(d1.freezing_level)
     d2 = diagnose_columns([90000.0, 85000.0], [265.0, 262.0], relative_humidity=[1.0, 1.0])
     assert d2.lwc[1] > 0 and d2.basis[1] == codes.BASIS_DIAGNOSED
+
+
+# --- invariants over random columns ----------------------------------------------------------
+
+@settings(max_examples=25, deadline=None)
+@given(t_sfc=st.floats(255.0, 295.0), lapse=st.floats(3e-3, 9e-3),
+       rh=st.lists(st.floats(0.0, 1.05), min_size=12, max_size=12),
+       w=st.floats(-2.0, 3.0), ql=st.floats(0.0, 1e-3), ice=st.floats(0.0, 5e-4))
+def test_physical_invariants_on_random_columns(t_sfc, lapse, rh, w, ql, ice):
+    # physical laws: LWC >= 0; no liquid at or below -38 C (homogeneous freezing);
+    # glaciation in [0, 1]; droplet number > 0 and MVD > 0 where there is liquid; cloud
+    # top not below cloud base; the larger of model and diagnosed liquid, never the sum
+    p = np.linspace(100000.0, 40000.0, 12)
+    z = np.linspace(0.0, 7000.0, 12)
+    t = t_sfc - lapse * z
+    d = diagnose_columns(p, t, relative_humidity=np.array(rh), cloud_liquid=np.full(12, ql),
+                         cloud_ice=np.full(12, ice), vertical_velocity=np.full(12, w))
+    assert np.all(d.lwc >= 0.0)
+    assert np.all(d.lwc[t <= 235.15] == 0.0)
+    g = d.glaciation[d.cloud]
+    assert np.all((g >= 0.0) & (g <= 1.0))
+    liquid = d.lwc >= 1e-5
+    assert np.all(d.droplet_number[liquid] > 0) and np.all(d.mvd[liquid] > 0)
+    assert np.all(d.cloud_top_height[d.cloud] >= d.cloud_base_height[d.cloud])
+    assert np.all(d.lwc <= np.maximum(d.lwc_model, d.lwc_diagnosed) + 1e-15)
+
+
+@pytest.mark.parametrize("field", ["sub_adiabatic_scale_height_m", "drizzle_time_scale_s",
+                                   "chunk_columns"])
+def test_options_refuse_non_positive_values(field):
+    with pytest.raises(InputError, match=field):
+        ColumnOptions(**{field: 0})
+
+
+def test_chunking_does_not_change_results():
+    # regression: diagnosing in chunks of 2 columns equals one chunk
+    cols = stack(*(f() for f in ALL))
+    one = diagnose_columns(**cols)
+    many = diagnose_columns(**cols, options=ColumnOptions(chunk_columns=2))
+    np.testing.assert_array_equal(one.lwc, many.lwc)
+    np.testing.assert_array_equal(one.sld_class, many.sld_class)
+    assert one.warnings == many.warnings
