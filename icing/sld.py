@@ -123,7 +123,7 @@ class SLDDiagnosis:
 
     Attributes
     ----------
-    sld_class : numpy.ndarray of int, shape (..., level)
+    sld_class : numpy.ndarray of int8, shape (..., level)
         ``codes.SLD_NONE`` / ``SLD_DRIZZLE`` / ``SLD_RAIN``; ``codes.GAP`` (-1) at
         levels with unusable data (NaN, ``valid`` False). Below ground: SLD_NONE.
     sld_lwc : numpy.ndarray, shape (..., level)
@@ -132,7 +132,7 @@ class SLDDiagnosis:
         Median volume diameter of the SLD population [m]; NaN where none.
     sld_dmax : numpy.ndarray, shape (..., level)
         Largest drop size worth considering [m]; NaN where none.
-    precip_type : numpy.ndarray of int, shape (...)
+    precip_type : numpy.ndarray of int8, shape (...)
         Surface precipitation type, index into ``codes.PRECIP_TYPES``; ``codes.GAP``
         for a column without usable levels.
     melting_area : numpy.ndarray, shape (...)
@@ -668,7 +668,7 @@ def _diagnose_block(a, drizzle_time_scale_s):
     ptype = np.where(cold_sfc & fzra[..., 0], _PT["freezing-rain"], ptype)
     warm_type = np.where(cold_aloft & (pa_sfc < PA_SURFACE_SNOW), _PT["snow"], _PT["rain"])
     ptype = np.where(warm_sfc & (evidence | liquid_drizzle_0), warm_type, ptype)
-    ptype = np.where(has, ptype, codes.GAP)
+    ptype = np.where(has, ptype, codes.GAP).astype(np.int8)
     melting = np.where(cold_sfc, pa[..., 0], np.where(warm_sfc, pa_sfc, np.nan))
     refreezing = np.where(cold_sfc, na[..., 0], np.where(warm_sfc, 0.0, np.nan))
 
@@ -681,7 +681,7 @@ def _diagnose_block(a, drizzle_time_scale_s):
     mvd_in = np.where(usable_in, back(s_mvd), np.nan)
     dmax_in = np.where(usable_in, back(s_dmax), np.nan)
     drz_in = np.where(usable_in, back(drizzle), np.where(below_in, 0.0, np.nan))
-    cls_in = np.where(below_in, codes.SLD_NONE, cls_in).astype(int)
+    cls_in = np.where(below_in, codes.SLD_NONE, cls_in).astype(np.int8)
     complete = ~gap_in.any(axis=-1)
     return SLDDiagnosis(
         sld_class=cls_in,
