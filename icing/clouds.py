@@ -29,6 +29,7 @@ from .constants import LS0, RD, RV, T0, T_HOMOGENEOUS, G
 
 __all__ = [
     "IN_CLOUD_LWC",
+    "RH_THRESHOLD_MODELS",
     "liquid_cloud_rh_threshold",
     "cloud_mask",
     "cloud_layers",
@@ -51,11 +52,19 @@ __all__ = [
 IN_CLOUD_LWC = 1.0e-5
 
 
-def liquid_cloud_rh_threshold(temperature, *, warm=0.95, ice_fraction=0.5):
+#: Names of the humidity-threshold models of :func:`liquid_cloud_rh_threshold`.
+RH_THRESHOLD_MODELS = ("ice-water-blend", "water-saturation")
+
+
+def liquid_cloud_rh_threshold(temperature, *, model="ice-water-blend", warm=0.95,
+                              ice_fraction=0.5):
     """Relative humidity over water above which a level is taken as liquid cloud.
 
+    ``"ice-water-blend"`` (default):
     ``RH_c(T) = min(warm, f_i + ice_fraction (1 - f_i))`` with ``f_i = e_si / e_sw``
     the water relative humidity of ice-saturated air (1 at and above 0 degC).
+    ``"water-saturation"``: ``RH_c = 0.999`` (saturated air only, for humidities that
+    are exact, e.g. from a model that saturates its cloudy cells).
 
     Reasoning: an ice cloud holds the air near ice saturation, which is only
     ~91/82/75 % over water at -10/-20/-30 degC, so a fixed 85-90 % threshold
@@ -65,12 +74,16 @@ def liquid_cloud_rh_threshold(temperature, *, warm=0.95, ice_fraction=0.5):
     most at ``warm`` (95 %, common practice for coarse model grids, no source).
     Between about -5 degC and 0 degC the cap lies up to 5 % below ice
     saturation: there the two saturations differ by less than humidity errors
-    and the conservative reading for screening is "cloud".
+    and the conservative reading for screening is "cloud"; the cap also keeps
+    the threshold continuous through 0 degC, so a deck straddling 0 degC stays
+    one layer.
 
     Parameters
     ----------
     temperature : array_like
         Air temperature. [K]
+    model : {"ice-water-blend", "water-saturation"}
+        Threshold model.
     warm : float, optional
         Threshold above freezing and cap below it. [1]
     ice_fraction : float, optional
@@ -81,17 +94,28 @@ def liquid_cloud_rh_threshold(temperature, *, warm=0.95, ice_fraction=0.5):
     numpy.ndarray
         Threshold relative humidity over water. [1]
 
+    Raises
+    ------
+    ValueError
+        Unknown model (the message lists the valid names).
+
     Examples
     --------
     >>> [round(float(v), 3) for v in liquid_cloud_rh_threshold([283.15, 263.15, 243.15])]
     [0.95, 0.95, 0.873]
     """
-    f_i = thermo.ice_saturation_relative_humidity(temperature)
+    t = np.asarray(temperature, dtype=float)
+    if model == "water-saturation":
+        return np.where(np.isnan(t), np.nan, 0.999)
+    if model != "ice-water-blend":
+        raise ValueError(f"unknown humidity-threshold model {model!r}; expected one of "
+                         f"{', '.join(RH_THRESHOLD_MODELS)}")
+    f_i = thermo.ice_saturation_relative_humidity(t)
     return np.minimum(warm, f_i + ice_fraction * (1.0 - f_i))
 
 
-def cloud_mask(relative_humidity, temperature, *, lwc_model=None, valid=None, warm=0.95,
-               ice_fraction=0.5):
+def cloud_mask(relative_humidity, temperature, *, lwc_model=None, valid=None,
+               model="ice-water-blend", warm=0.95, ice_fraction=0.5):
     """Liquid-cloud mask: model cloud water above 0.01 g/m3, or humidity above threshold.
 
     Parameters
@@ -104,7 +128,7 @@ def cloud_mask(relative_humidity, temperature, *, lwc_model=None, valid=None, wa
         Model cloud liquid water content. [kg m-3]
     valid : array_like of bool, optional
         Levels with usable data (others are never cloud).
-    warm, ice_fraction : float, optional
+    model, warm, ice_fraction : optional
         Passed to :func:`liquid_cloud_rh_threshold`.
 
     Returns
@@ -130,7 +154,7 @@ def cloud_mask(relative_humidity, temperature, *, lwc_model=None, valid=None, wa
     """
     rh = np.asarray(relative_humidity, dtype=float)
     with np.errstate(invalid="ignore"):
-        cloud = rh >= liquid_cloud_rh_threshold(temperature, warm=warm,
+        cloud = rh >= liquid_cloud_rh_threshold(temperature, model=model, warm=warm,
                                                 ice_fraction=ice_fraction)
         if lwc_model is not None:
             cloud = cloud | (np.asarray(lwc_model, dtype=float) >= IN_CLOUD_LWC)

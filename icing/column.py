@@ -52,6 +52,9 @@ class ColumnOptions:
     sub_adiabatic_scale_height_m : float
         e-folding height of that ratio above base, 1500 m (our choice to follow
         Warner's 1955 fall with height; deep layers stay bounded). [m]
+    rh_threshold_model : str
+        ``"ice-water-blend"`` (default; see ``icing.clouds.liquid_cloud_rh_threshold``)
+        or ``"water-saturation"``.
     rh_threshold_warm : float
         Humidity threshold above 0 degC and cap below, 0.95 (common practice). [1]
     rh_threshold_ice_fraction : float
@@ -87,6 +90,7 @@ class ColumnOptions:
     air_mass: object = "maritime"
     sub_adiabatic_factor_at_base: float = 0.77
     sub_adiabatic_scale_height_m: float = 1500.0
+    rh_threshold_model: str = "ice-water-blend"
     rh_threshold_warm: float = 0.95
     rh_threshold_ice_fraction: float = 0.5
     updraft_floor_stratiform_m_s: float = 0.1
@@ -108,6 +112,10 @@ class ColumnOptions:
             raise InputError(str(err), where="ColumnOptions.air_mass",
                              fix="use 'maritime', 'continental' or a mapping with "
                              "c_per_cm3, k and shape") from None
+        if self.rh_threshold_model not in clouds.RH_THRESHOLD_MODELS:
+            raise InputError(f"unknown humidity-threshold model {self.rh_threshold_model!r}",
+                             where="ColumnOptions.rh_threshold_model",
+                             fix=f"use one of {', '.join(clouds.RH_THRESHOLD_MODELS)}")
         if self.ice_nuclei_model not in ("meyers92", "fletcher62", "demott10"):
             raise InputError(f"unknown ice-nucleus model {self.ice_nuclei_model!r}",
                              where="ColumnOptions.ice_nuclei_model",
@@ -131,7 +139,12 @@ class ColumnOptions:
                 "efficiency and more drizzle by the warm-rain process"),
             "liquid_cloud": (
                 "model cloud liquid >= 0.01 g/m3 (Korolev et al. 2003) or relative humidity "
-                "over water >= min(warm, f_i + ice_fraction (1 - f_i)), f_i = e_si/e_sw"),
+                "over water above the threshold model"),
+            "rh_threshold_model": self.rh_threshold_model,
+            "rh_threshold_formula": (
+                "min(warm, f_i + ice_fraction (1 - f_i)), f_i = e_si/e_sw (stays above ice "
+                "saturation below about -5 C)" if self.rh_threshold_model == "ice-water-blend"
+                else "0.999 (saturated air only)"),
             "rh_threshold_warm": self.rh_threshold_warm,
             "rh_threshold_ice_fraction": self.rh_threshold_ice_fraction,
             "liquid_combination": (
@@ -487,7 +500,8 @@ def _diagnose_core(s, cols, o):
         if "cloud_liquid" in s:
             lwc_model = np.maximum(s["cloud_liquid"], 0.0) * rho  # kg/kg -> kg/m3
         cloud = clouds.cloud_mask(rh, t, lwc_model=lwc_model if "cloud_liquid" in s else None,
-                                  valid=air, warm=o.rh_threshold_warm,
+                                  valid=air, model=o.rh_threshold_model,
+                                  warm=o.rh_threshold_warm,
                                   ice_fraction=o.rh_threshold_ice_fraction)
         # layer boundaries never reach into the ground or into missing levels
         lay = clouds.cloud_layers(cloud, np.where(air, z, np.nan), np.where(air, p, np.nan),
@@ -573,12 +587,16 @@ def _diagnose_core(s, cols, o):
 
 
 def _freezing_level(t, z, air):
-    """Height of the lowest 0 degC crossing (warm below, freezing above) in air; NaN if none."""
+    """Height of the lowest 0 degC crossing in air, either way; NaN if none.
+
+    Under a sub-freezing surface layer with a warm nose aloft this is the base of
+    the warm nose; a column below 0 degC at every level has no crossing (NaN).
+    """
     if t.shape[-1] < 2:
         return np.full(t.shape[:-1], np.nan)
     t_lo, t_hi = t[..., :-1], t[..., 1:]
     ok = air[..., :-1] & air[..., 1:]
-    cross = ok & (t_lo > T0) & (t_hi <= T0)
+    cross = ok & ((t_lo > T0) != (t_hi > T0))
     first = np.argmax(cross, axis=-1)[..., None]
     any_cross = cross.any(axis=-1)
     ta = np.take_along_axis(t_lo, first, -1)[..., 0]

@@ -236,3 +236,10 @@ def test_appendix_c_warnings_are_strings_with_counts():
     assert ex == {"continuous maximum": (1, 1.0e-3), "intermittent maximum": (1, 3.0e-3)}
     lines = clouds.appendix_c_warnings(ex)
     assert len(lines) == 2 and all("from memory" in s for s in lines)
+
+
+def test_threshold_models_dispatch():
+    # stated models: the saturation model only takes saturated air as cloud
+    assert float(clouds.liquid_cloud_rh_threshold(263.15, model="water-saturation")) == 0.999
+    with pytest.raises(ValueError, match="ice-water-blend"):
+        clouds.liquid_cloud_rh_threshold(263.15, model="fixed")

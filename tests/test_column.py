@@ -359,3 +359,11 @@ def test_chunking_does_not_change_results():
     np.testing.assert_array_equal(one.lwc, many.lwc)
     np.testing.assert_array_equal(one.sld_class, many.sld_class)
     assert one.warnings == many.warnings
+
+
+def test_freezing_level_under_a_warm_nose_is_the_nose_base():
+    # definition (lowest 0 C crossing): a -3 C surface under a +3 C nose crosses 0 C first
+    # at the nose's base, between 930 hPa (-1 C) and 850 hPa (+3 C)
+    d = diagnose_columns(**warm_nose_column())
+    p_at = float(np.interp(d.freezing_level, d.height, d.pressure))
+    assert 85000.0 < p_at < 93000.0
