@@ -39,6 +39,7 @@ from .errors import ForecastError
 from .forecast_readers import (
     VAR_KEYS,
     ProfileTable,
+    fill_along_levels,
     open_grid_file,
     parse_time,
     read_profiles_csv,
@@ -656,7 +657,8 @@ class GridForecast(Forecast):
                 anchored = "surface_pressure" in cols and "surface_height" in cols
                 with np.errstate(invalid="ignore"):
                     cols["height"] = height_from_pressure_hypsometric(
-                        cols["pressure"], cols["temperature"], specific_humidity=q,
+                        cols["pressure"], fill_along_levels(cols["temperature"]),
+                        specific_humidity=q,
                         base_height=cols["surface_height"] if anchored else None,
                         base_pressure=cols["surface_pressure"] if anchored else None)
         else:

@@ -46,6 +46,8 @@ __all__ = [
     "read_profiles_csv",
     "open_grid_file",
     "profile_schema",
+    "specific_humidity_of",
+    "fill_along_levels",
 ]
 
 #: profile level field -> (column name of diagnose_columns, scale, offset) to SI
@@ -535,6 +537,26 @@ def specific_humidity_of(levels, humidity):
         return specific_humidity_from_relative_humidity(p, t, e / saturation_vapor_pressure(t))
 
 
+def fill_along_levels(a):
+    """Fill NaN along the last axis from the nearest valid level below, else above.
+
+    Used only to keep the hypsometric integration going through missing
+    temperatures (e.g. levels below the ground); the filled values are never
+    returned as data.
+
+    >>> fill_along_levels(np.array([np.nan, 1.0, np.nan, 3.0, np.nan])).tolist()
+    [1.0, 1.0, 1.0, 3.0, 3.0]
+    """
+    a = np.asarray(a, dtype=float)
+    ok = np.isfinite(a)
+    n = a.shape[-1]
+    idx = np.where(ok, np.arange(n), 0)
+    fwd = np.maximum.accumulate(idx, axis=-1)
+    first = np.argmax(ok, axis=-1)[..., None]
+    fwd = np.where(np.take_along_axis(ok, fwd, -1), fwd, first)
+    return np.take_along_axis(a, fwd, -1)
+
+
 def _fill_heights(levels, scalars, humidity, notes):
     """Hypsometric heights where ``height`` is absent (per profile, NaN levels kept NaN)."""
     p, t = levels["pressure"], levels["temperature"]
@@ -544,7 +566,7 @@ def _fill_heights(levels, scalars, humidity, notes):
     # padded levels: continue the pressure downward so the integration stays finite
     pad = ~np.isfinite(p)
     pf = np.where(pad, np.nanmin(p, axis=1, keepdims=True) * 0.5 ** np.cumsum(pad, axis=1), p)
-    tf = np.where(np.isfinite(t), t, np.nan)
+    tf = fill_along_levels(t)
     with np.errstate(invalid="ignore"):
         z_anch = height_from_pressure_hypsometric(pf, tf, specific_humidity=q,
                                                   base_height=np.where(anchored, zs, 0.0),

@@ -630,3 +630,28 @@ def test_no_sample_covered_gives_one_placeholder_column(path):
     assert not cs.covered.any() and (cs.candidates == -1).all()
     assert cs.n_columns == 1 and np.isnan(cs.columns["temperature"]).all()
     assert set(cs.gap_reason) <= {"outside-grid", "outside-radius"}
+
+
+@pytest.mark.parametrize("make", [lambda: mf.lcc_dataset(xy_units="km"),
+                                  mf.rotated_pole_dataset])
+def test_other_projections_and_coordinate_units(tmp_path, make):
+    fc = load_forecast(_write(make(), tmp_path))
+    lat = np.array([57.3, 54.2])
+    lon = np.array([-28.1, -29.5])
+    cs = fc.columns_at(lat, lon, [T12] * 2)
+    assert cs.covered.all()
+    ref = mf.skerrow_columns(lat, lon, 1)
+    # smooth background: bilinear on a ~25 km grid, float32 storage (as above)
+    np.testing.assert_allclose(cs.columns["temperature"], ref["temperature"], atol=0.05)
+
+
+def test_hypsometric_heights_survive_missing_levels_below_ground(tmp_path):
+    ds = _ds().drop_vars("gh")
+    ds["t"].loc[{"latitude": 57.0, "longitude": -24.5, "pressure": 1000.0}] = np.nan
+    cs = load_forecast(_write(ds, tmp_path)).columns_at([57.0], [-24.5], [T12])
+    z = cs.columns["height"][0]
+    assert np.isfinite(z).all()
+    ref = _grid_column(_ds(), "gh", 57.0, -24.5, T12)
+    # one missing level near the surface: the layer above it is integrated with the
+    # temperature of its neighbour (within 0.5 K here), a few metres at most
+    np.testing.assert_allclose(z, ref, atol=5.0)
