@@ -254,9 +254,8 @@ def _finstad_peak_table():
 
 @functools.lru_cache(maxsize=1)
 def _finstad_peak_value():
-    """Largest value of the Finstad fit at phi = 100 (0.984)."""
-    log_phi, log_kpeak = _finstad_peak_table()
-    return float(_finstad_raw(10.0 ** log_kpeak[0], 100.0))
+    """Largest value the Finstad fit takes at phi = 100 as used here (0.984)."""
+    return float(collision_efficiency_finstad88(1.0e7, 100.0))
 
 
 def collision_efficiency_finstad88(k, phi):
@@ -316,8 +315,10 @@ def collision_efficiency_finstad88(k, phi):
     low_phi = phi < FINSTAD_PHI_RANGE[0]
     if np.any(low_phi):
         # Langmuir-Blodgett held below the Finstad fit's own peak at phi = 100, so
-        # the two meet at phi = 100 (to within 0.007 near K = 0.18, where the fits
-        # disagree on the onset of impingement) and E stays non-decreasing in K
+        # the two meet at phi = 100 (exactly for 0.3 < K < 100; within 0.0075 near
+        # K = 0.18, where the fits disagree on the onset of impingement, and for
+        # K ~ 200-1000, where Langmuir-Blodgett nears 1 first) and E stays
+        # non-decreasing in K
         e_lb = np.minimum(collision_efficiency_langmuir46(k, phi), _finstad_peak_value())
         e = np.where(low_phi, np.maximum(e, e_lb), e)
     return np.where(np.isnan(k) | np.isnan(phi), np.nan, e)
