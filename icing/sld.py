@@ -409,8 +409,9 @@ def diagnose_sld(
 
     **Rain drop sizes**: the model's rain content wins where the model has rain at
     the level (Marshall-Palmer inverted for Lambda from the content); elsewhere the
-    Marshall-Palmer spectrum of the precipitation rate (or ``NOMINAL_RAIN_RATE`` when
-    precipitation was inferred from cloud alone). Never a blend of the two.
+    Marshall-Palmer spectrum of the precipitation rate, or of ``NOMINAL_RAIN_RATE``
+    where no rate above ``PRECIP_RATE_MIN`` is given (precipitation inferred from
+    cloud or from model hydrometeors higher up). Never a blend of the two.
     ``sld_dmax`` is the 99.9 % mass quantile of the exponential spectrum
     (3.5 D0), capped at ``FZRA_DMAX`` but never below D0.
 
@@ -548,7 +549,6 @@ def _diagnose_block(a, drizzle_time_scale_s):
     rain_s = srt("rain", 0.0)
     snow_s = srt("snow", 0.0)
     ice_s = srt("cloud_ice", 0.0)
-    n_use = u.sum(axis=-1)
     idx = np.broadcast_to(np.arange(nlev), shape)
     n_use = u.sum(axis=-1)
 
