@@ -165,8 +165,8 @@ class ColumnOptions:
             "glaciation": (
                 "likelihood beside the LWC (never thinning it): ice nuclei at cloud-top "
                 f"temperature ({self.ice_nuclei_model}) plus ice and snow falling from above, "
-                "diffusional growth against the updraft's condensate supply (Korolev & Mazin "
-                "2003 balance), over a residence time"),
+                "diffusional growth against the grid-mean updraft's condensate supply (Korolev "
+                "& Mazin 2003 balance), over a residence time"),
             "ice_crystal_radius_m": self.ice_crystal_radius_m,
             "crystal_density_kg_m3": self.crystal_density_kg_m3,
             "glaciation_residence_time_s": self.glaciation_residence_time_s,
@@ -563,7 +563,8 @@ def _diagnose_core(s, cols, o):
             glac[gsel] = clouds.glaciation_likelihood(
                 t[gsel], p[gsel], lwc[gsel], lay.top_temperature[gsel],
                 ice_above=ice_above[gsel],
-                updraft=np.maximum(w[gsel], 0.0) + o.subgrid_updraft_m_s,
+                # grid-mean ascent only: sub-grid ups and downs add no net condensate
+                updraft=np.maximum(w[gsel], 0.0),
                 air_density=rho[gsel], ice_nuclei_model=o.ice_nuclei_model,
                 ice_radius=o.ice_crystal_radius_m, crystal_density=o.crystal_density_kg_m3,
                 residence_time=o.glaciation_residence_time_s)

@@ -243,3 +243,11 @@ def test_threshold_models_dispatch():
     assert float(clouds.liquid_cloud_rh_threshold(263.15, model="water-saturation")) == 0.999
     with pytest.raises(ValueError, match="ice-water-blend"):
         clouds.liquid_cloud_rh_threshold(263.15, model="fixed")
+
+
+def test_glaciation_rises_as_the_cloud_top_cools():
+    # physical law: more ice nuclei act in colder cloud tops (Meyers et al. 1992), so in
+    # still air the likelihood rises monotonically from -5 C to -35 C
+    t = np.arange(-5.0, -36.0, -5.0) + T0
+    g = clouds.glaciation_likelihood(t, 60000.0, 2e-4, t)
+    assert np.all(np.diff(g) > 0) and g[0] < 0.1 and g[-1] > 0.9
