@@ -62,7 +62,11 @@ from scipy import special
 
 from . import codes
 from .constants import CP_AIR, RD, T0
-from .droplets import marshall_palmer, marshall_palmer_from_lwc
+from .droplets import (
+    combined_median_volume_diameter,
+    marshall_palmer,
+    marshall_palmer_from_lwc,
+)
 from .thermo import air_density, saturation_vapor_pressure
 
 __all__ = [
@@ -161,15 +165,31 @@ class SLDDiagnosis:
     complete: np.ndarray
 
 
-def appendix_o_class(sld_class, sld_mvd):
+def appendix_o_class(
+    sld_class, sld_mvd, *, sld_lwc=None, cloud_lwc=None, cloud_mvd=None, cloud_shape=2.0
+):
     """Name the 14 CFR 25 Appendix O condition of an SLD population.
+
+    Appendix O splits its freezing-drizzle and freezing-rain environments at an MVD
+    of 40 um taken over the whole drop distribution. Given the cloud-droplet
+    population too (``sld_lwc``, ``cloud_lwc``, ``cloud_mvd``), the MVD compared with
+    40 um is that of cloud and SLD drops together
+    (``icing.droplets.combined_median_volume_diameter``; the SLD population
+    exponential, as Marshall-Palmer); otherwise the SLD population's own MVD, which
+    for diagnosed drizzle (140 um) and rain is always above 40 um.
 
     Parameters
     ----------
     sld_class : array_like of int
         ``codes.SLD_*`` (``codes.GAP`` allowed).
     sld_mvd : array_like
-        Median volume diameter of the population. [m]
+        Median volume diameter of the SLD population. [m]
+    sld_lwc : array_like, optional
+        LWC of the SLD population. [kg m-3]
+    cloud_lwc, cloud_mvd : array_like, optional
+        LWC [kg m-3] and MVD [m] of the cloud droplets at the same place.
+    cloud_shape : array_like, optional
+        Gamma shape mu of the cloud droplets. [1]
 
     Returns
     -------
@@ -187,9 +207,15 @@ def appendix_o_class(sld_class, sld_mvd):
     --------
     >>> appendix_o_class([0, 1, 2], [np.nan, 30e-6, 900e-6]).tolist()
     ['none', 'freezing-drizzle MVD<40um', 'freezing-rain MVD>40um']
+    >>> appendix_o_class(1, 140e-6, sld_lwc=0.02e-3, cloud_lwc=0.4e-3, cloud_mvd=20e-6).tolist()
+    'freezing-drizzle MVD<40um'
     """
     c = np.asarray(sld_class)
     m = np.asarray(sld_mvd, dtype=float)
+    if sld_lwc is not None and cloud_lwc is not None and cloud_mvd is not None:
+        m = combined_median_volume_diameter(
+            cloud_lwc, cloud_mvd, sld_lwc, m, shape_a=cloud_shape, shape_b=0.0
+        )
     c, m = np.broadcast_arrays(c, m)
     small = m < APPENDIX_O_MVD_SPLIT
     suffix = np.where(small, " MVD<40um", " MVD>40um")

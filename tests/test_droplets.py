@@ -404,3 +404,32 @@ def test_kohler_closed_form_is_the_curve_maximum():
     r_star, s_star = kohler_critical(m_g * 1e-3, temperature=t)
     assert float(r_star) * 100 == pytest.approx(r[np.argmax(s)], rel=1e-3)  # grid step
     assert float(s_star) == pytest.approx(s.max(), rel=1e-6)
+
+
+def test_combined_mvd_limits_and_mass_balance():
+    from icing.droplets import combined_median_volume_diameter as cmvd
+
+    # one population empty: the other's MVD (definition)
+    assert float(cmvd(3e-4, 20e-6, 0.0, np.nan)) == pytest.approx(20e-6)
+    assert float(cmvd(0.0, np.nan, 1e-4, 300e-6)) == pytest.approx(300e-6)
+    assert np.isnan(cmvd(0.0, np.nan, 0.0, np.nan))
+    # two copies of one population: the same MVD (derived)
+    assert float(cmvd(1e-4, 25e-6, 2e-4, 25e-6, shape_a=2.0, shape_b=2.0)) == pytest.approx(
+        25e-6, rel=1e-9
+    )
+    # derived: at the result, half the mass of the mixture lies below
+    la, ma, lb, mb = 3e-4, 18e-6, 0.5e-4, 150e-6
+    d = float(cmvd(la, ma, lb, mb))
+    fa = special.gammainc(6.0, special.gammaincinv(6.0, 0.5) / ma * d)
+    fb = special.gammainc(4.0, special.gammaincinv(4.0, 0.5) / mb * d)
+    assert (la * fa + lb * fb) / (la + lb) == pytest.approx(0.5, abs=1e-9)
+    assert ma < d < mb
+
+
+@settings(max_examples=40, deadline=None)
+@given(lb=st.floats(1e-6, 1e-3), f=st.floats(1.1, 5.0))
+def test_combined_mvd_grows_with_the_large_drop_water(lb, f):
+    from icing.droplets import combined_median_volume_diameter as cmvd
+
+    # physical law: more water in the large drops moves the median up
+    assert cmvd(2e-4, 20e-6, lb * f, 200e-6) > cmvd(2e-4, 20e-6, lb, 200e-6)

@@ -474,3 +474,19 @@ def test_more_rain_bigger_drops(r1, f):
     rain = a.sld_class == codes.SLD_RAIN
     np.testing.assert_array_equal(a.sld_class, b.sld_class)
     assert np.all(b.sld_lwc[rain] > a.sld_lwc[rain]) and np.all(b.sld_mvd[rain] > a.sld_mvd[rain])
+
+
+def test_appendix_o_class_over_the_whole_distribution():
+    # 14 CFR 25 Appendix O takes the MVD over all drops: a little drizzle in a
+    # cloud of 20 um droplets is the "MVD < 40 um" drizzle environment, much
+    # drizzle the "MVD > 40 um" one (combined MVD, derived from the gamma spectra)
+    kw = {"cloud_lwc": 0.3e-3, "cloud_mvd": 20e-6}
+    little = appendix_o_class(codes.SLD_DRIZZLE, 140e-6, sld_lwc=0.02e-3, **kw)
+    much = appendix_o_class(codes.SLD_DRIZZLE, 140e-6, sld_lwc=0.3e-3, **kw)
+    assert little.tolist() == "freezing-drizzle MVD<40um"
+    assert much.tolist() == "freezing-drizzle MVD>40um"
+    # no cloud droplets: the SLD population's own MVD
+    alone = appendix_o_class(
+        codes.SLD_DRIZZLE, 140e-6, sld_lwc=0.02e-3, cloud_lwc=0.0, cloud_mvd=np.nan
+    )
+    assert alone.tolist() == "freezing-drizzle MVD>40um"
