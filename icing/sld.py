@@ -437,7 +437,8 @@ def diagnose_sld(
     the level (Marshall-Palmer inverted for Lambda from the content); elsewhere the
     Marshall-Palmer spectrum of the precipitation rate, or of ``NOMINAL_RAIN_RATE``
     where no rate above ``PRECIP_RATE_MIN`` is given (precipitation inferred from
-    cloud or from model hydrometeors higher up). Never a blend of the two.
+    cloud or from model hydrometeors higher up); rates above 100 mm/h are sized at
+    100 mm/h, the limit of ``marshall_palmer``. Never a blend of the two.
     ``sld_dmax`` is the 99.9 % mass quantile of the exponential spectrum
     (3.5 D0), capped at ``FZRA_DMAX`` but never below D0.
 
@@ -627,7 +628,10 @@ def _diagnose_block(a, drizzle_time_scale_s):
         # Bourgouin's verdict, or the model's own supercooled rain beneath a melting layer
         fzra = cold & ((melted & precip & (na <= na_limit)) | (model_rain & warm_above))
 
-        rate_eff = np.where(rate > PRECIP_RATE_MIN, rate, NOMINAL_RAIN_RATE)[..., None]
+        # Marshall-Palmer holds to 100 mm/h (droplets.marshall_palmer); heavier rates
+        # are sized at that limit rather than left without a size
+        rate_eff = np.where(rate > PRECIP_RATE_MIN, np.minimum(rate, 100.0), NOMINAL_RAIN_RATE)
+        rate_eff = rate_eff[..., None]
         lwc_mp, d0_mp = marshall_palmer(np.broadcast_to(rate_eff, shape))
         d0_model = marshall_palmer_from_lwc(np.where(model_rain, q_rain, np.nan))[0]
         ra_lwc = np.where(model_rain, q_rain, lwc_mp)

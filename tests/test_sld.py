@@ -490,3 +490,12 @@ def test_appendix_o_class_over_the_whole_distribution():
         codes.SLD_DRIZZLE, 140e-6, sld_lwc=0.02e-3, cloud_lwc=0.0, cloud_mvd=np.nan
     )
     assert alone.tolist() == "freezing-drizzle MVD>40um"
+
+
+def test_very_heavy_rate_still_sized():
+    # beyond the Marshall-Palmer range (100 mm/h here) the drops are sized at the limit
+    d = run(sld_warm_nose_column(precipitation_rate_mm_h=250.0))
+    rain = d.sld_class == codes.SLD_RAIN
+    assert rain.any()
+    np.testing.assert_allclose(d.sld_lwc[rain], marshall_palmer(100.0)[0])
+    assert np.all(np.isfinite(d.sld_dmax[rain]))
