@@ -773,16 +773,16 @@ def _conversion(key, var, *, path, name, sample):
     else:
         guessed = False
     target = _TARGET[key]
-    conv = _linear(units_str, target, path=path, name=name)
+    conv = _linear(units_str, target, path=path, name=f"variable {name}")
     if conv is None and key in ("height", "surface_height"):
-        c2 = _linear(units_str, "m2 s-2", path=path, name=name)
+        c2 = _linear(units_str, "m2 s-2", path=path, name=f"variable {name}")
         if c2 is not None:
             conv = (c2[0] / G, c2[1] / G)
     if conv is None and key == "vertical_velocity":
-        conv = _linear(units_str, "Pa/s", path=path, name=name)
+        conv = _linear(units_str, "Pa/s", path=path, name=f"variable {name}")
         transform = "omega" if conv is not None else ""
     if conv is None and key == "precipitation_rate":
-        c2 = _linear(units_str, "kg m-2 s-1", path=path, name=name)
+        c2 = _linear(units_str, "kg m-2 s-1", path=path, name=f"variable {name}")
         if c2 is not None:  # mass flux / rho_w -> m/s -> mm/h
             conv = (c2[0] / RHO_WATER * 3.6e6, c2[1] / RHO_WATER * 3.6e6)
     if conv is None:
@@ -1003,16 +1003,16 @@ def open_grid_file(path, var_map=None):
         vals = np.asarray(c.values, dtype=float)
         u = _units_of(c)
         if kind in ("x", "y") and crs is not None and not crs.is_geographic:
-            conv = _linear(u or "m", "m", path=path, name=dim)
+            conv = _linear(u or "m", "m", path=path, name=f"coordinate {dim}")
             return vals * conv[0] + conv[1] if conv else vals
         if kind in ("pressure", "height"):
             target = "Pa" if kind == "pressure" else "m"
             if u is None:
                 raise ForecastError(f"vertical coordinate {dim!r} has no units", path=path,
                                     where=f"coordinate {dim}", fix="add units (hPa, Pa or m)")
-            conv = _linear(u, target, path=path, name=dim)
+            conv = _linear(u, target, path=path, name=f"coordinate {dim}")
             if conv is None and kind == "height":
-                c2 = _linear(u, "m2 s-2", path=path, name=dim)
+                c2 = _linear(u, "m2 s-2", path=path, name=f"coordinate {dim}")
                 conv = None if c2 is None else (c2[0] / G, c2[1] / G)
             if conv is None:
                 raise ForecastError(f"units {u!r} of {dim!r} are not {target}", path=path,

@@ -46,18 +46,9 @@ def _module(name, path):
 
 mf = _module("make_fixtures", FIX / "make_fixtures.py")
 
-_CACHE = {}
-
-
 def _ds():
-    """The lat-lon fixture in memory (fresh copy, encodings dropped for fast writes)."""
-    if "ds" not in _CACHE:
-        with xr.open_dataset(LATLON) as ds:
-            ds = ds.load()
-        for var in ds.variables.values():
-            var.encoding = {}
-        _CACHE["ds"] = ds
-    return _CACHE["ds"].copy(deep=True)
+    """The lat-lon fixture in memory (a fresh copy, encodings dropped for fast writes)."""
+    return mf.in_memory(LATLON)
 
 
 def _write(ds, tmp_path, name="f.nc"):

@@ -7,6 +7,7 @@ they exercise the readers, they are not check values.
 from __future__ import annotations
 
 import copy
+import importlib.util
 import json
 from pathlib import Path
 
@@ -18,6 +19,10 @@ from icing.forecast import load_forecast
 from icing.forecast_readers import parse_time, profile_schema
 
 ROOT = Path(__file__).resolve().parents[1]
+_spec = importlib.util.spec_from_file_location("make_fixtures", ROOT / "fixtures" /
+                                               "make_fixtures.py")
+mf = importlib.util.module_from_spec(_spec)
+_spec.loader.exec_module(mf)
 PROFILES = ROOT / "fixtures" / "skerrow-profiles.json"
 PROFILES_CSV = ROOT / "fixtures" / "skerrow-profiles.csv"
 LATLON = ROOT / "fixtures" / "skerrow-latlon.nc"
@@ -278,20 +283,9 @@ def test_bad_profile_csv(tmp_path, text, words, where):
 # --------------------------------------------------------------------- NetCDF
 
 
-_CACHE = {}
-
-
 def _latlon_ds():
-    """The lat-lon fixture in memory (a fresh copy), encodings dropped for fast writes."""
-    import xarray as xr
-
-    if "ds" not in _CACHE:
-        with xr.open_dataset(LATLON) as ds:
-            ds = ds.load()
-        for var in ds.variables.values():
-            var.encoding = {}
-        _CACHE["ds"] = ds
-    return _CACHE["ds"].copy(deep=True)
+    """The lat-lon fixture in memory (a fresh copy, encodings dropped for fast writes)."""
+    return mf.in_memory(LATLON)
 
 
 def _to_nc(ds, tmp_path, name="f.nc"):
@@ -329,27 +323,17 @@ def test_no_humidity(tmp_path):
     assert "--var" in info.value.fix
 
 
-def test_kelvin_values_labelled_celsius(tmp_path):
+@pytest.mark.parametrize("name, units, words, where", [
+    ("t", "degC", "implausible", "variable t"),  # kelvin values labelled Celsius
+    ("r", "bananas", "not understood", "variable r"),
+    ("u", "K", "cannot be converted", "variable u"),
+])
+def test_bad_units_attribute(tmp_path, name, units, words, where):
     ds = _latlon_ds()
-    ds["t"].attrs["units"] = "degC"
-    with pytest.raises(ForecastError, match="implausible") as info:
+    ds[name].attrs["units"] = units
+    with pytest.raises(ForecastError, match=words) as info:
         load_forecast(_to_nc(ds, tmp_path))
-    assert info.value.where == "variable t"
-
-
-def test_units_not_understood(tmp_path):
-    ds = _latlon_ds()
-    ds["r"].attrs["units"] = "furlongs per fortnight squared"
-    with pytest.raises(ForecastError, match="units"):
-        load_forecast(_to_nc(ds, tmp_path))
-
-
-def test_unconvertible_units(tmp_path):
-    ds = _latlon_ds()
-    ds["u"].attrs["units"] = "K"
-    with pytest.raises(ForecastError, match="cannot be converted") as info:
-        load_forecast(_to_nc(ds, tmp_path))
-    assert info.value.where == "variable u"
+    assert info.value.where == where and info.value.fix
 
 
 def test_model_levels_are_refused(tmp_path):
