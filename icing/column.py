@@ -327,20 +327,23 @@ def diagnose_columns(pressure, temperature, *, dewpoint=None, relative_humidity=
     notes = _check_units(flat)
     n = int(np.prod(lead, dtype=int))
     chunk = max(1, int(options.chunk_columns))
-    parts, exceed_lists = [], []
+    result, exceed_lists = {}, []
     for start in range(0, max(n, 1), chunk):  # chunks of columns bound the memory
         sl = slice(start, min(start + chunk, n))
         out, exceed = _diagnose_sorted(
             {k: v[sl] for k, v in flat.items()}, {k: v[sl] for k, v in cols.items()},
             options)
-        parts.append(out)
+        if not result:  # allocate the outputs once, then fill chunk by chunk
+            result = {name: np.empty((n,) + out[name].shape[1:], out[name].dtype)
+                      for name in _PER_LEVEL_OUT + _PER_COLUMN_OUT}
+        for name in _PER_LEVEL_OUT + _PER_COLUMN_OUT:
+            result[name][sl] = out[name]
+        del out
         exceed_lists.append(exceed)
-    result = {}
     for name in _PER_LEVEL_OUT:
-        result[name] = np.concatenate([p[name] for p in parts], axis=0).reshape(
-            lead + (n_lev,))
+        result[name] = result[name].reshape(lead + (n_lev,))
     for name in _PER_COLUMN_OUT:
-        result[name] = np.concatenate([p[name] for p in parts], axis=0).reshape(lead)
+        result[name] = result[name].reshape(lead)
     warnings = notes + _merge_warnings(exceed_lists)
     return ColumnDiagnosis(**result, warnings=warnings, assumptions=options.describe())
 
