@@ -289,6 +289,18 @@ def _glaze_fraction(t, v, m_imp, h_c, evap_coef, e_a, recovery_factor):
     return np.where(m_imp > 0.0, n0, np.nan)
 
 
+def _balance_terms(temperature, airspeed, pressure, lwc, beta0, cylinder_diameter,
+                   relative_humidity):
+    """(T, V, impinging flux, h_c, evaporation coefficient, ambient vapour pressure)."""
+    t = np.asarray(temperature, dtype=float)
+    v = np.asarray(airspeed, dtype=float)
+    h_c = stagnation_heat_transfer(cylinder_diameter, v, pressure=pressure, temperature=t)
+    coef = _evaporation_coefficient(pressure, t)
+    e_a = np.asarray(relative_humidity, float) * saturation_vapor_pressure(t, phase="liquid")
+    m_imp = np.asarray(lwc, float) * v * np.asarray(beta0, float)
+    return t, v, m_imp, h_c, coef, e_a
+
+
 def freezing_fraction(
     temperature,
     airspeed,
@@ -354,13 +366,9 @@ def freezing_fraction(
     >>> bool(n_cold > 1.0 > n_warm > 0.0)
     True
     """
-    t = np.asarray(temperature, dtype=float)
-    v = np.asarray(airspeed, dtype=float)
-    h_c = stagnation_heat_transfer(cylinder_diameter, v, pressure=pressure, temperature=t)
-    coef = _evaporation_coefficient(pressure, t)
-    e_a = np.asarray(relative_humidity, float) * saturation_vapor_pressure(t, phase="liquid")
-    m_imp = np.asarray(lwc, float) * v * np.asarray(beta0, float)
-    return _glaze_fraction(t, v, m_imp, h_c, coef, e_a, recovery_factor)
+    terms = _balance_terms(temperature, airspeed, pressure, lwc, beta0, cylinder_diameter,
+                           relative_humidity)
+    return _glaze_fraction(*terms, recovery_factor)
 
 
 def _dry_surface_temperature(t, v, m_imp, h_c, evap_coef, e_a, recovery_factor, iterations=4):
@@ -421,14 +429,10 @@ def surface_temperature(
     >>> bool(253.15 < ts < 273.15)
     True
     """
-    t = np.asarray(temperature, dtype=float)
-    v = np.asarray(airspeed, dtype=float)
-    h_c = stagnation_heat_transfer(cylinder_diameter, v, pressure=pressure, temperature=t)
-    coef = _evaporation_coefficient(pressure, t)
-    e_a = np.asarray(relative_humidity, float) * saturation_vapor_pressure(t, phase="liquid")
-    m_imp = np.asarray(lwc, float) * v * np.asarray(beta0, float)
-    n0 = _glaze_fraction(t, v, m_imp, h_c, coef, e_a, recovery_factor)
-    ts = _dry_surface_temperature(t, v, m_imp, h_c, coef, e_a, recovery_factor)
+    terms = _balance_terms(temperature, airspeed, pressure, lwc, beta0, cylinder_diameter,
+                           relative_humidity)
+    n0 = _glaze_fraction(*terms, recovery_factor)
+    ts = _dry_surface_temperature(*terms, recovery_factor)
     return np.where(np.isnan(n0), np.nan, np.where(n0 >= 1.0, ts, T0))
 
 
