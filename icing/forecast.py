@@ -328,7 +328,8 @@ class ProfileForecast(Forecast):
             "radius_km": self.radius_km,
             "time_tolerance_h": self.time_tolerance_h,
             "humidity": tab.humidity,
-            "variables": {k: {"name": k, "found_by": "profile field"} for k in sorted(tab.levels)},
+            "variables": {key: {"name": src, "found_by": "profile field"}
+                          for key, src in sorted(tab.sources.items())},
             "bounds": list(self.bounds),
             "notes": list(tab.notes),
         }

@@ -123,6 +123,7 @@ class ProfileTable:
     files: list
     issue_time: np.datetime64 | None = None
     notes: list = field(default_factory=list)
+    sources: dict = field(default_factory=dict)
 
     @property
     def size(self):
@@ -153,7 +154,18 @@ class ProfileTable:
             np.concatenate([t.ids for t in tables]), np.concatenate([t.lat for t in tables]),
             np.concatenate([t.lon for t in tables]), np.concatenate([t.time for t in tables]),
             levels, scalars, tables[0].humidity, sum((t.files for t in tables), []),
-            issue[0] if issue else None, sum((t.notes for t in tables), []))
+            issue[0] if issue else None, sum((t.notes for t in tables), []),
+            _merge_sources(tables))
+
+
+def _merge_sources(tables):
+    out = {}
+    for t in tables:
+        for key, src in t.sources.items():
+            if out.get(key, src) != src:
+                src = f"{out[key]}; {src}"
+            out[key] = src
+    return out
 
 
 def profile_schema():
@@ -463,6 +475,16 @@ def _build_table(profiles, path, locate, issue_time):
     times = np.array([parse_time(prof["valid_time"], path=path, where=locate(i, "valid_time"))
                       for i, prof in enumerate(profiles)], dtype="datetime64[ms]")
     kinds = [next(h for h in HUMIDITY_FIELDS if h in arr) for arr in checked]
+    sources = {}
+    for name, (key, _, _) in PROFILE_LEVEL_FIELDS.items():
+        if name not in HUMIDITY_FIELDS and any(name in arr for arr in checked):
+            sources[key] = name
+    for name, (key, _) in PROFILE_FIELDS.items():
+        if any(prof.get(name) is not None for prof in profiles):
+            sources[key] = name
+    used = sorted(set(kinds), key=HUMIDITY_FIELDS.index)
+    hum_key = PROFILE_LEVEL_FIELDS[used[0]][0] if len(used) == 1 else "relative_humidity"
+    sources[hum_key] = used[0] if len(used) == 1 else "from " + " / ".join(used)
     humidity = PROFILE_LEVEL_FIELDS[kinds[0]][0] if len(set(kinds)) == 1 else "relative_humidity"
     nlev = max(a["pressure_hpa"].size for a in checked)
     P = len(profiles)
@@ -491,13 +513,16 @@ def _build_table(profiles, path, locate, issue_time):
     nclip = _clip_humidity(levels, humidity)
     if nclip:
         notes.append(f"humidity above saturation over water clipped at {nclip} level(s)")
-    if "height" not in levels or np.isnan(levels["height"]).any():
+    if "height" not in levels or (np.isnan(levels["height"]) & np.isfinite(
+            levels["pressure"])).any():
         _fill_heights(levels, scalars, humidity, notes)
+        sources["height"] = ("height_m, " if "height" in sources else "") + \
+            "computed hypsometrically where absent"
     return ProfileTable(
         np.array([str(prof["id"]) for prof in profiles], dtype=object),
         np.array([float(prof["lat"]) for prof in profiles]),
         np.array([float(prof["lon"]) for prof in profiles]),
-        times, levels, scalars, humidity, [str(path)], issue_time, notes)
+        times, levels, scalars, humidity, [str(path)], issue_time, notes, sources)
 
 
 def _rh_from(arr, kind):
@@ -590,8 +615,10 @@ def _as_humidity(table, humidity):
         e = vapor_pressure_from_specific_humidity(lv["pressure"], q)
         lv["relative_humidity"] = e / saturation_vapor_pressure(lv["temperature"])
     del lv[table.humidity]
+    sources = dict(table.sources)
+    sources[humidity] = "from " + sources.pop(table.humidity, table.humidity)
     return ProfileTable(table.ids, table.lat, table.lon, table.time, lv, table.scalars,
-                        humidity, table.files, table.issue_time, table.notes)
+                        humidity, table.files, table.issue_time, table.notes, sources)
 
 
 # ----------------------------------------------------------------------- CF-NetCDF

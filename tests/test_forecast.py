@@ -646,3 +646,13 @@ def test_hypsometric_heights_survive_missing_levels_below_ground(tmp_path):
     # one missing level near the surface: the layer above it is integrated with the
     # temperature of its neighbour (within 0.5 K here), a few metres at most
     np.testing.assert_allclose(z, ref, atol=5.0)
+
+
+def test_profile_provenance_names_the_fields(tmp_path):
+    d = load_forecast(PROFILES).describe()["variables"]
+    assert d["temperature"]["name"] == "temperature_c"
+    assert d["height"]["name"] == "height_m, computed hypsometrically where absent"
+    doc = mf.profiles_document()
+    doc["profiles"] = doc["profiles"][:4]  # all with heights
+    d = load_forecast(mf.write_profiles(tmp_path / "p.json", doc)).describe()["variables"]
+    assert d["height"]["name"] == "height_m"
