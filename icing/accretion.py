@@ -87,6 +87,7 @@ from .collection import (
     _ratios_per_point,
     _spectrum_fast,
     _spectrum_kernel,
+    finstad_out_of_range,
     inertia_parameter,
     range_parameter,
     spectrum_quadrature,
@@ -132,6 +133,7 @@ __all__ = [
     "rate_severity",
     "AirframeIcing",
     "airframe_icing",
+    "fit_range_flags",
 ]
 
 #: Lower freezing-fraction bound of "mixed" ice (our convention, see module doc).
@@ -931,3 +933,51 @@ def _mask_gap(a, gap, name):
     if name == "runback":
         return np.where(gap, False, a)
     return np.where(gap, np.nan, a)
+
+
+def fit_range_flags(airframe, *, mvd, temperature, pressure, airspeed=None, model="finstad88"):
+    """Where each collector's collision efficiency leaves its fit's range.
+
+    For ``model="finstad88"``: True where the range parameter at the collector is
+    outside 100..1e4 or the inertia parameter at the MVD above ~1e3
+    (:func:`icing.collection.finstad_out_of_range`; how each case is handled is
+    in :func:`icing.collection.collision_efficiency_finstad88`). The
+    Langmuir-Blodgett fit is defined for every ``phi`` (all False). For the
+    assumptions written with the results.
+
+    Parameters
+    ----------
+    airframe : icing.airframes.Airframe
+    mvd, temperature, pressure : array_like
+        Cloud-drop MVD [m], air temperature [K] and pressure [Pa].
+    airspeed : array_like, optional
+        True airspeed; default the airframe's cruise speed. [m/s]
+    model : {"finstad88", "langmuir46"}
+
+    Returns
+    -------
+    dict of str -> numpy.ndarray of bool
+
+    Examples
+    --------
+    >>> from icing.airframes import load_airframe
+    >>> flags = fit_range_flags(load_airframe("small-multirotor"), mvd=15e-6,
+    ...                         temperature=263.15, pressure=9e4)
+    >>> bool(flags["propeller"]), bool(flags["arm"])
+    (True, False)
+    """
+    _model(model)
+    v = airframe.cruise_tas if airspeed is None else airspeed
+    t = np.asarray(temperature, dtype=float)
+    rho = air_density(pressure, t)
+    mu = air_viscosity(t)
+    out = {}
+    for c in airframe.collectors:
+        u = c.speed(v)
+        k = inertia_parameter(mvd, c.diameter, u, mu)
+        phi = range_parameter(c.diameter, u, rho, mu)
+        if model == "finstad88":
+            out[c.name] = np.asarray(finstad_out_of_range(k, phi))
+        else:
+            out[c.name] = np.zeros(np.shape(k), dtype=bool)
+    return out

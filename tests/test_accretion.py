@@ -412,3 +412,17 @@ def test_invariants(points, name):
     assert np.all(res.accretion_rate_mm_h >= 0) and np.all(res.mass_rate >= 0)
     # more supercooled water never makes icing less severe (physical)
     assert np.all(more.severity >= res.severity)
+
+
+def test_fit_range_flags_name_the_small_fast_sections():
+    # ours: the 0.6 mm drone-propeller equivalent cylinder has phi ~ 25 < 100 (outside
+    # the Finstad fit); a wing at cruise is inside it
+    drone = acc.fit_range_flags(load_airframe("small-multirotor"), mvd=15e-6,
+                                temperature=263.15, pressure=9e4)
+    assert bool(drone["propeller"]) and not bool(drone["arm"])
+    wing = acc.fit_range_flags(load_airframe("light-piston"), mvd=[15e-6, 20e-6],
+                               temperature=263.15, pressure=7e4)
+    assert wing["outer-wing"].tolist() == [False, False]
+    lb = acc.fit_range_flags(load_airframe("small-multirotor"), mvd=15e-6,
+                             temperature=263.15, pressure=9e4, model="langmuir46")
+    assert not any(bool(v) for v in lb.values())
