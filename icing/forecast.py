@@ -436,6 +436,7 @@ class GridForecast(Forecast):
         chunks = ref.ds[ref.variables["temperature"].name].encoding.get("chunksizes")
         self.tile = int(tile or (max(8, min(64, min(chunks[-2:]))) if chunks else 32))
         self.read_stats = {"reads": 0, "values": 0}
+        self.chunk = 8192  # samples interpolated at a time
 
     @staticmethod
     def _check_same_grid(a, b):
@@ -558,39 +559,40 @@ class GridForecast(Forecast):
     @staticmethod
     def _combine(v, wy, wx, wt):
         """Bilinear in space, linear in time; zero weights never spread NaN."""
-        shape = (-1,) + (1,) * (v.ndim - 4)
         wts = np.stack([1.0 - wt, wt], 1)[:, :, None, None] \
             * np.stack([1.0 - wy, wy], 1)[:, None, :, None] \
             * np.stack([1.0 - wx, wx], 1)[:, None, None, :]
         wts = wts.reshape(wts.shape + (1,) * (v.ndim - 4))
         with np.errstate(invalid="ignore"):
             part = np.where(wts > 0, v * wts, 0.0)
-        del shape
         return part.sum(axis=(1, 2, 3))
 
     def _interpolate(self, lat, lon, t, keys):
         """Interpolated values of keys at the samples, and coverage."""
-        n = lat.size
         (iy0, iy1, wy), (ix0, ix1, wx), inside_grid = self._locate(lat, lon)
         it0, it1, wt, inside_time = _time_brackets(self.valid_times, t,
                                                    self.time_tolerance_h * 3.6e6)
         use = np.flatnonzero(inside_grid & inside_time)
         gap = np.where(inside_grid, np.where(inside_time, "", "outside-time-window"),
                        "outside-grid").astype(object)
-        corners = self._corner_values(keys, (iy0[use], iy1[use]), (ix0[use], ix1[use]),
-                                      it0[use], it1[use]) if use.size else {}
-        vals = {}
-        for key in keys:
-            if key not in corners:  # no sample inside: empty arrays of the right shape
-                lev = self.variables[key].level_dim is not None
-                vals[key] = np.zeros((0, self.levels.size) if lev else (0,))
-            else:
-                v = self._combine(corners[key], wy[use], wx[use], wt[use])
+        parts = {key: [] for key in keys}
+        for start in range(0, use.size, self.chunk):  # bounded memory for grid-wide calls
+            u = use[start:start + self.chunk]
+            corners = self._corner_values(keys, (iy0[u], iy1[u]), (ix0[u], ix1[u]), it0[u],
+                                          it1[u])
+            for key in keys:
+                v = self._combine(corners[key], wy[u], wx[u], wt[u])
                 info = self.variables[key]
                 if info.level_dim is not None:
                     v = _apply_level_weights(v, self._level_w[info.level_dim])
-                vals[key] = v
-        del n
+                parts[key].append(v)
+        vals = {}
+        for key in keys:
+            if parts[key]:
+                vals[key] = np.concatenate(parts[key])
+            else:  # no sample inside: empty arrays of the right shape
+                lev = self.variables[key].level_dim is not None
+                vals[key] = np.zeros((0, self.levels.size) if lev else (0,))
         return vals, use, gap
 
     def columns_at(self, lat, lon, time, *, fields=None):

@@ -656,3 +656,17 @@ def test_profile_provenance_names_the_fields(tmp_path):
     doc["profiles"] = doc["profiles"][:4]  # all with heights
     d = load_forecast(mf.write_profiles(tmp_path / "p.json", doc)).describe()["variables"]
     assert d["height"]["name"] == "height_m"
+
+
+def test_samples_are_processed_in_chunks_with_the_same_result():
+    fc = load_forecast(LATLON)
+    rng = np.random.default_rng(7)
+    lat = rng.uniform(53.0, 61.0, 300)
+    lon = rng.uniform(-32.0, -16.0, 300)
+    t = T06 + (rng.uniform(0, 14, 300) * 3.6e6).astype("timedelta64[ms]")
+    whole = fc.columns_at(lat, lon, t)
+    fc.chunk = 17
+    parts = fc.columns_at(lat, lon, t)
+    np.testing.assert_array_equal(whole.candidates, parts.candidates)
+    for key in whole.columns:
+        np.testing.assert_array_equal(whole.columns[key], parts.columns[key])
