@@ -60,6 +60,9 @@ class ColumnOptions:
     rh_threshold_ice_fraction : float
         Where below 0 degC the threshold sits between ice (0) and water (1)
         saturation, 0.5 (our choice: stays above ice saturation). [1]
+    cloud_fraction_floor : float
+        Smallest cloud fraction used to turn grid-mean model cloud water into
+        in-cloud water (at most x10), 0.1 (our choice). [1]
     updraft_floor_stratiform_m_s, updraft_floor_convective_m_s : float
         Smallest effective cloud-base updraft for activation, 0.1 and 1.0 m/s
         (typical stratiform and cumulus base updrafts, Rogers & Yau 1989, from
@@ -93,6 +96,7 @@ class ColumnOptions:
     rh_threshold_model: str = "ice-water-blend"
     rh_threshold_warm: float = 0.95
     rh_threshold_ice_fraction: float = 0.5
+    cloud_fraction_floor: float = 0.1
     updraft_floor_stratiform_m_s: float = 0.1
     updraft_floor_convective_m_s: float = 1.0
     convective_updraft_m_s: float = 1.0
@@ -120,6 +124,10 @@ class ColumnOptions:
             raise InputError(f"unknown ice-nucleus model {self.ice_nuclei_model!r}",
                              where="ColumnOptions.ice_nuclei_model",
                              fix="use meyers92, fletcher62 or demott10")
+        if not 0.0 < self.cloud_fraction_floor <= 1.0:
+            raise InputError(f"cloud_fraction_floor must be in (0, 1], got "
+                             f"{self.cloud_fraction_floor!r}",
+                             where="ColumnOptions.cloud_fraction_floor", fix="use e.g. 0.1")
         positive = ("sub_adiabatic_scale_height_m", "drizzle_time_scale_s",
                     "ice_crystal_radius_m", "crystal_density_kg_m3",
                     "glaciation_residence_time_s", "moist_adiabat_step", "chunk_columns")
@@ -148,8 +156,10 @@ class ColumnOptions:
             "rh_threshold_warm": self.rh_threshold_warm,
             "rh_threshold_ice_fraction": self.rh_threshold_ice_fraction,
             "liquid_combination": (
-                "the larger of model cloud water (q_c rho) and diagnosed sub-adiabatic liquid, "
+                "the larger of model cloud water (q_c rho, divided by the cloud fraction where "
+                "given, floored at cloud_fraction_floor) and diagnosed sub-adiabatic liquid, "
                 "never their sum; basis says which"),
+            "cloud_fraction_floor": self.cloud_fraction_floor,
             "sub_adiabatic_factor": (
                 f"{self.sub_adiabatic_factor_at_base} exp(-h / "
                 f"{self.sub_adiabatic_scale_height_m} m), h above the layer base "
@@ -282,7 +292,8 @@ def diagnose_columns(pressure, temperature, *, dewpoint=None, relative_humidity=
     cloud_liquid, cloud_ice, rain, snow : array_like, optional
         Model mixing ratios. [kg/kg]
     cloud_fraction : array_like, optional
-        Model cloud fraction [1]; checked for validity, not used by the mask.
+        Model cloud fraction [1]; model cloud water (a grid mean) is divided by it
+        (floored at ``options.cloud_fraction_floor``) to give in-cloud values.
     vertical_velocity : array_like, optional
         Upward air velocity. [m s-1]
     precipitation_rate_mm_h : array_like, optional, shape (...)
@@ -502,6 +513,10 @@ def _diagnose_core(s, cols, o):
         lwc_model = np.zeros(p.shape)
         if "cloud_liquid" in s:
             lwc_model = np.maximum(s["cloud_liquid"], 0.0) * rho  # kg/kg -> kg/m3
+            if "cloud_fraction" in s:
+                # grid mean -> in-cloud: the cloudy part of the cell holds all the water
+                cf = np.clip(s["cloud_fraction"], o.cloud_fraction_floor, 1.0)
+                lwc_model = lwc_model / cf
         cloud = clouds.cloud_mask(rh, t, lwc_model=lwc_model if "cloud_liquid" in s else None,
                                   valid=air, model=o.rh_threshold_model,
                                   warm=o.rh_threshold_warm,

@@ -367,3 +367,14 @@ def test_freezing_level_under_a_warm_nose_is_the_nose_base():
     d = diagnose_columns(**warm_nose_column())
     p_at = float(np.interp(d.freezing_level, d.height, d.pressure))
     assert 85000.0 < p_at < 93000.0
+
+
+def test_cloud_fraction_turns_grid_mean_water_into_in_cloud_water():
+    # definition: model cloud water is a grid mean; the cloudy fraction holds all of it
+    col = supercooled_stratiform_deck()
+    full = diagnose_columns(**col)
+    half = diagnose_columns(**col, cloud_fraction=np.full(40, 0.5))
+    tiny = diagnose_columns(**col, cloud_fraction=np.full(40, 0.01))
+    np.testing.assert_allclose(half.lwc_model, 2 * full.lwc_model)
+    np.testing.assert_allclose(tiny.lwc_model, 10 * full.lwc_model)  # floored at 0.1
+    assert "cloud_fraction_floor" in half.assumptions
