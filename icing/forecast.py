@@ -709,7 +709,6 @@ class GridForecast(Forecast):
             "kind": "grid",
             "files": self.files,
             "grid": ref.grid,
-            "crs": None if ref.crs is None else ref.crs.to_wkt(version="WKT2_2019"),
             "issue_time": _iso(issue[0]) if issue else None,
             "valid_times": [_iso(v) for v in self.valid_times],
             "radius_km": self.radius_km,

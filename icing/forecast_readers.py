@@ -1021,6 +1021,9 @@ def open_grid_file(path, var_map=None):
                                 where=f"variable {gm_name}",
                                 fix="give CF grid_mapping attributes") from None
         grid = f"projected ({ds[gm_name].attrs.get('grid_mapping_name', crs.name)})"
+        notes.append("grid mapping: " + ", ".join(
+            f"{k}={np.asarray(v).tolist()}" for k, v in ds[gm_name].attrs.items()
+            if k != "crs_wkt"))
     elif kinds[x_dim] != "lon" or kinds[y_dim] != "lat":
         raise ForecastError(f"mixed horizontal coordinates {y_dim}/{x_dim}", path=path,
                             where=f"variable {tname}", fix="give latitude-longitude or x/y")
