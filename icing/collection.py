@@ -249,7 +249,11 @@ def _finstad_peak_table():
     e = _finstad_raw(10.0 ** log_k[None, :], 10.0 ** log_phi[:, None])
     # 10 % short of the tabulated peak: the fit is flat there (E changes by < 1e-6)
     # and interpolating between rows can then never step past the true peak
-    return log_phi, log_k[np.argmax(e, axis=1)] + np.log10(0.9)
+    log_kpeak = log_k[np.argmax(e, axis=1)] + np.log10(0.9)
+    # the peak value, held non-increasing in phi (it wanders by 1e-5 near 1e4), so
+    # that E on the plateau never grows with the collector size
+    e_peak = np.minimum.accumulate(_finstad_raw(10.0**log_kpeak, 10.0**log_phi))
+    return log_phi, log_kpeak, e_peak
 
 
 @functools.lru_cache(maxsize=1)
@@ -306,11 +310,12 @@ def collision_efficiency_finstad88(k, phi):
     k = np.asarray(k, dtype=float)
     phi = np.asarray(phi, dtype=float)
     phi_c = np.clip(phi, *FINSTAD_PHI_RANGE)
-    log_phi, log_kpeak = _finstad_peak_table()
-    k_peak = 10.0 ** np.interp(np.log10(phi_c), log_phi, log_kpeak)
+    log_phi, log_kpeak, e_peak = _finstad_peak_table()
+    lp = np.log10(phi_c)
+    k_peak = 10.0 ** np.interp(lp, log_phi, log_kpeak)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         kc = np.clip(k, K_CRITICAL, k_peak)
-        e = _finstad_raw(kc, phi_c)
+        e = np.minimum(_finstad_raw(kc, phi_c), np.interp(lp, log_phi, e_peak))
     e = np.where(k <= K_CRITICAL, 0.0, np.clip(e, 0.0, 1.0))
     low_phi = phi < FINSTAD_PHI_RANGE[0]
     if np.any(low_phi):

@@ -226,9 +226,9 @@ def test_e_falls_with_collector_size(d, D, factor, u, p, t, model):
     kw = dict(pressure=p, temperature=t, model=model)
     small = float(col.cylinder_collision_efficiency(d, D, u, **kw))
     large = float(col.cylinder_collision_efficiency(d, D * factor, u, **kw))
-    # tolerance: on the plateau where the Finstad fit is held at its peak, the peak
-    # value itself moves with phi (phi ~ D) by up to ~1e-5 (derived from the fit)
-    assert large <= small + 1e-5
+    # tolerance: the interpolated peak of the Finstad plateau (held non-increasing in
+    # phi) moves by < 1e-7 between its table rows (found by scanning)
+    assert large <= small + 1e-6
 
 
 @settings(max_examples=150, deadline=None)
