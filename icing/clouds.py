@@ -246,8 +246,13 @@ def cloud_layers(cloud, height, pressure, temperature):
         p_below, _ = _half_levels(p, log=True)
         t_below, _ = _half_levels(t)
 
+    where = np.nonzero(cloud)  # only cloudy levels are looked up
+    rows = where[:-1]
+
     def pick(a, i):
-        return np.where(cloud, np.take_along_axis(a, i, -1), np.nan)
+        out = np.full(cloud.shape, np.nan)
+        out[where] = a[rows + (i[where],)]
+        return out
 
     return CloudLayers(
         base_index=np.where(cloud, base_i, -1),

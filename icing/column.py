@@ -344,11 +344,16 @@ def diagnose_columns(pressure, temperature, *, dewpoint=None, relative_humidity=
         out, exceed = _diagnose_sorted(
             {k: v[sl] for k, v in flat.items()}, {k: v[sl] for k, v in cols.items()},
             options)
-        if not result:  # allocate the outputs once, then fill chunk by chunk
-            result = {name: np.empty((n,) + out[name].shape[1:], out[name].dtype)
+        if n <= chunk:  # one chunk: its arrays are the result (views are copied, so the
+            # diagnosis never aliases the caller's input arrays)
+            result = {name: out[name] if out[name].base is None else np.array(out[name])
                       for name in _PER_LEVEL_OUT + _PER_COLUMN_OUT}
-        for name in _PER_LEVEL_OUT + _PER_COLUMN_OUT:
-            result[name][sl] = out[name]
+        else:
+            if not result:  # allocate the outputs once, then fill chunk by chunk
+                result = {name: np.empty((n,) + out[name].shape[1:], out[name].dtype)
+                          for name in _PER_LEVEL_OUT + _PER_COLUMN_OUT}
+            for name in _PER_LEVEL_OUT + _PER_COLUMN_OUT:
+                result[name][sl] = out[name]
         del out
         exceed_lists.append(exceed)
     for name in _PER_LEVEL_OUT:

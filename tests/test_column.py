@@ -378,3 +378,11 @@ def test_cloud_fraction_turns_grid_mean_water_into_in_cloud_water():
     np.testing.assert_allclose(half.lwc_model, 2 * full.lwc_model)
     np.testing.assert_allclose(tiny.lwc_model, 10 * full.lwc_model)  # floored at 0.1
     assert "cloud_fraction_floor" in half.assumptions
+
+
+def test_diagnosis_does_not_alias_the_inputs():
+    col = supercooled_stratiform_deck()
+    d = diagnose_columns(**col)
+    d.pressure[0] = -1.0
+    d.temperature[0] = -1.0
+    assert col["pressure"][0] == 100000.0 and col["temperature"][0] > 0
