@@ -645,6 +645,9 @@ def _planes(table):
     return _PLANES[key][1:]
 
 
+_MAX_TABLES = 8
+
+
 def _spectrum_fast(log_k, log_phi, shape, n_bins, model):
     """Table-interpolated (E, beta0), per-point shapes grouped by unique value."""
     shape = np.asarray(shape, dtype=float)
@@ -655,6 +658,9 @@ def _spectrum_fast(log_k, log_phi, shape, n_bins, model):
     uniq, inv = np.unique(shape, return_inverse=True)
     if uniq.size == 1:
         return _table_lookup(collection_table(model, float(uniq[0]), n_bins), log_k, log_phi)
+    if uniq.size > _MAX_TABLES:  # a continuum of shapes: the direct sum, not many tables
+        ratios, fractions = _ratios_per_point(shape, n_bins, log_k.size)
+        return _spectrum_kernel(10.0**log_k, 10.0**log_phi, ratios, fractions, _model(model))
     e = np.empty_like(log_k)
     b = np.empty_like(log_k)
     for u_i, u in enumerate(uniq):  # a handful of air-mass shapes, not points

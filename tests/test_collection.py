@@ -384,3 +384,18 @@ def test_trajectory_critical_inertia_parameter():
     # K = 1/8; the independent trajectory calculation agrees
     assert _trajectory_efficiency(0.11, 0.0) == 0.0
     assert _trajectory_efficiency(0.25, 0.0) > 0.0
+
+
+def test_many_spectrum_shapes_fall_back_to_the_direct_sum():
+    # a continuum of gamma shapes is summed directly rather than tabulated per shape
+    shape = np.linspace(0.0, 6.0, 40)
+    kw = dict(pressure=P, temperature=T, shape=shape)
+    e1, b1 = col.spectrum_collection(18e-6, 0.04, 90.0, method="table", **kw)
+    e2, b2 = col.spectrum_collection(18e-6, 0.04, 90.0, method="direct", **kw)
+    np.testing.assert_allclose(e1, e2, atol=1e-12)
+    few = col.spectrum_collection(18e-6, 0.04, 90.0, method="table", pressure=P, temperature=T,
+                                  shape=np.array([1.0, 3.0, 1.0]))[0]
+    ref = col.spectrum_collection(18e-6, 0.04, 90.0, method="direct", pressure=P, temperature=T,
+                                  shape=np.array([1.0, 3.0, 1.0]))[0]
+    np.testing.assert_allclose(few, ref, atol=1e-3)  # table design tolerance
+    assert few[1] != few[0]  # a narrower spectrum collects differently
