@@ -8,7 +8,8 @@ The chain is:
 
 1. :func:`liquid_cloud_rh_threshold` and :func:`cloud_mask` -- where liquid
    cloud is (model cloud water, else relative humidity over water above a
-   temperature-dependent threshold that stays above ice saturation);
+   temperature-dependent threshold that stays above ice saturation below about
+   -5 degC);
 2. :func:`cloud_layers` -- contiguous cloudy levels, with base and top at the
    half levels around them and the layer's cloud-top temperature;
 3. :func:`adiabatic_lwc` and :func:`sub_adiabatic_factor` -- the liquid a
@@ -16,8 +17,8 @@ The chain is:
 4. :func:`glaciation_likelihood` -- reported beside the liquid, never
    subtracted from it: observed phase is bimodal (Korolev et al. 2003), so a
    mean liquid fraction would under-warn exactly where full-liquid patches are;
-5. :func:`appendix_c_warnings` -- where the liquid passes the 14 CFR 25
-   Appendix C envelopes.
+5. :func:`appendix_c_exceedances` and :func:`appendix_c_warnings` -- where the
+   liquid passes the 14 CFR 25 Appendix C envelopes (values from memory).
 """
 
 from __future__ import annotations
