@@ -134,6 +134,7 @@ __all__ = [
     "AirframeIcing",
     "airframe_icing",
     "fit_range_flags",
+    "assumptions",
 ]
 
 #: Lower freezing-fraction bound of "mixed" ice (our convention, see module doc).
@@ -981,3 +982,44 @@ def fit_range_flags(airframe, *, mvd, temperature, pressure, airspeed=None, mode
         else:
             out[c.name] = np.zeros(np.shape(k), dtype=bool)
     return out
+
+
+def assumptions(*, model="finstad88", n_bins=7, spectrum_method="table"):
+    """The collector-physics conventions, as a JSON-able dict for every output.
+
+    Examples
+    --------
+    >>> assumptions()["ice_type"]["mixed_min_freezing_fraction"]
+    0.3
+    """
+    _model(model)
+    return {
+        "collision_efficiency": {
+            "model": model,
+            "spectrum": f"gamma, mass-weighted over {n_bins} bins ({spectrum_method})",
+            "sld_spectrum": "exponential (gamma shape 0)",
+            "equivalent_cylinder": "airfoil and rotor sections: D = 2 * 1.1019 t^2 c "
+                                   "(NACA 4-digit leading-edge radius)",
+            "below_phi_100": "max(Finstad at phi = 100, Langmuir-Blodgett), flagged",
+            "above_phi_1e4": "Finstad at phi = 1e4 (conservative), flagged",
+        },
+        "heat_balance": {
+            "model": "Messinger (1953) in Anderson (2004) form, stagnation line",
+            "nusselt": "1.14 Re^0.5 Pr^0.4",
+            "evaporation": "Chilton-Colburn, saturation over water at 0 C",
+            "aft_recovery_factor": AFT_RECOVERY_FACTOR,
+        },
+        "ice_type": {"rime_min_freezing_fraction": 1.0,
+                     "mixed_min_freezing_fraction": MIXED_MIN_FRACTION},
+        "ice_density": "Makkonen-Stallabrass 1 <= R <= 60, bridged to 917 kg/m3 at R = 173; "
+                       "917 kg/m3 for glaze; impact speed = section speed",
+        "severity": {
+            "scale_mm_h": list(AIM_RATES_MM_H),
+            "rate": "counted catch as solid ice over the collector's frontal height",
+            "protection_residual": dict(PROTECTION_RESIDUAL),
+            "tolerance_minutes_unprotected": list(TOLERANCE_MINUTES),
+            "in_cloud_lwc_g_m3": IN_CLOUD_LWC * 1e3,
+            "sld": "freezing rain: severe (none, de-ice), >= moderate (anti-ice); freezing "
+                   "drizzle: severe (de-ice), >= moderate (none, anti-ice)",
+        },
+    }

@@ -426,3 +426,13 @@ def test_fit_range_flags_name_the_small_fast_sections():
     lb = acc.fit_range_flags(load_airframe("small-multirotor"), mvd=15e-6,
                              temperature=263.15, pressure=9e4, model="langmuir46")
     assert not any(bool(v) for v in lb.values())
+
+
+def test_assumptions_are_json():
+    import json
+
+    d = json.loads(json.dumps(acc.assumptions()))
+    assert d["severity"]["scale_mm_h"] == [6.0, 25.0, 75.0]
+    assert d["severity"]["protection_residual"]["none"] == 1.0
+    with pytest.raises(ValueError, match="finstad88, langmuir46"):
+        acc.assumptions(model="other")
