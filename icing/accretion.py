@@ -985,7 +985,7 @@ def fit_range_flags(airframe, *, mvd, temperature, pressure, airspeed=None, mode
 
 
 def assumptions(*, model="finstad88", n_bins=7, spectrum_method="table"):
-    """The collector-physics conventions, as a JSON-able dict for every output.
+    """Return the collector-physics conventions as a JSON-able dict for the outputs.
 
     Examples
     --------
