@@ -318,10 +318,11 @@ def freezing_fraction(
     """Stagnation-line freezing fraction ``n0``, Messinger (1953) balance.
 
     In the form of Anderson (2004): ``n0 = (c_w / Lf) (phi + theta / b)`` with the
-    drop energy term ``phi = T_f - T - V^2 / (2 c_w)`` (sensible heat to bring the
-    drops to 0 C less their kinetic energy), the air energy term
-    ``theta = (T_f - T - r V^2 / (2 c_p)) + (Lv / h_c) m_e / (...)`` (convection to
-    the recovery temperature plus evaporation), and the relative heat factor
+    drop energy term ``phi = T_f - T - r V^2 / (2 c_w)`` (sensible heat to bring
+    the drops to 0 C less their kinetic energy), the air energy term
+    ``theta = (T_f - T - r V^2 / (2 c_p)) + Lv m_e / h_c`` (convection to the
+    recovery temperature plus evaporation, ``m_e`` the evaporation mass flux at
+    ``T_s = 0 C``), and the relative heat factor
     ``b = LWC V beta0 c_w / h_c``. Convection: :func:`stagnation_heat_transfer`;
     evaporation: Chilton-Colburn (:func:`evaporation_mass_flux`) between
     saturation over water at 0 C and the ambient vapour pressure
@@ -348,7 +349,8 @@ def freezing_fraction(
     relative_humidity : array_like
         Ambient relative humidity over water (fraction). [1]
     recovery_factor : float
-        Recovery factor of the air energy term. [1]
+        Recovery factor ``r`` of the kinetic heating of air and drops: 1 at the
+        stagnation line (``AFT_RECOVERY_FACTOR`` gives the aft balance). [1]
 
     Returns
     -------
