@@ -1,11 +1,14 @@
 """Checks of icing.thermo against reference libraries and published values.
 
-Reference libraries: ``iapws`` (IAPWS-IF97 saturation pressure, IAPWS 2011
-sublimation pressure), ``ambiance`` (ICAO standard atmosphere 1993) and MetPy
-(``moist_lapse``); their versions are printed in the test ids below.
+Reference libraries: ``iapws`` 1.5.5 (IAPWS-IF97 saturation pressure of water,
+IAPWS 2011 sublimation pressure of ice Ih), ``ambiance`` 1.3.1 (ICAO standard
+atmosphere 1993) and MetPy 1.7.1 (``moist_lapse``) -- the versions the tolerances
+were set with; the installed versions appear in every assertion message.
 """
 
 from __future__ import annotations
+
+from importlib.metadata import version
 
 import ambiance
 import iapws
@@ -21,7 +24,8 @@ from metpy.units import units
 
 from icing import thermo
 
-VERSIONS = f"iapws {iapws.__version__}, ambiance 1.3.1, metpy {metpy.__version__}"
+VERSIONS = (f"iapws {iapws.__version__}, ambiance {version('ambiance')}, "
+            f"metpy {metpy.__version__}")
 
 
 @pytest.mark.parametrize("temperature", [273.16, 283.15, 293.15, 303.15, 313.15])
@@ -89,7 +93,7 @@ def test_hypsometric_heights_match_ambiance():
         atm.pressure, atm.temperature, base_height=0.0, base_pressure=101325.0)
     # 1 m: trapezoidal layer means over ~250 m layers of a linear lapse; ambiance uses
     # g0 = 9.80665 and R = 287.05287, ours 287.0475 (2e-5 relative, 0.2 m at 10 km)
-    np.testing.assert_allclose(z, atm.H, atol=1.0)
+    np.testing.assert_allclose(z, atm.H, atol=1.0, err_msg=VERSIONS)
 
 
 def test_hypsometric_default_anchor_is_standard_height():
@@ -107,7 +111,7 @@ def test_viscosity_matches_ambiance():
     # reference library: ambiance 1.3.1 dynamic viscosity (same Sutherland law, ICAO 1993)
     atm = ambiance.Atmosphere([0.0, 5000.0, 10000.0])
     np.testing.assert_allclose(thermo.air_viscosity(atm.temperature), atm.dynamic_viscosity,
-                               rtol=1e-4)
+                               rtol=1e-4, err_msg=VERSIONS)
 
 
 @settings(max_examples=60, deadline=None)
@@ -141,7 +145,7 @@ def test_moist_adiabat_matches_metpy_moist_lapse(start_c):
     ref = mpcalc.moist_lapse(LEVELS * units.Pa, (start_c + 273.15) * units.K).m_as("K")
     got = thermo.moist_adiabat_temperature(LEVELS, start_c + 273.15, LEVELS[0])
     # 0.005 K: RK4 with steps <= 0.2 in ln p errs < 1e-3 K; margin for MetPy's solver
-    np.testing.assert_allclose(got, ref, atol=5e-3)
+    np.testing.assert_allclose(got, ref, atol=5e-3, err_msg=VERSIONS)
 
 
 def test_moist_adiabat_from_a_middle_start_both_ways():
