@@ -82,7 +82,7 @@ _OPTIONAL_COLLECTOR = ("protection", "critical", "ice_tolerance_mm", "catch_fact
                        "description")
 _AIRFRAME_KEYS = ("name", "description", "true_airspeed_kt", "ceiling_ft", "ice_protection",
                   "ice_tolerance_mm", "collectors", "reference", "min_altitude_ft",
-                  "max_altitude_agl_ft", "source")
+                  "max_altitude_agl_ft")
 
 
 @dataclass(frozen=True)
@@ -360,7 +360,7 @@ def airframe_from_dict(table: dict, *, path=None, source=None) -> Airframe:
                                 required=False),
         max_altitude_agl_ft=_number(table, "max_altitude_agl_ft", path, where,
                                     required=False),
-        source=source or str(table.get("source", "preset")),
+        source=source or "preset",
     )
 
 
@@ -431,7 +431,18 @@ def load_airframe(name_or_path) -> Airframe:
         return presets[s]
     p = Path(s)
     if p.suffix.lower() == ".toml" or p.exists():
-        return airframe_from_dict(_read_toml(p), path=str(p), source=str(p))
+        table = _read_toml(p)
+        if "airframes" in table and "name" not in table:  # the preset file's layout
+            frames = table["airframes"]
+            if not isinstance(frames, list) or len(frames) != 1:
+                names = [f.get("name", "?") for f in frames if isinstance(f, dict)] \
+                    if isinstance(frames, list) else []
+                raise AirframeError(
+                    f"the file holds {len(names)} [[airframes]] tables ({', '.join(names)})",
+                    path=str(p), where="airframes",
+                    fix="keep one airframe per file (or its keys at the top level)")
+            table = frames[0]
+        return airframe_from_dict(table, path=str(p), source=str(p))
     raise AirframeError(f"unknown airframe {s!r}", path=None, where="airframe",
                         fix=f"use a preset ({', '.join(presets)}) or a .toml airframe file")
 

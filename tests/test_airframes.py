@@ -201,3 +201,16 @@ def test_unknown_preset_names_the_presets():
 def test_missing_file(tmp_path):
     with pytest.raises(AirframeError, match="cannot read the file"):
         load_airframe(tmp_path / "nope.toml")
+
+
+def test_file_in_the_preset_layout(tmp_path):
+    # one [[airframes]] table, as in the preset file, loads; several are refused
+    one = tmp_path / "one.toml"
+    body = GOOD.replace("[[collectors]]", "[[airframes.collectors]]")
+    one.write_text("[[airframes]]\n" + body)
+    assert load_airframe(one).name == "survey-drone"
+    two = tmp_path / "two.toml"
+    two.write_text("[[airframes]]\n" + body + "\n[[airframes]]\n" +
+                   body.replace("survey-drone", "other"))
+    with pytest.raises(AirframeError, match=r"2 \[\[airframes\]\] tables \(survey-drone, other\)"):
+        load_airframe(two)
