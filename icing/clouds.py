@@ -531,8 +531,8 @@ def liquid_maintenance_updraft(temperature, pressure, ice_number, *, ice_radius=
 
 def glaciation_likelihood(temperature, pressure, lwc, cloud_top_temperature, *,
                           ice_above=0.0, updraft=0.0, air_density=None,
-                          ice_nuclei_model="meyers92", ice_radius=50e-6,
-                          crystal_density=500.0, residence_time=3600.0):
+                          ice_nuclei_model="meyers92", aerosol_per_cm3=1.0,
+                          ice_radius=50e-6, crystal_density=500.0, residence_time=3600.0):
     """Likelihood [0..1] that the liquid at a level has been (or is being) glaciated.
 
     Reported beside the LWC, never multiplied into it.
@@ -562,6 +562,12 @@ def glaciation_likelihood(temperature, pressure, lwc, cloud_top_temperature, *,
         Updraft at the level (negative treated as 0). [m s-1]
     air_density : array_like, optional
         [kg m-3]; from ``pressure`` and ``temperature`` when absent.
+    ice_nuclei_model, aerosol_per_cm3 : optional
+        Passed to :func:`ice_nuclei_concentration`.
+    ice_radius, crystal_density : float, optional
+        Typical crystal radius [m] and bulk density [kg m-3] (our choices).
+    residence_time : float, optional
+        Exposure time of the liquid to the ice. [s]
 
     Returns
     -------
@@ -580,7 +586,8 @@ def glaciation_likelihood(temperature, pressure, lwc, cloud_top_temperature, *,
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         rho = thermo.air_density(p, t) if air_density is None else air_density
         ctt = np.clip(np.asarray(cloud_top_temperature, dtype=float), T_HOMOGENEOUS, T0)
-        n_primary = np.nan_to_num(ice_nuclei_concentration(ctt, model=ice_nuclei_model))
+        n_primary = np.nan_to_num(ice_nuclei_concentration(ctt, model=ice_nuclei_model,
+                                                           aerosol_per_cm3=aerosol_per_cm3))
         crystal_mass = crystal_density * 4.0 / 3.0 * np.pi * ice_radius**3
         n_falling = np.maximum(np.asarray(ice_above, dtype=float), 0.0) * rho / crystal_mass
         uptake = (n_primary + n_falling) * ice_crystal_mass_growth_rate(t, p, ice_radius)

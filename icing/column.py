@@ -78,6 +78,9 @@ class ColumnOptions:
         ``icing.sld.diagnose_sld``), 1800 s (our choice). [s]
     ice_nuclei_model : str
         ``"meyers92"`` (default), ``"fletcher62"`` or ``"demott10"``.
+    aerosol_per_cm3 : float
+        Aerosol larger than 0.5 um for ``"demott10"``, 1 /cm3 (order of DeMott et
+        al. 2010's continental samples, from memory). [cm-3]
     ice_crystal_radius_m, crystal_density_kg_m3 : float
         Size and bulk density of a typical crystal for the glaciation budget,
         50 um and 500 kg/m3 (our choices, from memory of typical sizes). [m], [kg m-3]
@@ -103,6 +106,7 @@ class ColumnOptions:
     subgrid_updraft_m_s: float = 0.2
     drizzle_time_scale_s: float = 1800.0
     ice_nuclei_model: str = "meyers92"
+    aerosol_per_cm3: float = 1.0
     ice_crystal_radius_m: float = 50e-6
     crystal_density_kg_m3: float = 500.0
     glaciation_residence_time_s: float = 3600.0
@@ -128,7 +132,7 @@ class ColumnOptions:
             raise InputError(f"cloud_fraction_floor must be in (0, 1], got "
                              f"{self.cloud_fraction_floor!r}",
                              where="ColumnOptions.cloud_fraction_floor", fix="use e.g. 0.1")
-        positive = ("sub_adiabatic_scale_height_m", "drizzle_time_scale_s",
+        positive = ("sub_adiabatic_scale_height_m", "drizzle_time_scale_s", "aerosol_per_cm3",
                     "ice_crystal_radius_m", "crystal_density_kg_m3",
                     "glaciation_residence_time_s", "moist_adiabat_step", "chunk_columns")
         for name in positive:
@@ -177,6 +181,7 @@ class ColumnOptions:
                 f"temperature ({self.ice_nuclei_model}) plus ice and snow falling from above, "
                 "diffusional growth against the grid-mean updraft's condensate supply (Korolev "
                 "& Mazin 2003 balance), over a residence time"),
+            "aerosol_per_cm3": self.aerosol_per_cm3,
             "ice_crystal_radius_m": self.ice_crystal_radius_m,
             "crystal_density_kg_m3": self.crystal_density_kg_m3,
             "glaciation_residence_time_s": self.glaciation_residence_time_s,
@@ -589,6 +594,7 @@ def _diagnose_core(s, cols, o):
                 # grid-mean ascent only: sub-grid ups and downs add no net condensate
                 updraft=np.maximum(w[gsel], 0.0),
                 air_density=rho[gsel], ice_nuclei_model=o.ice_nuclei_model,
+                aerosol_per_cm3=o.aerosol_per_cm3,
                 ice_radius=o.ice_crystal_radius_m, crystal_density=o.crystal_density_kg_m3,
                 residence_time=o.glaciation_residence_time_s)
         # --- SLD ---------------------------------------------------------------------------

@@ -386,3 +386,11 @@ def test_diagnosis_does_not_alias_the_inputs():
     d.pressure[0] = -1.0
     d.temperature[0] = -1.0
     assert col["pressure"][0] == 100000.0 and col["temperature"][0] > 0
+
+
+@pytest.mark.parametrize("model", ["meyers92", "fletcher62", "demott10"])
+def test_ice_nuclei_models_through_the_column(model):
+    # the stated choice reaches the glaciation budget and the assumptions
+    d = diagnose_columns(**thin_minus8_deck(), options=ColumnOptions(ice_nuclei_model=model))
+    g = d.glaciation[d.cloud]
+    assert np.all((g >= 0) & (g <= 1)) and model in json.dumps(d.assumptions)
