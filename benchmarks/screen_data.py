@@ -41,7 +41,8 @@ _SURFACE_VARS = {
 }
 
 
-def make_grid_file(path, nx, ny, nlev, ntimes, *, compress=False, rows_per_block=32):
+def make_grid_file(path, nx, ny, nlev, ntimes, *, compress=False, rows_per_block=32,
+                   domain=None):
     """Write a synthetic Skerrow Basin CF-NetCDF forecast of the given size.
 
     Parameters
@@ -56,6 +57,10 @@ def make_grid_file(path, nx, ny, nlev, ntimes, *, compress=False, rows_per_block
         Valid times from 2027-01-14T06:00Z every 3 hours (at least 1).
     compress : bool
         zlib level 1 with shuffle (smaller, slower to read).
+    domain : tuple, optional
+        (lat_min, lat_max, lon_min, lon_max) [deg] instead of the Skerrow domain,
+        e.g. a larger box at the same spacing for a "larger file, same route"
+        benchmark (outside the Skerrow boxes the columns are dry background).
 
     Returns
     -------
@@ -68,7 +73,7 @@ def make_grid_file(path, nx, ny, nlev, ntimes, *, compress=False, rows_per_block
     nx, ny, nlev, ntimes = int(nx), int(ny), int(nlev), int(ntimes)
     if min(nx, ny, nlev) < 2 or ntimes < 1:
         raise ValueError("need nx, ny, nlev >= 2 and ntimes >= 1")
-    lat0, lat1, lon0, lon1 = DOMAIN
+    lat0, lat1, lon0, lon1 = DOMAIN if domain is None else domain
     lats = np.linspace(lat1, lat0, ny)  # north to south, as many models write
     lons = np.linspace(lon0, lon1, nx)
     levels = np.linspace(1000.0, 300.0, nlev)

@@ -363,6 +363,31 @@ def _apply_level_weights(a, lw):
     return np.where(valid, out, np.nan)
 
 
+def _read_raw(var, idx):
+    """Read a netCDF4 variable with an xarray-style index dict; NaN where masked.
+
+    Dimensions indexed by an integer are dropped (as ``isel`` does); an index
+    array (a wrapped longitude window) is read sorted and put back in order.
+    """
+    key, keep, reorder = [], [], None
+    for axis, d in enumerate(var.dimensions):
+        i = idx.get(d, slice(None))
+        if isinstance(i, np.ndarray):
+            order = np.argsort(i, kind="stable")
+            key.append(i[order])
+            reorder = (len(keep), np.argsort(order))
+            keep.append(axis)
+        else:
+            key.append(i)
+            if not isinstance(i, (int, np.integer)):
+                keep.append(axis)
+    a = var[tuple(key)]
+    a = np.ma.filled(np.ma.asarray(a).astype(float), np.nan)
+    if reorder is not None:
+        a = np.take(a, reorder[1], axis=reorder[0])
+    return a
+
+
 def _frac_index(v, c, *, periodic=False):
     """(i0, i1, weight, inside) of values v on the monotonic 1-D coordinate c."""
     n = c.size
@@ -435,8 +460,11 @@ class GridForecast(Forecast):
                          for dim, vals in ref.level_coords.items()}
         chunks = ref.ds[ref.variables["temperature"].name].encoding.get("chunksizes")
         self.tile = int(tile or (max(8, min(64, min(chunks[-2:]))) if chunks else 32))
-        self.read_stats = {"reads": 0, "values": 0}
+        self.read_stats = {"reads": 0, "values": 0, "cache_hits": 0}
         self.chunk = 8192  # samples interpolated at a time
+        self.cache_bytes = 256 * 2**20  # blocks kept for later calls (several routes)
+        self._cache = {}
+        self._cached_bytes = 0
 
     @staticmethod
     def _check_same_grid(a, b):
@@ -494,24 +522,61 @@ class GridForecast(Forecast):
 
     # ------------------------------------------------------------------ reading
 
-    def _read_block(self, key, time_index, ys, xs):
-        """One variable on a block of the grid: (level, y, x) or (y, x), SI, float."""
+    def _read_blocks(self, key, times, ys, xs):
+        """One variable on a block of the grid at the given valid-time indices.
+
+        Returns ``{time index: array}``, each (level, y, x) or (y, x), SI, float.
+        Times from one file are read in one slice.
+        """
         info = self.variables[key]
-        fi, lt = self._time_map[time_index]
-        gf = self._files[fi]
-        var = gf.ds[info.name]
-        idx = {gf.y_dim: ys, gf.x_dim: xs}
-        if gf.time_dim is not None and gf.time_dim in var.dims:
-            idx[gf.time_dim] = lt
-        for d in var.dims:
-            if d not in idx and d != info.level_dim:
-                idx[d] = 0
-        block = var.isel(idx)
-        order = [d for d in (info.level_dim, gf.y_dim, gf.x_dim) if d is not None]
-        vals = np.asarray(block.transpose(*order).values, dtype=float)
+        out = {}
+        by_file = {}
+        for t in times:
+            fi, lt = self._time_map[int(t)]
+            by_file.setdefault(fi, []).append((int(t), lt))
+        for fi, pairs in by_file.items():
+            gf = self._files[fi]
+            var = gf.ds[info.name]
+            idx = {gf.y_dim: ys, gf.x_dim: xs}
+            timed = gf.time_dim is not None and gf.time_dim in var.dims
+            if timed:
+                lts = [lt for _, lt in pairs]
+                idx[gf.time_dim] = slice(min(lts), max(lts) + 1)
+            for d in var.dims:
+                if d not in idx and d != info.level_dim:
+                    idx[d] = 0
+            order = [d for d in (gf.time_dim if timed else None, info.level_dim, gf.y_dim,
+                                 gf.x_dim) if d is not None]
+            ck = (fi, info.name, ys.start, ys.stop,
+                  (xs.start, xs.stop) if isinstance(xs, slice) else tuple(xs.tolist()),
+                  (idx[gf.time_dim].start, idx[gf.time_dim].stop) if timed else None)
+            vals = self._cache.get(ck)
+            if vals is not None:
+                self._cache[ck] = self._cache.pop(ck)  # most recently used last
+                self.read_stats["cache_hits"] += 1
+            else:
+                vals = self._read_uncached(gf, var, info, idx, order)
+                self._cache[ck] = vals
+                self._cached_bytes += vals.nbytes
+                while self._cached_bytes > self.cache_bytes and len(self._cache) > 1:
+                    self._cached_bytes -= self._cache.pop(next(iter(self._cache))).nbytes
+            for t, lt in pairs:
+                out[t] = vals[lt - min(lt for _, lt in pairs)] if timed else vals
+        return out
+
+    def _read_uncached(self, gf, var, info, idx, order):
+        """Read one block from the file (netCDF4 directly when possible), SI, float."""
+        raw = gf.raw_variable(info.name)
+        if raw is not None and tuple(raw.dimensions) == tuple(var.dims):
+            vals = _read_raw(raw, idx)
+            kept = [d for d in var.dims if not isinstance(idx.get(d), (int, np.integer))]
+            vals = np.transpose(vals, [kept.index(d) for d in order])
+        else:
+            vals = np.asarray(var.isel(idx).transpose(*order).values, dtype=float)
+        vals = vals * info.scale + info.offset
         self.read_stats["reads"] += 1
         self.read_stats["values"] += vals.size
-        return vals * info.scale + info.offset
+        return vals
 
     def _corner_values(self, keys, iy, ix, it0, it1):
         """Corner columns (n, 2 times, 2 y, 2 x[, level]) of each key, read by tiles."""
@@ -534,11 +599,10 @@ class GridForecast(Forecast):
             times = np.unique(np.concatenate([it0[sel], it1[sel]]))
             for key in keys:
                 static = self._is_static(key)
-                for t in times[:1] if static else times:
-                    blk = self._read_block(key, int(t), ys, xs)
+                blocks = self._read_blocks(key, times[:1] if static else times, ys, xs)
+                for t, blk in blocks.items():
                     if key not in out:
-                        shape = (n, 2, 2, 2) + blk.shape[:-2]
-                        out[key] = np.full(shape, np.nan)
+                        out[key] = np.full((n, 2, 2, 2) + blk.shape[:-2], np.nan)
                     for a, tt in enumerate((it0, it1)):
                         m = np.ones(sel.size, bool) if static else tt[sel] == t
                         if not m.any():

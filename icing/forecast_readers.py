@@ -740,6 +740,26 @@ class GridFile:
     notes: list
     other_dims: dict
 
+    def raw_variable(self, name):
+        """Return the netCDF4 variable (masked and scaled), or None: faster block reads.
+
+        xarray's lazy indexing costs about 0.5 ms a read; reading the same block
+        through netCDF4 directly costs a quarter of that. None when the file is
+        not readable by netCDF4 (then the xarray dataset is used).
+        """
+        if not hasattr(self, "_nc"):
+            try:
+                import netCDF4
+
+                self._nc = netCDF4.Dataset(self.path)
+            except Exception:  # h5netcdf-only files: fall back to xarray
+                self._nc = None
+        if self._nc is None or name not in self._nc.variables:
+            return None
+        var = self._nc.variables[name]
+        var.set_auto_maskandscale(True)
+        return var
+
 
 def _units_of(var):
     u = var.attrs.get("units")

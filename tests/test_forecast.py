@@ -670,3 +670,30 @@ def test_samples_are_processed_in_chunks_with_the_same_result():
     np.testing.assert_array_equal(whole.candidates, parts.candidates)
     for key in whole.columns:
         np.testing.assert_array_equal(whole.columns[key], parts.columns[key])
+
+
+def test_size_one_extra_dimension_is_read_through(tmp_path):
+    ds = _ds()
+    for name in ("t", "r", "gh"):
+        ds[name] = ds[name].expand_dims(number=[0]).copy()
+    a = load_forecast(_write(ds, tmp_path)).columns_at([57.1], [-24.3], [T12])
+    b = load_forecast(LATLON).columns_at([57.1], [-24.3], [T12])
+    for key in ("temperature", "relative_humidity", "height"):
+        np.testing.assert_array_equal(a.columns[key], b.columns[key])
+
+
+def test_blocks_are_cached_between_calls_and_reads_match_xarray(monkeypatch):
+    from icing.forecast_readers import GridFile
+
+    lat, lon, t = [57.1, 59.3], [-24.3, -19.6], [T12, T18]
+    fc = load_forecast(LATLON)
+    first = fc.columns_at(lat, lon, t)
+    reads = fc.read_stats["reads"]
+    again = fc.columns_at(lat, lon, t)
+    assert fc.read_stats["reads"] == reads and fc.read_stats["cache_hits"] > 0
+    # the xarray path (files netCDF4 cannot open) gives the same columns
+    monkeypatch.setattr(GridFile, "raw_variable", lambda self, name: None)
+    slow = load_forecast(LATLON).columns_at(lat, lon, t)
+    for key in first.columns:
+        np.testing.assert_array_equal(again.columns[key], first.columns[key])
+        np.testing.assert_allclose(slow.columns[key], first.columns[key], rtol=1e-12)
