@@ -697,3 +697,13 @@ def test_blocks_are_cached_between_calls_and_reads_match_xarray(monkeypatch):
     for key in first.columns:
         np.testing.assert_array_equal(again.columns[key], first.columns[key])
         np.testing.assert_allclose(slow.columns[key], first.columns[key], rtol=1e-12)
+
+
+def test_height_levels_above_ground_add_the_surface_altitude(tmp_path):
+    ds = mf.height_level_dataset()
+    ds["height"].attrs["standard_name"] = "height"  # CF: above the surface
+    ds["orog"] = ds["orog"] + 150.0
+    fc = load_forecast(_write(ds, tmp_path))
+    cs = fc.columns_at([57.0], [-24.5], [T12])
+    np.testing.assert_allclose(cs.columns["height"][0], ds["height"].values + 150.0)
+    assert any("above ground" in n for n in fc.describe()["notes"])
