@@ -70,6 +70,11 @@ __all__ = [
     "recovery_temperature",
     "freezing_fraction",
     "airframe_icing",
+    "AirframeIcing",
+    "stagnation_efficiency",
+    "spectrum_collection",
+    "Airframe",
+    "Collector",
 ]
 
 _WHERE = {
@@ -116,6 +121,11 @@ _WHERE = {
     "recovery_temperature": "accretion",
     "freezing_fraction": "accretion",
     "airframe_icing": "accretion",
+    "AirframeIcing": "accretion",
+    "stagnation_efficiency": "collection",
+    "spectrum_collection": "collection",
+    "Airframe": "airframes",
+    "Collector": "airframes",
 }
 
 

@@ -706,7 +706,12 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
             codes.SEV_NONE,
         )
         sev = np.where(freezes, np.maximum(sev, floor), sev)
-    sld_ice = freezes & has_sld & (bs > 0.0)
+    # Large drops strike and run back aft of the leading edge, where kinetic heating is
+    # smaller and local static temperatures fall below ambient: in sub-freezing air the
+    # SLD floors hold whatever the stagnation balance says (common practice, no source;
+    # a screening tool must not let ram heating hide freezing rain).
+    sld_cold = has_sld & ((bs > 0.0) | (es > 0.0)) & (t <= T0)
+    sld_ice = (freezes & has_sld & (bs > 0.0)) | sld_cold
     rain = sld_ice & (st["sld_class"] == codes.SLD_RAIN)
     drizzle = sld_ice & (st["sld_class"] != codes.SLD_RAIN)
     sld_floor = {
@@ -717,7 +722,7 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
     if np.any(sld_ice):
         sev = np.where(rain, np.maximum(sev, sld_floor[0]), sev)
         sev = np.where(drizzle, np.maximum(sev, sld_floor[1]), sev)
-    sev = np.where(freezes, np.maximum(sev, codes.SEV_TRACE), codes.SEV_NONE)
+    sev = np.where(freezes | sld_cold, np.maximum(sev, codes.SEV_TRACE), codes.SEV_NONE)
     with np.errstate(invalid="ignore", divide="ignore"):
         total_lwc = lwc + sld_lwc
         e_all = np.where(total_lwc > 0.0, (e * lwc + es * sld_lwc) / total_lwc, e)
@@ -728,11 +733,12 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
         "beta0": b_all,
         "freezing_fraction": n0,
         "ice_type": np.where(stag, ice_type(n0),
-                             np.where(freezes, codes.ICE_CLEAR, codes.ICE_NONE)).astype(np.int8),
+                             np.where(freezes | sld_cold, codes.ICE_CLEAR,
+                                      codes.ICE_NONE)).astype(np.int8),
         "ice_density": rho_i,
         "accretion_rate_mm_h": stag_rate,
         "mass_rate": flux_total * d,
-        "runback": freezes & (n0 < 1.0),
+        "runback": (freezes & (n0 < 1.0)) | sld_cold,
         "time_to_tolerance_min": ttt,
         "_tie": catch_rate / tol_mm,
     }

@@ -512,6 +512,9 @@ def _assumptions(column_options, options, forecast, airframe):
     if hasattr(column_options, "describe"):
         out["column"] = column_options.describe()
     out["screening"] = options.describe()
+    from .accretion import assumptions as collector_assumptions
+
+    out["collectors"] = collector_assumptions()
     desc = forecast.describe() if hasattr(forecast, "describe") else {}
     for key in ("radius_km", "time_tolerance_h"):
         if key in desc:
