@@ -20,10 +20,12 @@ sample's position and time, never values at the flight altitude.
 Coverage: a sample outside the radius or the grid, outside the valid-time
 window (first - tolerance .. last + tolerance), or whose column has no usable
 level is not covered; ``gap_reason`` says why ("outside-radius",
-"outside-grid", "outside-time-window", "missing-values"). A gap is never
-"no icing". Levels are ordered surface first (decreasing pressure); columns
-with NaN at some levels are still returned (the diagnosis marks those levels
-invalid), and profiles with fewer levels are padded with NaN at the top.
+"outside-grid", "outside-time-window", "missing-values"; the place is judged
+first). A gap is never "no icing". Humidity is clipped to saturation over
+water (model output a little above 100 % is normal). Levels are ordered
+surface first (decreasing pressure); columns with NaN at some levels are still
+returned (the diagnosis marks those levels invalid), and profiles with fewer
+levels are padded with NaN at the top.
 """
 
 from __future__ import annotations
@@ -285,7 +287,9 @@ class ProfileForecast(Forecast):
         at_time = (vt_index[None, :] == i0[:, None]) | (vt_index[None, :] == i1[:, None])
         use = near & at_time & inside[:, None]
         covered = use.any(axis=1)
-        gap = np.where(covered, "", np.where(~inside, "outside-time-window", "outside-radius"))
+        # the place first (as on grids): far from every profile is "outside-radius"
+        gap = np.where(covered, "", np.where(near.any(axis=1) & ~inside, "outside-time-window",
+                                             "outside-radius"))
         used = np.flatnonzero(use.any(axis=0))
         remap = np.full(tab.size, -1)
         remap[used] = np.arange(used.size)
@@ -822,8 +826,9 @@ def load_forecast(paths, *, radius_km=50.0, time_tolerance_h=3.0, var_map=None) 
         How far before the first / after the last valid time a sample may lie
         and still use that time (a single-time analysis is used within it). [h]
     var_map : dict, optional
-        Gridded files: ``{key: variable name}`` overriding the search by
-        standard_name and common names (keys: :data:`VAR_KEYS`).
+        Gridded files: ``{key: variable name}`` (keys: :data:`VAR_KEYS`). A
+        mapped name is used first; unmapped keys are found by CF
+        ``standard_name``, then by common model-output names.
 
     Returns
     -------

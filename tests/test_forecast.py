@@ -707,3 +707,10 @@ def test_height_levels_above_ground_add_the_surface_altitude(tmp_path):
     cs = fc.columns_at([57.0], [-24.5], [T12])
     np.testing.assert_allclose(cs.columns["height"][0], ds["height"].values + 150.0)
     assert any("above ground" in n for n in fc.describe()["notes"])
+
+
+def test_profile_gap_judges_the_place_first():
+    fc = load_forecast(PROFILES, time_tolerance_h=1.0)
+    late = T18 + np.timedelta64(5, "h")
+    cs = fc.columns_at([10.0, 57.0], [100.0, -24.5], [late, late])
+    assert cs.gap_reason.tolist() == ["outside-radius", "outside-time-window"]
