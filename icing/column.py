@@ -90,7 +90,9 @@ class ColumnOptions:
     moist_adiabat_step : float
         Largest integration sub-step of the moist adiabat in ln p, 0.2.
     chunk_columns : int
-        Columns diagnosed together (memory bound), 20,000.
+        Columns diagnosed together, 4,000: bounds the memory, and keeps the
+        temporaries (~1 MB each) small enough for the allocator to reuse instead
+        of mapping fresh pages (measured 3x fewer page faults than 20,000).
     """
 
     air_mass: object = "maritime"
@@ -111,7 +113,7 @@ class ColumnOptions:
     crystal_density_kg_m3: float = 500.0
     glaciation_residence_time_s: float = 3600.0
     moist_adiabat_step: float = 0.2
-    chunk_columns: int = 20000
+    chunk_columns: int = 4000
 
     def __post_init__(self):
         try:
