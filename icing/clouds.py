@@ -33,6 +33,7 @@ __all__ = [
     "RH_THRESHOLD_MODELS",
     "liquid_cloud_rh_threshold",
     "cloud_mask",
+    "bridge_single_level_gaps",
     "cloud_layers",
     "CloudLayers",
     "adiabatic_lwc",
@@ -162,6 +163,48 @@ def cloud_mask(relative_humidity, temperature, *, lwc_model=None, valid=None,
     if valid is not None:
         cloud = cloud & np.asarray(valid, dtype=bool)
     return cloud
+
+
+def bridge_single_level_gaps(cloud, relative_humidity, temperature, *, valid=None):
+    """Close one-level gaps inside a cloud deck where the air is at least ice-saturated.
+
+    A single level between two cloudy levels whose humidity is at or above ice
+    saturation (``RH >= e_si/e_sw``) is humidity noise inside one deck more often
+    than a real break; closing it keeps the deck one layer, so its adiabatic liquid
+    does not restart from zero above the gap (the conservative reading for
+    screening; common practice, no source). Drier gaps stay open.
+
+    Parameters
+    ----------
+    cloud : array_like of bool, shape (..., level)
+        Cloud mask, levels ordered from the ground up.
+    relative_humidity, temperature : array_like, shape (..., level)
+        [1], [K].
+    valid : array_like of bool, optional
+        Levels with usable data (gaps at unusable levels stay open).
+
+    Returns
+    -------
+    numpy.ndarray of bool
+
+    Examples
+    --------
+    >>> bridge_single_level_gaps([True, False, True, False, True, False, False, True],
+    ...                          [1.0, 0.92, 1.0, 0.5, 1.0, 0.92, 0.92, 1.0], 263.15).tolist()
+    [True, True, True, False, True, False, False, True]
+    """
+    cloud = np.asarray(cloud, dtype=bool)
+    if cloud.shape[-1] < 3:
+        return cloud
+    rh = np.broadcast_to(np.asarray(relative_humidity, dtype=float), cloud.shape)
+    with np.errstate(invalid="ignore"):
+        moist = rh >= thermo.ice_saturation_relative_humidity(temperature)
+    if valid is not None:
+        moist = moist & np.asarray(valid, dtype=bool)
+    gap = ~cloud[..., 1:-1] & cloud[..., :-2] & cloud[..., 2:] & moist[..., 1:-1]
+    out = cloud.copy()
+    out[..., 1:-1] |= gap
+    return out
 
 
 class CloudLayers:

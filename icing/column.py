@@ -60,6 +60,10 @@ class ColumnOptions:
     rh_threshold_ice_fraction : float
         Where below 0 degC the threshold sits between ice (0) and water (1)
         saturation, 0.5 (our choice: stays above ice saturation). [1]
+    bridge_single_level_gaps : bool
+        Close one-level gaps of at least ice-saturated air inside a deck, True
+        (conservative: the deck's liquid does not restart above the gap; see
+        ``icing.clouds.bridge_single_level_gaps``).
     cloud_fraction_floor : float
         Smallest cloud fraction used to turn grid-mean model cloud water into
         in-cloud water (at most x10), 0.1 (our choice). [1]
@@ -101,6 +105,7 @@ class ColumnOptions:
     rh_threshold_model: str = "ice-water-blend"
     rh_threshold_warm: float = 0.95
     rh_threshold_ice_fraction: float = 0.5
+    bridge_single_level_gaps: bool = True
     cloud_fraction_floor: float = 0.1
     updraft_floor_stratiform_m_s: float = 0.1
     updraft_floor_convective_m_s: float = 1.0
@@ -160,6 +165,7 @@ class ColumnOptions:
                 "saturation below about -5 C)" if self.rh_threshold_model == "ice-water-blend"
                 else "0.999 (saturated air only)"),
             "rh_threshold_warm": self.rh_threshold_warm,
+            "bridge_single_level_gaps": self.bridge_single_level_gaps,
             "rh_threshold_ice_fraction": self.rh_threshold_ice_fraction,
             "liquid_combination": (
                 "the larger of model cloud water (q_c rho, divided by the cloud fraction where "
@@ -533,6 +539,8 @@ def _diagnose_core(s, cols, o):
                                   valid=air, model=o.rh_threshold_model,
                                   warm=o.rh_threshold_warm,
                                   ice_fraction=o.rh_threshold_ice_fraction)
+        if o.bridge_single_level_gaps:
+            cloud = clouds.bridge_single_level_gaps(cloud, rh, t, valid=air)
         # layer boundaries never reach into the ground or into missing levels
         lay = clouds.cloud_layers(cloud, np.where(air, z, np.nan), np.where(air, p, np.nan),
                                   np.where(air, t, np.nan))

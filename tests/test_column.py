@@ -394,3 +394,20 @@ def test_ice_nuclei_models_through_the_column(model):
     d = diagnose_columns(**thin_minus8_deck(), options=ColumnOptions(ice_nuclei_model=model))
     g = d.glaciation[d.cloud]
     assert np.all((g >= 0) & (g <= 1)) and model in json.dumps(d.assumptions)
+
+
+def test_one_level_humidity_dip_does_not_split_a_deck():
+    # stated choice (ColumnOptions.bridge_single_level_gaps): a one-level dip to ice
+    # saturation inside a saturated deck keeps one layer, so the liquid keeps growing
+    col = {k: v for k, v in supercooled_stratiform_deck().items() if k != "cloud_liquid"}
+    dip = col["relative_humidity"].copy()
+    inside = np.flatnonzero(dip >= 1.0)
+    k = inside[len(inside) // 2]
+    dip[k] = 0.94  # above ice saturation (~0.93 at -8 C), below the 0.95 threshold
+    bridged = diagnose_columns(**dict(col, relative_humidity=dip))
+    split = diagnose_columns(**dict(col, relative_humidity=dip),
+                             options=ColumnOptions(bridge_single_level_gaps=False))
+    assert bridged.cloud[k] and not split.cloud[k]
+    top = inside[-1]
+    assert bridged.lwc_diagnosed[top] > split.lwc_diagnosed[top]
+    assert bridged.cloud_base_height[top] < split.cloud_base_height[top]
