@@ -77,7 +77,7 @@ _MARKERS = {
 }
 GAP_LABEL = "coverage gap \u2014 no data, not 'no icing'"
 _GAP_FILL, _GAP_HATCH, _GAP_HATCH_COLOUR = "#b3b3b3", "--", "#5e5e5e"
-_SLD_HATCH = {codes.SLD_DRIZZLE: "oo", codes.SLD_RAIN: "OO"}
+_SLD_HATCH = {codes.SLD_DRIZZLE: "o", codes.SLD_RAIN: "O"}
 _SLD_COLOUR = "#0a8f9a"
 _GROUND = "#5c5346"
 _CLOUD_COLOUR = "#2b5fad"
@@ -869,14 +869,22 @@ def plot_route_map(screenings_or_one, path, *, title=None, figsize=(9.0, 6.5), d
         gid="scale-bar",
     )
 
-    head = title or ", ".join(s.route_name for s in items)
+    if title:
+        head = title
+    elif len(items) == 1:
+        head = items[0].route_name
+    else:
+        head = f"{len(items)} routes: " + ", ".join(s.route_name for s in items)
+        if len(head) > 90:
+            head = head[:87].rstrip(", ") + "..."
     vt = _valid_times_text(getattr(items[0], "provenance", None))
+    frames = ", ".join(dict.fromkeys(s.airframe_name for s in items))
     fig.text(0.09, 0.965, head, fontsize=11, weight="bold", va="top", gid="title")
     fig.text(
         0.09,
         0.925,
         f"icing hazard along the route{'s' if len(items) > 1 else ''}"
-        f" ({items[0].airframe_name})" + (f"; forecast valid {vt}" if vt else ""),
+        f" ({frames})" + (f"; forecast valid {vt}" if vt else ""),
         fontsize=8,
         va="top",
     )
