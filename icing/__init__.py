@@ -54,6 +54,8 @@ __all__ = [
     # column physics
     "diagnose_columns",
     "ColumnOptions",
+    "ColumnDiagnosis",
+    "moist_adiabat_temperature",
     "terminal_velocity",
     "air_viscosity",
     "kohler_critical",
@@ -106,6 +108,8 @@ _WHERE = {
     "write_report": "report",
     "diagnose_columns": "column",
     "ColumnOptions": "column",
+    "ColumnDiagnosis": "column",
+    "moist_adiabat_temperature": "thermo",
     "terminal_velocity": "droplets",
     "air_viscosity": "thermo",
     "kohler_critical": "droplets",

@@ -155,7 +155,8 @@ def read_off(diag, column_index, target, *, reference="msl"):
     ha, hb = pick(diag.height)
     out["height"] = ha + w * (hb - ha)
     sa, sb = pick(diag.sld_class)
-    out["sld_class"] = np.maximum(sa, sb)
+    # GAP (-1) marks an unusable level; validity is carried by ``valid`` below
+    out["sld_class"] = np.maximum(np.maximum(sa, sb), codes.SLD_NONE)
     mu = np.broadcast_to(np.asarray(getattr(diag, "spectrum_shape", 2.0), float), z.shape)
     mu_a, mu_b = pick(mu)
     out["spectrum_shape"] = np.where(np.isfinite(mu_a), mu_a, np.where(np.isfinite(mu_b), mu_b, 2.0))
@@ -586,11 +587,13 @@ def diagnose_point(forecast, lat, lon, time=None, *, airframe=None, column_optio
             "relative_humidity_pct": round(float(np.asarray(diag.relative_humidity)[c, i]) * 100, 1),
             "cloud": bool(np.asarray(diag.cloud)[c, i]),
             "lwc_g_m3": round(float(np.nan_to_num(np.asarray(diag.lwc)[c, i])) * 1000, 4),
-            "basis": codes.BASIS[int(np.asarray(diag.basis)[c, i])],
+            "basis": str(codes.words(np.asarray(diag.basis)[c, i], codes.BASIS,
+                                     gap="coverage-gap")),
             "droplet_number_cm3": _r(np.asarray(diag.droplet_number)[c, i] / 1e6, 1),
             "mvd_um": _r(np.asarray(diag.mvd)[c, i] * 1e6, 2),
             "glaciation": _r(np.asarray(diag.glaciation)[c, i], 3),
-            "sld": codes.SLD_CLASSES[int(np.asarray(diag.sld_class)[c, i])],
+            "sld": str(codes.words(np.asarray(diag.sld_class)[c, i], codes.SLD_CLASSES,
+                                   gap="coverage-gap")),
             "below_ground": bool(np.asarray(diag.below_ground)[c, i]),
             "valid": bool(np.asarray(diag.valid)[c, i]),
         }
