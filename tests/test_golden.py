@@ -6,6 +6,7 @@ each test says such an atmosphere produces. These are regression-style checks of
 the whole chain, not check values of any single formula.
 """
 
+import json
 from datetime import UTC, datetime
 from pathlib import Path
 
@@ -21,14 +22,8 @@ from icing.route import Route, Waypoint
 ROOT = Path(__file__).resolve().parents[1]
 GOLDEN = ROOT / "fixtures" / "golden-columns.json"
 DEPART = datetime(2027, 1, 14, 12, 0, tzinfo=UTC)
-WHERE = {
-    "stratiform-deck": (57.0, -24.5),
-    "warm-nose": (59.25, -20.0),
-    "drizzle-deck": (55.0, -23.0),
-    "glaciating-deep-cold-deck": (55.75, -29.0),
-    "ice-pellets-deep-cold": (56.75, -29.0),
-    "dry": (54.0, -30.0),
-}
+# the position of each golden column, read from the fixture itself
+WHERE = {p["id"]: (p["lat"], p["lon"]) for p in json.loads(GOLDEN.read_text())["profiles"]}
 
 
 @pytest.fixture(scope="module")
