@@ -38,7 +38,9 @@ def atomic_write(path, data, *, binary=False) -> Path:
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
     try:
-        with os.fdopen(fd, "wb" if binary else "w", **({} if binary else {"encoding": "utf-8"})) as fh:
+        with os.fdopen(
+            fd, "wb" if binary else "w", **({} if binary else {"encoding": "utf-8"})
+        ) as fh:
             fh.write(data)
         os.replace(tmp, path)
     except BaseException:
@@ -80,15 +82,22 @@ def _latlon(args):
             lat, lon = (float(x) for x in args.at.split(","))
         except ValueError:
             raise InputError(
-                f"--at {args.at!r} is not LAT,LON", where="--at",
+                f"--at {args.at!r} is not LAT,LON",
+                where="--at",
                 fix="write e.g. --at=57.1,-24.3 (use = for negative values)",
             ) from None
     elif args.lat is not None and args.lon is not None:
         lat, lon = args.lat, args.lon
     else:
-        raise InputError("no position given", where="profile", fix="give --at LAT,LON or --lat and --lon")
+        raise InputError(
+            "no position given", where="profile", fix="give --at LAT,LON or --lat and --lon"
+        )
     if not (-90 <= lat <= 90 and -180 <= lon <= 360):
-        raise InputError(f"position {lat},{lon} out of range", where="--at", fix="latitude -90..90, longitude -180..180")
+        raise InputError(
+            f"position {lat},{lon} out of range",
+            where="--at",
+            fix="latitude -90..90, longitude -180..180",
+        )
     return lat, lon
 
 
@@ -96,8 +105,11 @@ def _var_map(items):
     out = {}
     for item in items or []:
         if "=" not in item:
-            raise InputError(f"--var {item!r} is not KEY=NAME", where="--var",
-                             fix="write e.g. --var temperature=TMP_P0_L100")
+            raise InputError(
+                f"--var {item!r} is not KEY=NAME",
+                where="--var",
+                fix="write e.g. --var temperature=TMP_P0_L100",
+            )
         k, v = item.split("=", 1)
         out[k.strip()] = v.strip()
     return out
@@ -121,7 +133,9 @@ def _forecast(args):
 
             found = sorted(glob.glob(p))
             if not found:
-                raise InputError(f"no file matches {p!r}", where="--forecast", fix="check the pattern")
+                raise InputError(
+                    f"no file matches {p!r}", where="--forecast", fix="check the pattern"
+                )
             paths.extend(found)
         else:
             paths.append(p)
@@ -146,18 +160,34 @@ def _fmt(x, nd=1, none="-"):
 
 def summary_table(summaries) -> str:
     """Render route summaries as a plain-text table (with the caution)."""
-    head = ["route", "km", "worst", "min icing", "ice mm", "SLD", "freezing lvl ft", "gaps km",
-            "status"]
+    head = [
+        "route",
+        "km",
+        "worst",
+        "min icing",
+        "ice mm",
+        "SLD",
+        "freezing lvl ft",
+        "gaps km",
+        "status",
+    ]
     rows = []
     for s in summaries:
         fl = (s.get("freezing_level_ft_min"), s.get("freezing_level_ft_max"))
         fl_txt = "-" if fl[0] is None else (f"{fl[0]}" if fl[0] == fl[1] else f"{fl[0]}-{fl[1]}")
-        rows.append([
-            s["route"], _fmt(s["distance_km"]), s["worst_severity"] or "unknown",
-            _fmt(s["minutes_in_icing"]), _fmt(s.get("accretion_mm_reference"), 2),
-            ",".join(x for x in s["sld"] if x != "none") or "none", fl_txt,
-            _fmt(s["gap_km"]), s["status"],
-        ])
+        rows.append(
+            [
+                s["route"],
+                _fmt(s["distance_km"]),
+                s["worst_severity"] or "unknown",
+                _fmt(s["minutes_in_icing"]),
+                _fmt(s.get("accretion_mm_reference"), 2),
+                ",".join(x for x in s["sld"] if x != "none") or "none",
+                fl_txt,
+                _fmt(s["gap_km"]),
+                s["status"],
+            ]
+        )
     widths = [max(len(str(r[i])) for r in rows + [head]) for i in range(len(head))]
     lines = ["  ".join(str(c).ljust(w) for c, w in zip(head, widths, strict=True))]
     lines.append("  ".join("-" * w for w in widths))
@@ -165,8 +195,11 @@ def summary_table(summaries) -> str:
         lines.append("  ".join(str(c).ljust(w) for c, w in zip(r, widths, strict=True)))
     shown = 3
     for s in summaries:
-        cands = [c for c in s.get("candidate_altitudes_ft") or [] if isinstance(c, dict)
-                 and c.get("text")]
+        cands = [
+            c
+            for c in s.get("candidate_altitudes_ft") or []
+            if isinstance(c, dict) and c.get("text")
+        ]
         if not cands:
             continue
         cands.sort(key=lambda c: -codes.SEVERITY.index(c.get("severity") or "none"))
@@ -196,8 +229,9 @@ def _sibling_json(path: Path) -> Path:
     return path.with_name(path.stem + ".summary.json")
 
 
-def _write_outputs(screenings, args, *, out_geojson=None, plot=None, map_=None, report=None,
-                   samples=None):
+def _write_outputs(
+    screenings, args, *, out_geojson=None, plot=None, map_=None, report=None, samples=None
+):
     """Compute every output in memory first, then write them all (atomic each)."""
     from .hazards import feature_collection
 
@@ -217,9 +251,12 @@ def _write_outputs(screenings, args, *, out_geojson=None, plot=None, map_=None, 
         from .plot import plot_cross_section
 
         plot = Path(plot)
-        for i, s in enumerate(screenings):
-            target = plot if len(screenings) == 1 else plot.with_name(
-                f"{plot.stem}-{_safe(s.route_name)}{plot.suffix}")
+        for s in screenings:
+            target = (
+                plot
+                if len(screenings) == 1
+                else plot.with_name(f"{plot.stem}-{_safe(s.route_name)}{plot.suffix}")
+            )
             written.append(_atomic_picture(plot_cross_section, s, target))
     if map_:
         from .plot import plot_route_map
@@ -249,8 +286,11 @@ def _safe(name: str) -> str:
 
 def _check_suffix(path, allowed, flag):
     if path and Path(path).suffix.lower() not in allowed:
-        raise InputError(f"{flag} {path!r} has an unsupported extension", where=flag,
-                         fix=f"use one of {', '.join(sorted(allowed))}")
+        raise InputError(
+            f"{flag} {path!r} has an unsupported extension",
+            where=flag,
+            fix=f"use one of {', '.join(sorted(allowed))}",
+        )
 
 
 def _fail_code(summaries, args) -> int:
@@ -260,8 +300,9 @@ def _fail_code(summaries, args) -> int:
             w = s.get("worst_severity")
             if w is not None and codes.severity_code(w) >= level:
                 return EXIT_FAIL_ON
-    if args.fail_on_gap and any(s.get("gap_km", 0) > 0 or s.get("worst_severity") is None
-                                for s in summaries):
+    if args.fail_on_gap and any(
+        s.get("gap_km", 0) > 0 or s.get("worst_severity") is None for s in summaries
+    ):
         return EXIT_FAIL_ON
     return EXIT_OK
 
@@ -280,12 +321,24 @@ def cmd_screen(args) -> int:
     forecast = _forecast(args)
     opts = ScreenOptions(step_km=args.step_km, all_segments=args.all_segments)
     screenings = screen_routes(
-        routes, forecast, airframe=airframe, tas_kt=args.tas_kt, departure=depart,
-        options=opts, column_options=_column_options(args),
+        routes,
+        forecast,
+        airframe=airframe,
+        tas_kt=args.tas_kt,
+        departure=depart,
+        options=opts,
+        column_options=_column_options(args),
     )
     out = args.output
-    fc, written = _write_outputs(screenings, args, out_geojson=out, plot=args.plot, map_=args.map,
-                                 report=args.report, samples=args.samples)
+    fc, written = _write_outputs(
+        screenings,
+        args,
+        out_geojson=out,
+        plot=args.plot,
+        map_=args.map,
+        report=args.report,
+        samples=args.samples,
+    )
     summaries = fc["summaries"]
     if args.json:
         print(json.dumps({"summaries": summaries, "caution": CAUTION}, indent=1, allow_nan=False))
@@ -314,10 +367,16 @@ def cmd_profile(args) -> int:
     forecast = _forecast(args)
     t = _iso_time(args.time) if args.time else None
     tt = None if t is None else _utc64(t)
-    result = diagnose_point(forecast, lat, lon, tt, airframe=args.airframe,
-                            column_options=_column_options(args))
-    result.update(lat=lat, lon=lon, caution=CAUTION, provenance=forecast.describe(),
-                  assumptions=_column_options(args).describe())
+    result = diagnose_point(
+        forecast, lat, lon, tt, airframe=args.airframe, column_options=_column_options(args)
+    )
+    result.update(
+        lat=lat,
+        lon=lon,
+        caution=CAUTION,
+        provenance=forecast.describe(),
+        assumptions=_column_options(args).describe(),
+    )
     if args.json:
         print(json.dumps(result, indent=1, allow_nan=False, default=str))
         return EXIT_OK
@@ -325,18 +384,38 @@ def cmd_profile(args) -> int:
         print(f"coverage gap at {lat},{lon}: {result['gap_reason']} (icing unknown, not absent)")
         print(CAUTION)
         return EXIT_OK
-    head = ["p hPa", "z m", "T C", "RH %", "cloud", "LWC g/m3", "MVD um", "SLD", "E", "mm/h",
-            "ice", "severity"]
+    head = [
+        "p hPa",
+        "z m",
+        "T C",
+        "RH %",
+        "cloud",
+        "LWC g/m3",
+        "MVD um",
+        "SLD",
+        "E",
+        "mm/h",
+        "ice",
+        "severity",
+    ]
     rows = []
     for lv in result["levels"]:
-        rows.append([
-            _fmt(lv["pressure_hpa"], 0), _fmt(lv["height_m"], 0), _fmt(lv["temperature_c"], 1),
-            _fmt(lv["relative_humidity_pct"], 0), "yes" if lv["cloud"] else "",
-            _fmt(lv["lwc_g_m3"], 3), _fmt(lv["mvd_um"], 1), lv["sld"] if lv["sld"] != "none" else "",
-            _fmt(lv["collection_efficiency"], 2), _fmt(lv["accretion_rate_mm_h"], 1),
-            lv["ice_type"] if lv["ice_type"] not in (None, "none") else "",
-            ("below ground" if lv["below_ground"] else (lv["severity"] or "")),
-        ])
+        rows.append(
+            [
+                _fmt(lv["pressure_hpa"], 0),
+                _fmt(lv["height_m"], 0),
+                _fmt(lv["temperature_c"], 1),
+                _fmt(lv["relative_humidity_pct"], 0),
+                "yes" if lv["cloud"] else "",
+                _fmt(lv["lwc_g_m3"], 3),
+                _fmt(lv["mvd_um"], 1),
+                lv["sld"] if lv["sld"] != "none" else "",
+                _fmt(lv["collection_efficiency"], 2),
+                _fmt(lv["accretion_rate_mm_h"], 1),
+                lv["ice_type"] if lv["ice_type"] not in (None, "none") else "",
+                ("below ground" if lv["below_ground"] else (lv["severity"] or "")),
+            ]
+        )
     widths = [max(len(str(r[i])) for r in rows + [head]) for i in range(len(head))]
     print("  ".join(h.rjust(w) for h, w in zip(head, widths, strict=True)))
     for r in reversed(rows):
@@ -370,20 +449,41 @@ def build_parser() -> argparse.ArgumentParser:
     sub.required = True
 
     def forecast_args(sp):
-        sp.add_argument("--forecast", "-f", nargs="+", required=True, metavar="FILE",
-                        help="forecast file(s): profile JSON/CSV or CF-NetCDF; several files "
-                        "(lead times, or a glob) form one forecast")
-        sp.add_argument("--radius-km", type=float, default=None,
-                        help="coverage radius around profile soundings (default 50 km)")
-        sp.add_argument("--time-tolerance", type=float, default=None, metavar="HOURS",
-                        help="how far outside the forecast valid times a sample may lie "
-                        "(default 3 h)")
-        sp.add_argument("--var", action="append", metavar="KEY=NAME",
-                        help="map a quantity to a NetCDF variable name, e.g. "
-                        "--var temperature=TMP (repeatable)")
-        sp.add_argument("--air-mass", default=None,
-                        help="CCN air mass for droplet number: maritime (default, conservative) "
-                        "or continental")
+        sp.add_argument(
+            "--forecast",
+            "-f",
+            nargs="+",
+            required=True,
+            metavar="FILE",
+            help="forecast file(s): profile JSON/CSV or CF-NetCDF; several files "
+            "(lead times, or a glob) form one forecast",
+        )
+        sp.add_argument(
+            "--radius-km",
+            type=float,
+            default=None,
+            help="coverage radius around profile soundings (default 50 km)",
+        )
+        sp.add_argument(
+            "--time-tolerance",
+            type=float,
+            default=None,
+            metavar="HOURS",
+            help="how far outside the forecast valid times a sample may lie (default 3 h)",
+        )
+        sp.add_argument(
+            "--var",
+            action="append",
+            metavar="KEY=NAME",
+            help="map a quantity to a NetCDF variable name, e.g. "
+            "--var temperature=TMP (repeatable)",
+        )
+        sp.add_argument(
+            "--air-mass",
+            default=None,
+            help="CCN air mass for droplet number: maritime (default, conservative) "
+            "or continental",
+        )
 
     d = sub.add_parser("demo", help="screen the bundled demo scenario and write its outputs")
     d.add_argument("--out", default="icing-demo", help="output folder (default ./icing-demo)")
@@ -392,30 +492,52 @@ def build_parser() -> argparse.ArgumentParser:
     s = sub.add_parser("screen", help="screen route(s) against a forecast")
     s.add_argument("routes", nargs="+", metavar="ROUTE", help="route file(s): GeoJSON, CSV or GPX")
     forecast_args(s)
-    s.add_argument("--airframe", "-a", default="light-piston",
-                   help="airframe preset name or TOML file (see `icing airframes`)")
-    s.add_argument("--depart", default=None, metavar="ISO8601",
-                   help="departure time (with zone), overrides the route's")
+    s.add_argument(
+        "--airframe",
+        "-a",
+        default="light-piston",
+        help="airframe preset name or TOML file (see `icing airframes`)",
+    )
+    s.add_argument(
+        "--depart",
+        default=None,
+        metavar="ISO8601",
+        help="departure time (with zone), overrides the route's",
+    )
     s.add_argument("--tas-kt", type=float, default=None, help="true airspeed [kt]")
     s.add_argument("--step-km", type=float, default=1.0, help="largest sample spacing [km]")
-    s.add_argument("-o", "--output", default=None, metavar="OUT.geojson",
-                   help="GeoJSON output (and OUT.summary.json beside it)")
+    s.add_argument(
+        "-o",
+        "--output",
+        default=None,
+        metavar="OUT.geojson",
+        help="GeoJSON output (and OUT.summary.json beside it)",
+    )
     s.add_argument("--plot", default=None, metavar="OUT.png|svg", help="cross-section picture")
     s.add_argument("--map", default=None, metavar="OUT.png|svg", help="plan-view picture")
     s.add_argument("--report", default=None, metavar="OUT.html", help="self-contained HTML report")
     s.add_argument("--samples", default=None, metavar="OUT.csv", help="per-sample audit table")
     s.add_argument("--all-segments", action="store_true", help="also write no-icing segments")
     s.add_argument("--json", action="store_true", help="print the summaries as JSON")
-    s.add_argument("--fail-on", choices=codes.SEVERITY[1:], default=None,
-                   help="exit 3 when a route reaches this severity")
-    s.add_argument("--fail-on-gap", action="store_true",
-                   help="exit 3 when a route has any coverage gap")
+    s.add_argument(
+        "--fail-on",
+        choices=codes.SEVERITY[1:],
+        default=None,
+        help="exit 3 when a route reaches this severity",
+    )
+    s.add_argument(
+        "--fail-on-gap", action="store_true", help="exit 3 when a route has any coverage gap"
+    )
     s.set_defaults(func=cmd_screen)
 
     pr = sub.add_parser("profile", help="the forecast column at one point, level by level")
     forecast_args(pr)
-    pr.add_argument("--at", default=None, metavar="LAT,LON",
-                    help="position; use --at=-33.9,151.2 for negative values")
+    pr.add_argument(
+        "--at",
+        default=None,
+        metavar="LAT,LON",
+        help="position; use --at=-33.9,151.2 for negative values",
+    )
     pr.add_argument("--lat", type=float, default=None)
     pr.add_argument("--lon", type=float, default=None)
     pr.add_argument("--time", default=None, metavar="ISO8601", help="valid time (with zone)")
@@ -439,7 +561,9 @@ def main(argv=None) -> int:
         print(f"icing: error: {err.one_line()}", file=sys.stderr)
         return EXIT_INPUT
     except FileNotFoundError as err:
-        print(f"icing: error: {err.filename}: file not found (fix: check the path)", file=sys.stderr)
+        print(
+            f"icing: error: {err.filename}: file not found (fix: check the path)", file=sys.stderr
+        )
         return EXIT_INPUT
     except IcingError as err:
         print(f"icing: error: {err}", file=sys.stderr)
@@ -449,8 +573,11 @@ def main(argv=None) -> int:
     except Exception as err:  # an internal error: say so, in one line, and exit 1
         if os.environ.get("ICING_DEBUG"):
             raise
-        print(f"icing: internal error: {type(err).__name__}: {err} "
-              "(set ICING_DEBUG=1 for the traceback; please report it)", file=sys.stderr)
+        print(
+            f"icing: internal error: {type(err).__name__}: {err} "
+            "(set ICING_DEBUG=1 for the traceback; please report it)",
+            file=sys.stderr,
+        )
         return EXIT_INTERNAL
 
 

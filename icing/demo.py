@@ -16,12 +16,12 @@ __all__ = ["demo_dir", "demo_scenario", "run_demo"]
 
 
 def demo_dir() -> Path:
-    """Folder of the bundled demo files (package data)."""
+    """Return the folder of the bundled demo files (package data)."""
     return Path(str(resources.files("icing") / "data" / "demo"))
 
 
 def demo_scenario() -> dict:
-    """The demo's routes, airframes and forecast, from ``data/demo/scenario.toml``."""
+    """Return the demo's routes, airframes and forecast, from ``data/demo/scenario.toml``."""
     d = demo_dir()
     with open(d / "scenario.toml", "rb") as fh:
         sc = tomllib.load(fh)
@@ -39,7 +39,7 @@ def run_demo(out) -> tuple[list[dict], list[Path]]:
     (summaries, written)
         The route summaries and the paths written.
     """
-    from .cli import _atomic_picture, _samples_csv, _safe, atomic_write
+    from .cli import _atomic_picture, _safe, _samples_csv, atomic_write
     from .forecast import load_forecast
     from .hazards import feature_collection
     from .pipeline import screen_route
@@ -61,14 +61,19 @@ def run_demo(out) -> tuple[list[dict], list[Path]]:
         atomic_write(out / "demo.geojson", json.dumps(fc, indent=1, allow_nan=False)),
         atomic_write(
             out / "demo.summary.json",
-            json.dumps({k: v for k, v in fc.items() if k not in ("type", "features")}, indent=1,
-                       allow_nan=False),
+            json.dumps(
+                {k: v for k, v in fc.items() if k not in ("type", "features")},
+                indent=1,
+                allow_nan=False,
+            ),
         ),
         atomic_write(out / "demo-samples.csv", _samples_csv(screenings)),
     ]
     for s in screenings:
         written.append(
-            _atomic_picture(plot_cross_section, s, out / f"cross-section-{_safe(s.route_name)}.png")
+            _atomic_picture(
+                plot_cross_section, s, out / f"cross-section-{_safe(s.route_name)}.png"
+            )
         )
     written.append(_atomic_picture(plot_route_map, screenings, out / "map.png"))
     written.append(write_report(screenings, out / "report.html"))

@@ -327,7 +327,9 @@ def route_summary(screening_like, *, airframe=None) -> dict:
         "gap_km": round(gap_km, 2),
         "gap_minutes": _minutes(~covered, dt),
         "gap_count": len(gap_segments),
-        "icing_segments": sum(f["properties"]["kind"] == KIND_ICING for f in screening_like.segments),
+        "icing_segments": sum(
+            f["properties"]["kind"] == KIND_ICING for f in screening_like.segments
+        ),
         "candidate_altitudes_ft": screening_like.summary.get("candidate_altitudes_ft", [])
         if isinstance(getattr(screening_like, "summary", None), dict)
         else [],

@@ -159,7 +159,9 @@ def read_off(diag, column_index, target, *, reference="msl"):
     out["sld_class"] = np.maximum(np.maximum(sa, sb), codes.SLD_NONE)
     mu = np.broadcast_to(np.asarray(getattr(diag, "spectrum_shape", 2.0), float), z.shape)
     mu_a, mu_b = pick(mu)
-    out["spectrum_shape"] = np.where(np.isfinite(mu_a), mu_a, np.where(np.isfinite(mu_b), mu_b, 2.0))
+    out["spectrum_shape"] = np.where(
+        np.isfinite(mu_a), mu_a, np.where(np.isfinite(mu_b), mu_b, 2.0)
+    )
     ba, bb = pick(diag.basis)
     la, lb = pick(diag.lwc)
     out["basis"] = np.where(np.nan_to_num(la) >= np.nan_to_num(lb), ba, bb)
@@ -329,7 +331,9 @@ def screen_route(
     state = read_off(diag, ci, tgt, reference=vref)
     ground = _ground_height(route, samples, forecast, colset, diag)
     with np.errstate(invalid="ignore"):
-        under = np.isfinite(ground)[:, None, None] & (state["height"] < ground[:, None, None] - 1.0)
+        under = np.isfinite(ground)[:, None, None] & (
+            state["height"] < ground[:, None, None] - 1.0
+        )
     state["below_ground"] = state["below_ground"] | under
     state["valid"] = state["valid"] & ~under
     tas_ms = np.asarray(samples.tas, float)[:, None, None]
@@ -557,10 +561,18 @@ def diagnose_point(forecast, lat, lon, time=None, *, airframe=None, column_optio
     t = np.array([np.datetime64(time, "ms")])
     colset = forecast.columns_at(np.array([float(lat)]), np.array([float(lon)]), t)
     if not bool(np.asarray(colset.covered)[0]):
-        return {"covered": False, "gap_reason": str(np.asarray(colset.gap_reason)[0]), "levels": []}
+        return {
+            "covered": False,
+            "gap_reason": str(np.asarray(colset.gap_reason)[0]),
+            "levels": [],
+        }
     diag = _diagnose(colset, column_options)
     cands = [int(c) for c in np.asarray(colset.candidates)[0] if c >= 0]
-    af = load_airframe(airframe) if airframe is not None and not hasattr(airframe, "collectors") else airframe
+    af = (
+        load_airframe(airframe)
+        if airframe is not None and not hasattr(airframe, "collectors")
+        else airframe
+    )
     best = None
     for c in cands:
         lev = np.asarray(diag.pressure).shape[-1]
@@ -584,16 +596,22 @@ def diagnose_point(forecast, lat, lon, time=None, *, airframe=None, column_optio
             "pressure_hpa": round(float(np.asarray(diag.pressure)[c, i]) / 100.0, 2),
             "height_m": round(float(np.asarray(diag.height)[c, i]), 1),
             "temperature_c": round(float(np.asarray(diag.temperature)[c, i]) - 273.15, 2),
-            "relative_humidity_pct": round(float(np.asarray(diag.relative_humidity)[c, i]) * 100, 1),
+            "relative_humidity_pct": round(
+                float(np.asarray(diag.relative_humidity)[c, i]) * 100, 1
+            ),
             "cloud": bool(np.asarray(diag.cloud)[c, i]),
             "lwc_g_m3": round(float(np.nan_to_num(np.asarray(diag.lwc)[c, i])) * 1000, 4),
-            "basis": str(codes.words(np.asarray(diag.basis)[c, i], codes.BASIS,
-                                     gap="coverage-gap")),
+            "basis": str(
+                codes.words(np.asarray(diag.basis)[c, i], codes.BASIS, gap="coverage-gap")
+            ),
             "droplet_number_cm3": _r(np.asarray(diag.droplet_number)[c, i] / 1e6, 1),
             "mvd_um": _r(np.asarray(diag.mvd)[c, i] * 1e6, 2),
             "glaciation": _r(np.asarray(diag.glaciation)[c, i], 3),
-            "sld": str(codes.words(np.asarray(diag.sld_class)[c, i], codes.SLD_CLASSES,
-                                   gap="coverage-gap")),
+            "sld": str(
+                codes.words(
+                    np.asarray(diag.sld_class)[c, i], codes.SLD_CLASSES, gap="coverage-gap"
+                )
+            ),
             "below_ground": bool(np.asarray(diag.below_ground)[c, i]),
             "valid": bool(np.asarray(diag.valid)[c, i]),
         }
@@ -606,8 +624,9 @@ def diagnose_point(forecast, lat, lon, time=None, *, airframe=None, column_optio
                 severity="coverage-gap" if s == codes.GAP else codes.SEVERITY[s],
             )
         else:
-            row.update(collection_efficiency=None, accretion_rate_mm_h=None, ice_type=None,
-                       severity=None)
+            row.update(
+                collection_efficiency=None, accretion_rate_mm_h=None, ice_type=None, severity=None
+            )
         levels.append(row)
     return {
         "covered": True,

@@ -26,7 +26,9 @@ def _modules():
 @pytest.mark.parametrize("module", sorted(_modules()))
 def test_module_all_is_literal_and_complete(module):
     mod = importlib.import_module(f"icing.{module}")
-    assert isinstance(getattr(mod, "__all__", None), list), f"icing.{module} lacks a literal __all__"
+    assert isinstance(getattr(mod, "__all__", None), list), (
+        f"icing.{module} lacks a literal __all__"
+    )
     for name in mod.__all__:
         assert hasattr(mod, name), f"icing.{module}.__all__ names missing {name}"
 

@@ -38,7 +38,9 @@ def test_version_and_help(capsys):
 
 
 def test_python_dash_m_runs():
-    r = subprocess.run([sys.executable, "-m", "icing", "--version"], capture_output=True, text=True)
+    r = subprocess.run(
+        [sys.executable, "-m", "icing", "--version"], capture_output=True, text=True
+    )
     assert r.returncode == 0 and "icing" in r.stdout
 
 
@@ -50,8 +52,18 @@ def test_usage_error_exits_2(capsys):
 
 def test_screen_writes_valid_geojson_and_sibling_json(tmp_path, capsys):
     out = tmp_path / "h.geojson"
-    code = run("screen", ROUTE, "--forecast", FORECAST, "--airframe", "twin-turboprop", "-o", out,
-               "--samples", tmp_path / "s.csv")
+    code = run(
+        "screen",
+        ROUTE,
+        "--forecast",
+        FORECAST,
+        "--airframe",
+        "twin-turboprop",
+        "-o",
+        out,
+        "--samples",
+        tmp_path / "s.csv",
+    )
     text = capsys.readouterr().out
     assert code == 0
     assert "CAUTION" in text
@@ -65,8 +77,17 @@ def test_screen_writes_valid_geojson_and_sibling_json(tmp_path, capsys):
 
 
 def test_json_summary_and_fail_on(tmp_path, capsys):
-    code = run("screen", ROUTE, "--forecast", FORECAST, "--airframe", "twin-turboprop", "--json",
-               "--fail-on", "trace")
+    code = run(
+        "screen",
+        ROUTE,
+        "--forecast",
+        FORECAST,
+        "--airframe",
+        "twin-turboprop",
+        "--json",
+        "--fail-on",
+        "trace",
+    )
     out = json.loads(capsys.readouterr().out)
     assert out["caution"] == CAUTION
     worst = out["summaries"][0]["worst_severity"]
@@ -75,8 +96,10 @@ def test_json_summary_and_fail_on(tmp_path, capsys):
 
 def test_route_outside_forecast_is_gap_and_fail_on_gap(tmp_path, capsys):
     route = tmp_path / "far.csv"
-    route.write_text("name,lat,lon,altitude_ft,time\nFARAA,10.0,100.0,5000,2027-01-14T09:00:00Z\n"
-                     "FARBB,10.2,100.3,5000,2027-01-14T09:10:00Z\n")
+    route.write_text(
+        "name,lat,lon,altitude_ft,time\nFARAA,10.0,100.0,5000,2027-01-14T09:00:00Z\n"
+        "FARBB,10.2,100.3,5000,2027-01-14T09:10:00Z\n"
+    )
     code = run("screen", route, "--forecast", FORECAST, "--json", "--fail-on-gap")
     out = json.loads(capsys.readouterr().out)
     s = out["summaries"][0]
@@ -123,15 +146,33 @@ def test_depart_without_zone_exits_2(capsys):
 
 
 def test_profile_json(capsys):
-    code = run("profile", "--forecast", PROFILES, "--at=57.0,-24.5", "--airframe", "light-piston",
-               "--json")
+    code = run(
+        "profile",
+        "--forecast",
+        PROFILES,
+        "--at=57.0,-24.5",
+        "--airframe",
+        "light-piston",
+        "--json",
+    )
     out = json.loads(capsys.readouterr().out)
     assert code == 0
     assert out["caution"] == CAUTION
     if out["covered"]:
-        keys = {"pressure_hpa", "height_m", "temperature_c", "relative_humidity_pct", "cloud",
-                "lwc_g_m3", "mvd_um", "sld", "collection_efficiency", "accretion_rate_mm_h",
-                "ice_type", "severity"}
+        keys = {
+            "pressure_hpa",
+            "height_m",
+            "temperature_c",
+            "relative_humidity_pct",
+            "cloud",
+            "lwc_g_m3",
+            "mvd_um",
+            "sld",
+            "collection_efficiency",
+            "accretion_rate_mm_h",
+            "ice_type",
+            "severity",
+        }
         assert keys <= set(out["levels"][0])
 
 

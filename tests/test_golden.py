@@ -95,7 +95,9 @@ def test_freezing_rain_is_severe_for_unprotected_and_boots(forecast, airframe):
 def test_warm_nose_over_deep_cold_layer_gives_ice_pellets(forecast):
     # The same melting layer over a deep cold layer refreezes the drops: ice pellets at
     # the ground, not freezing rain (Bourgouin 2000).
-    col = diagnose_point(forecast, *WHERE["ice-pellets-deep-cold"], np.datetime64("2027-01-14T12:00"))
+    col = diagnose_point(
+        forecast, *WHERE["ice-pellets-deep-cold"], np.datetime64("2027-01-14T12:00")
+    )
     assert col["precip_type"] == "ice-pellets"
     lowest = [lv for lv in col["levels"] if not lv["below_ground"]][:2]
     assert all(lv["sld"] != "freezing-rain" for lv in lowest)
@@ -104,8 +106,9 @@ def test_warm_nose_over_deep_cold_layer_gives_ice_pellets(forecast):
 def test_deep_cold_deck_with_ice_falling_in_reads_glaciated(forecast):
     # A deep -20 to -30 C deck with ice falling into it glaciates readily (Korolev &
     # Mazin 2003; Fletcher 1962 ice nuclei rise steeply with supercooling).
-    col = diagnose_point(forecast, *WHERE["glaciating-deep-cold-deck"],
-                         np.datetime64("2027-01-14T12:00"))
+    col = diagnose_point(
+        forecast, *WHERE["glaciating-deep-cold-deck"], np.datetime64("2027-01-14T12:00")
+    )
     cloudy = [lv for lv in col["levels"] if lv["cloud"]]
     assert cloudy and min(lv["glaciation"] for lv in cloudy) > 0.6
     # reported beside the LWC, never thinning it (Korolev et al. 2003: bimodal phase)
@@ -118,8 +121,13 @@ def test_dry_column_is_no_icing_not_a_gap(forecast):
 
 
 def test_route_outside_the_forecast_is_a_gap(forecast):
-    wps = (Waypoint("FARAA", 10.0, 100.0, 1500.0, "msl"), Waypoint("FARBB", 10.1, 100.1, 1500.0, "msl"))
-    s = icing.screen_route(Route("far", wps, departure_time=DEPART), forecast, airframe="light-piston")
+    wps = (
+        Waypoint("FARAA", 10.0, 100.0, 1500.0, "msl"),
+        Waypoint("FARBB", 10.1, 100.1, 1500.0, "msl"),
+    )
+    s = icing.screen_route(
+        Route("far", wps, departure_time=DEPART), forecast, airframe="light-piston"
+    )
     assert s.summary["worst_severity"] is None
     assert s.summary["gap_km"] > 0
     assert all(f["properties"]["kind"] == "coverage-gap" for f in s.segments)
@@ -129,7 +137,12 @@ def test_route_outside_the_forecast_is_a_gap(forecast):
 def test_outside_the_time_window_is_a_gap(forecast):
     lat, lon = WHERE["stratiform-deck"]
     late = datetime(2027, 1, 20, 12, 0, tzinfo=UTC)
-    wps = (Waypoint("GLDAA", lat, lon, 5000 * FT, "msl"), Waypoint("GLDBB", lat + 0.05, lon, 5000 * FT, "msl"))
-    s = icing.screen_route(Route("late", wps, departure_time=late), forecast, airframe="light-piston")
+    wps = (
+        Waypoint("GLDAA", lat, lon, 5000 * FT, "msl"),
+        Waypoint("GLDBB", lat + 0.05, lon, 5000 * FT, "msl"),
+    )
+    s = icing.screen_route(
+        Route("late", wps, departure_time=late), forecast, airframe="light-piston"
+    )
     assert s.summary["worst_severity"] is None
     assert s.summary["status"].startswith("not-screened")

@@ -12,7 +12,13 @@ import pytest
 
 from icing import codes
 from icing.caution import CAUTION
-from icing.hazards import _geometry, build_segments, feature_collection, route_summary, segment_samples
+from icing.hazards import (
+    _geometry,
+    build_segments,
+    feature_collection,
+    route_summary,
+    segment_samples,
+)
 
 
 def _samples(n, lon0=10.0, dlon=0.01, lat=50.0):
@@ -51,8 +57,10 @@ def _at(sev, sld=None, ice=None):
         "collection_efficiency": np.where(sev > 0, 0.5, 0.0),
         "reference_collector": "wing",
         "per_collector": {
-            "wing": {"accretion_rate_mm_h": np.where(sev > 0, 10.0, 0.0),
-                     "collection_efficiency": np.where(sev > 0, 0.5, 0.0)},
+            "wing": {
+                "accretion_rate_mm_h": np.where(sev > 0, 10.0, 0.0),
+                "collection_efficiency": np.where(sev > 0, 0.5, 0.0),
+            },
         },
     }
 
@@ -87,16 +95,27 @@ def test_time_counted_once_and_accretion_adds_up():
     feats = build_segments("r", "af", s, at, all_segments=True)
     total = sum(f["properties"]["duration_min"] for f in feats)
     assert total == pytest.approx(10 * 10 / 60.0, abs=0.01 * len(feats))  # 2-decimal rounding
-    icing_mm = sum(f["properties"]["accretion_mm"] for f in feats if f["properties"]["kind"] == "icing")
-    assert icing_mm == pytest.approx(6 * 10.0 * 10 / 3600.0, abs=1e-3 * len(feats))  # 3-decimal rounding
+    icing_mm = sum(
+        f["properties"]["accretion_mm"] for f in feats if f["properties"]["kind"] == "icing"
+    )
+    assert icing_mm == pytest.approx(
+        6 * 10.0 * 10 / 3600.0, abs=1e-3 * len(feats)
+    )  # 3-decimal rounding
 
 
 def test_every_feature_carries_the_caution_and_validates():
     s = _samples(8)
     at = _at([0, 1, 2, 2, -1, 3, 3, 0])
-    scr = SimpleNamespace(route_name="r", airframe_name="af", samples=s, at_flight=at,
-                          segments=build_segments("r", "af", s, at), summary={},
-                          provenance={}, assumptions={})
+    scr = SimpleNamespace(
+        route_name="r",
+        airframe_name="af",
+        samples=s,
+        at_flight=at,
+        segments=build_segments("r", "af", s, at),
+        summary={},
+        provenance={},
+        assumptions={},
+    )
     scr.summary = route_summary(scr)
     fc = feature_collection([scr])
     obj = geojson.loads(geojson.dumps(fc))
@@ -112,8 +131,14 @@ def test_every_feature_carries_the_caution_and_validates():
 def test_all_gap_route_is_not_screened_and_has_no_worst():
     s = _samples(4)
     at = _at([-1, -1, -1, -1])
-    scr = SimpleNamespace(route_name="r", airframe_name="af", samples=s, at_flight=at,
-                          segments=build_segments("r", "af", s, at), summary={})
+    scr = SimpleNamespace(
+        route_name="r",
+        airframe_name="af",
+        samples=s,
+        at_flight=at,
+        segments=build_segments("r", "af", s, at),
+        summary={},
+    )
     summ = route_summary(scr)
     assert summ["worst_severity"] is None  # unknown, not "none"
     assert summ["minutes_in_icing"] == 0

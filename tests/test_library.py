@@ -45,8 +45,11 @@ def test_to_geojson_and_geo_interface(result):
 
 
 def test_paths_and_preset_names_are_accepted():
-    r = icing.screen_route(ROOT / "routes" / "flight-plan.csv",
-                           ROOT / "fixtures" / "skerrow-profiles.json", airframe="light-piston")
+    r = icing.screen_route(
+        ROOT / "routes" / "flight-plan.csv",
+        ROOT / "fixtures" / "skerrow-profiles.json",
+        airframe="light-piston",
+    )
     assert r.route_name and len(r.samples.lat) > 10
 
 
