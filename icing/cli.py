@@ -307,6 +307,15 @@ def _fail_code(summaries, args) -> int:
     return EXIT_OK
 
 
+def _progress(done, total, name):
+    """Draw a one-line progress bar on stderr (interactive terminals only)."""
+    width = 30
+    fill = int(width * done / total)
+    end = "\n" if done == total else ""
+    print(f"\rscreening [{'#' * fill}{'.' * (width - fill)}] {done}/{total} {name[:30]:<30}",
+          end=end, file=sys.stderr, flush=True)
+
+
 def cmd_screen(args) -> int:
     from .airframes import load_airframe
     from .pipeline import ScreenOptions, screen_routes
@@ -328,6 +337,7 @@ def cmd_screen(args) -> int:
         departure=depart,
         options=opts,
         column_options=_column_options(args),
+        progress=_progress if len(routes) > 3 and sys.stderr.isatty() else None,
     )
     out = args.output
     fc, written = _write_outputs(

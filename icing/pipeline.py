@@ -533,13 +533,22 @@ def _assumptions(column_options, options, forecast, airframe):
     return out
 
 
-def screen_routes(routes, forecast, *, airframe, **kwargs) -> list[RouteScreening]:
-    """Screen several routes against one forecast (segment ids unique across routes)."""
+def screen_routes(
+    routes, forecast, *, airframe, progress=None, **kwargs
+) -> list[RouteScreening]:
+    """Screen several routes against one forecast (segment ids unique across routes).
+
+    ``progress``, if given, is called as ``progress(done, total, route_name)`` after
+    each route (the CLI draws a progress line from it).
+    """
+    routes = list(routes)
     out = []
     for i, r in enumerate(routes):
         out.append(
             screen_route(r, forecast, airframe=airframe, segment_prefix=f"R{i + 1}-", **kwargs)
         )
+        if progress is not None:
+            progress(i + 1, len(routes), out[-1].route_name)
     return out
 
 
