@@ -352,6 +352,11 @@ def _take(a, idx):
     return np.take_along_axis(a, idx, axis=-1)
 
 
+def _take_or_view(a, idx):
+    """``a`` reordered along levels by ``idx``; ``a`` itself where ``idx`` is None."""
+    return a if idx is None else np.take_along_axis(a, idx, axis=-1)
+
+
 def _level_array(x, shape, default, dtype=float):
     if x is None:
         return np.full(shape, default, dtype=dtype)
@@ -557,16 +562,23 @@ def _diagnose_block(a, drizzle_time_scale_s):
     usable_in = valid_in & finite & ~below_in
     gap_in = ~usable_in & ~below_in
 
-    # sort: usable levels first, by height; unusable ones after them
-    order = np.argsort(np.where(usable_in, z_in, np.inf), axis=-1, kind="stable")
-    inverse = np.argsort(order, axis=-1, kind="stable")
+    # sort: usable levels first, by height; unusable ones after them. Levels that
+    # already come in that order (the usual case) skip the sort: a stable sort of
+    # non-decreasing keys is the identity.
+    key = np.where(usable_in, z_in, np.inf)
+    if np.all(key[..., 1:] >= key[..., :-1]):
+        order = inverse = None
+    else:
+        order = np.argsort(key, axis=-1, kind="stable")
+        inverse = np.argsort(order, axis=-1, kind="stable")
+    del key
 
     def srt(name, default=np.nan, dtype=float):
-        return _take(_level_array(a[name], shape, default, dtype), order)
+        return _take_or_view(_level_array(a[name], shape, default, dtype), order)
 
-    u = _take(usable_in, order)
-    p = np.where(u, _take(p_in, order), np.nan)
-    t = np.where(u, _take(t_in, order), np.nan)
+    u = _take_or_view(usable_in, order)
+    p = np.where(u, _take_or_view(p_in, order), np.nan)
+    t = np.where(u, _take_or_view(t_in, order), np.nan)
     cld = srt("cloud", False, bool) & u
     qliq = srt("lwc")
     ndrop = srt("droplet_number")
@@ -631,11 +643,14 @@ def _diagnose_block(a, drizzle_time_scale_s):
         # Marshall-Palmer holds to 100 mm/h (droplets.marshall_palmer); heavier rates
         # are sized at that limit rather than left without a size
         rate_eff = np.where(rate > PRECIP_RATE_MIN, np.minimum(rate, 100.0), NOMINAL_RAIN_RATE)
-        rate_eff = rate_eff[..., None]
-        lwc_mp, d0_mp = marshall_palmer(np.broadcast_to(rate_eff, shape))
-        d0_model = marshall_palmer_from_lwc(np.where(model_rain, q_rain, np.nan))[0]
-        ra_lwc = np.where(model_rain, q_rain, lwc_mp)
-        ra_mvd = np.where(model_rain, d0_model, d0_mp)
+        # one spectrum per column (the rate is per column), spread over its levels
+        lwc_mp, d0_mp = (np.broadcast_to(v[..., None], shape) for v in marshall_palmer(rate_eff))
+        if rain is None:  # no model rain anywhere: the rate's spectrum everywhere
+            ra_lwc, ra_mvd = lwc_mp, d0_mp
+        else:
+            d0_model = marshall_palmer_from_lwc(np.where(model_rain, q_rain, np.nan))[0]
+            ra_lwc = np.where(model_rain, q_rain, lwc_mp)
+            ra_mvd = np.where(model_rain, d0_model, d0_mp)
         ra_dmax = np.maximum(np.minimum(_DMAX_OVER_D0 * ra_mvd, FZRA_DMAX), ra_mvd)
 
         # ---- freezing drizzle
@@ -658,9 +673,13 @@ def _diagnose_block(a, drizzle_time_scale_s):
             & (qliq > 0.0)
             & (ndrop > 0.0)
         )
-        produced = rho * khairoutdinov_kogan_autoconversion(qliq / rho, ndrop)
-        produced = produced * float(drizzle_time_scale_s)
-        produced = np.where(source & np.isfinite(produced), produced, 0.0)
+        # the autoconversion only where it counts (its powers are the costly part)
+        produced = np.zeros(shape)
+        at = np.nonzero(source)
+        if at[0].size:
+            made = rho[at] * khairoutdinov_kogan_autoconversion(qliq[at] / rho[at], ndrop[at])
+            made = made * float(drizzle_time_scale_s)
+            produced[at] = np.where(np.isfinite(made), made, 0.0)
         drizzle = _rev_cummax(produced)  # drizzle falls: the largest content from above
         # model rain at a sub-freezing level without a melting layer above: warm-rain
         # drizzle by the model's own microphysics, taken at its word with its content
@@ -704,7 +723,7 @@ def _diagnose_block(a, drizzle_time_scale_s):
 
     # ---- back to the input order; gaps and below-ground levels
     def back(x):
-        return _take(x, inverse)
+        return _take_or_view(x, inverse)
 
     cls_in = np.where(gap_in, codes.GAP, back(cls))
     lwc_in = np.where(gap_in, np.nan, np.where(below_in, 0.0, back(s_lwc)))
