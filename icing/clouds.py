@@ -59,7 +59,7 @@ RH_THRESHOLD_MODELS = ("ice-water-blend", "water-saturation")
 
 
 def liquid_cloud_rh_threshold(temperature, *, model="ice-water-blend", warm=0.95,
-                              ice_fraction=0.5):
+                              ice_fraction=0.5, ice_saturation=None):
     """Relative humidity over water above which a level is taken as liquid cloud.
 
     ``"ice-water-blend"`` (default):
@@ -90,6 +90,9 @@ def liquid_cloud_rh_threshold(temperature, *, model="ice-water-blend", warm=0.95
         Threshold above freezing and cap below it. [1]
     ice_fraction : float, optional
         Position of the threshold between ice (0) and water (1) saturation. [1]
+    ice_saturation : array_like, optional
+        ``thermo.ice_saturation_relative_humidity(temperature)`` when the caller has
+        it already (saves computing it again). [1]
 
     Returns
     -------
@@ -112,12 +115,13 @@ def liquid_cloud_rh_threshold(temperature, *, model="ice-water-blend", warm=0.95
     if model != "ice-water-blend":
         raise ValueError(f"unknown humidity-threshold model {model!r}; expected one of "
                          f"{', '.join(RH_THRESHOLD_MODELS)}")
-    f_i = thermo.ice_saturation_relative_humidity(t)
+    f_i = (thermo.ice_saturation_relative_humidity(t) if ice_saturation is None
+           else np.asarray(ice_saturation, dtype=float))
     return np.minimum(warm, f_i + ice_fraction * (1.0 - f_i))
 
 
 def cloud_mask(relative_humidity, temperature, *, lwc_model=None, valid=None,
-               model="ice-water-blend", warm=0.95, ice_fraction=0.5):
+               model="ice-water-blend", warm=0.95, ice_fraction=0.5, ice_saturation=None):
     """Liquid-cloud mask: model cloud water above 0.01 g/m3, or humidity above threshold.
 
     Parameters
@@ -130,7 +134,7 @@ def cloud_mask(relative_humidity, temperature, *, lwc_model=None, valid=None,
         Model cloud liquid water content. [kg m-3]
     valid : array_like of bool, optional
         Levels with usable data (others are never cloud).
-    model, warm, ice_fraction : optional
+    model, warm, ice_fraction, ice_saturation : optional
         Passed to :func:`liquid_cloud_rh_threshold`.
 
     Returns
@@ -157,7 +161,8 @@ def cloud_mask(relative_humidity, temperature, *, lwc_model=None, valid=None,
     rh = np.asarray(relative_humidity, dtype=float)
     with np.errstate(invalid="ignore"):
         cloud = rh >= liquid_cloud_rh_threshold(temperature, model=model, warm=warm,
-                                                ice_fraction=ice_fraction)
+                                                ice_fraction=ice_fraction,
+                                                ice_saturation=ice_saturation)
         if lwc_model is not None:
             cloud = cloud | (np.asarray(lwc_model, dtype=float) >= IN_CLOUD_LWC)
     if valid is not None:
@@ -165,7 +170,8 @@ def cloud_mask(relative_humidity, temperature, *, lwc_model=None, valid=None,
     return cloud
 
 
-def bridge_single_level_gaps(cloud, relative_humidity, temperature, *, valid=None):
+def bridge_single_level_gaps(cloud, relative_humidity, temperature, *, valid=None,
+                             ice_saturation=None):
     """Close one-level gaps inside a cloud deck where the air is at least ice-saturated.
 
     A single level between two cloudy levels whose humidity is at or above ice
@@ -182,6 +188,9 @@ def bridge_single_level_gaps(cloud, relative_humidity, temperature, *, valid=Non
         [1], [K].
     valid : array_like of bool, optional
         Levels with usable data (gaps at unusable levels stay open).
+    ice_saturation : array_like, optional
+        ``thermo.ice_saturation_relative_humidity(temperature)`` when the caller has
+        it already. [1]
 
     Returns
     -------
@@ -197,8 +206,10 @@ def bridge_single_level_gaps(cloud, relative_humidity, temperature, *, valid=Non
     if cloud.shape[-1] < 3:
         return cloud
     rh = np.broadcast_to(np.asarray(relative_humidity, dtype=float), cloud.shape)
+    if ice_saturation is None:
+        ice_saturation = thermo.ice_saturation_relative_humidity(temperature)
     with np.errstate(invalid="ignore"):
-        moist = rh >= thermo.ice_saturation_relative_humidity(temperature)
+        moist = rh >= ice_saturation
     if valid is not None:
         moist = moist & np.asarray(valid, dtype=bool)
     gap = ~cloud[..., 1:-1] & cloud[..., :-2] & cloud[..., 2:] & moist[..., 1:-1]
@@ -652,6 +663,11 @@ APPENDIX_C_INTERMITTENT_MAX = ((-40.0, 1.0), (-30.0, 1.3), (-20.0, 1.9), (-10.0,
                                (0.0, 2.5))
 
 
+#: The smallest LWC of either envelope [kg m-3]: no level at or below it passes one.
+_APPENDIX_C_SMALLEST = 1e-3 * min(
+    v for _, v in APPENDIX_C_CONTINUOUS_MAX + APPENDIX_C_INTERMITTENT_MAX)
+
+
 def appendix_c_limit(temperature, envelope):
     """Envelope LWC at a temperature, linear between the points, NaN outside [kg m-3].
 
@@ -687,6 +703,11 @@ def appendix_c_exceedances(lwc, temperature, *, convective=None):
     lwc = np.asarray(lwc, dtype=float)
     t = np.asarray(temperature, dtype=float)
     conv = np.zeros(lwc.shape, bool) if convective is None else np.asarray(convective, bool)
+    lwc, t, conv = np.broadcast_arrays(lwc, t, conv)
+    # only levels above the smallest envelope value can pass one: look at those alone
+    with np.errstate(invalid="ignore"):
+        near = lwc > _APPENDIX_C_SMALLEST
+    lwc, t, conv = lwc[near], t[near], conv[near]
     out = {}
     with np.errstate(invalid="ignore"):
         for name, envelope, mask in (

@@ -396,7 +396,7 @@ _SMALL_PAGE_OUTPUT_BYTES = 4 * 2**20
 
 
 def _empty_output(shape, dtype):
-    """An uninitialised output array; large ones backed by an anonymous mapping.
+    """Return an uninitialised output array; large ones backed by an anonymous mapping.
 
     numpy asks the kernel for transparent huge pages for arrays of 4 MiB and more;
     where the kernel compacts memory on demand to find them, the first write to
@@ -561,19 +561,32 @@ def _diagnose_core(s, cols, o):
                 # grid mean -> in-cloud: the cloudy part of the cell holds all the water
                 cf = np.clip(s["cloud_fraction"], o.cloud_fraction_floor, 1.0)
                 lwc_model = lwc_model / cf
+        # water RH of ice-saturated air: once for the threshold and the gap bridging
+        f_ice = (thermo.ice_saturation_relative_humidity(t)
+                 if o.bridge_single_level_gaps or o.rh_threshold_model == "ice-water-blend"
+                 else None)
         cloud = clouds.cloud_mask(rh, t, lwc_model=lwc_model if "cloud_liquid" in s else None,
                                   valid=air, model=o.rh_threshold_model,
                                   warm=o.rh_threshold_warm,
-                                  ice_fraction=o.rh_threshold_ice_fraction)
+                                  ice_fraction=o.rh_threshold_ice_fraction,
+                                  ice_saturation=f_ice)
         if o.bridge_single_level_gaps:
-            cloud = clouds.bridge_single_level_gaps(cloud, rh, t, valid=air)
+            cloud = clouds.bridge_single_level_gaps(cloud, rh, t, valid=air,
+                                                    ice_saturation=f_ice)
+        del f_ice
         # layer boundaries never reach into the ground or into missing levels
-        lay = clouds.cloud_layers(cloud, np.where(air, z, np.nan), np.where(air, p, np.nan),
-                                  np.where(air, t, np.nan))
+        all_air = bool(air.all())  # the usual case: nothing to mask
+
+        def in_air(x, fill):
+            """``x`` in air, ``fill`` elsewhere (``x`` itself when every level is air)."""
+            return x if all_air else np.where(air, x, fill)
+
+        lay = clouds.cloud_layers(cloud, in_air(z, np.nan), in_air(p, np.nan),
+                                  in_air(t, np.nan))
         liquid_ok = cloud & (t > T_HOMOGENEOUS)
-        lwc_model = np.where(air, np.where(t > T_HOMOGENEOUS, lwc_model, 0.0), np.nan)
+        lwc_model = in_air(np.where(t > T_HOMOGENEOUS, lwc_model, 0.0), np.nan)
         # --- diagnosed liquid (only cloudy liquid levels are integrated) ----------------
-        lwc_diag = np.where(air, 0.0, np.nan)
+        lwc_diag = np.zeros(p.shape) if all_air else np.where(air, 0.0, np.nan)
         sel = np.nonzero(liquid_ok)
         if sel[0].size:
             ad = clouds.adiabatic_lwc(p[sel], t[sel], lay.base_pressure[sel],
@@ -587,7 +600,7 @@ def _diagnose_core(s, cols, o):
             lwc_diag[sel] = np.where(ad_f > 1e-12, ad_f, 0.0)  # drop round-off at the base
         # --- combine: the larger, never the sum -----------------------------------------
         lwc = np.where(liquid_ok, np.maximum(lwc_model, lwc_diag), 0.0)
-        lwc = np.where(air, lwc, np.nan)
+        lwc = in_air(lwc, np.nan)
         model_wins = lwc_model >= lwc_diag
         basis = np.where(liquid_ok & (lwc > 0),
                          np.where(model_wins, codes.BASIS_MODEL, codes.BASIS_DIAGNOSED),
@@ -638,7 +651,7 @@ def _diagnose_core(s, cols, o):
         # --- freezing level ----------------------------------------------------------------
         freezing = _freezing_level(t, z, air)
         # --- Appendix C ---------------------------------------------------------------------
-        exceed.update(clouds.appendix_c_exceedances(np.where(air, lwc, 0.0), t,
+        exceed.update(clouds.appendix_c_exceedances(in_air(lwc, 0.0), t,
                                                    convective=convective))
     out = {
         "pressure": p, "height": z, "temperature": t, "relative_humidity": rh,

@@ -353,7 +353,7 @@ def _take(a, idx):
 
 
 def _take_or_view(a, idx):
-    """``a`` reordered along levels by ``idx``; ``a`` itself where ``idx`` is None."""
+    """Reorder ``a`` along levels by ``idx``; return ``a`` itself where ``idx`` is None."""
     return a if idx is None else np.take_along_axis(a, idx, axis=-1)
 
 
@@ -576,9 +576,11 @@ def _diagnose_block(a, drizzle_time_scale_s):
     def srt(name, default=np.nan, dtype=float):
         return _take_or_view(_level_array(a[name], shape, default, dtype), order)
 
+    all_usable = bool(usable_in.all())  # the usual case: no masking needed
     u = _take_or_view(usable_in, order)
-    p = np.where(u, _take_or_view(p_in, order), np.nan)
-    t = np.where(u, _take_or_view(t_in, order), np.nan)
+    p, t = _take_or_view(p_in, order), _take_or_view(t_in, order)
+    if not all_usable:
+        p, t = np.where(u, p, np.nan), np.where(u, t, np.nan)
     cld = srt("cloud", False, bool) & u
     qliq = srt("lwc")
     ndrop = srt("droplet_number")
@@ -685,15 +687,17 @@ def _diagnose_block(a, drizzle_time_scale_s):
         # drizzle by the model's own microphysics, taken at its word with its content
         model_drizzle = cold & model_rain & ~warm_above
         fzdz = cold & ((drizzle >= DRIZZLE_LWC_MIN) | model_drizzle) & ~fzra
+        # drizzle content, capped by the envelope, at the freezing-drizzle levels only
         (t_lo, q_lo), (t_hi, q_hi) = _FZDZ_LWC_ENVELOPE
-        cap = np.interp(np.where(u, t, T0), [t_lo, t_hi], [q_lo, q_hi])
-        dz_lwc = np.where(
-            model_drizzle, np.maximum(q_rain, np.minimum(drizzle, cap)), np.minimum(drizzle, cap)
-        )
+        s_lwc = np.where(fzra, ra_lwc, 0.0)
+        at = np.nonzero(fzdz)  # fzdz levels are cold, so usable, and never fzra
+        if at[0].size:
+            capped = np.minimum(drizzle[at], np.interp(t[at], [t_lo, t_hi], [q_lo, q_hi]))
+            md = model_drizzle[at]
+            s_lwc[at] = np.where(md, np.maximum(q_rain[at], capped), capped)
 
     # ---- per-level results (sorted order)
     cls = np.where(fzra, codes.SLD_RAIN, np.where(fzdz, codes.SLD_DRIZZLE, codes.SLD_NONE))
-    s_lwc = np.where(fzra, ra_lwc, np.where(fzdz, dz_lwc, 0.0))
     s_mvd = np.where(fzra, ra_mvd, np.where(fzdz, _FZDZ_MVD, np.nan))
     s_dmax = np.where(fzra, ra_dmax, np.where(fzdz, FZDZ_DMAX, np.nan))
 
@@ -725,12 +729,17 @@ def _diagnose_block(a, drizzle_time_scale_s):
     def back(x):
         return _take_or_view(x, inverse)
 
-    cls_in = np.where(gap_in, codes.GAP, back(cls))
-    lwc_in = np.where(gap_in, np.nan, np.where(below_in, 0.0, back(s_lwc)))
-    mvd_in = np.where(usable_in, back(s_mvd), np.nan)
-    dmax_in = np.where(usable_in, back(s_dmax), np.nan)
-    drz_in = np.where(usable_in, back(drizzle), np.where(below_in, 0.0, np.nan))
-    cls_in = np.where(below_in, codes.SLD_NONE, cls_in).astype(np.int8)
+    if all_usable:  # no gaps, nothing below ground
+        cls_in, lwc_in, mvd_in, dmax_in = back(cls), back(s_lwc), back(s_mvd), back(s_dmax)
+        drz_in = np.ascontiguousarray(back(drizzle))
+    else:
+        cls_in = np.where(gap_in, codes.GAP, back(cls))
+        lwc_in = np.where(gap_in, np.nan, np.where(below_in, 0.0, back(s_lwc)))
+        mvd_in = np.where(usable_in, back(s_mvd), np.nan)
+        dmax_in = np.where(usable_in, back(s_dmax), np.nan)
+        drz_in = np.where(usable_in, back(drizzle), np.where(below_in, 0.0, np.nan))
+        cls_in = np.where(below_in, codes.SLD_NONE, cls_in)
+    cls_in = cls_in.astype(np.int8)
     complete = ~gap_in.any(axis=-1)
     return SLDDiagnosis(
         sld_class=cls_in,
