@@ -241,18 +241,24 @@ class CloudLayers:
             setattr(self, name, fields[name])
 
 
-def _half_levels(values, *, log=False):
-    """Values half-way between neighbouring levels (below, above), edge levels kept."""
+def _half_levels(values, *, log=False, above=True):
+    """Values half-way between neighbouring levels (below, above), edge levels kept.
+
+    With ``above=False`` only the half levels below are computed (``None`` above).
+    """
     v = np.log(values) if log else values
     mid = 0.5 * (v[..., 1:] + v[..., :-1])
     below = np.concatenate([v[..., :1], mid], axis=-1)
-    above = np.concatenate([mid, v[..., -1:]], axis=-1)
     # a neighbour without data: keep the level itself
     below = np.where(np.isfinite(below), below, v)
-    above = np.where(np.isfinite(above), above, v)
-    if log:
-        return np.exp(below), np.exp(above)
-    return below, above
+    if above:
+        above = np.concatenate([mid, v[..., -1:]], axis=-1)
+        above = np.where(np.isfinite(above), above, v)
+        if log:
+            above = np.exp(above)
+    else:
+        above = None
+    return (np.exp(below) if log else below), above
 
 
 def cloud_layers(cloud, height, pressure, temperature):
@@ -298,8 +304,8 @@ def cloud_layers(cloud, height, pressure, temperature):
     top_i = np.flip(np.minimum.accumulate(np.flip(np.where(end, idx, n - 1), -1), axis=-1), -1)
     with np.errstate(invalid="ignore"):
         z_below, z_above = _half_levels(z)
-        p_below, _ = _half_levels(p, log=True)
-        t_below, _ = _half_levels(t)
+        p_below, _ = _half_levels(p, log=True, above=False)
+        t_below, _ = _half_levels(t, above=False)
 
     where = np.nonzero(cloud)  # only cloudy levels are looked up
     rows = where[:-1]

@@ -417,6 +417,9 @@ def _empty_output(shape, dtype):
 
 
 def _finite_max(a):
+    top = a.max() if a.size else np.nan
+    if np.isfinite(top):  # no NaN and no +inf anywhere: the largest value is finite
+        return float(top)
     finite = a[np.isfinite(a)]
     return float(finite.max()) if finite.size else np.nan
 

@@ -662,9 +662,11 @@ def _diagnose_block(a, drizzle_time_scale_s):
         ice_flag &= u
         # crystals fall until air subsaturated over ice (not cloud, no ice) sublimates them
         rh_s = srt("relative_humidity")
-        ice_sat = _ice_saturation_rh(t)
-        dry = u & ~cld & ~ice_flag & ~(rh_s >= ice_sat)  # NaN humidity counts as dry
         first_ice = _rev_cummin(np.where(ice_flag, idx, nlev))
+        # dry air matters only below some ice: judge the humidity at those levels alone
+        dry = u & ~cld & ~ice_flag & (first_ice < nlev)
+        at = np.nonzero(dry)
+        dry[at] = ~(rh_s[at] >= _ice_saturation_rh(t[at]))  # NaN humidity counts as dry
         first_dry = _rev_cummin(np.where(dry, idx, nlev))
         seeded = first_ice < first_dry  # ice at or above, with no dry gap between
         source = (
