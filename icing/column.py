@@ -627,16 +627,17 @@ def _diagnose_core(s, cols, o):
         number[sel] = droplets.twomey_activation(w_eff[sel], c_per_cm3=am.c_per_cm3,
                                                  k=am.k)[0]
         has_liquid = liquid_ok & (lwc >= clouds.IN_CLOUD_LWC)
-        mvd = np.where(has_liquid, droplets.median_volume_diameter(
-            np.where(has_liquid, lwc, 1e-3), np.where(has_liquid, number, 1e8),
-            shape=am.shape), np.nan)
+        mvd = np.full(p.shape, np.nan)
+        at = np.nonzero(has_liquid)  # sized only where there is liquid
+        mvd[at] = droplets.median_volume_diameter(lwc[at], number[at], shape=am.shape)
         shape = np.where(liquid_ok, am.shape, np.nan)
         # --- glaciation --------------------------------------------------------------------
         ice = np.zeros(p.shape)
         for k in ("cloud_ice", "snow"):
             if k in s:
                 ice = ice + np.maximum(np.nan_to_num(s[k]), 0.0)
-        ice_above = np.flip(np.maximum.accumulate(np.flip(ice, -1), axis=-1), -1)
+        ice_above = (np.flip(np.maximum.accumulate(np.flip(ice, -1), axis=-1), -1)
+                     if "cloud_ice" in s or "snow" in s else ice)
         glac = np.full(p.shape, np.nan)
         gsel = np.nonzero(cloud)
         if gsel[0].size:
