@@ -65,6 +65,15 @@ def _at(sev, sld=None, ice=None):
     }
 
 
+def _screening(severity):
+    """A screening-like object over made-up per-sample severities."""
+    s = _samples(len(severity))
+    at = _at(severity)
+    return SimpleNamespace(route_name="r", airframe_name="af", samples=s, at_flight=at,
+                           segments=build_segments("r", "af", s, at), summary={},
+                           provenance={}, assumptions={})
+
+
 def test_short_severe_stretch_is_not_hidden():
     # DESIGN.md 3.4: a change of severity starts a new segment
     at = _at([2, 2, 2, 4, 2, 2])
@@ -104,18 +113,7 @@ def test_time_counted_once_and_accretion_adds_up():
 
 
 def test_every_feature_carries_the_caution_and_validates():
-    s = _samples(8)
-    at = _at([0, 1, 2, 2, -1, 3, 3, 0])
-    scr = SimpleNamespace(
-        route_name="r",
-        airframe_name="af",
-        samples=s,
-        at_flight=at,
-        segments=build_segments("r", "af", s, at),
-        summary={},
-        provenance={},
-        assumptions={},
-    )
+    scr = _screening([0, 1, 2, 2, -1, 3, 3, 0])
     scr.summary = route_summary(scr)
     fc = feature_collection([scr])
     obj = geojson.loads(geojson.dumps(fc))
@@ -129,17 +127,7 @@ def test_every_feature_carries_the_caution_and_validates():
 
 
 def test_all_gap_route_is_not_screened_and_has_no_worst():
-    s = _samples(4)
-    at = _at([-1, -1, -1, -1])
-    scr = SimpleNamespace(
-        route_name="r",
-        airframe_name="af",
-        samples=s,
-        at_flight=at,
-        segments=build_segments("r", "af", s, at),
-        summary={},
-    )
-    summ = route_summary(scr)
+    summ = route_summary(_screening([-1, -1, -1, -1]))
     assert summ["worst_severity"] is None  # unknown, not "none"
     assert summ["minutes_in_icing"] == 0
     assert summ["status"].startswith("not-screened")
