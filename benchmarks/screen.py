@@ -16,8 +16,8 @@ fresh process (so the peak memory is that scenario's own):
 Printed: wall times, peak resident memory, and the ratios against the baselines measured
 in the same run (scenario 1 is the baseline of 2 and 3). Each file is read once, untimed,
 before the timed runs, so all are timed with the system's file cache in the same state;
-the one-time set-up of a process (MetPy's import, the collection table) is timed apart. ``--quick`` uses files 4x
-smaller in each horizontal direction for a fast smoke run.
+the one-time set-up of a process (MetPy's import, the collection table) is timed apart.
+``--quick`` uses files 4x smaller in each horizontal direction for a fast smoke run.
 """
 
 from __future__ import annotations
