@@ -14,39 +14,18 @@ import io
 import json
 import os
 import sys
-import tempfile
 from datetime import datetime
 from pathlib import Path
 
 from . import codes
+from ._io import atomic_write
 from ._version import __version__
 from .caution import CAUTION
 from .errors import IcingError, InputError
 
-__all__ = ["main", "build_parser", "atomic_write"]
+__all__ = ["main", "build_parser", "write_outputs", "summary_table"]
 
 EXIT_OK, EXIT_INTERNAL, EXIT_INPUT, EXIT_FAIL_ON = 0, 1, 2, 3
-
-
-class _Parser(argparse.ArgumentParser):
-    """argparse that exits 2 with one line (its default) and no traceback."""
-
-
-def atomic_write(path, data, *, binary=False) -> Path:
-    """Write ``data`` to ``path`` through a temporary file and a rename."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
-    try:
-        with os.fdopen(
-            fd, "wb" if binary else "w", **({} if binary else {"encoding": "utf-8"})
-        ) as fh:
-            fh.write(data)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return path
 
 
 def _iso_time(text: str):
@@ -139,7 +118,7 @@ def _forecast(args):
             paths.extend(found)
         else:
             paths.append(p)
-    return load_forecast(paths if len(paths) > 1 else paths[0], **kwargs)
+    return load_forecast(paths, **kwargs)
 
 
 def _column_options(args):
@@ -229,10 +208,14 @@ def _sibling_json(path: Path) -> Path:
     return path.with_name(path.stem + ".summary.json")
 
 
-def _write_outputs(
-    screenings, args, *, out_geojson=None, plot=None, map_=None, report=None, samples=None
+def write_outputs(
+    screenings, *, out_geojson=None, plot=None, map_=None, report=None, samples=None
 ):
-    """Compute every output in memory first, then write them all (atomic each)."""
+    """Write the outputs of a run; each is complete in memory first, then written atomically.
+
+    Returns the FeatureCollection dict and the paths written. With several routes,
+    ``plot`` names a pattern: ``STEM-<route>.SUFFIX`` per route.
+    """
     from .hazards import feature_collection
 
     fc = feature_collection(screenings)
@@ -247,6 +230,7 @@ def _write_outputs(
     for p, text in pending:
         atomic_write(p, text)
     written = [p for p, _ in pending]
+    pictures = []  # (function, what, target); their folders are made before any is drawn
     if plot:
         from .plot import plot_cross_section
 
@@ -257,27 +241,20 @@ def _write_outputs(
                 if len(screenings) == 1
                 else plot.with_name(f"{plot.stem}-{_safe(s.route_name)}{plot.suffix}")
             )
-            written.append(_atomic_picture(plot_cross_section, s, target))
+            pictures.append((plot_cross_section, s, target))
     if map_:
         from .plot import plot_route_map
 
-        written.append(_atomic_picture(plot_route_map, screenings, Path(map_)))
+        pictures.append((plot_route_map, screenings, Path(map_)))
     if report:
         from .report import write_report
 
-        written.append(write_report(screenings, Path(report)))
+        pictures.append((write_report, screenings, Path(report)))
+    for _, _, target in pictures:
+        target.parent.mkdir(parents=True, exist_ok=True)
+    for fn, what, target in pictures:  # each writes atomically
+        written.append(fn(what, target))
     return fc, written
-
-
-def _atomic_picture(fn, obj, target: Path) -> Path:
-    target.parent.mkdir(parents=True, exist_ok=True)
-    tmp = target.with_name(f".{target.stem}.part{target.suffix}")
-    try:
-        fn(obj, tmp)
-        os.replace(tmp, target)
-    finally:
-        tmp.unlink(missing_ok=True)
-    return target
 
 
 def _safe(name: str) -> str:
@@ -312,8 +289,12 @@ def _progress(done, total, name):
     width = 30
     fill = int(width * done / total)
     end = "\n" if done == total else ""
-    print(f"\rscreening [{'#' * fill}{'.' * (width - fill)}] {done}/{total} {name[:30]:<30}",
-          end=end, file=sys.stderr, flush=True)
+    print(
+        f"\rscreening [{'#' * fill}{'.' * (width - fill)}] {done}/{total} {name[:30]:<30}",
+        end=end,
+        file=sys.stderr,
+        flush=True,
+    )
 
 
 def cmd_screen(args) -> int:
@@ -340,9 +321,8 @@ def cmd_screen(args) -> int:
         progress=_progress if len(routes) > 3 and sys.stderr.isatty() else None,
     )
     out = args.output
-    fc, written = _write_outputs(
+    fc, written = write_outputs(
         screenings,
-        args,
         out_geojson=out,
         plot=args.plot,
         map_=args.map,
@@ -449,7 +429,7 @@ def cmd_airframes(args) -> int:
 
 def build_parser() -> argparse.ArgumentParser:
     """Return the argument parser of the ``icing`` command."""
-    p = _Parser(
+    p = argparse.ArgumentParser(
         prog="icing",
         description="Estimate the in-flight icing hazard along a route for an airframe, as "
         "GeoJSON. " + CAUTION,

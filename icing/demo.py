@@ -7,7 +7,6 @@ numbers are not observations and not check values.
 
 from __future__ import annotations
 
-import json
 import tomllib
 from importlib import resources
 from pathlib import Path
@@ -39,42 +38,26 @@ def run_demo(out) -> tuple[list[dict], list[Path]]:
     (summaries, written)
         The route summaries and the paths written.
     """
-    from .cli import _atomic_picture, _safe, _samples_csv, atomic_write
+    from .cli import write_outputs
     from .forecast import load_forecast
-    from .hazards import feature_collection
     from .pipeline import screen_route
-    from .plot import plot_cross_section, plot_route_map
-    from .report import write_report
     from .route import load_routes
 
     out = Path(out)
     sc = demo_scenario()
-    forecast = load_forecast(sc["forecast"] if len(sc["forecast"]) > 1 else sc["forecast"][0])
+    forecast = load_forecast(sc["forecast"])
     screenings = []
     for i, r in enumerate(sc["routes"]):
         for route in load_routes(r["file"]):
             screenings.append(
                 screen_route(route, forecast, airframe=r["airframe"], segment_prefix=f"R{i + 1}-")
             )
-    fc = feature_collection(screenings)
-    written = [
-        atomic_write(out / "demo.geojson", json.dumps(fc, indent=1, allow_nan=False)),
-        atomic_write(
-            out / "demo.summary.json",
-            json.dumps(
-                {k: v for k, v in fc.items() if k not in ("type", "features")},
-                indent=1,
-                allow_nan=False,
-            ),
-        ),
-        atomic_write(out / "demo-samples.csv", _samples_csv(screenings)),
-    ]
-    for s in screenings:
-        written.append(
-            _atomic_picture(
-                plot_cross_section, s, out / f"cross-section-{_safe(s.route_name)}.png"
-            )
-        )
-    written.append(_atomic_picture(plot_route_map, screenings, out / "map.png"))
-    written.append(write_report(screenings, out / "report.html"))
+    fc, written = write_outputs(
+        screenings,
+        out_geojson=out / "demo.geojson",
+        samples=out / "demo-samples.csv",
+        plot=out / "cross-section.png",  # one per route: cross-section-<route>.png
+        map_=out / "map.png",
+        report=out / "report.html",
+    )
     return fc["summaries"], written

@@ -94,28 +94,32 @@ def _iso(t) -> str:
 
 
 def _geometry(lon, lat, alt) -> dict:
-    """RFC 7946 LineString, or a MultiLineString cut at the antimeridian."""
-    lon = np.asarray(lon, float)
-    lat = np.asarray(lat, float)
-    alt = np.asarray(alt, float)
-    if lon.size == 1:
-        lon, lat, alt = np.repeat(lon, 2), np.repeat(lat, 2), np.repeat(alt, 2)
-    parts = [[]]
-    for i in range(lon.size):
-        if i and abs(lon[i] - lon[i - 1]) > 180.0:
-            # crossing: interpolate the latitude/altitude at the cut (unwrapped longitude)
-            l0, l1 = lon[i - 1], lon[i] + (360.0 if lon[i] < lon[i - 1] else -360.0)
-            edge = 180.0 if l1 > l0 else -180.0
-            f = (edge - l0) / (l1 - l0)
-            la = lat[i - 1] + f * (lat[i] - lat[i - 1])
-            al = alt[i - 1] + f * (alt[i] - alt[i - 1])
-            parts[-1].append([edge, round(la, 6), round(al, 1)])
-            parts.append([[-edge, round(la, 6), round(al, 1)]])
-        parts[-1].append([round(lon[i], 6), round(lat[i], 6), round(alt[i], 1)])
-    parts = [p for p in parts if len(p) >= 2] or [parts[0] * 2]
-    if len(parts) == 1:
-        return {"type": "LineString", "coordinates": parts[0]}
-    return {"type": "MultiLineString", "coordinates": parts}
+    """RFC 7946 LineString, or a MultiLineString cut at the antimeridian.
+
+    Positions are rounded to 6 decimals (lon, lat) and 0.1 m; where a step between
+    two positions crosses +/-180 degrees, the latitude and altitude at the cut are
+    interpolated on the unwrapped longitude and the line is split there.
+    """
+    lon, lat, alt = (np.atleast_1d(np.asarray(a, float)) for a in (lon, lat, alt))
+    if lon.size == 1:  # one sample: a degenerate but valid two-position line
+        lon, lat, alt = (np.repeat(a, 2) for a in (lon, lat, alt))
+    pos = np.column_stack([lon.round(6), lat.round(6), alt.round(1)])
+    cross = np.flatnonzero(np.abs(np.diff(lon)) > 180.0)  # step cross -> cross + 1
+    if not cross.size:
+        return {"type": "LineString", "coordinates": pos.tolist()}
+    l0 = lon[cross]
+    l1 = lon[cross + 1] + np.where(lon[cross + 1] < l0, 360.0, -360.0)  # unwrapped
+    edge = np.where(l1 > l0, 180.0, -180.0)
+    f = (edge - l0) / (l1 - l0)
+    la = (lat[cross] + f * (lat[cross + 1] - lat[cross])).round(6)
+    al = (alt[cross] + f * (alt[cross + 1] - alt[cross])).round(1)
+    pieces = np.split(pos, cross + 1)
+    parts = []
+    for i, piece in enumerate(pieces):
+        head = [[-edge[i - 1], la[i - 1], al[i - 1]]] if i else []
+        tail = [[edge[i], la[i], al[i]]] if i < cross.size else []
+        parts.append(head + piece.tolist() + tail)
+    return {"type": "MultiLineString", "coordinates": [p for p in parts if len(p) >= 2]}
 
 
 def _stat(values, fn):
@@ -288,9 +292,8 @@ def route_summary(screening_like, *, airframe=None) -> dict:
     total_ref = float(np.nansum(ref_rate * dt) / 3600.0) if ref_rate is not None else None
     step_km = np.diff(dist_km, append=dist_km[-1] if dist_km.size else 0.0)
     gap_km = float(np.sum(step_km[~covered]))
-    sld_classes = sorted(
-        {codes.SLD_CLASSES[int(c)] for c, m in zip(af["sld_class"], icing, strict=True) if m and c}
-    )
+    met = np.unique(np.asarray(af["sld_class"])[icing])
+    sld_classes = [codes.SLD_CLASSES[int(c)] for c in met if c > codes.SLD_NONE]
     gap_segments = [f for f in screening_like.segments if f["properties"]["kind"] == KIND_GAP]
     fl = np.asarray(af.get("freezing_level_m", np.full(sev.shape, np.nan)), float)
     fl = fl[np.isfinite(fl)]
@@ -330,9 +333,6 @@ def route_summary(screening_like, *, airframe=None) -> dict:
         "icing_segments": sum(
             f["properties"]["kind"] == KIND_ICING for f in screening_like.segments
         ),
-        "candidate_altitudes_ft": screening_like.summary.get("candidate_altitudes_ft", [])
-        if isinstance(getattr(screening_like, "summary", None), dict)
-        else [],
     }
 
 

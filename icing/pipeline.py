@@ -11,13 +11,13 @@ and a dry sounding are never blended.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from . import codes
 from .caution import CAUTION
-from .constants import FT
+from .constants import FT, T0
 from .results import Curtain, RouteScreening
 
 __all__ = ["screen_route", "screen_routes", "read_off", "ScreenOptions", "diagnose_point"]
@@ -204,41 +204,35 @@ def _take(a, k):
     return np.take_along_axis(a, k[..., None], -1)[..., 0]
 
 
-def _flight_targets(route, samples, forecast, colset, diag):
-    """Flight altitude as the vertical target of each sample, and its MSL height."""
-    ref = samples.altitude_reference
+def _flight_targets(samples, ground):
+    """Vertical target of each sample and the coordinate it is matched on.
+
+    MSL altitudes are matched on height, AGL ones on height above ``ground`` (NaN
+    where the ground is unknown, which reads as a coverage gap), pressure altitudes
+    (flight levels) on the standard-atmosphere pressure.
+    """
     alt = np.asarray(samples.altitude_m, float)
-    if ref == "pressure":
+    if samples.altitude_reference == "pressure":
         from .thermo import standard_atmosphere_pressure
 
         return standard_atmosphere_pressure(alt), "pressure"
-    if ref == "agl":
-        ground = _ground_height(route, samples, forecast, colset, diag)
-        return alt + np.nan_to_num(ground, nan=np.nan), "msl"
+    if samples.altitude_reference == "agl":
+        return alt + ground, "msl"
     return alt, "msl"
 
 
-def _ground_height(route, samples, forecast, colset, diag):
+def _ground_height(route, samples, forecast, colset):
+    """Surface height under each sample [m]: the route's, the forecast's, else NaN."""
     n = len(samples.lat)
     given = getattr(route, "ground_elevation_m", None)
     if given is not None:
         return np.full(n, float(given))
-    sh = None
-    if hasattr(forecast, "surface_height_at"):
-        sh = np.asarray(forecast.surface_height_at(samples.lat, samples.lon), float)
-    if sh is None or not np.isfinite(sh).any():
-        surf = colset.columns.get("surface_height")
-        if surf is not None:
-            first = np.asarray(colset.candidates)[:, 0]
-            sh = np.where(first >= 0, np.asarray(surf, float)[np.maximum(first, 0)], np.nan)
-    return np.full(n, np.nan) if sh is None else sh
-
-
-def _diagnose(colset, options):
-    from .column import diagnose_columns
-
-    cols = {k: v for k, v in colset.columns.items() if k not in ("wind_u", "wind_v")}
-    return diagnose_columns(**cols, options=options)
+    sh = np.asarray(forecast.surface_height_at(samples.lat, samples.lon), float)
+    surf = colset.columns.get("surface_height")
+    if not np.isfinite(sh).any() and surf is not None:
+        first = np.asarray(colset.candidates)[:, 0]
+        sh = np.where(first >= 0, np.asarray(surf, float)[np.maximum(first, 0)], np.nan)
+    return sh
 
 
 def screen_route(
@@ -246,7 +240,7 @@ def screen_route(
     forecast,
     *,
     airframe,
-    step_km: float = 1.0,
+    step_km: float | None = None,
     tas_kt: float | None = None,
     departure=None,
     column_options=None,
@@ -263,8 +257,9 @@ def screen_route(
         The forecast (``icing.load_forecast``) or a forecast file.
     airframe : Airframe or str
         Preset name, airframe TOML file or :class:`icing.airframes.Airframe`.
-    step_km : float
-        Largest distance between samples along the track. [km]
+    step_km : float, optional
+        Largest distance between samples along the track; overrides
+        ``options.step_km`` (default 1 km). [km]
     tas_kt : float, optional
         True airspeed; default the route's, else the airframe's cruise speed. [kt]
     departure : datetime, optional
@@ -281,14 +276,16 @@ def screen_route(
         GeoJSON segments (each with the caution) and the summary.
     """
     from .airframes import load_airframe
-    from .avoidance import annotate_segments
-    from .column import ColumnOptions
+    from .avoidance import CANDIDATE_WORDING, annotate_segments
+    from .column import ColumnOptions, diagnose_columns
     from .forecast import load_forecast
+    from .hazards import build_segments, route_summary
     from .route import load_route, sample_route
+    from .thermo import standard_atmosphere_pressure
 
-    options = options or ScreenOptions(step_km=step_km)
-    if options.step_km != step_km and step_km != 1.0:
-        options = ScreenOptions(**{**options.__dict__, "step_km": step_km})
+    options = options or ScreenOptions()
+    if step_km is not None:
+        options = replace(options, step_km=step_km)
     column_options = column_options or ColumnOptions()
     if not hasattr(route, "waypoints"):
         route = load_route(route)
@@ -296,171 +293,150 @@ def screen_route(
         forecast = load_forecast(forecast)
     if not hasattr(airframe, "collectors"):
         airframe = load_airframe(airframe)
-    wind = forecast.wind_at if getattr(forecast, "has_wind", False) else None
     samples = sample_route(
         route,
         step_km=options.step_km,
         tas_kt=tas_kt,
         default_tas_kt=airframe.true_airspeed_kt,
         departure=departure,
-        wind=wind,
+        wind=forecast.wind_at if forecast.has_wind else None,
     )
     n = len(samples.lat)
     colset = forecast.columns_at(samples.lat, samples.lon, samples.time)
-    diag = _diagnose(colset, column_options)
-    cand = np.asarray(colset.candidates)  # (n, k)
+    diag = diagnose_columns(**colset.columns, options=column_options)
     covered = np.asarray(colset.covered, bool)
-    cand = np.where(covered[:, None], cand, -1)
+    cand = np.where(covered[:, None], np.asarray(colset.candidates), -1)  # (n, k)
+    ground = _ground_height(route, samples, forecast, colset)
 
-    # --- vertical targets: the flight altitude plus the curtain rows ---------------
-    target_flight, vref = _flight_targets(route, samples, forecast, colset, diag)
+    # --- vertical targets: the curtain rows, then the flight altitude (last column) ---
+    target_flight, vref = _flight_targets(samples, ground)
     top_ft = options.curtain_top_ft or (airframe.ceiling_ft or 25000.0) + 2000.0
-    step = options.curtain_step_ft
-    if vref == "pressure":
-        from .thermo import standard_atmosphere_pressure
-
-        alts_m = np.arange(0.0, top_ft + 1, step) * FT
-        curtain_target = np.broadcast_to(standard_atmosphere_pressure(alts_m), (n, alts_m.size))
-    else:
-        alts_m = np.arange(0.0, top_ft + 1, step) * FT
-        curtain_target = np.broadcast_to(alts_m, (n, alts_m.size))
-    targets = np.concatenate([curtain_target, target_flight[:, None]], axis=1)  # (n, a+1)
-    k = cand.shape[1]
-    tgt = np.broadcast_to(targets[:, :, None], targets.shape + (k,))
+    alts_m = np.arange(0.0, top_ft + 1, options.curtain_step_ft) * FT
+    rows = standard_atmosphere_pressure(alts_m) if vref == "pressure" else alts_m
+    targets = np.concatenate([np.broadcast_to(rows, (n, alts_m.size)), target_flight[:, None]], 1)
+    tgt = np.broadcast_to(targets[:, :, None], targets.shape + (cand.shape[1],))
     ci = np.broadcast_to(cand[:, None, :], tgt.shape)
     state = read_off(diag, ci, tgt, reference=vref)
-    ground = _ground_height(route, samples, forecast, colset, diag)
     with np.errstate(invalid="ignore"):
         under = np.isfinite(ground)[:, None, None] & (
             state["height"] < ground[:, None, None] - 1.0
         )
     state["below_ground"] = state["below_ground"] | under
     state["valid"] = state["valid"] & ~under
-    tas_ms = np.asarray(samples.tas, float)[:, None, None]
-    result, sev = _icing_at(airframe, state, np.broadcast_to(tas_ms, tgt.shape))
+    tas_ms = np.broadcast_to(np.asarray(samples.tas, float)[:, None, None], tgt.shape)
+    result, sev = _icing_at(airframe, state, tas_ms)
     kbest = _worst_over_candidates(sev, result.accretion_rate_mm_h)  # (n, a+1)
 
     def best(a):
+        """Return the worst candidate's value, (n, a+1)."""
         return _take(np.broadcast_to(a, sev.shape), kbest)
 
-    sev_b = best(sev)
-    # --- at the flight altitude ------------------------------------------------------
-    f = -1
-    from .constants import T0
-
-    col_best = _take(ci, kbest)[:, f]
-    at = {
-        "covered": covered & (sev_b[:, f] != codes.GAP),
-        "gap_reason": np.where(
-            covered & (sev_b[:, f] == codes.GAP),
-            "missing-values or outside the column",
-            np.asarray(colset.gap_reason, dtype=object),
-        ),
-        "severity": sev_b[:, f],
-        "altitude_ft": np.asarray(samples.altitude_m, float) / FT,
-        "altitude_msl_m": best(state["height"])[:, f]
-        if vref == "pressure"
-        else np.asarray(target_flight, float),
-        "distance_km": np.asarray(samples.distance_m) / 1000.0,
-        "pressure_hpa": best(state["pressure"])[:, f] / 100.0,
-        "temperature_c": best(state["temperature"])[:, f] - T0,
-        "relative_humidity_pct": best(state["relative_humidity"])[:, f] * 100.0,
-        "cloud": best(state["cloud"])[:, f],
-        "lwc_g_m3": best(state["lwc"])[:, f] * 1000.0,
-        "lwc_model_g_m3": best(state["lwc_model"])[:, f] * 1000.0,
-        "lwc_diagnosed_g_m3": best(state["lwc_diagnosed"])[:, f] * 1000.0,
-        "basis": best(state["basis"])[:, f],
-        "droplet_number_cm3": best(state["droplet_number"])[:, f] / 1e6,
-        "mvd_um": best(state["mvd"])[:, f] * 1e6,
-        "glaciation": best(state["glaciation"])[:, f],
-        "sld_class": best(state["sld_class"])[:, f],
-        "sld_lwc_g_m3": best(state["sld_lwc"])[:, f] * 1000.0,
-        "sld_mvd_um": best(state["sld_mvd"])[:, f] * 1e6,
-        "collection_efficiency": best(result.collection_efficiency)[:, f],
-        "beta0": best(result.beta0)[:, f],
-        "freezing_fraction": best(result.freezing_fraction)[:, f],
-        "ice_type": best(result.ice_type)[:, f],
-        "ice_density_kg_m3": best(result.ice_density)[:, f],
-        "accretion_rate_mm_h": best(result.accretion_rate_mm_h)[:, f],
-        "worst_collector": np.array(
-            [airframe.collectors[int(i)].name for i in best(result.worst_collector)[:, f]],
-            dtype=object,
-        ),
-        "reference_collector": airframe.reference,
-        "column": col_best,
-    }
-    gap = at["severity"] == codes.GAP
-    at["gap_reason"] = np.where(gap & (at["gap_reason"] == ""), "missing-values", at["gap_reason"])
-    at["gap_reason"] = np.where(gap, at["gap_reason"], "")
-    for key in ("ice_type", "sld_class", "basis"):
-        at[key] = np.where(gap, 0, at[key]).astype(int)
-    at["accretion_mm"] = np.nan_to_num(at["accretion_rate_mm_h"]) * np.asarray(samples.dt_s) / 3600
-    at["per_collector"] = {
-        name: {
-            key: best(np.asarray(getattr(pc, key) if hasattr(pc, key) else pc[key]))[:, f]
-            for key in ("collection_efficiency", "accretion_rate_mm_h", "severity")
-        }
-        for name, pc in result.per_collector.items()
-    }
-    fz = np.asarray(diag.freezing_level, float)
-    at["freezing_level_m"] = np.where(col_best >= 0, fz[np.maximum(col_best, 0)], np.nan)
-
-    # --- curtain ---------------------------------------------------------------------
-    below = best(state["below_ground"])[:, :f]
+    at = _at_flight(samples, colset, diag, state, result, best(sev), best, airframe, ci)
+    at["altitude_msl_m"] = best(state["height"])[:, -1] if vref == "pressure" else target_flight
     curtain = Curtain(
         distance_km=at["distance_km"],
         altitudes_m=alts_m,
         altitude_reference=vref,
-        severity=sev_b[:, :f],
-        below_ground=below,
-        temperature_c=best(state["temperature"])[:, :f] - T0,
-        cloud=best(state["cloud"])[:, :f],
-        sld_class=best(state["sld_class"])[:, :f],
-        ice_type=best(result.ice_type)[:, :f],
-        accretion_rate_mm_h=best(result.accretion_rate_mm_h)[:, :f],
+        severity=best(sev)[:, :-1],
+        below_ground=best(state["below_ground"])[:, :-1],
+        temperature_c=best(state["temperature"])[:, :-1] - T0,
+        cloud=best(state["cloud"])[:, :-1],
+        sld_class=best(state["sld_class"])[:, :-1],
+        ice_type=best(result.ice_type)[:, :-1],
+        accretion_rate_mm_h=best(result.accretion_rate_mm_h)[:, :-1],
         ground_m=ground,
     )
+    limits = _altitude_limits(airframe, options)
     screening = RouteScreening(
         route_name=route.name,
         airframe_name=airframe.name,
         samples=samples,
         at_flight=at,
         curtain=curtain,
-        segments=[],
-        summary={},
-        waypoints=list(
-            zip(
-                list(samples.waypoint_names),
-                [float(d) / 1000.0 for d in samples.waypoint_distance_m],
-                strict=True,
-            )
+        segments=build_segments(
+            route.name,
+            airframe.name,
+            samples,
+            at,
+            all_segments=options.all_segments,
+            id_prefix=segment_prefix,
         ),
-        provenance=_provenance(forecast, samples, colset),
+        summary={},
+        waypoints=[
+            (str(name), float(d) / 1000.0)
+            for name, d in zip(samples.waypoint_names, samples.waypoint_distance_m, strict=True)
+        ],
+        provenance=_provenance(forecast, samples),
         assumptions=_assumptions(column_options, options, forecast, airframe),
+        ceiling_m=limits["ceiling_m"],
+        max_agl_m=limits["max_agl_m"],
     )
-    from .hazards import build_segments, route_summary
-
-    screening.segments = build_segments(
-        route.name,
-        airframe.name,
-        samples,
-        at,
-        all_segments=options.all_segments,
-        id_prefix=segment_prefix,
-    )
-    limits = _altitude_limits(airframe, options)
-    screening.ceiling_m = limits["ceiling_m"]
-    screening.max_agl_m = limits["max_agl_m"]
     candidates = annotate_segments(screening, **limits, summary=False)
     screening.summary = route_summary(screening, airframe=airframe)
     screening.summary["candidate_altitudes_ft"] = _summary_candidates(
         candidates, screening.segments
     )
-    from .avoidance import CANDIDATE_WORDING
-
     screening.summary["candidate_altitudes_wording"] = CANDIDATE_WORDING
     screening.summary["caution"] = CAUTION
     return screening
+
+
+def _at_flight(samples, colset, diag, state, result, sev_b, best, airframe, column_index):
+    """Per-sample values at the planned altitude (the last target column), for output."""
+
+    def flight(a):
+        return best(a)[:, -1]
+
+    sev = sev_b[:, -1]
+    gap = sev == codes.GAP
+    covered = np.asarray(colset.covered, bool)
+    # why a sample is a gap: the forecast's reason, else no usable level at that altitude
+    reason = np.where(covered, "missing-values", np.asarray(colset.gap_reason, dtype=object))
+    names = np.array([c.name for c in airframe.collectors], dtype=object)
+    at = {
+        "covered": ~gap,
+        "gap_reason": np.where(gap, reason, ""),
+        "severity": sev,
+        "altitude_ft": np.asarray(samples.altitude_m, float) / FT,
+        "distance_km": np.asarray(samples.distance_m) / 1000.0,
+        "pressure_hpa": flight(state["pressure"]) / 100.0,
+        "temperature_c": flight(state["temperature"]) - T0,
+        "relative_humidity_pct": flight(state["relative_humidity"]) * 100.0,
+        "cloud": flight(state["cloud"]),
+        "lwc_g_m3": flight(state["lwc"]) * 1000.0,
+        "lwc_model_g_m3": flight(state["lwc_model"]) * 1000.0,
+        "lwc_diagnosed_g_m3": flight(state["lwc_diagnosed"]) * 1000.0,
+        "droplet_number_cm3": flight(state["droplet_number"]) / 1e6,
+        "mvd_um": flight(state["mvd"]) * 1e6,
+        "glaciation": flight(state["glaciation"]),
+        "sld_lwc_g_m3": flight(state["sld_lwc"]) * 1000.0,
+        "sld_mvd_um": flight(state["sld_mvd"]) * 1e6,
+        "collection_efficiency": flight(result.collection_efficiency),
+        "beta0": flight(result.beta0),
+        "freezing_fraction": flight(result.freezing_fraction),
+        "ice_density_kg_m3": flight(result.ice_density),
+        "accretion_rate_mm_h": flight(result.accretion_rate_mm_h),
+        "worst_collector": names[flight(result.worst_collector)],
+        "reference_collector": airframe.reference,
+    }
+    for key, a in (
+        ("ice_type", result.ice_type),
+        ("sld_class", state["sld_class"]),
+        ("basis", state["basis"]),
+    ):
+        at[key] = np.where(gap, 0, flight(a)).astype(int)
+    at["accretion_mm"] = np.nan_to_num(at["accretion_rate_mm_h"]) * np.asarray(samples.dt_s) / 3600
+    at["per_collector"] = {
+        name: {
+            key: flight(pc[key])
+            for key in ("collection_efficiency", "accretion_rate_mm_h", "severity")
+        }
+        for name, pc in result.per_collector.items()
+    }
+    col = flight(column_index)  # the column each sample's values came from (-1: none)
+    fz = np.asarray(diag.freezing_level, float)
+    at["freezing_level_m"] = np.where(col >= 0, fz[np.maximum(col, 0)], np.nan)
+    return at
 
 
 def _summary_candidates(candidates, segments):
@@ -502,8 +478,8 @@ def _altitude_limits(airframe, options):
     }
 
 
-def _provenance(forecast, samples, colset):
-    prov = dict(forecast.describe()) if hasattr(forecast, "describe") else {}
+def _provenance(forecast, samples):
+    prov = dict(forecast.describe())
     times = np.asarray(samples.time)
     if times.size:
         from .hazards import _iso
@@ -513,18 +489,15 @@ def _provenance(forecast, samples, colset):
 
 
 def _assumptions(column_options, options, forecast, airframe):
-    out = {}
-    if hasattr(column_options, "describe"):
-        out["column"] = column_options.describe()
-    out["screening"] = options.describe()
+    out = {"column": column_options.describe(), "screening": options.describe()}
     from .accretion import assumptions as collector_assumptions
 
     out["collectors"] = collector_assumptions()
-    desc = forecast.describe() if hasattr(forecast, "describe") else {}
+    desc = forecast.describe()
     for key in ("radius_km", "time_tolerance_h"):
         if key in desc:
             out.setdefault("coverage", {})[key] = desc[key]
-    out["airframe"] = airframe.describe() if hasattr(airframe, "describe") else airframe.name
+    out["airframe"] = airframe.describe()
     out["altitude_reference_note"] = (
         "GeoJSON third coordinates are read and written as metres above mean sea level "
         "(not the WGS 84 ellipsoid of RFC 7946; the geoid differs by up to ~100 m), unless "
@@ -533,9 +506,7 @@ def _assumptions(column_options, options, forecast, airframe):
     return out
 
 
-def screen_routes(
-    routes, forecast, *, airframe, progress=None, **kwargs
-) -> list[RouteScreening]:
+def screen_routes(routes, forecast, *, airframe, progress=None, **kwargs) -> list[RouteScreening]:
     """Screen several routes against one forecast (segment ids unique across routes).
 
     ``progress``, if given, is called as ``progress(done, total, route_name)`` after
@@ -562,7 +533,7 @@ def diagnose_point(forecast, lat, lon, time=None, *, airframe=None, column_optio
         ``covered``, ``gap_reason``; the worst candidate column is shown.
     """
     from .airframes import load_airframe
-    from .column import ColumnOptions
+    from .column import ColumnOptions, diagnose_columns
 
     column_options = column_options or ColumnOptions()
     if time is None:
@@ -575,66 +546,49 @@ def diagnose_point(forecast, lat, lon, time=None, *, airframe=None, column_optio
             "gap_reason": str(np.asarray(colset.gap_reason)[0]),
             "levels": [],
         }
-    diag = _diagnose(colset, column_options)
-    cands = [int(c) for c in np.asarray(colset.candidates)[0] if c >= 0]
-    af = (
-        load_airframe(airframe)
-        if airframe is not None and not hasattr(airframe, "collectors")
-        else airframe
-    )
-    best = None
-    for c in cands:
-        lev = np.asarray(diag.pressure).shape[-1]
-        state = {name: np.asarray(getattr(diag, name))[c] for name in _LINEAR}
-        state.update(
-            pressure=np.asarray(diag.pressure)[c],
-            sld_class=np.asarray(diag.sld_class)[c],
-            valid=np.asarray(diag.valid)[c] & ~np.asarray(diag.below_ground)[c],
-        )
-        res = sev = None
-        if af is not None:
-            res, sev = _icing_at(af, state, af.cruise_tas)
-        score = (int(np.max(sev)) if sev is not None else 0, float(np.nansum(state["lwc"])))
-        if best is None or score > best[0]:
-            best = (score, c, state, res, sev, lev)
-    _, c, state, res, sev, lev = best
-    order = np.argsort(np.asarray(diag.height)[c])
+    diag = diagnose_columns(**colset.columns, options=column_options)
+    cands = np.array([c for c in np.asarray(colset.candidates)[0] if c >= 0])
+    af = load_airframe(airframe) if isinstance(airframe, str) else airframe
+    # every candidate column read off at its own levels: the same read-off as a route
+    height = np.asarray(diag.height, float)[cands]  # (k, L)
+    ci = np.broadcast_to(cands[:, None], height.shape)
+    state = read_off(diag, ci, height)
+    res = sev = None
+    if af is not None:
+        res, sev = _icing_at(af, state, af.cruise_tas)
+        worst = np.where(sev == codes.GAP, -1, sev).max(axis=1)
+    else:
+        worst = np.zeros(len(cands))
+    # the worst candidate: highest severity, then most liquid in the column
+    k = int(np.lexsort((np.nansum(state["lwc"], axis=1), worst))[-1])
+    c = int(cands[k])
     levels = []
-    for i in order:
+    for i in np.argsort(height[k]):
         row = {
-            "pressure_hpa": round(float(np.asarray(diag.pressure)[c, i]) / 100.0, 2),
-            "height_m": round(float(np.asarray(diag.height)[c, i]), 1),
-            "temperature_c": round(float(np.asarray(diag.temperature)[c, i]) - 273.15, 2),
-            "relative_humidity_pct": round(
-                float(np.asarray(diag.relative_humidity)[c, i]) * 100, 1
-            ),
-            "cloud": bool(np.asarray(diag.cloud)[c, i]),
-            "lwc_g_m3": round(float(np.nan_to_num(np.asarray(diag.lwc)[c, i])) * 1000, 4),
-            "basis": str(
-                codes.words(np.asarray(diag.basis)[c, i], codes.BASIS, gap="coverage-gap")
-            ),
-            "droplet_number_cm3": _r(np.asarray(diag.droplet_number)[c, i] / 1e6, 1),
-            "mvd_um": _r(np.asarray(diag.mvd)[c, i] * 1e6, 2),
-            "glaciation": _r(np.asarray(diag.glaciation)[c, i], 3),
-            "sld": str(
-                codes.words(
-                    np.asarray(diag.sld_class)[c, i], codes.SLD_CLASSES, gap="coverage-gap"
-                )
-            ),
-            "below_ground": bool(np.asarray(diag.below_ground)[c, i]),
-            "valid": bool(np.asarray(diag.valid)[c, i]),
+            "pressure_hpa": _r(diag.pressure[c, i] / 100.0, 2),
+            "height_m": _r(diag.height[c, i], 1),
+            "temperature_c": _r(diag.temperature[c, i] - T0, 2),
+            "relative_humidity_pct": _r(diag.relative_humidity[c, i] * 100, 1),
+            "cloud": bool(diag.cloud[c, i]),
+            "lwc_g_m3": _r(np.nan_to_num(diag.lwc[c, i]) * 1000, 4),
+            "basis": str(codes.words(diag.basis[c, i], codes.BASIS, gap="coverage-gap")),
+            "droplet_number_cm3": _r(diag.droplet_number[c, i] / 1e6, 1),
+            "mvd_um": _r(diag.mvd[c, i] * 1e6, 2),
+            "glaciation": _r(diag.glaciation[c, i], 3),
+            "sld": str(codes.words(diag.sld_class[c, i], codes.SLD_CLASSES, gap="coverage-gap")),
+            "below_ground": bool(diag.below_ground[c, i]),
+            "valid": bool(diag.valid[c, i]),
+            "collection_efficiency": None,
+            "accretion_rate_mm_h": None,
+            "ice_type": None,
+            "severity": None,
         }
         if res is not None:
-            s = int(sev[i])
             row.update(
-                collection_efficiency=_r(res.collection_efficiency[i], 4),
-                accretion_rate_mm_h=_r(res.accretion_rate_mm_h[i], 3),
-                ice_type=codes.ICE_TYPES[int(res.ice_type[i])],
-                severity="coverage-gap" if s == codes.GAP else codes.SEVERITY[s],
-            )
-        else:
-            row.update(
-                collection_efficiency=None, accretion_rate_mm_h=None, ice_type=None, severity=None
+                collection_efficiency=_r(res.collection_efficiency[k, i], 4),
+                accretion_rate_mm_h=_r(res.accretion_rate_mm_h[k, i], 3),
+                ice_type=codes.ICE_TYPES[int(res.ice_type[k, i])],
+                severity=str(codes.words(sev[k, i], codes.SEVERITY, gap="coverage-gap")),
             )
         levels.append(row)
     return {
@@ -642,9 +596,9 @@ def diagnose_point(forecast, lat, lon, time=None, *, airframe=None, column_optio
         "gap_reason": "",
         "candidates": len(cands),
         "levels": levels,
-        "precip_type": codes.PRECIP_TYPES[int(np.asarray(diag.precip_type)[c])],
-        "freezing_level_m": _r(np.asarray(diag.freezing_level)[c], 1),
-        "warnings": list(getattr(diag, "warnings", []) or []),
+        "precip_type": codes.PRECIP_TYPES[int(diag.precip_type[c])],
+        "freezing_level_m": _r(diag.freezing_level[c], 1),
+        "warnings": list(diag.warnings),
         "airframe": None if af is None else af.name,
     }
 

@@ -19,10 +19,8 @@ tests) can find them.
 
 from __future__ import annotations
 
-import os
 import pathlib
 import textwrap
-import uuid
 
 import matplotlib
 import numpy as np
@@ -34,6 +32,7 @@ from matplotlib.patches import Patch
 from matplotlib.ticker import FuncFormatter, MaxNLocator
 
 from . import codes
+from ._io import replace_atomically
 from .caution import CAUTION_SHORT
 from .constants import FT
 from .errors import InputError
@@ -118,26 +117,9 @@ def _check_picture_path(path):
     return _check_output_path(path, ("png", "svg"), what="picture")
 
 
-def _replace_atomically(path, write):
-    """Call ``write(tmp_path)`` on a temporary file next to ``path``, then rename it.
-
-    Nothing half-written is ever left at ``path``: on any error the temporary
-    file is removed and ``path`` keeps its old content.
-    """
-    path = pathlib.Path(path)
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.{uuid.uuid4().hex[:8]}.part")
-    try:
-        write(pathlib.Path(tmp))
-        os.replace(tmp, path)
-    except BaseException:
-        pathlib.Path(tmp).unlink(missing_ok=True)
-        raise
-    return path
-
-
 def _save(fig, path, fmt, dpi):
     with matplotlib.rc_context(_SAVE_RC):
-        _replace_atomically(path, lambda tmp: fig.savefig(tmp, format=fmt, dpi=dpi))
+        replace_atomically(path, lambda tmp: fig.savefig(tmp, format=fmt, dpi=dpi))
     return path
 
 

@@ -18,12 +18,12 @@ import tempfile
 
 import numpy as np
 
+from ._io import replace_atomically
 from .caution import CAUTION
 from .errors import InputError
 from .plot import (
     GAP_LABEL,
     _check_output_path,
-    _replace_atomically,
     plot_cross_section,
     plot_route_map,
 )
@@ -348,4 +348,4 @@ def write_report(
         "</body></html>",
     ]
     text = "\n".join(p for p in parts if p)
-    return _replace_atomically(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))
+    return replace_atomically(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))

@@ -10,6 +10,7 @@ import pytest
 from common_results import make_screening
 
 from icing import codes
+from icing._io import replace_atomically
 from icing.avoidance import annotate_segments
 from icing.caution import CAUTION_SHORT
 from icing.errors import InputError
@@ -17,7 +18,6 @@ from icing.plot import (
     GAP_LABEL,
     SEVERITY_COLOURS,
     _near,
-    _replace_atomically,
     plot_cross_section,
     plot_route_map,
 )
@@ -139,7 +139,7 @@ def test_nothing_half_written(tmp_path):
         raise RuntimeError("disk full")
 
     with pytest.raises(RuntimeError):
-        _replace_atomically(target, broken)
+        replace_atomically(target, broken)
     assert target.read_bytes() == b"old"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["keep.png"]
 
