@@ -105,6 +105,7 @@ from .constants import (
     RV,
     T0,
 )
+from .constants import IN_CLOUD_LWC as _IN_CLOUD_LWC
 from .thermo import (
     air_conductivity,
     air_density,
@@ -140,7 +141,7 @@ __all__ = [
 #: Lower freezing-fraction bound of "mixed" ice (our convention, see module doc).
 MIXED_MIN_FRACTION = 0.3
 #: In-cloud liquid threshold (Korolev et al. 2003): 0.01 g/m3. [kg m-3]
-IN_CLOUD_LWC = 1.0e-5
+IN_CLOUD_LWC = _IN_CLOUD_LWC  # constants.IN_CLOUD_LWC (Korolev et al. 2003)
 #: Earlier AIM edition's representative outer-wing rates: trace/light,
 #: light/moderate and moderate/severe boundaries. [mm/h]
 AIM_RATES_MM_H = (6.0, 25.0, 75.0)
@@ -849,7 +850,7 @@ def airframe_icing(
     )
     n = lwc.size
     gap = (np.isnan(t) | np.isnan(p) | np.isnan(lwc) | np.isnan(v_air) | np.isnan(rh)
-           | np.isnan(sld_lwc))
+           | np.isnan(sld_lwc) | (np.nan_to_num(sld_cls, nan=-1) < codes.SLD_NONE))
     cloud = np.where(gap, False, lwc >= IN_CLOUD_LWC)
     gap |= cloud & (np.isnan(mvd) | np.isnan(mu_shape) | (mvd <= 0.0))
     sld = np.where(gap, False, sld_lwc >= IN_CLOUD_LWC)

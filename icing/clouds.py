@@ -26,6 +26,7 @@ from __future__ import annotations
 import numpy as np
 
 from . import thermo
+from .constants import IN_CLOUD_LWC as _IN_CLOUD_LWC
 from .constants import LS0, RD, RV, T0, T_HOMOGENEOUS, G
 
 __all__ = [
@@ -51,7 +52,7 @@ __all__ = [
 ]
 
 #: In-cloud liquid water content threshold [kg m-3] (0.01 g/m3, Korolev et al. 2003).
-IN_CLOUD_LWC = 1.0e-5
+IN_CLOUD_LWC = _IN_CLOUD_LWC  # constants.IN_CLOUD_LWC (Korolev et al. 2003)
 
 
 #: Names of the humidity-threshold models of :func:`liquid_cloud_rh_threshold`.

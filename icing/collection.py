@@ -451,31 +451,20 @@ def stagnation_efficiency(
     return np.maximum(stagnation_efficiency_langmuir46(k, phi), fn(k, phi))
 
 
-@functools.lru_cache(maxsize=64)
-def _gamma_quadrature(shape, n_bins):
-    """Gauss-Laguerre nodes (ratios to MVD) and mass weights for a gamma spectrum."""
-    from scipy.special import gammaincinv, roots_genlaguerre
-
-    # mass density ~ D^(mu+3) exp(-Lambda D): generalised Laguerre weight, alpha = mu+3
-    x, w = roots_genlaguerre(int(n_bins), float(shape) + 3.0)
-    median = gammaincinv(float(shape) + 4.0, 0.5)  # MVD * Lambda (5.670 for mu = 2)
-    return x / median, w / w.sum()
-
-
 def spectrum_quadrature(shape=2.0, n_bins=7):
     """Diameter ratios to the MVD and mass fractions for integrating over a spectrum.
 
-    Uses :func:`icing.droplets.spectrum_bins` where it is available (the project's
-    one spectrum definition), else a local Gauss-Laguerre quadrature of the gamma
-    spectrum ``n(D) ~ D^mu exp(-Lambda D)`` by mass (exact for smooth integrands
-    of polynomial form; the mass median sets ``Lambda = median(Gamma(mu+4)) / MVD``).
+    The project's one spectrum definition, :func:`icing.droplets.spectrum_bins`, at
+    MVD = 1: equal-mass quantile midpoints of the gamma spectrum
+    ``n(D) ~ D^mu exp(-Lambda D)`` by mass (not Gauss quadrature, which rings at the
+    collision cut-off).
 
     Parameters
     ----------
     shape : float
         Gamma shape ``mu``. [1]
     n_bins : int
-        Number of nodes.
+        Number of bins.
 
     Returns
     -------
@@ -493,20 +482,10 @@ def spectrum_quadrature(shape=2.0, n_bins=7):
 
 @functools.lru_cache(maxsize=64)
 def _spectrum_quadrature_cached(shape, n_bins):
-    try:
-        from .droplets import spectrum_bins
-    except ImportError:
-        spectrum_bins = None
-    if spectrum_bins is not None:
-        probe = 20e-6
-        d, f = spectrum_bins(np.asarray(probe), shape=shape, n_bins=n_bins)
-        d = np.asarray(d, dtype=float).reshape(-1)
-        f = np.asarray(f, dtype=float).reshape(-1)
-        # accept either diameters [m] or ratios to the MVD
-        ratios = d / probe if np.nanmax(d) < 0.1 else d
-        if ratios.size == n_bins and np.all(np.isfinite(ratios)) and abs(f.sum() - 1) < 1e-6:
-            return ratios, f / f.sum()
-    return _gamma_quadrature(shape, n_bins)
+    from .droplets import spectrum_bins
+
+    ratios, fractions = spectrum_bins(1.0, shape=shape, n_bins=n_bins)
+    return np.asarray(ratios, float).reshape(-1), np.asarray(fractions, float).reshape(-1)
 
 
 def _ratios_per_point(shape, n_bins, n):

@@ -140,9 +140,14 @@ class ColumnOptions:
             raise InputError(f"cloud_fraction_floor must be in (0, 1], got "
                              f"{self.cloud_fraction_floor!r}",
                              where="ColumnOptions.cloud_fraction_floor", fix="use e.g. 0.1")
-        positive = ("sub_adiabatic_scale_height_m", "drizzle_time_scale_s", "aerosol_per_cm3",
+        positive = ("updraft_floor_stratiform_m_s", "updraft_floor_convective_m_s",
+                    "sub_adiabatic_scale_height_m", "drizzle_time_scale_s", "aerosol_per_cm3",
                     "ice_crystal_radius_m", "crystal_density_kg_m3",
                     "glaciation_residence_time_s", "moist_adiabat_step", "chunk_columns")
+        if not self.subgrid_updraft_m_s >= 0:
+            raise InputError(f"subgrid_updraft_m_s must be at least 0, got "
+                             f"{self.subgrid_updraft_m_s!r}",
+                             where="ColumnOptions.subgrid_updraft_m_s", fix="use e.g. 0.2")
         for name in positive:
             if not getattr(self, name) > 0:
                 raise InputError(f"{name} must be positive, got {getattr(self, name)!r}",
@@ -543,6 +548,8 @@ def _diagnose_core(s, cols, o):
                         "base_height": cols["surface_height"]}
             z = thermo.height_from_pressure_hypsometric(pf, tf, specific_humidity=qf, **base)
             z = np.where(any_valid & np.isfinite(p) & (p > 0), z, np.nan)
+        # a level without a height (e.g. a NaN surface anchor) cannot be placed: not valid
+        valid &= np.isfinite(z)
         # --- below ground -----------------------------------------------------------
         # the exact test first: heights against surface height when the caller gave
         # heights, else pressure against surface pressure; surface height against
@@ -586,6 +593,15 @@ def _diagnose_core(s, cols, o):
 
         lay = clouds.cloud_layers(cloud, in_air(z, np.nan), in_air(p, np.nan),
                                   in_air(t, np.nan))
+        # A layer resting on a missing level (not the ground) has an unknown base, so its
+        # adiabatic liquid is unknown too: its levels read as a coverage gap, never as the
+        # near-zero liquid a base placed too high would give.
+        if not all_air:
+            lost = ~valid & ~below
+            bi = lay.base_index
+            under_base = np.take_along_axis(lost, np.clip(bi - 1, 0, None), -1) & (bi >= 1)
+            valid &= ~(cloud & under_base)
+            air = valid & ~below
         liquid_ok = cloud & (t > T_HOMOGENEOUS)
         lwc_model = in_air(np.where(t > T_HOMOGENEOUS, lwc_model, 0.0), np.nan)
         # --- diagnosed liquid (only cloudy liquid levels are integrated) ----------------

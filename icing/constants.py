@@ -20,6 +20,7 @@ name                value            unit        source
 ``T0_STD``          288.15           K           sea-level temperature, ICAO standard atmosphere
 ``LAPSE_STD``       0.0065           K m-1       troposphere lapse rate, ICAO standard atmosphere
 ``T_HOMOGENEOUS``   235.15           K           -38 degC homogeneous freezing of cloud drops
+``IN_CLOUD_LWC``    1.0e-5           kg m-3      0.01 g/m3 in-cloud threshold (Korolev 2003)
 ``PRANDTL_AIR``     0.71             1           air near 0 degC (Incropera & DeWitt, from memory)
 ``FT``              0.3048           m           international foot
 ``KT``              0.514444...      m s-1       international knot (1852 m / 3600 s)
@@ -47,6 +48,7 @@ __all__ = [
     "T0_STD",
     "LAPSE_STD",
     "T_HOMOGENEOUS",
+    "IN_CLOUD_LWC",
     "PRANDTL_AIR",
     "FT",
     "KT",
@@ -70,6 +72,7 @@ P0_STD = 101325.0
 T0_STD = 288.15
 LAPSE_STD = 0.0065
 T_HOMOGENEOUS = 235.15
+IN_CLOUD_LWC = 1.0e-5
 PRANDTL_AIR = 0.71
 FT = 0.3048
 KT = 1852.0 / 3600.0

@@ -17,7 +17,7 @@ import numpy as np
 
 from . import codes
 from .caution import CAUTION
-from .constants import FT, T0
+from .constants import FT, IN_CLOUD_LWC, T0
 from .results import Curtain, RouteScreening
 
 __all__ = ["screen_route", "screen_routes", "read_off", "ScreenOptions", "diagnose_point"]
@@ -169,7 +169,7 @@ def read_off(diag, column_index, target, *, reference="msl"):
     ga, gb = pick(diag.below_ground)
     out["below_ground"] = present & (ga & ((w < 0.5) | gb))
     out["valid"] = inside & va & vb & ~out["below_ground"]
-    out["cloud"] = out["lwc"] >= 1e-5  # 0.01 g/m3, Korolev et al. (2003) in-cloud threshold
+    out["cloud"] = out["lwc"] >= IN_CLOUD_LWC
     return out
 
 

@@ -54,7 +54,6 @@ source, [M] from memory, [C] common practice, no source, [O] our choice):
 from __future__ import annotations
 
 import dataclasses
-import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -62,12 +61,13 @@ from scipy import special
 
 from . import codes
 from .constants import CP_AIR, RD, T0
+from .constants import IN_CLOUD_LWC as _IN_CLOUD_LWC
 from .droplets import (
     combined_median_volume_diameter,
     marshall_palmer,
     marshall_palmer_from_lwc,
 )
-from .thermo import air_density, saturation_vapor_pressure
+from .thermo import air_density, ice_saturation_relative_humidity
 
 __all__ = [
     "SLDDiagnosis",
@@ -105,7 +105,7 @@ NOMINAL_RAIN_RATE = 1.0  # mm/h, common practice
 DRIZZLE_TOP_T_MIN = T0 - 12.0  # K, Huffman & Norman (1988) range 0 to -10/-12 C
 ICE_ALOFT_T = T0 - 12.0  # K, our choice
 DRIZZLE_MIN_DEPTH = 300.0  # m, common practice
-DRIZZLE_LWC_MIN = 1e-5  # kg/m3, after Korolev et al. (2003)
+DRIZZLE_LWC_MIN = _IN_CLOUD_LWC  # constants.IN_CLOUD_LWC (Korolev et al. 2003)
 FZDZ_DMAX = 500e-6  # m, 14 CFR 25 Appendix O
 FZRA_DMAX = 2.2e-3  # m, 14 CFR 25 Appendix O, from memory
 APPENDIX_O_MVD_SPLIT = 40e-6  # m, 14 CFR 25 Appendix O
@@ -321,21 +321,6 @@ def khairoutdinov_kogan_autoconversion(cloud_water, droplet_number):
     with np.errstate(invalid="ignore", divide="ignore"):
         rate = 1350.0 * np.maximum(qc, 0.0) ** 2.47 * np.where(nc > 0.0, nc, np.nan) ** -1.79
     return np.where(qc > 0.0, rate, np.where(np.isnan(qc) | ~(nc > 0.0), np.nan, 0.0))
-
-
-@functools.lru_cache(maxsize=1)
-def _ice_saturation_table():
-    """Water RH at ice saturation, ``e_si / e_sw`` (MetPy's law), on a 0.25 K grid."""
-    grid = np.arange(180.0, T0 + 0.25, 0.25)
-    ratio = saturation_vapor_pressure(grid, phase="solid") / saturation_vapor_pressure(grid)
-    return grid, np.minimum(ratio, 1.0)
-
-
-def _ice_saturation_rh(temperature):
-    """Relative humidity over water at ice saturation [1]; 1 at and above 0 C."""
-    grid, ratio = _ice_saturation_table()
-    t = np.asarray(temperature, dtype=float)
-    return np.where(t < T0, np.interp(t, grid, ratio), 1.0)
 
 
 def _rev_cummin(a):
@@ -666,7 +651,8 @@ def _diagnose_block(a, drizzle_time_scale_s):
         # dry air matters only below some ice: judge the humidity at those levels alone
         dry = u & ~cld & ~ice_flag & (first_ice < nlev)
         at = np.nonzero(dry)
-        dry[at] = ~(rh_s[at] >= _ice_saturation_rh(t[at]))  # NaN humidity counts as dry
+        # NaN humidity counts as dry
+        dry[at] = ~(rh_s[at] >= ice_saturation_relative_humidity(t[at]))
         first_dry = _rev_cummin(np.where(dry, idx, nlev))
         seeded = first_ice < first_dry  # ice at or above, with no dry gap between
         source = (

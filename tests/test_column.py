@@ -411,3 +411,26 @@ def test_one_level_humidity_dip_does_not_split_a_deck():
     top = inside[-1]
     assert bridged.lwc_diagnosed[top] > split.lwc_diagnosed[top]
     assert bridged.cloud_base_height[top] < split.cloud_base_height[top]
+
+
+def test_layer_resting_on_a_missing_level_is_a_gap_not_thin_liquid():
+    # Safety rule (ours): a deck whose level below is missing has an unknown base, so
+    # its adiabatic liquid is unknown: it must read as invalid (a coverage gap), never
+    # as the near-zero liquid of a base placed one level too high.
+    p = np.array([100000, 95000, 90000, 85000, 80000, 75000, 70000.0])
+    t = np.array([275, 272, 269, 266, 263, 262, 258.0])
+    rh = np.array([0.8, 1.0, np.nan, 1.0, 1.0, 1.0, 0.5])
+    d = diagnose_columns(p, t, relative_humidity=rh)
+    assert not d.valid[2:6].any()
+    assert d.valid[[0, 1, 6]].all()
+    full = diagnose_columns(p, t, relative_humidity=np.where(np.isnan(rh), 1.0, rh))
+    assert full.valid.all() and (full.lwc[2:6] > 1e-4).all()
+
+
+def test_nan_surface_anchor_leaves_levels_invalid():
+    # A column whose computed heights cannot be anchored has no usable level.
+    p = np.array([100000, 90000, 80000.0])
+    t = np.array([275, 268, 262.0])
+    d = diagnose_columns(p, t, relative_humidity=np.ones(3), surface_pressure=np.nan,
+                         surface_height=0.0)
+    assert not d.valid.any()
