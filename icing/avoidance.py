@@ -262,6 +262,7 @@ def candidate_altitudes(
     # Ground under the stretch: the given surface, else the top of the below-ground rows.
     rows_below = np.where(below, alt[None, :], -np.inf).max(axis=1)
     ground = np.where(np.isfinite(ground), ground, rows_below)
+    terrain_known = bool(np.isfinite(ground).all())
     ground = np.where(np.isfinite(ground), ground, alt[0])
 
     lo_m = ground.max() + terrain_margin_ft * FT
@@ -295,6 +296,9 @@ def candidate_altitudes(
     clear = eligible & (worst_c == codes.SEV_NONE) & ~sld_freezing
 
     h0 = float(flight_altitude_m)
+    if not terrain_known:
+        # unknown terrain under the stretch: nothing lower than planned is proposed
+        eligible &= cand_m >= h0 - 1e-6
     start_km, end_km = float(dist[idx[0]]), float(dist[idx[-1]])
     tr = _transit(
         curtain,
@@ -379,6 +383,7 @@ def candidate_altitudes(
         "ceiling_ft": _ft_value(k_hi * step_ft, step_ft) if cand_ft.size else None,
         "stretch_km": [round(start_km, 3), round(end_km, 3)],
         "altitude_reference": getattr(curtain, "altitude_reference", "msl"),
+        "terrain_known": terrain_known,
         "basis": (
             f"{CANDIDATE_WORDING}. Whole stretch {start_km:.1f}-{end_km:.1f} km evaluated "
             f"every {step_ft:g} ft from {terrain_margin_ft:g} ft above the highest terrain"
@@ -390,6 +395,12 @@ def candidate_altitudes(
             f"{climb_rate_fpm:g} ft/min up, {descent_rate_fpm:g} ft/min down, "
             f"{float(tas_m_s):.0f} m/s true airspeed, made before the stretch and undone "
             "after it, its icing counted"
+            + (
+                ""
+                if terrain_known
+                else "; the terrain under this stretch is unknown, so no altitude below the "
+                "planned one is proposed"
+            )
         ),
     }
 

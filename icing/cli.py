@@ -14,7 +14,6 @@ import io
 import json
 import os
 import sys
-from datetime import datetime
 from pathlib import Path
 
 from . import codes
@@ -26,33 +25,6 @@ from .errors import IcingError, InputError
 __all__ = ["main", "build_parser", "write_outputs", "summary_table"]
 
 EXIT_OK, EXIT_INTERNAL, EXIT_INPUT, EXIT_FAIL_ON = 0, 1, 2, 3
-
-
-def _iso_time(text: str):
-    try:
-        t = datetime.fromisoformat(text.replace("Z", "+00:00"))
-    except ValueError:
-        raise InputError(
-            f"time {text!r} is not ISO 8601",
-            where="--depart/--time",
-            fix="write e.g. 2027-01-14T09:00:00Z",
-        ) from None
-    if t.tzinfo is None:
-        raise InputError(
-            f"time {text!r} has no time zone",
-            where="--depart/--time",
-            fix="append Z (UTC) or an offset such as +00:00",
-        )
-    return t
-
-
-def _utc64(t):
-    """Timezone-aware datetime -> numpy datetime64[ms] in UTC."""
-    from datetime import UTC
-
-    import numpy as np
-
-    return np.datetime64(t.astimezone(UTC).replace(tzinfo=None), "ms")
 
 
 def _latlon(args):
@@ -305,7 +277,9 @@ def cmd_screen(args) -> int:
     _check_suffix(args.plot, {".png", ".svg"}, "--plot")
     _check_suffix(args.map, {".png", ".svg"}, "--map")
     _check_suffix(args.report, {".html", ".htm"}, "--report")
-    depart = _iso_time(args.depart) if args.depart else None
+    from .route import parse_time
+
+    depart = parse_time(args.depart, where="--depart") if args.depart else None
     airframe = load_airframe(args.airframe)
     routes = [r for path in args.routes for r in load_routes(path)]
     forecast = _forecast(args)
@@ -355,8 +329,12 @@ def cmd_profile(args) -> int:
 
     lat, lon = _latlon(args)
     forecast = _forecast(args)
-    t = _iso_time(args.time) if args.time else None
-    tt = None if t is None else _utc64(t)
+    import numpy as np
+
+    from .route import parse_time
+
+    t = parse_time(args.time, where="--time") if args.time else None
+    tt = None if t is None else np.datetime64(t.replace(tzinfo=None), "ms")  # UTC
     result = diagnose_point(
         forecast, lat, lon, tt, airframe=args.airframe, column_options=_column_options(args)
     )
@@ -553,6 +531,13 @@ def main(argv=None) -> int:
     except FileNotFoundError as err:
         print(
             f"icing: error: {err.filename}: file not found (fix: check the path)", file=sys.stderr
+        )
+        return EXIT_INPUT
+    except OSError as err:  # unreadable input, unwritable output folder, full disk
+        print(
+            f"icing: error: {err.filename or ''}: {err.strerror or err} "
+            "(fix: check the file's permissions and the free space)",
+            file=sys.stderr,
         )
         return EXIT_INPUT
     except IcingError as err:

@@ -288,7 +288,8 @@ class ProfileForecast(Forecast):
         use = near & at_time & inside[:, None]
         covered = use.any(axis=1)
         # the place first (as on grids): far from every profile is "outside-radius"
-        gap = np.where(covered, "", np.where(near.any(axis=1) & ~inside, "outside-time-window",
+        # near a profile but not covered: none of the near ones is valid around that time
+        gap = np.where(covered, "", np.where(near.any(axis=1), "outside-time-window",
                                              "outside-radius"))
         used = np.flatnonzero(use.any(axis=0))
         remap = np.full(tab.size, -1)
@@ -486,6 +487,13 @@ class GridForecast(Forecast):
             refuse("grid mapping")
         if set(a.variables) != set(b.variables):
             refuse(f"variables {sorted(set(a.variables) ^ set(b.variables))}")
+        # reads use the first file's names and unit conversions for every file
+        for key, va in a.variables.items():
+            vb = b.variables[key]
+            same = (va.name, va.scale, va.offset, va.level_dim, va.transform) == (
+                vb.name, vb.scale, vb.offset, vb.level_dim, vb.transform)
+            if not same:
+                refuse(f"variable {key!r} ({va.name} in {va.units} vs {vb.name} in {vb.units})")
 
     # ------------------------------------------------------------------ geometry
 
@@ -734,8 +742,9 @@ class GridForecast(Forecast):
                         base_pressure=cols["surface_pressure"] if anchored else None)
         else:
             z = np.broadcast_to(self.levels, (m, L)).copy()
-            if self._files[0].height_above_ground and "surface_height" in cols:
-                z = z + np.nan_to_num(cols["surface_height"])[:, None]
+            if self._files[0].height_above_ground:
+                # an unknown surface leaves the heights unknown: a gap, never MSL
+                z = z + cols["surface_height"][:, None]
             cols["height"] = z
         for key in ("cloud_liquid", "cloud_ice", "rain", "snow", "cloud_fraction"):
             if key in vals:

@@ -291,10 +291,10 @@ def read_profiles_csv(path):
                                 "format) or prefix with x-")
     groups, lines = {}, {}
     for n, row in enumerate(reader, start=2):
-        row = {(k or "").strip(): (v or "").strip() for k, v in row.items()}
-        if None in row or "" in row and row[""]:
+        if None in row:  # csv.DictReader files surplus cells under the key None
             raise ForecastError("more cells than header columns", path=path, where=f"line {n}",
                                 fix="remove the extra cells or add a header")
+        row = {k.strip(): (v or "").strip() for k, v in row.items()}
         key = (row["id"], row["valid_time"])
         groups.setdefault(key, []).append((n, row))
     profiles = []
@@ -1121,15 +1121,16 @@ def open_grid_file(path, var_map=None):
                 f"implausible (units attribute {variables['temperature'].units!r})", path=path,
                 where=f"variable {tname}", fix="correct the units attribute (K or degC)")
     for hum in ("relative_humidity", "dewpoint", "specific_humidity"):
-        if add(hum) is not None:
+        found = add(hum)
+        if found is not None:
             break
     else:
         raise ForecastError("no humidity variable found (relative_humidity, "
                             "dew_point_temperature or specific_humidity)", path=path,
                             fix="map one with --var relative_humidity=NAME (or dewpoint=, "
                                 "specific_humidity=)")
-    if "relative_humidity" in variables:
-        rh = add("relative_humidity")[1]
+    if hum == "relative_humidity":
+        rh = found[1]
         with np.errstate(invalid="ignore"):
             if np.nanmax(rh, initial=0.0) > _RH_REFUSE:
                 raise ForecastError(f"relative humidity up to {100 * np.nanmax(rh):.0f} % "
@@ -1146,6 +1147,12 @@ def open_grid_file(path, var_map=None):
             continue
         add(key)
     if vertical == "height" and above_ground:
+        if "surface_height" not in variables:
+            raise ForecastError("height levels are above ground (standard_name height) but "
+                                "the file has no surface height", path=path,
+                                where="vertical coordinate",
+                                fix="add surface_altitude or map one with "
+                                    "--var surface_height=NAME")
         notes.append("height levels are above ground (standard_name height)")
     for info in variables.values():
         if info.level_dim is not None and info.level_dim != level_dim:

@@ -423,7 +423,7 @@ def sample_table(screening) -> list[dict]:
             "basis": codes.BASIS[int(af["basis"][i])],
             "sld": codes.SLD_CLASSES[int(af["sld_class"][i])],
             "ice_type": codes.ICE_TYPES[int(af["ice_type"][i])],
-            "severity": "coverage-gap" if sev == codes.GAP else codes.SEVERITY[sev],
+            "severity": str(codes.words(sev, codes.SEVERITY, gap=KIND_GAP)),
             "worst_collector": af["worst_collector"][i],
             "cloud": bool(af["cloud"][i]),
         }

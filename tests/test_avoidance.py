@@ -264,3 +264,21 @@ def test_bad_input_is_one_clear_line(deck):
     del scr.samples.tas
     with pytest.raises(InputError, match="true airspeed"):
         annotate_segments(scr)
+
+
+def test_unknown_terrain_proposes_nothing_below(deck):
+    # Safety rule (ours): with no terrain height under the stretch, no altitude below the
+    # planned one is proposed (a clear row there may be inside a hill).
+    cur = dataclasses.replace(
+        deck.curtain,
+        ground_m=np.full(deck.curtain.ground_m.shape, np.nan),
+        below_ground=np.zeros(deck.curtain.below_ground.shape, bool),
+    )
+    out = candidate_altitudes(
+        cur, _stretch(cur, 60, 120), flight_altitude_m=6000 * FT, tas_m_s=70.0
+    )
+    assert out["below"] is None
+    assert (
+        out["terrain_known"] is False and "terrain under this stretch is unknown" in out["basis"]
+    )
+    assert out["above"] is not None

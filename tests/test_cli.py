@@ -194,3 +194,33 @@ def test_demo_writes_everything(tmp_path, capsys):
     assert len(fc["summaries"]) >= 3
     assert list(out.glob("cross-section-*.png")) and (out / "map.png").exists()
     assert (out / "report.html").exists()
+
+
+def test_unreadable_route_exits_2_one_line(tmp_path, capsys):
+    import os
+
+    if os.geteuid() == 0:
+        pytest.skip("root reads any file")
+    bad = tmp_path / "locked.csv"
+    bad.write_text("name,lat,lon,altitude_ft\n")
+    bad.chmod(0)
+    assert run("screen", bad, "--forecast", FORECAST) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and "locked.csv" in err
+
+
+def test_unwritable_output_exits_2_one_line(tmp_path, capsys):
+    blocker = tmp_path / "file"
+    blocker.write_text("")
+    code = run(
+        "screen",
+        ROUTE,
+        "--forecast",
+        FORECAST,
+        "--airframe",
+        "twin-turboprop",
+        "-o",
+        blocker / "sub" / "out.geojson",
+    )
+    err = capsys.readouterr().err.strip()
+    assert code == 2 and len(err.splitlines()) == 1 and "Traceback" not in err

@@ -714,3 +714,11 @@ def test_profile_gap_judges_the_place_first():
     late = T18 + np.timedelta64(5, "h")
     cs = fc.columns_at([10.0, 57.0], [100.0, -24.5], [late, late])
     assert cs.gap_reason.tolist() == ["outside-radius", "outside-time-window"]
+
+
+def test_height_levels_above_ground_without_a_surface_are_refused(tmp_path):
+    # Heights above an unknown surface cannot be placed: refused, never read as MSL.
+    ds = mf.height_level_dataset().drop_vars("orog")
+    ds["height"].attrs["standard_name"] = "height"
+    with pytest.raises(ForecastError, match="no surface height"):
+        load_forecast(_write(ds, tmp_path))

@@ -422,3 +422,35 @@ def test_parse_time():
     assert parse_time("2027-01-14T13:00:00+01:00") == np.datetime64("2027-01-14T12:00", "ms")
     with pytest.raises(ForecastError, match="no time zone"):
         parse_time("2027-01-14T12:00:00", path="x.json", where="t")
+
+
+def test_lead_time_files_with_different_units_are_refused(tmp_path):
+    # Reads apply the first file's names and unit conversions to every file: a second
+    # file in degC must be refused, not read as temperatures near 0 K.
+    import xarray as xr
+
+    from icing.errors import ForecastError
+    from icing.forecast import load_forecast
+
+    with xr.open_dataset(ROOT / "fixtures" / "skerrow-latlon.nc") as ds:
+        ds = ds.load()
+    first, second = tmp_path / "lead0.nc", tmp_path / "lead1.nc"
+    ds.isel(time=[0]).to_netcdf(first)
+    later = ds.isel(time=[1]).copy()
+    later["t"] = later["t"] - 273.15
+    later["t"].attrs = {**ds["t"].attrs, "units": "degC"}
+    later.to_netcdf(second)
+    with pytest.raises(ForecastError, match="variable 'temperature'"):
+        load_forecast([first, second])
+
+
+def test_profile_csv_row_with_extra_cells_is_one_line_error(tmp_path):
+    from icing.errors import ForecastError
+    from icing.forecast import load_forecast
+
+    src = (ROOT / "fixtures" / "skerrow-profiles.csv").read_text().splitlines()
+    src[1] = src[1] + ",99,98"
+    bad = tmp_path / "extra.csv"
+    bad.write_text("\n".join(src) + "\n")
+    with pytest.raises(ForecastError, match="more cells than header columns"):
+        load_forecast(bad)
