@@ -1,7 +1,7 @@
 """Speed of the collector physics: 1 million points x all collectors of one airframe.
 
 Run by hand: ``python benchmarks/accretion.py [--points N] [--airframe NAME]``.
-Prints the time and point-collectors per second of :func:`icing.accretion.airframe_icing`
+Prints the time and point-collectors per second of :func:`icing.calc.airframe_icing`
 (spectrum integrated, table method), and ratios against baselines measured in the
 same run: the direct sum over the spectrum bins at every point, and a pure-Python
 loop of single-point calls over 1,000 points, scaled. Target: more than 1 million
@@ -20,8 +20,8 @@ import time  # noqa: E402
 
 import numpy as np  # noqa: E402
 
-from icing.accretion import airframe_icing  # noqa: E402
 from icing.airframes import load_airframe  # noqa: E402
+from icing.calc.airframe import airframe_icing  # noqa: E402
 
 
 def _inputs(n, seed=0):

@@ -30,8 +30,8 @@ import metpy.calc as mpcalc
 import numpy as np
 from metpy.units import units
 
-from icing import clouds, thermo
-from icing.column import _empty_output, diagnose_columns
+from icing.calc import clouds, thermo
+from icing.calc.column import _empty_output, diagnose_columns
 
 N_LEVELS = 40
 

@@ -9,20 +9,19 @@ a failed run leaves nothing half-written.
 from __future__ import annotations
 
 import argparse
-import csv
-import io
 import json
 import os
 import sys
 from pathlib import Path
 
-from . import codes
-from ._io import atomic_write
-from ._version import __version__
-from .caution import CAUTION
-from .errors import IcingError, InputError
+from icing import codes
+from icing._version import __version__
+from icing.caution import CAUTION
+from icing.errors import IcingError, InputError
+from icing.outputs.table import format_number, summary_table
+from icing.outputs.write import write_outputs
 
-__all__ = ["main", "build_parser", "write_outputs", "summary_table"]
+__all__ = ["main", "build_parser"]
 
 EXIT_OK, EXIT_INTERNAL, EXIT_INPUT, EXIT_FAIL_ON = 0, 1, 2, 3
 
@@ -67,7 +66,7 @@ def _var_map(items):
 
 
 def _forecast(args):
-    from .forecast import load_forecast
+    from icing.forecast.core import load_forecast
 
     kwargs = {}
     if getattr(args, "radius_km", None) is not None:
@@ -94,143 +93,11 @@ def _forecast(args):
 
 
 def _column_options(args):
-    from .column import ColumnOptions
+    from icing.calc.column import ColumnOptions
 
     if getattr(args, "air_mass", None):
         return ColumnOptions(air_mass=args.air_mass)
     return ColumnOptions()
-
-
-def _fmt(x, nd=1, none="-"):
-    if x is None:
-        return none
-    if isinstance(x, float):
-        return f"{x:.{nd}f}"
-    return str(x)
-
-
-def summary_table(summaries) -> str:
-    """Render route summaries as a plain-text table (with the caution)."""
-    head = [
-        "route",
-        "km",
-        "worst",
-        "min icing",
-        "ice mm",
-        "SLD",
-        "freezing lvl ft",
-        "gaps km",
-        "status",
-    ]
-    rows = []
-    for s in summaries:
-        fl = (s.get("freezing_level_ft_min"), s.get("freezing_level_ft_max"))
-        fl_txt = "-" if fl[0] is None else (f"{fl[0]}" if fl[0] == fl[1] else f"{fl[0]}-{fl[1]}")
-        rows.append(
-            [
-                s["route"],
-                _fmt(s["distance_km"]),
-                s["worst_severity"] or "unknown",
-                _fmt(s["minutes_in_icing"]),
-                _fmt(s.get("accretion_mm_reference"), 2),
-                ",".join(x for x in s["sld"] if x != "none") or "none",
-                fl_txt,
-                _fmt(s["gap_km"]),
-                s["status"],
-            ]
-        )
-    widths = [max(len(str(r[i])) for r in rows + [head]) for i in range(len(head))]
-    lines = ["  ".join(str(c).ljust(w) for c, w in zip(head, widths, strict=True))]
-    lines.append("  ".join("-" * w for w in widths))
-    for r in rows:
-        lines.append("  ".join(str(c).ljust(w) for c, w in zip(r, widths, strict=True)))
-    shown = 3
-    for s in summaries:
-        cands = [
-            c
-            for c in s.get("candidate_altitudes_ft") or []
-            if isinstance(c, dict) and c.get("text")
-        ]
-        if not cands:
-            continue
-        cands.sort(key=lambda c: -codes.SEVERITY.index(c.get("severity") or "none"))
-        lines.append(f"{s['route']}: candidate altitudes for the worst icing stretches:")
-        for cand in cands[:shown]:
-            lines.append(f"  {cand['text']}")
-        if len(cands) > shown:
-            lines.append(f"  ... {len(cands) - shown} more stretches in the summary JSON")
-    lines.append("")
-    lines.append(CAUTION)
-    return "\n".join(lines)
-
-
-def _samples_csv(screenings) -> str:
-    from .hazards import SAMPLE_COLUMNS, sample_table
-
-    buf = io.StringIO()
-    w = csv.DictWriter(buf, fieldnames=SAMPLE_COLUMNS, lineterminator="\n")
-    w.writeheader()
-    for s in screenings:
-        for row in sample_table(s):
-            w.writerow(row)
-    return buf.getvalue()
-
-
-def _sibling_json(path: Path) -> Path:
-    return path.with_name(path.stem + ".summary.json")
-
-
-def write_outputs(
-    screenings, *, out_geojson=None, plot=None, map_=None, report=None, samples=None
-):
-    """Write the outputs of a run; each is complete in memory first, then written atomically.
-
-    Returns the FeatureCollection dict and the paths written. With several routes,
-    ``plot`` names a pattern: ``STEM-<route>.SUFFIX`` per route.
-    """
-    from .hazards import feature_collection
-
-    fc = feature_collection(screenings)
-    pending = []
-    if out_geojson:
-        p = Path(out_geojson)
-        pending.append((p, json.dumps(fc, indent=1, allow_nan=False)))
-        side = {k: v for k, v in fc.items() if k not in ("type", "features")}
-        pending.append((_sibling_json(p), json.dumps(side, indent=1, allow_nan=False)))
-    if samples:
-        pending.append((Path(samples), _samples_csv(screenings)))
-    for p, text in pending:
-        atomic_write(p, text)
-    written = [p for p, _ in pending]
-    pictures = []  # (function, what, target); their folders are made before any is drawn
-    if plot:
-        from .plot import plot_cross_section
-
-        plot = Path(plot)
-        for s in screenings:
-            target = (
-                plot
-                if len(screenings) == 1
-                else plot.with_name(f"{plot.stem}-{_safe(s.route_name)}{plot.suffix}")
-            )
-            pictures.append((plot_cross_section, s, target))
-    if map_:
-        from .plot import plot_route_map
-
-        pictures.append((plot_route_map, screenings, Path(map_)))
-    if report:
-        from .report import write_report
-
-        pictures.append((write_report, screenings, Path(report)))
-    for _, _, target in pictures:
-        target.parent.mkdir(parents=True, exist_ok=True)
-    for fn, what, target in pictures:  # each writes atomically
-        written.append(fn(what, target))
-    return fc, written
-
-
-def _safe(name: str) -> str:
-    return "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in name).strip("-") or "route"
 
 
 def _check_suffix(path, allowed, flag):
@@ -270,14 +137,14 @@ def _progress(done, total, name):
 
 
 def cmd_screen(args) -> int:
-    from .airframes import load_airframe
-    from .pipeline import ScreenOptions, screen_routes
-    from .route import load_routes
+    from icing.airframes import load_airframe
+    from icing.route import load_routes
+    from icing.runs.screen import ScreenOptions, screen_routes
 
     _check_suffix(args.plot, {".png", ".svg"}, "--plot")
     _check_suffix(args.map, {".png", ".svg"}, "--map")
     _check_suffix(args.report, {".html", ".htm"}, "--report")
-    from .route import parse_time
+    from icing.route import parse_time
 
     depart = parse_time(args.depart, where="--depart") if args.depart else None
     airframe = load_airframe(args.airframe)
@@ -314,7 +181,7 @@ def cmd_screen(args) -> int:
 
 
 def cmd_demo(args) -> int:
-    from .demo import run_demo
+    from icing.demo import run_demo
 
     out = Path(args.out)
     summaries, written = run_demo(out)
@@ -325,13 +192,13 @@ def cmd_demo(args) -> int:
 
 
 def cmd_profile(args) -> int:
-    from .pipeline import diagnose_point
+    from icing.runs.point import diagnose_point
 
     lat, lon = _latlon(args)
     forecast = _forecast(args)
     import numpy as np
 
-    from .route import parse_time
+    from icing.route import parse_time
 
     t = parse_time(args.time, where="--time") if args.time else None
     tt = None if t is None else np.datetime64(t.replace(tzinfo=None), "ms")  # UTC
@@ -370,16 +237,16 @@ def cmd_profile(args) -> int:
     for lv in result["levels"]:
         rows.append(
             [
-                _fmt(lv["pressure_hpa"], 0),
-                _fmt(lv["height_m"], 0),
-                _fmt(lv["temperature_c"], 1),
-                _fmt(lv["relative_humidity_pct"], 0),
+                format_number(lv["pressure_hpa"], 0),
+                format_number(lv["height_m"], 0),
+                format_number(lv["temperature_c"], 1),
+                format_number(lv["relative_humidity_pct"], 0),
                 "yes" if lv["cloud"] else "",
-                _fmt(lv["lwc_g_m3"], 3),
-                _fmt(lv["mvd_um"], 1),
+                format_number(lv["lwc_g_m3"], 3),
+                format_number(lv["mvd_um"], 1),
                 lv["sld"] if lv["sld"] != "none" else "",
-                _fmt(lv["collection_efficiency"], 2),
-                _fmt(lv["accretion_rate_mm_h"], 1),
+                format_number(lv["collection_efficiency"], 2),
+                format_number(lv["accretion_rate_mm_h"], 1),
                 lv["ice_type"] if lv["ice_type"] not in (None, "none") else "",
                 ("below ground" if lv["below_ground"] else (lv["severity"] or "")),
             ]
@@ -395,7 +262,7 @@ def cmd_profile(args) -> int:
 
 
 def cmd_airframes(args) -> int:
-    from .airframes import airframes_to_json, format_airframes, list_airframes
+    from icing.airframes import airframes_to_json, format_airframes, list_airframes
 
     frames = list_airframes()
     if args.json:

@@ -38,10 +38,10 @@ def run_demo(out) -> tuple[list[dict], list[Path]]:
     (summaries, written)
         The route summaries and the paths written.
     """
-    from .cli import write_outputs
-    from .forecast import load_forecast
-    from .pipeline import screen_route
-    from .route import load_routes
+    from icing.forecast.core import load_forecast
+    from icing.outputs.write import write_outputs
+    from icing.route import load_routes
+    from icing.runs.screen import screen_route
 
     out = Path(out)
     sc = demo_scenario()

@@ -11,7 +11,12 @@ the file and the likely fix, so that the CLI can print one actionable line.
 
 from __future__ import annotations
 
+import os
+import sys
+import warnings
+
 __all__ = [
+    "warn_plausibility",
     "IcingError",
     "InputError",
     "RouteError",
@@ -75,3 +80,12 @@ class IcingWarning(UserWarning):
 
 class PlausibilityWarning(IcingWarning):
     """A value is allowed but implausible (e.g. LWC above the 14 CFR 25 App. C maxima)."""
+
+
+def warn_plausibility(message):
+    """Warn with :class:`PlausibilityWarning` at the first caller outside ``icing``."""
+    package = os.path.dirname(os.path.abspath(__file__)) + os.sep
+    frame, level = sys._getframe(1), 2
+    while frame is not None and os.path.abspath(frame.f_code.co_filename).startswith(package):
+        frame, level = frame.f_back, level + 1
+    warnings.warn(message, PlausibilityWarning, stacklevel=level)

@@ -36,7 +36,7 @@ import numpy as np
 from icing import codes
 from icing.caution import CAUTION
 from icing.constants import FT
-from icing.results import Curtain, RouteScreening
+from icing.hazards.results import Curtain, RouteScreening
 
 __all__ = ["make_screening", "WAYPOINTS", "DECK_TOP_FT", "FREEZING_LEVEL_FT"]
 

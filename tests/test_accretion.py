@@ -23,17 +23,18 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from icing import accretion as acc
+from icing import calc as acc
 from icing import codes
 from icing.airframes import airframe_from_dict, list_airframes, load_airframe
-from icing.constants import CP_AIR, CP_WATER, EPSILON, LF0, LV0, PRANDTL_AIR, T0
-from icing.thermo import (
+from icing.calc import airframe as airframe_mod
+from icing.calc.thermo import (
     air_conductivity,
     air_density,
     air_viscosity,
     saturation_vapor_pressure,
     vapor_diffusivity,
 )
+from icing.constants import CP_AIR, CP_WATER, EPSILON, LF0, LV0, PRANDTL_AIR, T0
 
 
 # ---------------------------------------------------------------- recovery temperature
@@ -249,7 +250,7 @@ def test_broadcasting_to_one_shape():
     af = load_airframe("light-piston")
     res = acc.airframe_icing(af, lwc=np.full((3, 1), 3e-4), mvd=np.array([12e-6, 20e-6]),
                              temperature=263.15, pressure=7e4)
-    for name in acc._FIELDS:
+    for name in airframe_mod._FIELDS:
         assert getattr(res, name).shape == (3, 2), name
         for c in af.collectors:
             assert res.per_collector[c.name][name].shape == (3, 2)

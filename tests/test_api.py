@@ -18,9 +18,9 @@ def test_every_exported_name_resolves(name):
 
 
 def _modules():
-    for info in pkgutil.iter_modules(icing.__path__):
-        if not info.name.startswith("_"):
-            yield info.name
+    for info in pkgutil.walk_packages(icing.__path__, "icing."):
+        if not any(part.startswith("_") for part in info.name.split(".")):
+            yield info.name.removeprefix("icing.")
 
 
 @pytest.mark.parametrize("module", sorted(_modules()))

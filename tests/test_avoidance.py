@@ -15,9 +15,9 @@ import pytest
 from common_results import DECK_TOP_FT, FREEZING_LEVEL_FT, GAP_KM, make_screening
 
 from icing import codes
-from icing.avoidance import CANDIDATE_WORDING, annotate_segments, candidate_altitudes
 from icing.constants import FT
 from icing.errors import InputError
+from icing.hazards.avoidance import CANDIDATE_WORDING, annotate_segments, candidate_altitudes
 
 STEP = 1000.0
 

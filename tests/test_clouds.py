@@ -9,7 +9,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from metpy.units import units
 
-from icing import clouds, thermo
+from icing.calc import clouds, thermo
 
 T0 = 273.15
 

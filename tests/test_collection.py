@@ -21,8 +21,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from icing import collection as col
-from icing.thermo import air_density, air_viscosity
+from icing.calc import collection as col
+from icing.calc.thermo import air_density, air_viscosity
 
 P, T = 70000.0, 263.15  # a typical icing level (700 hPa, -10 C)
 
@@ -249,7 +249,7 @@ def test_e_grows_with_speed_within_range(d, D, u, factor, p, t):
 # ---------------------------------------------------------------- spectrum
 def test_spectrum_quadrature_uses_the_project_spectrum():
     # the droplet module's spectrum_bins is the one spectrum definition
-    from icing.droplets import spectrum_bins
+    from icing.calc.droplets import spectrum_bins
 
     d, f = spectrum_bins(20e-6, shape=2.0, n_bins=7)
     r, w = col.spectrum_quadrature(2.0, 7)

@@ -21,7 +21,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from icing import codes
-from icing.column import ColumnOptions, diagnose_columns
+from icing.calc.column import ColumnOptions, diagnose_columns
 from icing.errors import InputError
 
 T0 = 273.15

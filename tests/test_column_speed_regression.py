@@ -17,8 +17,8 @@ import numpy as np
 import pytest
 from common_columns import sld_drizzle_deck_column, sld_warm_nose_column, stack
 
-from icing import clouds, column, sld, thermo
-from icing.column import ColumnOptions, diagnose_columns
+from icing.calc import clouds, column, sld, thermo
+from icing.calc.column import ColumnOptions, diagnose_columns
 
 _BENCH = pathlib.Path(__file__).resolve().parents[1] / "benchmarks" / "columns.py"
 

@@ -15,7 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import special
 
-from icing.droplets import (
+from icing.calc.droplets import (
     AIR_MASSES,
     LANGMUIR_D_FRACTIONS,
     LANGMUIR_D_RATIOS,
@@ -32,7 +32,7 @@ from icing.droplets import (
     twomey_activation,
     water_surface_tension,
 )
-from icing.thermo import air_density, saturation_vapor_pressure
+from icing.calc.thermo import air_density, saturation_vapor_pressure
 
 
 # --------------------------------------------------------------------------------------
@@ -407,7 +407,7 @@ def test_kohler_closed_form_is_the_curve_maximum():
 
 
 def test_combined_mvd_limits_and_mass_balance():
-    from icing.droplets import combined_median_volume_diameter as cmvd
+    from icing.calc.droplets import combined_median_volume_diameter as cmvd
 
     # one population empty: the other's MVD (definition)
     assert float(cmvd(3e-4, 20e-6, 0.0, np.nan)) == pytest.approx(20e-6)
@@ -429,7 +429,7 @@ def test_combined_mvd_limits_and_mass_balance():
 @settings(max_examples=40, deadline=None)
 @given(lb=st.floats(1e-6, 1e-3), f=st.floats(1.1, 5.0))
 def test_combined_mvd_grows_with_the_large_drop_water(lb, f):
-    from icing.droplets import combined_median_volume_diameter as cmvd
+    from icing.calc.droplets import combined_median_volume_diameter as cmvd
 
     # physical law: more water in the large drops moves the median up
     assert cmvd(2e-4, 20e-6, lb * f, 200e-6) > cmvd(2e-4, 20e-6, lb, 200e-6)

@@ -19,7 +19,7 @@ import pytest
 import xarray as xr
 
 from icing.errors import ForecastError
-from icing.forecast import (
+from icing.forecast.core import (
     GAP_REASONS,
     ColumnSet,
     GridForecast,
@@ -68,7 +68,7 @@ def _grid_column(ds, name, lat, lon, time):
 
 
 def test_columns_use_the_keyword_names_of_diagnose_columns():
-    from icing.column import diagnose_columns
+    from icing.calc.column import diagnose_columns
 
     names = set(inspect.signature(diagnose_columns).parameters) - {"options"}
     for path in (LATLON, LCC, PROFILES):
@@ -560,7 +560,7 @@ def test_hypsometric_layer_thickness_against_metpy(tmp_path):
 
 
 def test_hypsometric_heights_without_surface_anchor(tmp_path):
-    from icing.thermo import standard_atmosphere_height
+    from icing.calc.thermo import standard_atmosphere_height
 
     doc = {"format": "icing-profiles", "version": 1, "profiles": [
         {"id": "X", "lat": 56.0, "lon": -28.0, "valid_time": "2027-01-14T12:00Z",
@@ -683,7 +683,7 @@ def test_size_one_extra_dimension_is_read_through(tmp_path):
 
 
 def test_blocks_are_cached_between_calls_and_reads_match_xarray(monkeypatch):
-    from icing.forecast_readers import GridFile
+    from icing.forecast.readers import GridFile
 
     lat, lon, t = [57.1, 59.3], [-24.3, -19.6], [T12, T18]
     fc = load_forecast(LATLON)

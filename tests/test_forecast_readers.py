@@ -15,8 +15,8 @@ import numpy as np
 import pytest
 
 from icing.errors import ForecastError, PlausibilityWarning
-from icing.forecast import load_forecast
-from icing.forecast_readers import parse_time, profile_schema
+from icing.forecast.core import load_forecast
+from icing.forecast.readers import parse_time, profile_schema
 
 ROOT = Path(__file__).resolve().parents[1]
 _spec = importlib.util.spec_from_file_location("make_fixtures", ROOT / "fixtures" /
@@ -401,7 +401,7 @@ def test_units_guessed_when_missing_are_stated(tmp_path):
 
 
 def test_specific_humidity_in_g_per_kg(tmp_path):
-    from icing.thermo import specific_humidity_from_relative_humidity
+    from icing.calc.thermo import specific_humidity_from_relative_humidity
 
     ds = _latlon_ds()
     p = ds["pressure"] * 100.0
@@ -430,7 +430,7 @@ def test_lead_time_files_with_different_units_are_refused(tmp_path):
     import xarray as xr
 
     from icing.errors import ForecastError
-    from icing.forecast import load_forecast
+    from icing.forecast.core import load_forecast
 
     with xr.open_dataset(ROOT / "fixtures" / "skerrow-latlon.nc") as ds:
         ds = ds.load()
@@ -446,7 +446,7 @@ def test_lead_time_files_with_different_units_are_refused(tmp_path):
 
 def test_profile_csv_row_with_extra_cells_is_one_line_error(tmp_path):
     from icing.errors import ForecastError
-    from icing.forecast import load_forecast
+    from icing.forecast.core import load_forecast
 
     src = (ROOT / "fixtures" / "skerrow-profiles.csv").read_text().splitlines()
     src[1] = src[1] + ",99,98"

@@ -16,8 +16,8 @@ import pytest
 import icing
 from icing import codes
 from icing.constants import FT
-from icing.pipeline import diagnose_point
 from icing.route import Route, Waypoint
+from icing.runs import diagnose_point
 
 ROOT = Path(__file__).resolve().parents[1]
 GOLDEN = ROOT / "fixtures" / "golden-columns.json"

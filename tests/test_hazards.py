@@ -12,7 +12,7 @@ import pytest
 
 from icing import codes
 from icing.caution import CAUTION
-from icing.hazards import (
+from icing.hazards.segments import (
     _geometry,
     build_segments,
     feature_collection,

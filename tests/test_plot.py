@@ -10,11 +10,11 @@ import pytest
 from common_results import make_screening
 
 from icing import codes
-from icing._io import replace_atomically
-from icing.avoidance import annotate_segments
 from icing.caution import CAUTION_SHORT
 from icing.errors import InputError
-from icing.plot import (
+from icing.hazards.avoidance import annotate_segments
+from icing.outputs.atomic import replace_atomically
+from icing.outputs.plot import (
     GAP_LABEL,
     SEVERITY_COLOURS,
     _near,
@@ -145,7 +145,7 @@ def test_nothing_half_written(tmp_path):
 
 
 def test_low_flights_get_a_closer_altitude_range():
-    from icing.plot import _altitude_top_ft
+    from icing.outputs.plot import _altitude_top_ft
 
     rows = np.arange(0.0, 12001.0, 500.0)
     # A drone at 400 ft: three times its height, at least 3,000 ft above it.

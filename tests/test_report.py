@@ -10,10 +10,10 @@ import matplotlib.image
 import pytest
 from common_results import make_screening
 
-from icing.avoidance import annotate_segments
 from icing.caution import CAUTION
 from icing.errors import InputError
-from icing.report import write_report
+from icing.hazards.avoidance import annotate_segments
+from icing.outputs.report import write_report
 
 FAST = {"dpi": 40}
 

@@ -23,10 +23,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from pyproj import Geod
 
+from icing.calc.thermo import standard_atmosphere_pressure
 from icing.constants import FT, KT
 from icing.errors import PlausibilityWarning, RouteError
 from icing.route import GROUND_SPEED_FLOOR, Route, RouteSamples, Waypoint, sample_route
-from icing.thermo import standard_atmosphere_pressure
 
 GEOD = Geod(ellps="WGS84")
 

@@ -17,8 +17,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from icing.accretion import airframe_icing
 from icing.airframes import load_airframe
+from icing.calc.airframe import airframe_icing
 from icing.codes import SEVERITY
 
 KT = 1852.0 / 3600.0

@@ -14,9 +14,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from icing import codes
-from icing.constants import CP_AIR, RD, T0
-from icing.droplets import marshall_palmer, marshall_palmer_from_lwc
-from icing.sld import (
+from icing.calc.droplets import marshall_palmer, marshall_palmer_from_lwc
+from icing.calc.sld import (
     DRIZZLE_LWC_MIN,
     FZDZ_DMAX,
     FZRA_DMAX,
@@ -25,6 +24,7 @@ from icing.sld import (
     diagnose_sld,
     khairoutdinov_kogan_autoconversion,
 )
+from icing.constants import CP_AIR, RD, T0
 
 PT = {name: i for i, name in enumerate(codes.PRECIP_TYPES)}
 
@@ -362,7 +362,7 @@ def test_appendix_o_class_words():
 
 def test_blocks_of_columns_give_the_same_answer(monkeypatch):
     # the column blocks that bound memory must not change any result
-    import icing.sld as sld_module
+    import icing.calc.sld as sld_module
 
     _, args, kw = _stacked()
     whole = diagnose_sld(*args, **kw)

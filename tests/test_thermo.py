@@ -22,7 +22,7 @@ from iapws._iapws import _Sublimation_Pressure
 from iapws.iapws97 import _PSat_T
 from metpy.units import units
 
-from icing import thermo
+from icing.calc import thermo
 
 VERSIONS = (f"iapws {iapws.__version__}, ambiance {version('ambiance')}, "
             f"metpy {metpy.__version__}")

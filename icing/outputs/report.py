@@ -18,10 +18,10 @@ import tempfile
 
 import numpy as np
 
-from ._io import replace_atomically
-from .caution import CAUTION
-from .errors import InputError
-from .plot import (
+from icing.caution import CAUTION
+from icing.errors import InputError
+from icing.outputs.atomic import replace_atomically
+from icing.outputs.plot import (
     GAP_LABEL,
     _check_output_path,
     plot_cross_section,

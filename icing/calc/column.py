@@ -29,9 +29,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import clouds, codes, droplets, sld, thermo
-from .constants import T0, T_HOMOGENEOUS
-from .errors import InputError
+from icing import codes
+from icing.calc import clouds, droplets, sld, thermo
+from icing.constants import T0, T_HOMOGENEOUS
+from icing.errors import InputError
 
 __all__ = ["ColumnOptions", "ColumnDiagnosis", "diagnose_columns"]
 

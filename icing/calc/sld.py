@@ -59,15 +59,15 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
-from . import codes
-from .constants import CP_AIR, RD, T0
-from .constants import IN_CLOUD_LWC as _IN_CLOUD_LWC
-from .droplets import (
+from icing import codes
+from icing.calc.droplets import (
     combined_median_volume_diameter,
     marshall_palmer,
     marshall_palmer_from_lwc,
 )
-from .thermo import air_density, ice_saturation_relative_humidity
+from icing.calc.thermo import air_density, ice_saturation_relative_humidity
+from icing.constants import CP_AIR, RD, T0
+from icing.constants import IN_CLOUD_LWC as _IN_CLOUD_LWC
 
 __all__ = [
     "SLDDiagnosis",

@@ -14,23 +14,20 @@ MultiLineString cut at +/-180 degrees (RFC 7946 section 3.1.9).
 
 from __future__ import annotations
 
-import math
 from datetime import UTC, datetime
 
 import numpy as np
 
-from . import codes
-from ._version import SCHEMA_VERSION, __version__
-from .caution import CAUTION, GAP_NOTE
-from .constants import FT
+from icing import codes
+from icing._version import SCHEMA_VERSION, __version__
+from icing.caution import CAUTION, GAP_NOTE
+from icing.constants import FT
 
 __all__ = [
     "segment_samples",
     "build_segments",
     "route_summary",
     "feature_collection",
-    "sample_table",
-    "SAMPLE_COLUMNS",
 ]
 
 KIND_ICING, KIND_GAP, KIND_CLEAR = "icing", "coverage-gap", "no-icing"
@@ -362,78 +359,3 @@ def feature_collection(screenings, *, provenance=None, assumptions=None) -> dict
         "provenance": prov,
         "assumptions": dict(assumptions or (screenings[0].assumptions if screenings else {})),
     }
-
-
-#: Columns of the per-sample audit table (``--samples OUT.csv``).
-SAMPLE_COLUMNS = [
-    "route",
-    "index",
-    "lat",
-    "lon",
-    "altitude_ft",
-    "altitude_msl_m",
-    "distance_km",
-    "time",
-    "dt_s",
-    "covered",
-    "gap_reason",
-    "pressure_hpa",
-    "temperature_c",
-    "relative_humidity_pct",
-    "cloud",
-    "lwc_g_m3",
-    "lwc_model_g_m3",
-    "lwc_diagnosed_g_m3",
-    "basis",
-    "droplet_number_cm3",
-    "mvd_um",
-    "glaciation",
-    "sld",
-    "sld_lwc_g_m3",
-    "sld_mvd_um",
-    "worst_collector",
-    "collection_efficiency",
-    "beta0",
-    "freezing_fraction",
-    "ice_type",
-    "ice_density_kg_m3",
-    "accretion_rate_mm_h",
-    "accretion_mm",
-    "severity",
-]
-
-
-def sample_table(screening) -> list[dict]:
-    """Return the per-sample audit rows (one dict per sample, SAMPLE_COLUMNS keys)."""
-    s, af = screening.samples, screening.at_flight
-    rows = []
-    n = len(s.lat)
-    for i in range(n):
-        sev = int(af["severity"][i])
-        row = {
-            "route": screening.route_name,
-            "index": i,
-            "lat": round(float(s.lat[i]), 6),
-            "lon": round(float(s.lon[i]), 6),
-            "time": _iso(s.time[i]),
-            "dt_s": round(float(s.dt_s[i]), 2),
-            "distance_km": round(float(s.distance_m[i]) / 1000.0, 3),
-            "covered": bool(af["covered"][i]) and sev != codes.GAP,
-            "gap_reason": af["gap_reason"][i],
-            "basis": codes.BASIS[int(af["basis"][i])],
-            "sld": codes.SLD_CLASSES[int(af["sld_class"][i])],
-            "ice_type": codes.ICE_TYPES[int(af["ice_type"][i])],
-            "severity": str(codes.words(sev, codes.SEVERITY, gap=KIND_GAP)),
-            "worst_collector": af["worst_collector"][i],
-            "cloud": bool(af["cloud"][i]),
-        }
-        for key in SAMPLE_COLUMNS:
-            if key not in row:
-                v = af.get(key)
-                if v is None:
-                    row[key] = ""
-                    continue
-                x = float(v[i])
-                row[key] = "" if not math.isfinite(x) else round(x, 5)
-        rows.append(row)
-    return rows

@@ -22,9 +22,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .constants import RHO_WATER, T0, G
-from .errors import ForecastError, PlausibilityWarning
-from .thermo import (
+from icing.calc.thermo import (
     height_from_pressure_hypsometric,
     relative_humidity_from_dewpoint,
     relative_humidity_from_specific_humidity,
@@ -32,6 +30,8 @@ from .thermo import (
     specific_humidity_from_relative_humidity,
     vapor_pressure_from_specific_humidity,
 )
+from icing.constants import RHO_WATER, T0, G
+from icing.errors import ForecastError, PlausibilityWarning
 
 __all__ = [
     "PROFILE_LEVEL_FIELDS",
@@ -170,8 +170,7 @@ def _merge_sources(tables):
 
 def profile_schema():
     """Return the JSON Schema (dict) of the profile input (``data/schemas/profiles-v1.json``)."""
-    return json.loads((Path(__file__).parent / "data" / "schemas" / "profiles-v1.json")
-                      .read_text())
+    return json.loads((Path(__file__).parents[1] / "data" / "schemas" / "profiles-v1.json").read_text())
 
 
 def _json_where(err_path):

@@ -43,9 +43,9 @@ import json
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
-from .constants import FT
-from .errors import RouteError
-from .route import (
+from icing.constants import FT
+from icing.errors import RouteError
+from icing.route.model import (
     ALTITUDE_REFERENCES,
     Route,
     Waypoint,
@@ -57,6 +57,8 @@ from .route import (
 )
 
 __all__ = [
+    "load_routes",
+    "load_route",
     "GPX_EXTENSION_NS",
     "read_routes",
     "read_geojson_routes",
@@ -546,4 +548,46 @@ def _gpx_route(el, points, q, path, where, point_tag):
     if not points:
         wheres = [where]
     return fields, wps, (lambda i: wheres[min(i, len(wheres) - 1)])
+
+
+def load_routes(path):
+    """Read every route in a GeoJSON, CSV or GPX file.
+
+    The format is chosen by content (``{`` JSON, ``<`` XML) and extension
+    (``.geojson``/``.json``, ``.csv``/``.txt``, ``.gpx``/``.xml``); see
+    the ``read_*_routes`` functions for what each format may carry.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The route file.
+
+    Returns
+    -------
+    list of Route
+        One or more routes, in file order.
+
+    Raises
+    ------
+    RouteError
+        The file is missing, empty, malformed or holds an unusable route; the
+        message names the file, the place and the fix.
+    """
+    return read_routes(path)
+
+
+def load_route(path):
+    """Read the single route of a file (see :func:`load_routes`).
+
+    Raises
+    ------
+    RouteError
+        Also when the file holds several routes (they are named).
+    """
+    routes = load_routes(path)
+    if len(routes) != 1:
+        names = ", ".join(repr(r.name) for r in routes)
+        raise RouteError(f"file holds {len(routes)} routes ({names}), one was expected",
+                         path=path, fix="use load_routes to read them all")
+    return routes[0]
 

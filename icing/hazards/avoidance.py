@@ -33,9 +33,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import codes
-from .constants import FT
-from .errors import InputError
+from icing import codes
+from icing.constants import FT
+from icing.errors import InputError
 
 __all__ = [
     "CANDIDATE_WORDING",
@@ -228,7 +228,7 @@ def candidate_altitudes(
     Examples
     --------
     >>> import numpy as np
-    >>> from icing.results import Curtain
+    >>> from icing.hazards.results import Curtain
     >>> alt = np.arange(0, 6001, 304.8)                       # every 1,000 ft
     >>> sev = np.where((alt > 1000) & (alt < 2500), 2, 0)[None, :].repeat(3, 0)
     >>> cur = Curtain(np.array([0.0, 1.0, 2.0]), alt, "msl", sev, np.zeros(sev.shape, bool),

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .constants import EPSILON, LAPSE_STD, LV0, P0_STD, RD, RV, T0_STD, G
+from icing.constants import EPSILON, LAPSE_STD, LV0, P0_STD, RD, RV, T0_STD, G
 
 __all__ = [
     "saturation_vapor_pressure",

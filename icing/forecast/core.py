@@ -36,9 +36,10 @@ from pathlib import Path
 
 import numpy as np
 
-from .constants import G
-from .errors import ForecastError
-from .forecast_readers import (
+from icing.calc.thermo import air_density, height_from_pressure_hypsometric
+from icing.constants import G
+from icing.errors import ForecastError
+from icing.forecast.readers import (
     VAR_KEYS,
     ProfileTable,
     fill_along_levels,
@@ -48,7 +49,6 @@ from .forecast_readers import (
     read_profiles_json,
     specific_humidity_of,
 )
-from .thermo import air_density, height_from_pressure_hypsometric
 
 __all__ = [
     "ColumnSet",

@@ -25,9 +25,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import thermo
-from .constants import IN_CLOUD_LWC as _IN_CLOUD_LWC
-from .constants import LS0, RD, RV, T0, T_HOMOGENEOUS, G
+from icing.calc import thermo
+from icing.constants import IN_CLOUD_LWC as _IN_CLOUD_LWC
+from icing.constants import LS0, RD, RV, T0, T_HOMOGENEOUS, G
 
 __all__ = [
     "IN_CLOUD_LWC",

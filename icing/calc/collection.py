@@ -38,8 +38,8 @@ import functools
 
 import numpy as np
 
-from .constants import RHO_WATER
-from .thermo import air_density, air_viscosity
+from icing.calc.thermo import air_density, air_viscosity
+from icing.constants import RHO_WATER
 
 __all__ = [
     "K_CRITICAL",
@@ -482,7 +482,7 @@ def spectrum_quadrature(shape=2.0, n_bins=7):
 
 @functools.lru_cache(maxsize=64)
 def _spectrum_quadrature_cached(shape, n_bins):
-    from .droplets import spectrum_bins
+    from icing.calc.droplets import spectrum_bins
 
     ratios, fractions = spectrum_bins(1.0, shape=shape, n_bins=n_bins)
     return np.asarray(ratios, float).reshape(-1), np.asarray(fractions, float).reshape(-1)

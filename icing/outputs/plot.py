@@ -31,11 +31,11 @@ from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 from matplotlib.ticker import FuncFormatter, MaxNLocator
 
-from . import codes
-from ._io import replace_atomically
-from .caution import CAUTION_SHORT
-from .constants import FT
-from .errors import InputError
+from icing import codes
+from icing.caution import CAUTION_SHORT
+from icing.constants import FT
+from icing.errors import InputError
+from icing.outputs.atomic import replace_atomically
 
 __all__ = [
     "SEVERITY_COLOURS",

@@ -24,8 +24,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
-from .constants import RHO_WATER, G
-from .thermo import air_density, air_viscosity
+from icing.calc.thermo import air_density, air_viscosity
+from icing.constants import RHO_WATER, G
 
 __all__ = [
     "terminal_velocity",

@@ -15,30 +15,13 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from . import codes
-from .caution import CAUTION
-from .constants import FT, IN_CLOUD_LWC, T0
-from .results import Curtain, RouteScreening
+from icing import codes
+from icing.caution import CAUTION
+from icing.constants import FT, T0
+from icing.hazards.readoff import icing_at, read_off, take_last, worst_over_candidates
+from icing.hazards.results import Curtain, RouteScreening
 
-__all__ = ["screen_route", "screen_routes", "read_off", "ScreenOptions", "diagnose_point"]
-
-#: Depth below a column's lowest level over which its values are held (near-surface air). [m]
-_EXTRAPOLATE_M = 300.0
-
-#: Fields of ColumnDiagnosis interpolated linearly in the vertical.
-_LINEAR = (
-    "temperature",
-    "relative_humidity",
-    "lwc",
-    "lwc_model",
-    "lwc_diagnosed",
-    "droplet_number",
-    "mvd",
-    "glaciation",
-    "sld_lwc",
-    "sld_mvd",
-)
-
+__all__ = ["ScreenOptions", "screen_route", "screen_routes"]
 
 @dataclass(frozen=True)
 class ScreenOptions:
@@ -76,134 +59,6 @@ class ScreenOptions:
         }
 
 
-def _vertical_coordinate(diag, reference):
-    """Monotonic vertical coordinate of the diagnosed levels: height, or -ln p."""
-    if reference == "pressure":
-        return -np.log(np.asarray(diag.pressure, float))
-    return np.asarray(diag.height, float)
-
-
-def read_off(diag, column_index, target, *, reference="msl"):
-    """Read diagnosed column fields off at target altitudes.
-
-    Parameters
-    ----------
-    diag : ColumnDiagnosis
-        Diagnosis of m columns, fields shaped (m, level).
-    column_index : ndarray of int, shape S
-        The column of every target (-1: none, which reads as invalid).
-    target : ndarray, shape S
-        Target height MSL [m] (``reference="msl"``) or pressure [Pa]
-        (``reference="pressure"``).
-    reference : {"msl", "pressure"}
-
-    Returns
-    -------
-    dict of ndarray, shape S
-        The ``_LINEAR`` fields interpolated linearly, ``sld_class`` the worse of the
-        two bracketing levels, ``basis`` of the level with more liquid, ``pressure``
-        log-linearly, ``valid`` (both levels valid, inside the column, column
-        present) and ``below_ground``.
-    """
-    z = _vertical_coordinate(diag, reference)  # (m, L)
-    m, nlev = z.shape
-    order = np.argsort(np.where(np.isfinite(z), z, np.inf), axis=-1)
-    zs = np.take_along_axis(z, order, -1)
-    ci = np.asarray(column_index)
-    present = ci >= 0
-    c = np.where(present, ci, 0)
-    tgt = np.asarray(target, float)
-    tz = -np.log(tgt) if reference == "pressure" else tgt
-    col_z = zs[c]  # S + (L,)
-    with np.errstate(invalid="ignore"):
-        above = np.sum(col_z <= tz[..., None], axis=-1)  # number of levels at or below
-    lo = np.clip(above - 1, 0, nlev - 2)
-    hi = lo + 1
-    z_lo = np.take_along_axis(col_z, lo[..., None], -1)[..., 0]
-    z_hi = np.take_along_axis(col_z, hi[..., None], -1)[..., 0]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        w = np.clip((tz - z_lo) / (z_hi - z_lo), 0.0, 1.0)
-    inside = present & np.isfinite(tz) & (tz >= z_lo) & (tz <= z_hi)
-    # Between the ground and the lowest forecast level the lowest level's values hold,
-    # over a limited depth only (a model's lowest level is its near-surface air).
-    z_min = col_z[..., 0]
-    depth = np.log(1.0 + _EXTRAPOLATE_M / 8000.0) if reference == "pressure" else _EXTRAPOLATE_M
-    near_base = present & np.isfinite(tz) & (tz < z_min) & (tz >= z_min - depth) & (lo == 0)
-    inside = inside | near_base
-    i_lo = np.take_along_axis(order[c], lo[..., None], -1)[..., 0]
-    i_hi = np.take_along_axis(order[c], hi[..., None], -1)[..., 0]
-
-    def pick(field):
-        a = np.asarray(field)
-        return a[c, i_lo], a[c, i_hi]
-
-    out = {}
-    for name in _LINEAR:
-        a, b = pick(getattr(diag, name))
-        a = np.asarray(a, float)
-        b = np.asarray(b, float)
-        if name in ("mvd", "sld_mvd", "droplet_number", "glaciation"):
-            # a size exists only where its population does: take the other level's size
-            a = np.where(np.isfinite(a), a, b)
-            b = np.where(np.isfinite(b), b, a)
-        else:
-            a = np.nan_to_num(a, nan=0.0) if name.startswith(("lwc", "sld_lwc")) else a
-            b = np.nan_to_num(b, nan=0.0) if name.startswith(("lwc", "sld_lwc")) else b
-        out[name] = a + w * (b - a)
-    pa, pb = pick(diag.pressure)
-    out["pressure"] = np.exp(np.log(pa) + w * (np.log(pb) - np.log(pa)))
-    ha, hb = pick(diag.height)
-    out["height"] = ha + w * (hb - ha)
-    sa, sb = pick(diag.sld_class)
-    # GAP (-1) marks an unusable level; validity is carried by ``valid`` below
-    out["sld_class"] = np.maximum(np.maximum(sa, sb), codes.SLD_NONE)
-    mu = np.broadcast_to(np.asarray(getattr(diag, "spectrum_shape", 2.0), float), z.shape)
-    mu_a, mu_b = pick(mu)
-    out["spectrum_shape"] = np.where(
-        np.isfinite(mu_a), mu_a, np.where(np.isfinite(mu_b), mu_b, 2.0)
-    )
-    ba, bb = pick(diag.basis)
-    la, lb = pick(diag.lwc)
-    out["basis"] = np.where(np.nan_to_num(la) >= np.nan_to_num(lb), ba, bb)
-    va, vb = pick(diag.valid)
-    ga, gb = pick(diag.below_ground)
-    out["below_ground"] = present & (ga & ((w < 0.5) | gb))
-    out["valid"] = inside & va & vb & ~out["below_ground"]
-    out["cloud"] = out["lwc"] >= IN_CLOUD_LWC
-    return out
-
-
-def _icing_at(airframe, state, airspeed):
-    from .accretion import airframe_icing
-
-    result = airframe_icing(
-        airframe,
-        lwc=np.where(state["valid"], state["lwc"], np.nan),
-        mvd=state["mvd"],
-        temperature=state["temperature"],
-        pressure=state["pressure"],
-        spectrum_shape=state.get("spectrum_shape", 2.0),
-        sld_lwc=np.nan_to_num(state["sld_lwc"]),
-        sld_mvd=state["sld_mvd"],
-        sld_class=state["sld_class"],
-        airspeed=airspeed,
-        relative_humidity=np.clip(np.nan_to_num(state["relative_humidity"], nan=1.0), 0, 1.2),
-    )
-    sev = np.where(state["valid"], result.severity, codes.GAP)
-    return result, sev
-
-
-def _worst_over_candidates(sev, rate):
-    """Index of the worst candidate along the last axis (severity, then rate)."""
-    score = np.where(sev == codes.GAP, -1e12, sev * 1e6 + np.nan_to_num(rate))
-    return np.argmax(score, axis=-1)
-
-
-def _take(a, k):
-    a = np.asarray(a)
-    return np.take_along_axis(a, k[..., None], -1)[..., 0]
-
-
 def _flight_targets(samples, ground):
     """Vertical target of each sample and the coordinate it is matched on.
 
@@ -213,7 +68,7 @@ def _flight_targets(samples, ground):
     """
     alt = np.asarray(samples.altitude_m, float)
     if samples.altitude_reference == "pressure":
-        from .thermo import standard_atmosphere_pressure
+        from icing.calc.thermo import standard_atmosphere_pressure
 
         return standard_atmosphere_pressure(alt), "pressure"
     if samples.altitude_reference == "agl":
@@ -275,13 +130,13 @@ def screen_route(
         Samples, per-sample values at the flight altitude, the altitude curtain,
         GeoJSON segments (each with the caution) and the summary.
     """
-    from .airframes import load_airframe
-    from .avoidance import CANDIDATE_WORDING, annotate_segments
-    from .column import ColumnOptions, diagnose_columns
-    from .forecast import load_forecast
-    from .hazards import build_segments, route_summary
-    from .route import load_route, sample_route
-    from .thermo import standard_atmosphere_pressure
+    from icing.airframes import load_airframe
+    from icing.calc.column import ColumnOptions, diagnose_columns
+    from icing.calc.thermo import standard_atmosphere_pressure
+    from icing.forecast.core import load_forecast
+    from icing.hazards.avoidance import CANDIDATE_WORDING, annotate_segments
+    from icing.hazards.segments import build_segments, route_summary
+    from icing.route import load_route, sample_route
 
     options = options or ScreenOptions()
     if step_km is not None:
@@ -324,12 +179,12 @@ def screen_route(
     state["below_ground"] = state["below_ground"] | under
     state["valid"] = state["valid"] & ~under
     tas_ms = np.broadcast_to(np.asarray(samples.tas, float)[:, None, None], tgt.shape)
-    result, sev = _icing_at(airframe, state, tas_ms)
-    kbest = _worst_over_candidates(sev, result.accretion_rate_mm_h)  # (n, a+1)
+    result, sev = icing_at(airframe, state, tas_ms)
+    kbest = worst_over_candidates(sev, result.accretion_rate_mm_h)  # (n, a+1)
 
     def best(a):
         """Return the worst candidate's value, (n, a+1)."""
-        return _take(np.broadcast_to(a, sev.shape), kbest)
+        return take_last(np.broadcast_to(a, sev.shape), kbest)
 
     at = _at_flight(samples, colset, diag, state, result, best(sev), best, airframe, ci)
     at["altitude_msl_m"] = best(state["height"])[:, -1] if vref == "pressure" else target_flight
@@ -482,7 +337,7 @@ def _provenance(forecast, samples):
     prov = dict(forecast.describe())
     times = np.asarray(samples.time)
     if times.size:
-        from .hazards import _iso
+        from icing.hazards.segments import _iso
 
         prov["route_time_window"] = [_iso(times.min()), _iso(times.max())]
     return prov
@@ -490,7 +345,7 @@ def _provenance(forecast, samples):
 
 def _assumptions(column_options, options, forecast, airframe):
     out = {"column": column_options.describe(), "screening": options.describe()}
-    from .accretion import assumptions as collector_assumptions
+    from icing.calc.airframe import assumptions as collector_assumptions
 
     out["collectors"] = collector_assumptions()
     desc = forecast.describe()
@@ -523,86 +378,3 @@ def screen_routes(routes, forecast, *, airframe, progress=None, **kwargs) -> lis
     return out
 
 
-def diagnose_point(forecast, lat, lon, time=None, *, airframe=None, column_options=None):
-    """Diagnose the forecast column at one point, level by level (``icing profile``).
-
-    Returns
-    -------
-    dict
-        ``levels`` (list of dicts per level, ascending height), ``candidates`` used,
-        ``covered``, ``gap_reason``; the worst candidate column is shown.
-    """
-    from .airframes import load_airframe
-    from .column import ColumnOptions, diagnose_columns
-
-    column_options = column_options or ColumnOptions()
-    if time is None:
-        time = np.asarray(forecast.valid_times)[0]
-    t = np.array([np.datetime64(time, "ms")])
-    colset = forecast.columns_at(np.array([float(lat)]), np.array([float(lon)]), t)
-    if not bool(np.asarray(colset.covered)[0]):
-        return {
-            "covered": False,
-            "gap_reason": str(np.asarray(colset.gap_reason)[0]),
-            "levels": [],
-        }
-    diag = diagnose_columns(**colset.columns, options=column_options)
-    cands = np.array([c for c in np.asarray(colset.candidates)[0] if c >= 0])
-    af = load_airframe(airframe) if isinstance(airframe, str) else airframe
-    # every candidate column read off at its own levels: the same read-off as a route
-    height = np.asarray(diag.height, float)[cands]  # (k, L)
-    ci = np.broadcast_to(cands[:, None], height.shape)
-    state = read_off(diag, ci, height)
-    res = sev = None
-    if af is not None:
-        res, sev = _icing_at(af, state, af.cruise_tas)
-        worst = np.where(sev == codes.GAP, -1, sev).max(axis=1)
-    else:
-        worst = np.zeros(len(cands))
-    # the worst candidate: highest severity, then most liquid in the column
-    k = int(np.lexsort((np.nansum(state["lwc"], axis=1), worst))[-1])
-    c = int(cands[k])
-    levels = []
-    for i in np.argsort(height[k]):
-        row = {
-            "pressure_hpa": _r(diag.pressure[c, i] / 100.0, 2),
-            "height_m": _r(diag.height[c, i], 1),
-            "temperature_c": _r(diag.temperature[c, i] - T0, 2),
-            "relative_humidity_pct": _r(diag.relative_humidity[c, i] * 100, 1),
-            "cloud": bool(diag.cloud[c, i]),
-            "lwc_g_m3": _r(np.nan_to_num(diag.lwc[c, i]) * 1000, 4),
-            "basis": str(codes.words(diag.basis[c, i], codes.BASIS, gap="coverage-gap")),
-            "droplet_number_cm3": _r(diag.droplet_number[c, i] / 1e6, 1),
-            "mvd_um": _r(diag.mvd[c, i] * 1e6, 2),
-            "glaciation": _r(diag.glaciation[c, i], 3),
-            "sld": str(codes.words(diag.sld_class[c, i], codes.SLD_CLASSES, gap="coverage-gap")),
-            "below_ground": bool(diag.below_ground[c, i]),
-            "valid": bool(diag.valid[c, i]),
-            "collection_efficiency": None,
-            "accretion_rate_mm_h": None,
-            "ice_type": None,
-            "severity": None,
-        }
-        if res is not None:
-            row.update(
-                collection_efficiency=_r(res.collection_efficiency[k, i], 4),
-                accretion_rate_mm_h=_r(res.accretion_rate_mm_h[k, i], 3),
-                ice_type=codes.ICE_TYPES[int(res.ice_type[k, i])],
-                severity=str(codes.words(sev[k, i], codes.SEVERITY, gap="coverage-gap")),
-            )
-        levels.append(row)
-    return {
-        "covered": True,
-        "gap_reason": "",
-        "candidates": len(cands),
-        "levels": levels,
-        "precip_type": codes.PRECIP_TYPES[int(diag.precip_type[c])],
-        "freezing_level_m": _r(diag.freezing_level[c], 1),
-        "warnings": list(diag.warnings),
-        "airframe": None if af is None else af.name,
-    }
-
-
-def _r(x, nd):
-    x = float(x)
-    return round(x, nd) if np.isfinite(x) else None

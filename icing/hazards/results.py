@@ -108,7 +108,7 @@ class RouteScreening:
 
     def to_geojson(self) -> dict:
         """Return this route's hazard segments as a GeoJSON FeatureCollection dict."""
-        from .hazards import feature_collection
+        from icing.hazards.segments import feature_collection
 
         return feature_collection([self])
 
