@@ -73,11 +73,15 @@ def main(argv=None):
     rate = n * m / t_table
     print(f"airframe {af.name}: {m} collectors, {n:,} points, spectrum integrated (7 bins)")
     print(f"  table method : {t_table:8.3f} s   {rate / 1e6:6.2f} M point-collectors/s")
-    print(f"  direct sum   : {t_direct:8.3f} s   {n * m / t_direct / 1e6:6.2f} M "
-          f"point-collectors/s   (table is {t_direct / t_table:5.1f}x faster)")
-    print(f"  Python loop  : {t_loop:8.1f} s   {n * m / t_loop / 1e6:6.4f} M "
-          f"point-collectors/s   (scaled from 1,000 points; table is {t_loop / t_table:7.0f}x"
-          " faster)")
+    print(
+        f"  direct sum   : {t_direct:8.3f} s   {n * m / t_direct / 1e6:6.2f} M "
+        f"point-collectors/s   (table is {t_direct / t_table:5.1f}x faster)"
+    )
+    print(
+        f"  Python loop  : {t_loop:8.1f} s   {n * m / t_loop / 1e6:6.4f} M "
+        f"point-collectors/s   (scaled from 1,000 points; table is {t_loop / t_table:7.0f}x"
+        " faster)"
+    )
     print(f"  target > 1 M point-collectors/s: {'met' if rate > 1e6 else 'NOT met'}")
 
 

@@ -52,9 +52,14 @@ def make_columns(n, seed=2027):
         rh = np.where((lev >= base) & (lev < base + depth), 1.0, rh)
     w = rng.normal(0.0, 0.3, (n, N_LEVELS))
     ql = np.where(rh >= 1.0, rng.uniform(0.0, 3e-4, (n, N_LEVELS)), 0.0)
-    return {"pressure": np.broadcast_to(p, (n, N_LEVELS)), "temperature": t,
-            "relative_humidity": rh, "vertical_velocity": w, "cloud_liquid": ql,
-            "precipitation_rate_mm_h": rng.uniform(0.0, 2.0, n)}
+    return {
+        "pressure": np.broadcast_to(p, (n, N_LEVELS)),
+        "temperature": t,
+        "relative_humidity": rh,
+        "vertical_velocity": w,
+        "cloud_liquid": ql,
+        "precipitation_rate_mm_h": rng.uniform(0.0, 2.0, n),
+    }
 
 
 def metpy_loop(cols, idx, *, with_parcel_profile=False):
@@ -74,8 +79,9 @@ def metpy_loop(cols, idx, *, with_parcel_profile=False):
             pb = p[start - 1] if start > 0 else p[start]
             tb = t[start - 1] if start > 0 else t[start]
             pl = p[start:stop]
-            tp = mpcalc.moist_lapse(pl * units.Pa, tb * units.K,
-                                    reference_pressure=pb * units.Pa).m_as("K")
+            tp = mpcalc.moist_lapse(
+                pl * units.Pa, tb * units.K, reference_pressure=pb * units.Pa
+            ).m_as("K")
             rs_b = mpcalc.saturation_mixing_ratio(pb * units.Pa, tb * units.K).m
             rs = mpcalc.saturation_mixing_ratio(pl * units.Pa, tp * units.K).m
             lwc[start:stop] = np.maximum(rs_b - rs, 0) * pl / (287.0 * t[start:stop])
@@ -91,8 +97,10 @@ def _timed(fn, repeats):
         fn()
         walls.append(time.perf_counter() - w0)
         cpus.append(time.process_time() - c0)
-    return ({"median": statistics.median(walls), "min": min(walls)},
-            {"median": statistics.median(cpus), "min": min(cpus)})
+    return (
+        {"median": statistics.median(walls), "min": min(walls)},
+        {"median": statistics.median(cpus), "min": min(cpus)},
+    )
 
 
 def _untraced_bytes(diag):
@@ -128,8 +136,11 @@ def main(n=100_000, n_sub=200, repeats=5):
     wall_pp, cpu_pp = _timed(lambda: metpy_loop(cols, idx[:50], with_parcel_profile=True), 1)
 
     # what merely writing the outputs once costs on this machine (fresh pages)
-    out_bytes = sum(np.asarray(v).nbytes for v in vars(diagnose_columns(**sub)).values()
-                    if isinstance(v, np.ndarray)) * (n / n_sub)
+    out_bytes = sum(
+        np.asarray(v).nbytes
+        for v in vars(diagnose_columns(**sub)).values()
+        if isinstance(v, np.ndarray)
+    ) * (n / n_sub)
 
     def touch():  # fresh memory taken the way diagnose_columns takes its outputs
         buf = _empty_output((int(out_bytes) // 8,), float)
@@ -140,24 +151,38 @@ def main(n=100_000, n_sub=200, repeats=5):
     d = diagnose_columns(**sub)
     med, best = cpu_ours["median"], cpu_ours["min"]
     loop = cpu_loop["median"] / n_sub
-    print(f"columns: {n} x {N_LEVELS} levels; cloudy levels {np.mean(d.cloud):.1%} "
-          f"(subsample); median (min) of {repeats} runs")
-    print(f"diagnose_columns, one call: wall {wall_ours['median']:.2f} s "
-          f"({wall_ours['min']:.2f}), CPU {med:.2f} s ({best:.2f}) "
-          f"= {med / n * 1e6:.1f} us CPU per column")
-    print(f"  of which writing {out_bytes / 2**20:.0f} MiB of outputs into fresh memory "
-          f"costs here alone: CPU {cpu_touch['median']:.2f} s (page faults)")
-    print(f"peak memory: traced {peak / 2**20:.0f} MiB (tracemalloc, plus the mapped "
-          f"outputs); process max RSS: {rss_mb:.0f} MiB")
-    print(f"MetPy per-column loop (moist_lapse per cloud layer), the same {n_sub} columns: "
-          f"wall {wall_loop['median']:.2f} s, CPU {cpu_loop['median']:.2f} s "
-          f"({cpu_loop['min']:.2f}) = {loop * 1e3:.2f} ms CPU per column")
-    print(f"  ratio per column, medians: CPU {loop / (med / n):.0f}x, wall "
-          f"{wall_loop['median'] / n_sub / (wall_ours['median'] / n):.0f}x; "
-          f"minima: CPU {cpu_loop['min'] / n_sub / (best / n):.0f}x  (target >= 100x)")
-    print(f"MetPy loop adding parcel_profile (50 columns): "
-          f"{cpu_pp['median'] / 50 * 1e3:.2f} ms CPU per column, ratio "
-          f"{cpu_pp['median'] / 50 / (med / n):.0f}x")
+    print(
+        f"columns: {n} x {N_LEVELS} levels; cloudy levels {np.mean(d.cloud):.1%} "
+        f"(subsample); median (min) of {repeats} runs"
+    )
+    print(
+        f"diagnose_columns, one call: wall {wall_ours['median']:.2f} s "
+        f"({wall_ours['min']:.2f}), CPU {med:.2f} s ({best:.2f}) "
+        f"= {med / n * 1e6:.1f} us CPU per column"
+    )
+    print(
+        f"  of which writing {out_bytes / 2**20:.0f} MiB of outputs into fresh memory "
+        f"costs here alone: CPU {cpu_touch['median']:.2f} s (page faults)"
+    )
+    print(
+        f"peak memory: traced {peak / 2**20:.0f} MiB (tracemalloc, plus the mapped "
+        f"outputs); process max RSS: {rss_mb:.0f} MiB"
+    )
+    print(
+        f"MetPy per-column loop (moist_lapse per cloud layer), the same {n_sub} columns: "
+        f"wall {wall_loop['median']:.2f} s, CPU {cpu_loop['median']:.2f} s "
+        f"({cpu_loop['min']:.2f}) = {loop * 1e3:.2f} ms CPU per column"
+    )
+    print(
+        f"  ratio per column, medians: CPU {loop / (med / n):.0f}x, wall "
+        f"{wall_loop['median'] / n_sub / (wall_ours['median'] / n):.0f}x; "
+        f"minima: CPU {cpu_loop['min'] / n_sub / (best / n):.0f}x  (target >= 100x)"
+    )
+    print(
+        f"MetPy loop adding parcel_profile (50 columns): "
+        f"{cpu_pp['median'] / 50 * 1e3:.2f} ms CPU per column, ratio "
+        f"{cpu_pp['median'] / 50 / (med / n):.0f}x"
+    )
     worst_gb = max(peak / 2**30, rss_mb / 1024)
     print(f"memory target < 2 GB: {'met' if worst_gb < 2 else 'MISSED'} ({worst_gb:.2f} GB)")
 

@@ -69,8 +69,9 @@ def _warm_up():
     p = np.array([[100000.0, 85000.0, 70000.0]])
     t = np.array([[275.0, 268.0, 258.0]])
     d = icing.diagnose_columns(p, t, relative_humidity=np.ones_like(p))
-    icing.airframe_icing(icing.load_airframe("twin-turboprop"), lwc=d.lwc, mvd=d.mvd,
-                         temperature=t, pressure=p)
+    icing.airframe_icing(
+        icing.load_airframe("twin-turboprop"), lwc=d.lwc, mvd=d.mvd, temperature=t, pressure=p
+    )
 
 
 def _one(path, nroutes):
@@ -95,9 +96,15 @@ def _one(path, nroutes):
     t_screen = t_first + time.perf_counter() - t1
     rss_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
     samples = sum(len(r.samples.lat) for r in res)
-    return {"open_s": t_open, "setup_s": t_setup, "first_s": t_first, "screen_s": t_screen,
-            "peak_rss_mb": rss_mb,
-            "samples": samples, "km": sum(r.summary["distance_km"] for r in res)}
+    return {
+        "open_s": t_open,
+        "setup_s": t_setup,
+        "first_s": t_first,
+        "screen_s": t_screen,
+        "peak_rss_mb": rss_mb,
+        "samples": samples,
+        "km": sum(r.summary["distance_km"] for r in res),
+    }
 
 
 def _run(path, nroutes, repeat=1):
@@ -106,7 +113,9 @@ def _run(path, nroutes, repeat=1):
     for _ in range(repeat):
         out = subprocess.run(
             [sys.executable, __file__, "--one", str(path), str(nroutes)],
-            capture_output=True, text=True, check=True,
+            capture_output=True,
+            text=True,
+            check=True,
         )
         runs.append(json.loads(out.stdout.strip().splitlines()[-1]))
     runs.sort(key=lambda r: r["first_s"])
@@ -118,8 +127,11 @@ def main(argv=None):
     p.add_argument("--quick", action="store_true")
     p.add_argument("--workdir", default=None)
     p.add_argument("--keep", action="store_true")
-    p.add_argument("--finer", action="store_true",
-                   help="also time a 10x file that is finer over the same area")
+    p.add_argument(
+        "--finer",
+        action="store_true",
+        help="also time a 10x file that is finer over the same area",
+    )
     p.add_argument("--one", nargs=2, help=argparse.SUPPRESS)
     a = p.parse_args(argv)
     if a.one:
@@ -135,8 +147,12 @@ def main(argv=None):
     lat0, lat1, lon0, lon1 = DOMAIN
     grow = 10**0.5  # 10x the area at the same grid spacing
     clat, clon = (lat0 + lat1) / 2, (lon0 + lon1) / 2
-    wide = (clat - (lat1 - lat0) * grow / 2, clat + (lat1 - lat0) * grow / 2,
-            clon - (lon1 - lon0) * grow / 2, clon + (lon1 - lon0) * grow / 2)
+    wide = (
+        clat - (lat1 - lat0) * grow / 2,
+        clat + (lat1 - lat0) * grow / 2,
+        clon - (lon1 - lon0) * grow / 2,
+        clon + (lon1 - lon0) * grow / 2,
+    )
     n0, n1 = 300 // div, 949 // div  # 949^2 ~ 10 x 300^2 points
     base = work / f"grid-{n0}.nc"
     big = work / f"grid-{n1}-wide.nc"
@@ -146,8 +162,10 @@ def main(argv=None):
         if not path.exists():
             t0 = time.perf_counter()
             make_grid_file(path, n, n, 30, 5, domain=dom)
-            print(f"wrote {path.name}: {n}x{n}x30x5, {path.stat().st_size / 1e6:.0f} MB "
-                  f"in {time.perf_counter() - t0:.1f} s")
+            print(
+                f"wrote {path.name}: {n}x{n}x30x5, {path.stat().st_size / 1e6:.0f} MB "
+                f"in {time.perf_counter() - t0:.1f} s"
+            )
     # One untimed pass over each file first, so that every file is timed with the
     # operating system's file cache in the same (warm) state; the forecast's own block
     # cache starts empty in every timed process.
@@ -156,21 +174,29 @@ def main(argv=None):
     one = _run(base, 1, repeat=REPEAT)
     many = _run(base, 100)
     large = _run(big, 1, repeat=REPEAT)
-    print(f"\n1 route  ({one['km']:.0f} km, {one['samples']} samples): "
-          f"{one['first_s']:.3f} s after open, block cache empty "
-          f"({one['open_s']:.2f} s to open; one-time process set-up {one['setup_s']:.2f} s), "
-          f"peak {one['peak_rss_mb']:.0f} MB   target < 1 s")
-    print(f"100 routes ({many['samples']} samples): {many['screen_s']:.2f} s, "
-          f"peak {many['peak_rss_mb']:.0f} MB   target < 30 s; "
-          f"ratio to 100 x the first route: {many['screen_s'] / (100 * one['first_s']):.2f}")
-    print(f"1 route, 10x larger file (10x the area, same spacing): {large['first_s']:.3f} s, "
-          f"peak {large['peak_rss_mb']:.0f} MB; ratio to the baseline file: "
-          f"{large['first_s'] / one['first_s']:.2f}   target < 1.5")
+    print(
+        f"\n1 route  ({one['km']:.0f} km, {one['samples']} samples): "
+        f"{one['first_s']:.3f} s after open, block cache empty "
+        f"({one['open_s']:.2f} s to open; one-time process set-up {one['setup_s']:.2f} s), "
+        f"peak {one['peak_rss_mb']:.0f} MB   target < 1 s"
+    )
+    print(
+        f"100 routes ({many['samples']} samples): {many['screen_s']:.2f} s, "
+        f"peak {many['peak_rss_mb']:.0f} MB   target < 30 s; "
+        f"ratio to 100 x the first route: {many['screen_s'] / (100 * one['first_s']):.2f}"
+    )
+    print(
+        f"1 route, 10x larger file (10x the area, same spacing): {large['first_s']:.3f} s, "
+        f"peak {large['peak_rss_mb']:.0f} MB; ratio to the baseline file: "
+        f"{large['first_s'] / one['first_s']:.2f}   target < 1.5"
+    )
     if a.finer:
         fin = _run(fine, 1, repeat=REPEAT)
-        print(f"1 route, 10x larger file (same area, 3.2x finer spacing; the route crosses "
-              f"~3x more cells): {fin['first_s']:.3f} s; ratio to the baseline file: "
-              f"{fin['first_s'] / one['first_s']:.2f}   (informational)")
+        print(
+            f"1 route, 10x larger file (same area, 3.2x finer spacing; the route crosses "
+            f"~3x more cells): {fin['first_s']:.3f} s; ratio to the baseline file: "
+            f"{fin['first_s'] / one['first_s']:.2f}   (informational)"
+        )
     if not a.keep and a.workdir is None:
         for f, _, _ in files:
             f.unlink(missing_ok=True)

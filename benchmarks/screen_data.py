@@ -41,8 +41,7 @@ _SURFACE_VARS = {
 }
 
 
-def make_grid_file(path, nx, ny, nlev, ntimes, *, compress=False, rows_per_block=32,
-                   domain=None):
+def make_grid_file(path, nx, ny, nlev, ntimes, *, compress=False, rows_per_block=32, domain=None):
     """Write a synthetic Skerrow Basin CF-NetCDF forecast of the given size.
 
     Parameters
@@ -86,8 +85,12 @@ def make_grid_file(path, nx, ny, nlev, ntimes, *, compress=False, rows_per_block
         with netCDF4.Dataset(tmp, "w", format="NETCDF4") as nc:
             nc.Conventions = "CF-1.8"
             nc.title = "Skerrow Basin synthetic benchmark forecast (invented)"
-            for name, size in (("time", ntimes), ("pressure", nlev), ("latitude", ny),
-                               ("longitude", nx)):
+            for name, size in (
+                ("time", ntimes),
+                ("pressure", nlev),
+                ("latitude", ny),
+                ("longitude", nx),
+            ):
                 nc.createDimension(name, size)
             v = nc.createVariable("time", "f8", ("time",))
             v.units, v.standard_name = "hours since 2027-01-14 00:00:00", "time"
@@ -103,13 +106,22 @@ def make_grid_file(path, nx, ny, nlev, ntimes, *, compress=False, rows_per_block
             v[:] = lons
             out = {}
             for name, (_, std, units) in _LEVEL_VARS.items():
-                out[name] = nc.createVariable(name, "f4", ("time", "pressure", "latitude",
-                                                           "longitude"), chunksizes=chunks,
-                                              **opts)
+                out[name] = nc.createVariable(
+                    name,
+                    "f4",
+                    ("time", "pressure", "latitude", "longitude"),
+                    chunksizes=chunks,
+                    **opts,
+                )
                 out[name].standard_name, out[name].units = std, units
             for name, (_, std, units) in _SURFACE_VARS.items():
-                out[name] = nc.createVariable(name, "f4", ("time", "latitude", "longitude"),
-                                              chunksizes=chunks[:1] + chunks[2:], **opts)
+                out[name] = nc.createVariable(
+                    name,
+                    "f4",
+                    ("time", "latitude", "longitude"),
+                    chunksizes=chunks[:1] + chunks[2:],
+                    **opts,
+                )
                 out[name].standard_name, out[name].units = std, units
             v = nc.createVariable("orog", "f4", ("latitude", "longitude"))
             v.standard_name, v.units = "surface_altitude", "m"
@@ -119,14 +131,16 @@ def make_grid_file(path, nx, ny, nlev, ntimes, *, compress=False, rows_per_block
                 for r0 in range(0, ny, rows_per_block):
                     r1 = min(r0 + rows_per_block, ny)
                     lon2, lat2 = np.meshgrid(lons, lats[r0:r1])
-                    cols = mf.skerrow_columns(lat2.ravel(), lon2.ravel(), time_index,
-                                              levels_hpa=levels)
+                    cols = mf.skerrow_columns(
+                        lat2.ravel(), lon2.ravel(), time_index, levels_hpa=levels
+                    )
                     for name, (key, _, _) in _LEVEL_VARS.items():
                         a = cols[key].reshape(r1 - r0, nx, nlev)
                         out[name][it, :, r0:r1, :] = np.moveaxis(a, -1, 0).astype(np.float32)
                     out["sp"][it, r0:r1, :] = cols["surface_pressure"].reshape(r1 - r0, nx)
-                    out["prate"][it, r0:r1, :] = (cols["precipitation_rate_mm_h"] / 3600.0
-                                                  ).reshape(r1 - r0, nx)
+                    out["prate"][it, r0:r1, :] = (
+                        cols["precipitation_rate_mm_h"] / 3600.0
+                    ).reshape(r1 - r0, nx)
         os.replace(tmp, path)
     finally:
         tmp.unlink(missing_ok=True)

@@ -69,76 +69,124 @@ __all__ = [
     "airframes_to_json",
 ]
 
-_OPTIONAL_COLLECTOR = ("protection", "critical", "ice_tolerance_mm", "catch_factor",
-                       "description")
-_AIRFRAME_KEYS = ("name", "description", "true_airspeed_kt", "ceiling_ft", "ice_protection",
-                  "ice_tolerance_mm", "collectors", "reference", "min_altitude_ft",
-                  "max_altitude_agl_ft")
-
+_OPTIONAL_COLLECTOR = ("protection", "critical", "ice_tolerance_mm", "catch_factor", "description")
+_AIRFRAME_KEYS = (
+    "name",
+    "description",
+    "true_airspeed_kt",
+    "ceiling_ft",
+    "ice_protection",
+    "ice_tolerance_mm",
+    "collectors",
+    "reference",
+    "min_altitude_ft",
+    "max_altitude_agl_ft",
+)
 
 
 def _number(table, key, path, where, *, positive=True, required=True, default=None):
     if key not in table:
         if required:
-            raise AirframeError(f"missing key {key!r}", path=path, where=where,
-                                fix=f"add {key} = <number>")
+            raise AirframeError(
+                f"missing key {key!r}", path=path, where=where, fix=f"add {key} = <number>"
+            )
         return default
     v = table[key]
     if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
-        raise AirframeError(f"{key!r} must be a number, got {v!r}", path=path, where=where,
-                            fix=f"write {key} = <number>")
+        raise AirframeError(
+            f"{key!r} must be a number, got {v!r}",
+            path=path,
+            where=where,
+            fix=f"write {key} = <number>",
+        )
     if positive and v <= 0:
-        raise AirframeError(f"{key!r} must be positive, got {v!r}", path=path, where=where,
-                            fix=f"give a positive {key}")
+        raise AirframeError(
+            f"{key!r} must be positive, got {v!r}",
+            path=path,
+            where=where,
+            fix=f"give a positive {key}",
+        )
     return float(v)
 
 
 def _protection(value, path, where, key):
     if value not in PROTECTIONS:
-        raise AirframeError(f"{key!r} must be one of {', '.join(PROTECTIONS)}, got {value!r}",
-                            path=path, where=where, fix=f'write {key} = "none"')
+        raise AirframeError(
+            f"{key!r} must be one of {', '.join(PROTECTIONS)}, got {value!r}",
+            path=path,
+            where=where,
+            fix=f'write {key} = "none"',
+        )
     return value
 
 
 def _collector_from_dict(t, path, where):
     if not isinstance(t, dict):
-        raise AirframeError("a collector must be a table", path=path, where=where,
-                            fix="write each collector as a [[collectors]] table")
+        raise AirframeError(
+            "a collector must be a table",
+            path=path,
+            where=where,
+            fix="write each collector as a [[collectors]] table",
+        )
     if "name" not in t or not isinstance(t["name"], str) or not t["name"]:
-        raise AirframeError("missing key 'name'", path=path, where=where,
-                            fix='add name = "<collector name>"')
+        raise AirframeError(
+            "missing key 'name'", path=path, where=where, fix='add name = "<collector name>"'
+        )
     where = f"{where} ({t['name']})"
     shape = t.get("shape")
     if shape is None:
-        raise AirframeError("missing key 'shape'", path=path, where=where,
-                            fix=f"add shape = one of {', '.join(SHAPES)}")
+        raise AirframeError(
+            "missing key 'shape'",
+            path=path,
+            where=where,
+            fix=f"add shape = one of {', '.join(SHAPES)}",
+        )
     if shape not in SHAPES:
-        raise AirframeError(f"unknown shape {shape!r}", path=path, where=where,
-                            fix=f"use shape = one of {', '.join(SHAPES)}")
+        raise AirframeError(
+            f"unknown shape {shape!r}",
+            path=path,
+            where=where,
+            fix=f"use shape = one of {', '.join(SHAPES)}",
+        )
     allowed = set(SHAPES[shape]) | set(_OPTIONAL_COLLECTOR) | {"name", "shape"}
     unknown = sorted(set(t) - allowed)
     if unknown:
-        raise AirframeError(f"unknown key {unknown[0]!r} for shape {shape!r}", path=path,
-                            where=where,
-                            fix=f"use only {', '.join(sorted(allowed))}")
+        raise AirframeError(
+            f"unknown key {unknown[0]!r} for shape {shape!r}",
+            path=path,
+            where=where,
+            fix=f"use only {', '.join(sorted(allowed))}",
+        )
     kw = {k: _number(t, k, path, where) for k in SHAPES[shape]}
     if shape != "cylinder" and not kw["thickness_ratio"] < 1.0:
-        raise AirframeError(f"'thickness_ratio' must be below 1, got {kw['thickness_ratio']}",
-                            path=path, where=where, fix="give t/c as a fraction, e.g. 0.12")
+        raise AirframeError(
+            f"'thickness_ratio' must be below 1, got {kw['thickness_ratio']}",
+            path=path,
+            where=where,
+            fix="give t/c as a fraction, e.g. 0.12",
+        )
     if "protection" in t:
         kw["protection"] = _protection(t["protection"], path, where, "protection")
     if "critical" in t:
         if not isinstance(t["critical"], bool):
-            raise AirframeError("'critical' must be true or false", path=path, where=where,
-                                fix="write critical = true")
+            raise AirframeError(
+                "'critical' must be true or false",
+                path=path,
+                where=where,
+                fix="write critical = true",
+            )
         kw["critical"] = t["critical"]
     if "ice_tolerance_mm" in t:
         kw["ice_tolerance_mm"] = _number(t, "ice_tolerance_mm", path, where)
     if "catch_factor" in t:
         kw["catch_factor"] = _number(t, "catch_factor", path, where)
         if kw["catch_factor"] > 1.0:
-            raise AirframeError("'catch_factor' must be at most 1", path=path, where=where,
-                                fix="give a factor in (0, 1]")
+            raise AirframeError(
+                "'catch_factor' must be at most 1",
+                path=path,
+                where=where,
+                fix="give a factor in (0, 1]",
+            )
     if "description" in t:
         kw["description"] = str(t["description"])
     return Collector(name=t["name"], shape=shape, **kw)
@@ -154,48 +202,86 @@ def airframe_from_dict(table: dict, *, path=None, source=None) -> Airframe:
     """
     where0 = "airframe"
     if not isinstance(table, dict):
-        raise AirframeError("an airframe must be a table", path=path, where=where0,
-                            fix="write the airframe keys at the top of the file")
+        raise AirframeError(
+            "an airframe must be a table",
+            path=path,
+            where=where0,
+            fix="write the airframe keys at the top of the file",
+        )
     name = table.get("name")
     if not isinstance(name, str) or not name:
-        raise AirframeError("missing key 'name'", path=path, where=where0,
-                            fix='add name = "<airframe name>"')
+        raise AirframeError(
+            "missing key 'name'", path=path, where=where0, fix='add name = "<airframe name>"'
+        )
     where = f"airframe {name!r}"
     unknown = sorted(set(table) - set(_AIRFRAME_KEYS))
     if unknown:
-        raise AirframeError(f"unknown key {unknown[0]!r}", path=path, where=where,
-                            fix=f"use only {', '.join(_AIRFRAME_KEYS)}")
+        raise AirframeError(
+            f"unknown key {unknown[0]!r}",
+            path=path,
+            where=where,
+            fix=f"use only {', '.join(_AIRFRAME_KEYS)}",
+        )
     tas = _number(table, "true_airspeed_kt", path, where, positive=False)
     if tas < 0:
-        raise AirframeError(f"'true_airspeed_kt' must be >= 0, got {tas}", path=path,
-                            where=where, fix="give the cruise true airspeed in knots")
+        raise AirframeError(
+            f"'true_airspeed_kt' must be >= 0, got {tas}",
+            path=path,
+            where=where,
+            fix="give the cruise true airspeed in knots",
+        )
     tol = _number(table, "ice_tolerance_mm", path, where)
     ceiling = _number(table, "ceiling_ft", path, where, required=False)
     prot = _protection(table.get("ice_protection", "none"), path, where, "ice_protection")
     cols = table.get("collectors")
     if not cols:
-        raise AirframeError("missing key 'collectors'", path=path, where=where,
-                            fix='add at least one [[collectors]] table with name and shape')
+        raise AirframeError(
+            "missing key 'collectors'",
+            path=path,
+            where=where,
+            fix="add at least one [[collectors]] table with name and shape",
+        )
     if not isinstance(cols, list):
-        raise AirframeError("'collectors' must be an array of tables", path=path, where=where,
-                            fix="write each collector as a [[collectors]] table")
-    collectors = tuple(_collector_from_dict(c, path, f"collectors[{i}]")
-                       for i, c in enumerate(cols))
+        raise AirframeError(
+            "'collectors' must be an array of tables",
+            path=path,
+            where=where,
+            fix="write each collector as a [[collectors]] table",
+        )
+    collectors = tuple(
+        _collector_from_dict(c, path, f"collectors[{i}]") for i, c in enumerate(cols)
+    )
     names = [c.name for c in collectors]
     dup = sorted({n for n in names if names.count(n) > 1})
     if dup:
-        raise AirframeError(f"duplicate collector name {dup[0]!r}", path=path, where=where,
-                            fix="give every collector its own name")
+        raise AirframeError(
+            f"duplicate collector name {dup[0]!r}",
+            path=path,
+            where=where,
+            fix="give every collector its own name",
+        )
     if not any(c.critical for c in collectors):
-        raise AirframeError("no collector is critical", path=path, where=where,
-                            fix="set critical = true on the collector that sets severity")
+        raise AirframeError(
+            "no collector is critical",
+            path=path,
+            where=where,
+            fix="set critical = true on the collector that sets severity",
+        )
     ref = table.get("reference", names[0])
     if ref not in names:
-        raise AirframeError(f"'reference' names no collector: {ref!r}", path=path,
-                            where=where, fix=f"use one of {', '.join(names)}")
+        raise AirframeError(
+            f"'reference' names no collector: {ref!r}",
+            path=path,
+            where=where,
+            fix=f"use one of {', '.join(names)}",
+        )
     if not collectors[names.index(ref)].critical:
-        raise AirframeError(f"the reference collector {ref!r} is not critical", path=path,
-                            where=where, fix="name a critical collector as reference")
+        raise AirframeError(
+            f"the reference collector {ref!r} is not critical",
+            path=path,
+            where=where,
+            fix="name a critical collector as reference",
+        )
     return Airframe(
         name=name,
         description=str(table.get("description", "")),
@@ -205,10 +291,10 @@ def airframe_from_dict(table: dict, *, path=None, source=None) -> Airframe:
         ice_tolerance_mm=tol,
         collectors=collectors,
         reference=ref,
-        min_altitude_ft=_number(table, "min_altitude_ft", path, where, positive=False,
-                                required=False),
-        max_altitude_agl_ft=_number(table, "max_altitude_agl_ft", path, where,
-                                    required=False),
+        min_altitude_ft=_number(
+            table, "min_altitude_ft", path, where, positive=False, required=False
+        ),
+        max_altitude_agl_ft=_number(table, "max_altitude_agl_ft", path, where, required=False),
         source=source or "preset",
     )
 
@@ -218,11 +304,19 @@ def _read_toml(path):
         with open(path, "rb") as fh:
             return tomllib.load(fh)
     except tomllib.TOMLDecodeError as exc:
-        raise AirframeError(f"not valid TOML ({exc})", path=path, where=None,
-                            fix="check the quoting and brackets near the named line") from None
+        raise AirframeError(
+            f"not valid TOML ({exc})",
+            path=path,
+            where=None,
+            fix="check the quoting and brackets near the named line",
+        ) from None
     except OSError as exc:
-        raise AirframeError(f"cannot read the file ({exc.strerror})", path=path, where=None,
-                            fix="give an existing airframe file or a preset name") from None
+        raise AirframeError(
+            f"cannot read the file ({exc.strerror})",
+            path=path,
+            where=None,
+            fix="give an existing airframe file or a preset name",
+        ) from None
 
 
 _PRESETS: dict | None = None
@@ -284,16 +378,25 @@ def load_airframe(name_or_path) -> Airframe:
         if "airframes" in table and "name" not in table:  # the preset file's layout
             frames = table["airframes"]
             if not isinstance(frames, list) or len(frames) != 1:
-                names = [f.get("name", "?") for f in frames if isinstance(f, dict)] \
-                    if isinstance(frames, list) else []
+                names = (
+                    [f.get("name", "?") for f in frames if isinstance(f, dict)]
+                    if isinstance(frames, list)
+                    else []
+                )
                 raise AirframeError(
                     f"the file holds {len(names)} [[airframes]] tables ({', '.join(names)})",
-                    path=str(p), where="airframes",
-                    fix="keep one airframe per file (or its keys at the top level)")
+                    path=str(p),
+                    where="airframes",
+                    fix="keep one airframe per file (or its keys at the top level)",
+                )
             table = frames[0]
         return airframe_from_dict(table, path=str(p), source=str(p))
-    raise AirframeError(f"unknown airframe {s!r}", path=None, where="airframe",
-                        fix=f"use a preset ({', '.join(presets)}) or a .toml airframe file")
+    raise AirframeError(
+        f"unknown airframe {s!r}",
+        path=None,
+        where="airframe",
+        fix=f"use a preset ({', '.join(presets)}) or a .toml airframe file",
+    )
 
 
 def airframes_to_json(airframes) -> list[dict]:
@@ -309,20 +412,26 @@ def format_airframes(airframes) -> str:
     >>> print(format_airframes(list_airframes()[:1]).splitlines()[0].split()[0])
     airframe
     """
-    head = (f"{'airframe':<18} {'TAS kt':>6} {'ceiling ft':>10} {'protection':<10} "
-            f"{'tol mm':>6}  collectors (equivalent diameter mm, speed m/s at cruise)")
+    head = (
+        f"{'airframe':<18} {'TAS kt':>6} {'ceiling ft':>10} {'protection':<10} "
+        f"{'tol mm':>6}  collectors (equivalent diameter mm, speed m/s at cruise)"
+    )
     lines = [head, "-" * len(head)]
     for a in airframes:
         parts = []
         for c in a.collectors:
             mark = "*" if c.name == a.reference else ""
             prot = c.protection or a.ice_protection
-            parts.append(f"{mark}{c.name} [{c.shape}, D {c.diameter * 1e3:.1f}, "
-                         f"{float(c.speed(a.cruise_tas)):.0f}, {prot}"
-                         f"{'' if c.critical else ', non-critical'}]")
+            parts.append(
+                f"{mark}{c.name} [{c.shape}, D {c.diameter * 1e3:.1f}, "
+                f"{float(c.speed(a.cruise_tas)):.0f}, {prot}"
+                f"{'' if c.critical else ', non-critical'}]"
+            )
         ceiling = "-" if a.ceiling_ft is None else f"{a.ceiling_ft:.0f}"
-        lines.append(f"{a.name:<18} {a.true_airspeed_kt:>6.0f} {ceiling:>10} "
-                     f"{a.ice_protection:<10} {a.ice_tolerance_mm:>6.1f}  {parts[0]}")
+        lines.append(
+            f"{a.name:<18} {a.true_airspeed_kt:>6.0f} {ceiling:>10} "
+            f"{a.ice_protection:<10} {a.ice_tolerance_mm:>6.1f}  {parts[0]}"
+        )
         lines.extend(" " * 57 + p for p in parts[1:])
     lines.append("* reference collector")
     return "\n".join(lines)

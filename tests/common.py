@@ -59,8 +59,9 @@ SINGLE_POINT_ROUTE = Route(
 )
 
 #: A route without waypoints (never valid).
-EMPTY_ROUTE = Route(name="empty", waypoints=(), departure_time=DEPARTURE,
-                    true_airspeed_kt=150.0, source="fixture")
+EMPTY_ROUTE = Route(
+    name="empty", waypoints=(), departure_time=DEPARTURE, true_airspeed_kt=150.0, source="fixture"
+)
 
 
 def write_text(directory, name, text, *, encoding="utf-8"):

@@ -31,11 +31,25 @@ def warm_nose_column():
     """
     p = PRESSURE_40
     ph = p / 100.0
-    tc = _interp_profile(ph, [(1000, -3.0), (930, -1.0), (850, 3.0), (780, 0.0),
-                              (700, -6.0), (500, -22.0), (300, -48.0)])
+    tc = _interp_profile(
+        ph,
+        [
+            (1000, -3.0),
+            (930, -1.0),
+            (850, 3.0),
+            (780, 0.0),
+            (700, -6.0),
+            (500, -22.0),
+            (300, -48.0),
+        ],
+    )
     rh = _interp_profile(ph, [(1000, 0.95), (900, 1.0), (600, 1.0), (550, 0.6), (300, 0.3)])
-    return {"pressure": p, "temperature": tc + T0, "relative_humidity": rh,
-            "precipitation_rate_mm_h": 2.0}
+    return {
+        "pressure": p,
+        "temperature": tc + T0,
+        "relative_humidity": rh,
+        "precipitation_rate_mm_h": 2.0,
+    }
 
 
 def cold_dry_column():
@@ -60,14 +74,20 @@ def supercooled_stratiform_deck():
     """
     p = PRESSURE_40
     ph = p / 100.0
-    tc = _interp_profile(ph, [(1000, 1.0), (900, -4.0), (800, -11.0), (780, -9.0),
-                              (500, -30.0), (300, -52.0)])
-    rh = _interp_profile(ph, [(1000, 0.8), (910, 0.9), (900, 1.0), (800, 1.0), (780, 0.5),
-                              (300, 0.3)])
+    tc = _interp_profile(
+        ph, [(1000, 1.0), (900, -4.0), (800, -11.0), (780, -9.0), (500, -30.0), (300, -52.0)]
+    )
+    rh = _interp_profile(
+        ph, [(1000, 0.8), (910, 0.9), (900, 1.0), (800, 1.0), (780, 0.5), (300, 0.3)]
+    )
     inside = (ph <= 900.0) & (ph >= 800.0)
-    return {"pressure": p, "temperature": tc + T0, "relative_humidity": rh,
-            "cloud_liquid": np.where(inside, 1e-4, 0.0),
-            "vertical_velocity": np.where(inside, 0.05, 0.0)}
+    return {
+        "pressure": p,
+        "temperature": tc + T0,
+        "relative_humidity": rh,
+        "cloud_liquid": np.where(inside, 1e-4, 0.0),
+        "vertical_velocity": np.where(inside, 0.05, 0.0),
+    }
 
 
 def warm_topped_drizzle_deck():
@@ -79,10 +99,21 @@ def warm_topped_drizzle_deck():
     """
     p = PRESSURE_40
     ph = p / 100.0
-    tc = _interp_profile(ph, [(1000, 2.0), (950, -1.0), (850, -6.0), (830, -2.0),
-                              (700, -8.0), (500, -26.0), (300, -50.0)])
-    rh = _interp_profile(ph, [(1000, 0.85), (955, 0.95), (950, 1.0), (850, 1.0), (835, 0.4),
-                              (300, 0.2)])
+    tc = _interp_profile(
+        ph,
+        [
+            (1000, 2.0),
+            (950, -1.0),
+            (850, -6.0),
+            (830, -2.0),
+            (700, -8.0),
+            (500, -26.0),
+            (300, -50.0),
+        ],
+    )
+    rh = _interp_profile(
+        ph, [(1000, 0.85), (955, 0.95), (950, 1.0), (850, 1.0), (835, 0.4), (300, 0.2)]
+    )
     return {"pressure": p, "temperature": tc + T0, "relative_humidity": rh}
 
 
@@ -93,24 +124,33 @@ def deep_frontal_deck_with_ice():
     """
     p = PRESSURE_40
     ph = p / 100.0
-    tc = _interp_profile(ph, [(1000, -8.0), (700, -20.0), (600, -25.0), (450, -32.0),
-                              (300, -50.0)])
-    rh = _interp_profile(ph, [(1000, 0.8), (710, 0.9), (700, 1.0), (450, 1.0), (400, 0.8),
-                              (300, 0.7)])
+    tc = _interp_profile(
+        ph, [(1000, -8.0), (700, -20.0), (600, -25.0), (450, -32.0), (300, -50.0)]
+    )
+    rh = _interp_profile(
+        ph, [(1000, 0.8), (710, 0.9), (700, 1.0), (450, 1.0), (400, 0.8), (300, 0.7)]
+    )
     aloft = ph <= 500.0
-    return {"pressure": p, "temperature": tc + T0, "relative_humidity": rh,
-            "snow": np.where(aloft, 2e-4, 0.0), "cloud_ice": np.where(aloft, 5e-5, 0.0),
-            "vertical_velocity": np.full(p.shape, 0.1)}
+    return {
+        "pressure": p,
+        "temperature": tc + T0,
+        "relative_humidity": rh,
+        "snow": np.where(aloft, 2e-4, 0.0),
+        "cloud_ice": np.where(aloft, 5e-5, 0.0),
+        "vertical_velocity": np.full(p.shape, 0.1),
+    }
 
 
 def thin_minus8_deck():
     """A thin deck topped near -8 C (880-860 hPa saturated), dry above, no ice aloft."""
     p = PRESSURE_40
     ph = p / 100.0
-    tc = _interp_profile(ph, [(1000, 0.0), (880, -6.5), (860, -8.0), (840, -6.0),
-                              (500, -30.0), (300, -52.0)])
-    rh = _interp_profile(ph, [(1000, 0.8), (890, 0.9), (880, 1.0), (860, 1.0), (850, 0.5),
-                              (300, 0.3)])
+    tc = _interp_profile(
+        ph, [(1000, 0.0), (880, -6.5), (860, -8.0), (840, -6.0), (500, -30.0), (300, -52.0)]
+    )
+    rh = _interp_profile(
+        ph, [(1000, 0.8), (890, 0.9), (880, 1.0), (860, 1.0), (850, 0.5), (300, 0.3)]
+    )
     return {"pressure": p, "temperature": tc + T0, "relative_humidity": rh}
 
 
@@ -125,8 +165,9 @@ def stack(*columns):
     out = {}
     for k in sorted(keys):
         shape = () if k in per_column else np.shape(columns[0]["pressure"])
-        out[k] = np.stack([np.broadcast_to(np.asarray(c.get(k, 0.0), float), shape)
-                           for c in columns])
+        out[k] = np.stack(
+            [np.broadcast_to(np.asarray(c.get(k, 0.0), float), shape) for c in columns]
+        )
     return out
 
 
@@ -163,9 +204,13 @@ def sld_warm_nose_column(*, cold_layer="shallow", precipitation_rate_mm_h=1.0):
     tc = np.interp(z, [0.0, base, base + 750.0, top], [t_sfc, 0.0, 3.0, 0.0])
     tc = np.where(z > top, -6.5e-3 * (z - top), tc)
     t = tc + T0
-    return {"pressure": _hydrostatic_pressure(z, t), "height": z, "temperature": t,
-            "relative_humidity": np.where(z > top, 1.0, 0.97),
-            "precipitation_rate_mm_h": float(precipitation_rate_mm_h)}
+    return {
+        "pressure": _hydrostatic_pressure(z, t),
+        "height": z,
+        "temperature": t,
+        "relative_humidity": np.where(z > top, 1.0, 0.97),
+        "precipitation_rate_mm_h": float(precipitation_rate_mm_h),
+    }
 
 
 def sld_drizzle_deck_column(*, top_c=-6.0, lwc_top_g_m3=0.8, ice_above_g_kg=0.0):
@@ -191,6 +236,12 @@ def sld_drizzle_deck_column(*, top_c=-6.0, lwc_top_g_m3=0.8, ice_above_g_kg=0.0)
     ice = np.where((z >= 1100.0) & (z <= 2000.0), ice_above_g_kg * 1e-3, 0.0)
     rh = np.where(in_cloud, 1.0, np.where(z < base, 0.9, np.where(ice > 0.0, 0.95, 0.4)))
     lwc = np.where(in_cloud, lwc_top_g_m3 * 1e-3 * (z - base) / (top - base), 0.0)
-    return {"pressure": p, "height": z, "temperature": t, "relative_humidity": rh,
-            "cloud_liquid": lwc / (p / (RD * t)), "cloud_ice": ice,
-            "precipitation_rate_mm_h": 0.0}
+    return {
+        "pressure": p,
+        "height": z,
+        "temperature": t,
+        "relative_humidity": rh,
+        "cloud_liquid": lwc / (p / (RD * t)),
+        "cloud_ice": ice,
+        "precipitation_rate_mm_h": 0.0,
+    }

@@ -93,8 +93,9 @@ def test_freezing_fraction_anderson_form_by_hand(case):
     theta = T0 - t - v**2 / (2 * CP_AIR) + LV0 * m_e / h_c
     b = m * CP_WATER / h_c
     expected = CP_WATER / LF0 * (phi + theta / b)
-    got = acc.freezing_fraction(t, v, pressure=p, lwc=lwc, beta0=beta0, cylinder_diameter=d,
-                                relative_humidity=rh)
+    got = acc.freezing_fraction(
+        t, v, pressure=p, lwc=lwc, beta0=beta0, cylinder_diameter=d, relative_humidity=rh
+    )
     assert float(got) == pytest.approx(expected, rel=1e-9)
 
 
@@ -105,8 +106,11 @@ def test_freezing_fraction_closes_the_energy_balance(case):
     # water to 0 C. Residual relative to the fusion term: rounding only.
     t, v, p, lwc, beta0, d, rh = case
     h_c, m_e, m = _hand_terms(*case)
-    n0 = float(acc.freezing_fraction(t, v, pressure=p, lwc=lwc, beta0=beta0,
-                                     cylinder_diameter=d, relative_humidity=rh))
+    n0 = float(
+        acc.freezing_fraction(
+            t, v, pressure=p, lwc=lwc, beta0=beta0, cylinder_diameter=d, relative_humidity=rh
+        )
+    )
     t_r = t + v**2 / (2 * CP_AIR)
     gains = n0 * m * LF0 + m * v**2 / 2
     losses = h_c * (T0 - t_r) + m_e * LV0 + m * CP_WATER * (T0 - t)
@@ -139,8 +143,9 @@ def test_evaporation_keeps_freezing_just_above_zero_in_dry_air():
 
 
 @settings(max_examples=100, deadline=None)
-@given(st.floats(238.15, 272.15), st.floats(10.0, 200.0), st.floats(5e-5, 2e-3),
-       st.floats(1.05, 3.0))
+@given(
+    st.floats(238.15, 272.15), st.floats(10.0, 200.0), st.floats(5e-5, 2e-3), st.floats(1.05, 3.0)
+)
 def test_freezing_fraction_falls_with_more_water(t, v, lwc, factor):
     # physical law: more water per unit of heat removal freezes a smaller fraction
     # where the air removes heat (theta > 0: below the recovery point)
@@ -157,8 +162,9 @@ def test_surface_temperature_closes_the_dry_balance():
     from icing.constants import LS0
 
     t, v, p, lwc, beta0, d = 253.15, 50.0, 6e4, 2e-4, 0.6, 0.04
-    ts = float(acc.surface_temperature(t, v, pressure=p, lwc=lwc, beta0=beta0,
-                                       cylinder_diameter=d))
+    ts = float(
+        acc.surface_temperature(t, v, pressure=p, lwc=lwc, beta0=beta0, cylinder_diameter=d)
+    )
     assert t < ts < T0
     h_c, _, m = _hand_terms(t, v, p, lwc, beta0, d, 1.0)
     rho = air_density(p, t)
@@ -172,8 +178,9 @@ def test_surface_temperature_closes_the_dry_balance():
 
 
 def test_surface_temperature_is_zero_in_wet_growth():
-    ts = acc.surface_temperature(271.15, 60.0, pressure=8.5e4, lwc=8e-4, beta0=0.8,
-                                 cylinder_diameter=0.04)
+    ts = acc.surface_temperature(
+        271.15, 60.0, pressure=8.5e4, lwc=8e-4, beta0=0.8, cylinder_diameter=0.04
+    )
     assert float(ts) == T0
 
 
@@ -211,8 +218,13 @@ def test_density_bridge_is_continuous_and_reaches_solid_ice():
 
 
 @settings(max_examples=200, deadline=None)
-@given(st.floats(5e-6, 2e-3), st.floats(0.0, 300.0), st.floats(230.0, 273.15), st.booleans(),
-       st.sampled_from(["makkonen", "macklin"]))
+@given(
+    st.floats(5e-6, 2e-3),
+    st.floats(0.0, 300.0),
+    st.floats(230.0, 273.15),
+    st.booleans(),
+    st.sampled_from(["makkonen", "macklin"]),
+)
 def test_density_in_range(mvd, v0, ts, glaze, model):
     # bounds: never below ~100 kg/m3, never above solid ice (917)
     rho = float(acc.ice_density(mvd, v0, ts, glaze=glaze, model=model))
@@ -248,8 +260,13 @@ STRAT = dict(lwc=3e-4, mvd=20e-6, temperature=263.15, pressure=7e4)
 
 def test_broadcasting_to_one_shape():
     af = load_airframe("light-piston")
-    res = acc.airframe_icing(af, lwc=np.full((3, 1), 3e-4), mvd=np.array([12e-6, 20e-6]),
-                             temperature=263.15, pressure=7e4)
+    res = acc.airframe_icing(
+        af,
+        lwc=np.full((3, 1), 3e-4),
+        mvd=np.array([12e-6, 20e-6]),
+        temperature=263.15,
+        pressure=7e4,
+    )
     for name in airframe_mod._FIELDS:
         assert getattr(res, name).shape == (3, 2), name
         for c in af.collectors:
@@ -278,8 +295,9 @@ def test_nan_input_is_a_gap_never_none():
 def test_below_in_cloud_threshold_is_none():
     # Korolev et al. (2003): < 0.01 g/m3 is not in cloud -> none, never trace
     af = load_airframe("small-multirotor")
-    res = acc.airframe_icing(af, lwc=[0.009e-3, 0.011e-3], mvd=15e-6, temperature=263.15,
-                             pressure=8e4)
+    res = acc.airframe_icing(
+        af, lwc=[0.009e-3, 0.011e-3], mvd=15e-6, temperature=263.15, pressure=8e4
+    )
     assert res.severity.tolist()[0] == codes.SEV_NONE
     assert res.severity.tolist()[1] >= codes.SEV_TRACE
 
@@ -312,13 +330,15 @@ def test_identities_of_the_rates():
     pc = res.per_collector[c.name]
     v = af.cruise_tas
     assert float(pc["mass_rate"]) == pytest.approx(
-        float(pc["collection_efficiency"]) * 3e-4 * v * c.diameter, rel=1e-12)
+        float(pc["collection_efficiency"]) * 3e-4 * v * c.diameter, rel=1e-12
+    )
     n0 = float(pc["freezing_fraction"])
     assert n0 >= 1.0  # rime at -18 C, 62 m/s: the rime density path
     stag = float(pc["beta0"]) * 3e-4 * v * min(n0, 1.0) / float(pc["ice_density"]) * 3.6e6
     assert float(pc["accretion_rate_mm_h"]) == pytest.approx(stag, rel=1e-12)
     assert float(pc["time_to_tolerance_min"]) == pytest.approx(
-        60 * af.ice_tolerance_mm / stag, rel=1e-12)
+        60 * af.ice_tolerance_mm / stag, rel=1e-12
+    )
 
 
 def test_runback_is_flagged_in_wet_growth():
@@ -333,8 +353,9 @@ def test_runback_is_flagged_in_wet_growth():
 def test_hovering_multirotor_ices_on_its_rotor_not_its_arm():
     # a hovering multirotor has ~0 airspeed; its blades still meet the air at omega r
     af = load_airframe("small-multirotor")
-    res = acc.airframe_icing(af, airspeed=0.0, lwc=2e-4, mvd=15e-6, temperature=265.15,
-                             pressure=9e4)
+    res = acc.airframe_icing(
+        af, airspeed=0.0, lwc=2e-4, mvd=15e-6, temperature=265.15, pressure=9e4
+    )
     assert float(res.per_collector["propeller"]["collection_efficiency"]) > 0.9
     assert float(res.per_collector["arm"]["collection_efficiency"]) == 0.0
     assert af.collectors[int(res.worst_collector)].name == "propeller"
@@ -342,13 +363,17 @@ def test_hovering_multirotor_ices_on_its_rotor_not_its_arm():
 
 
 def test_worst_collector_and_non_critical_collectors():
-    af = airframe_from_dict({
-        "name": "probe-test", "true_airspeed_kt": 100, "ice_tolerance_mm": 10,
-        "collectors": [
-            {"name": "wing", "shape": "airfoil", "chord_m": 1.5, "thickness_ratio": 0.15},
-            {"name": "wire", "shape": "cylinder", "diameter_m": 0.003, "critical": False},
-        ],
-    })
+    af = airframe_from_dict(
+        {
+            "name": "probe-test",
+            "true_airspeed_kt": 100,
+            "ice_tolerance_mm": 10,
+            "collectors": [
+                {"name": "wing", "shape": "airfoil", "chord_m": 1.5, "thickness_ratio": 0.15},
+                {"name": "wire", "shape": "cylinder", "diameter_m": 0.003, "critical": False},
+            ],
+        }
+    )
     res = acc.airframe_icing(af, **STRAT)
     assert int(res.worst_collector) == 0  # the wire catches more but is not critical
     wire = res.per_collector["wire"]
@@ -361,10 +386,20 @@ def test_sld_raises_severity(name):
     # ours: SLD impinge aft of the protected areas (AIM: severe)
     af = load_airframe(name)
     v = 150 * 0.514444  # approach speed, so the ram rise does not hide the drizzle
-    base = acc.airframe_icing(af, airspeed=v, lwc=2e-4, mvd=15e-6, temperature=267.15,
-                              pressure=8.5e4)
-    fzdz = acc.airframe_icing(af, airspeed=v, lwc=2e-4, mvd=15e-6, temperature=267.15,
-                              pressure=8.5e4, sld_lwc=1e-4, sld_mvd=200e-6, sld_class=1)
+    base = acc.airframe_icing(
+        af, airspeed=v, lwc=2e-4, mvd=15e-6, temperature=267.15, pressure=8.5e4
+    )
+    fzdz = acc.airframe_icing(
+        af,
+        airspeed=v,
+        lwc=2e-4,
+        mvd=15e-6,
+        temperature=267.15,
+        pressure=8.5e4,
+        sld_lwc=1e-4,
+        sld_mvd=200e-6,
+        sld_class=1,
+    )
     assert int(fzdz.severity) >= int(base.severity)
     assert int(fzdz.severity) >= codes.SEV_MODERATE
     assert float(fzdz.mass_rate) > float(base.mass_rate)
@@ -374,16 +409,26 @@ def test_no_runtime_warnings_on_awkward_input():
     af = load_airframe("fixed-wing-uas")
     with warnings.catch_warnings():
         warnings.simplefilter("error")
-        acc.airframe_icing(af, lwc=[0.0, np.nan, 1e-3, 1e-3], mvd=[np.nan, 1e-5, 0.0, 2e-5],
-                           temperature=[np.nan, 250.0, 250.0, 200.0], pressure=5e4,
-                           airspeed=[0.0, 10.0, 10.0, 0.0], spectrum_shape=[2, 2, 2, np.nan])
+        acc.airframe_icing(
+            af,
+            lwc=[0.0, np.nan, 1e-3, 1e-3],
+            mvd=[np.nan, 1e-5, 0.0, 2e-5],
+            temperature=[np.nan, 250.0, 250.0, 200.0],
+            pressure=5e4,
+            airspeed=[0.0, 10.0, 10.0, 0.0],
+            spectrum_shape=[2, 2, 2, np.nan],
+        )
 
 
 def test_direct_and_table_agree():
     rng = np.random.default_rng(3)
     n = 3000
-    kw = dict(lwc=rng.uniform(0, 1e-3, n), mvd=rng.uniform(8e-6, 40e-6, n),
-              temperature=rng.uniform(243, 275, n), pressure=rng.uniform(5e4, 1e5, n))
+    kw = dict(
+        lwc=rng.uniform(0, 1e-3, n),
+        mvd=rng.uniform(8e-6, 40e-6, n),
+        temperature=rng.uniform(243, 275, n),
+        pressure=rng.uniform(5e4, 1e5, n),
+    )
     af = load_airframe("light-piston")
     a = acc.airframe_icing(af, spectrum_method="table", **kw)
     b = acc.airframe_icing(af, spectrum_method="direct", **kw)
@@ -392,13 +437,19 @@ def test_direct_and_table_agree():
     assert np.mean(a.severity != b.severity) < 0.01
 
 
-levels = st.tuples(st.floats(0.0, 3e-3), st.floats(5e-6, 50e-6), st.floats(233.15, 278.15),
-                   st.floats(4e4, 1.03e5), st.floats(0.0, 250.0))
+levels = st.tuples(
+    st.floats(0.0, 3e-3),
+    st.floats(5e-6, 50e-6),
+    st.floats(233.15, 278.15),
+    st.floats(4e4, 1.03e5),
+    st.floats(0.0, 250.0),
+)
 
 
 @settings(max_examples=60, deadline=None)
-@given(st.lists(levels, min_size=1, max_size=8),
-       st.sampled_from([a.name for a in list_airframes()]))
+@given(
+    st.lists(levels, min_size=1, max_size=8), st.sampled_from([a.name for a in list_airframes()])
+)
 def test_invariants(points, name):
     af = load_airframe(name)
     lwc, mvd, t, p, v = (np.array(x) for x in zip(*points, strict=True))
@@ -418,14 +469,21 @@ def test_invariants(points, name):
 def test_fit_range_flags_name_the_small_fast_sections():
     # ours: the 0.6 mm drone-propeller equivalent cylinder has phi ~ 25 < 100 (outside
     # the Finstad fit); a wing at cruise is inside it
-    drone = acc.fit_range_flags(load_airframe("small-multirotor"), mvd=15e-6,
-                                temperature=263.15, pressure=9e4)
+    drone = acc.fit_range_flags(
+        load_airframe("small-multirotor"), mvd=15e-6, temperature=263.15, pressure=9e4
+    )
     assert bool(drone["propeller"]) and not bool(drone["arm"])
-    wing = acc.fit_range_flags(load_airframe("light-piston"), mvd=[15e-6, 20e-6],
-                               temperature=263.15, pressure=7e4)
+    wing = acc.fit_range_flags(
+        load_airframe("light-piston"), mvd=[15e-6, 20e-6], temperature=263.15, pressure=7e4
+    )
     assert wing["outer-wing"].tolist() == [False, False]
-    lb = acc.fit_range_flags(load_airframe("small-multirotor"), mvd=15e-6,
-                             temperature=263.15, pressure=9e4, model="langmuir46")
+    lb = acc.fit_range_flags(
+        load_airframe("small-multirotor"),
+        mvd=15e-6,
+        temperature=263.15,
+        pressure=9e4,
+        model="langmuir46",
+    )
     assert not any(bool(v) for v in lb.values())
 
 

@@ -62,8 +62,9 @@ def test_airfoil_equivalent_cylinder():
 
 def test_rotor_relative_speed():
     # sqrt((omega r)^2 + V^2), omega = 2 pi rpm / 60 (definition)
-    c = Collector(name="r", shape="rotor", chord_m=0.3, thickness_ratio=0.12,
-                  section_radius_m=3.6, rpm=400)
+    c = Collector(
+        name="r", shape="rotor", chord_m=0.3, thickness_ratio=0.12, section_radius_m=3.6, rpm=400
+    )
     w = 2 * math.pi * 400 / 60 * 3.6
     assert c.rotation_speed == pytest.approx(w, rel=1e-12)
     assert float(c.speed(50.0)) == pytest.approx(math.hypot(w, 50.0), rel=1e-12)
@@ -155,24 +156,31 @@ BAD = [
     (_replace("ice_tolerance_mm = 1.5\n", ""), ["'ice_tolerance_mm'", "add ice_tolerance_mm"]),
     (_replace("true_airspeed_kt = 30", 'true_airspeed_kt = "fast"'), ["must be a number"]),
     (_replace("ice_tolerance_mm = 1.5", "ice_tolerance_mm = -1"), ["must be positive"]),
-    (_replace('ice_protection = "none"', 'ice_protection = "heated"'), ["'ice_protection'",
-                                                                        "none, de-ice"]),
+    (
+        _replace('ice_protection = "none"', 'ice_protection = "heated"'),
+        ["'ice_protection'", "none, de-ice"],
+    ),
     (_replace("ceiling_ft = 12000", "ceilng_ft = 12000"), ["unknown key 'ceilng_ft'"]),
-    (_replace('shape = "cylinder"', 'shape = "sphere"'), ["unknown shape 'sphere'",
-                                                          "cylinder, airfoil, rotor"]),
+    (
+        _replace('shape = "cylinder"', 'shape = "sphere"'),
+        ["unknown shape 'sphere'", "cylinder, airfoil, rotor"],
+    ),
     (_replace('shape = "cylinder"\n', ""), ["missing key 'shape'", "collectors[1]"]),
     (_replace("diameter_m = 0.025", "width_m = 0.025"), ["unknown key 'width_m'"]),
-    (_replace("section_radius_m = 0.12\n", ""), ["missing key 'section_radius_m'",
-                                                 "collectors[0] (prop)"]),
-    (_replace("thickness_ratio = 0.1", "thickness_ratio = 12"), ["'thickness_ratio'",
-                                                                 "fraction"]),
+    (
+        _replace("section_radius_m = 0.12\n", ""),
+        ["missing key 'section_radius_m'", "collectors[0] (prop)"],
+    ),
+    (_replace("thickness_ratio = 0.1", "thickness_ratio = 12"), ["'thickness_ratio'", "fraction"]),
     (_replace('name = "boom"', 'name = "prop"'), ["duplicate collector name 'prop'"]),
     (_replace('reference = "prop"', 'reference = "wing"'), ["'reference' names no collector"]),
     (_replace('reference = "prop"', 'reference = "boom"'), ["not critical"]),
     (_replace("critical = false", 'critical = "no"'), ["'critical' must be true or false"]),
     (GOOD.split("[[collectors]]")[0], ["missing key 'collectors'"]),
-    ('name = "x"\ntrue_airspeed_kt = 1\nice_tolerance_mm = 1\ncollectors = 3\n',
-     ["'collectors' must be an array of tables"]),
+    (
+        'name = "x"\ntrue_airspeed_kt = 1\nice_tolerance_mm = 1\ncollectors = 3\n',
+        ["'collectors' must be an array of tables"],
+    ),
 ]
 
 
@@ -210,7 +218,8 @@ def test_file_in_the_preset_layout(tmp_path):
     one.write_text("[[airframes]]\n" + body)
     assert load_airframe(one).name == "survey-drone"
     two = tmp_path / "two.toml"
-    two.write_text("[[airframes]]\n" + body + "\n[[airframes]]\n" +
-                   body.replace("survey-drone", "other"))
+    two.write_text(
+        "[[airframes]]\n" + body + "\n[[airframes]]\n" + body.replace("survey-drone", "other")
+    )
     with pytest.raises(AirframeError, match=r"2 \[\[airframes\]\] tables \(survey-drone, other\)"):
         load_airframe(two)

@@ -16,6 +16,7 @@ T0 = 273.15
 
 # --- humidity threshold ------------------------------------------------------------------
 
+
 @pytest.mark.parametrize("temperature_c", [-7.0, -10.0, -15.0, -20.0, -25.0, -30.0, -37.0])
 def test_threshold_stays_above_ice_saturation(temperature_c):
     # physical law: ice cloud holds the air at ice saturation (RH_w = e_si/e_sw, MetPy /
@@ -61,6 +62,7 @@ def test_model_cloud_water_threshold_korolev():
 
 # --- layers ------------------------------------------------------------------------------
 
+
 def test_cloud_layers_two_layers_vectorised():
     # regression of the construction (half-level boundaries), two columns at once
     cloud = np.array([[0, 1, 1, 0, 1, 0], [1, 1, 0, 0, 0, 1]], bool)
@@ -79,6 +81,7 @@ def test_cloud_layers_two_layers_vectorised():
 
 
 # --- adiabatic LWC -------------------------------------------------------------------------
+
 
 def test_adiabatic_lwc_matches_metpy_parcel():
     # reference library: MetPy moist_lapse + saturation_mixing_ratio + density
@@ -115,8 +118,9 @@ def test_adiabatic_lwc_gradient_consistent_with_integral():
 
 
 @settings(max_examples=40, deadline=None)
-@given(t_base=st.floats(240.0, 300.0), p_base=st.floats(60000.0, 100000.0),
-       dlnp=st.floats(0.0, 0.6))
+@given(
+    t_base=st.floats(240.0, 300.0), p_base=st.floats(60000.0, 100000.0), dlnp=st.floats(0.0, 0.6)
+)
 def test_adiabatic_lwc_is_nonnegative_and_grows_with_height(t_base, p_base, dlnp):
     # physical laws: LWC >= 0, and the condensed mass per unit mass of air grows with
     # height above base in a lifted parcel (per unit volume it may fall in the cold,
@@ -153,17 +157,21 @@ def test_deep_layer_lwc_stays_bounded():
 
 # --- ice nuclei and glaciation -----------------------------------------------------------
 
+
 def test_ice_nuclei_formulas():
     # published formulas (REFERENCES.md [V]): Fletcher (1962) 1e-2 exp(0.6 dT) /m3 at -20 C
     assert float(clouds.ice_nuclei_concentration(253.15, model="fletcher62")) == pytest.approx(
-        1e-2 * np.exp(12.0))
+        1e-2 * np.exp(12.0)
+    )
     # Meyers et al. (1992) eq. 2.4 at water saturation, -20 C: S_i - 1 from e_sw/e_si
     si = float(1.0 / thermo.ice_saturation_relative_humidity(253.15))
     assert float(clouds.ice_nuclei_concentration(253.15)) == pytest.approx(
-        1e3 * np.exp(-0.639 + 12.96 * (si - 1.0)))
+        1e3 * np.exp(-0.639 + 12.96 * (si - 1.0))
+    )
     # DeMott et al. (2010) eq. 1 at -20 C and 1 aerosol /cm3
     assert float(clouds.ice_nuclei_concentration(253.15, model="demott10")) == pytest.approx(
-        1e3 * 5.94e-5 * 20.01**3.33 * 1.0)
+        1e3 * 5.94e-5 * 20.01**3.33 * 1.0
+    )
     # physical law: more nuclei active in the colder; none outside [-38, 0] C
     n = clouds.ice_nuclei_concentration(np.array([268.15, 258.15, 248.15]))
     assert np.all(np.diff(n) > 0)
@@ -187,8 +195,7 @@ def test_liquid_maintenance_updraft_form():
 def test_glaciation_deep_cold_deck_with_ice_from_above_is_likely():
     # physical reasoning (seeder-feeder; Korolev & Mazin 2003 balance): a -25 C deck with
     # 0.25 g/kg of ice and snow falling into it and weak ascent glaciates
-    g = clouds.glaciation_likelihood(248.15, 60000.0, 2e-4, 250.0, ice_above=2.5e-4,
-                                     updraft=0.3)
+    g = clouds.glaciation_likelihood(248.15, 60000.0, 2e-4, 250.0, ice_above=2.5e-4, updraft=0.3)
     assert float(g) > 0.8
 
 
@@ -207,17 +214,15 @@ def test_glaciation_bounds_and_limits():
     g = clouds.glaciation_likelihood(t, 70000.0, 2e-4, t, ice_above=1e-4)
     assert np.all((g >= 0) & (g <= 1))
     assert np.all(g[t <= 235.15] == 1.0) and np.all(g[t >= T0] == 0.0)
-    slow = clouds.glaciation_likelihood(253.15, 70000.0, 2e-4, 253.15, ice_above=3e-5,
-                                        updraft=0.0)
-    fast = clouds.glaciation_likelihood(253.15, 70000.0, 2e-4, 253.15, ice_above=3e-5,
-                                        updraft=2.0)
-    more = clouds.glaciation_likelihood(253.15, 70000.0, 2e-4, 253.15, ice_above=1e-4,
-                                        updraft=0.0)
+    slow = clouds.glaciation_likelihood(253.15, 70000.0, 2e-4, 253.15, ice_above=3e-5, updraft=0.0)
+    fast = clouds.glaciation_likelihood(253.15, 70000.0, 2e-4, 253.15, ice_above=3e-5, updraft=2.0)
+    more = clouds.glaciation_likelihood(253.15, 70000.0, 2e-4, 253.15, ice_above=1e-4, updraft=0.0)
     assert fast < slow < more
     assert np.isnan(clouds.glaciation_likelihood(np.nan, 70000.0, 1e-4, 260.0))
 
 
 # --- Appendix C ----------------------------------------------------------------------------
+
 
 def test_appendix_c_envelope_values_from_memory():
     # from memory (14 CFR 25 Appendix C fig. 1, continuous maximum at MED 15 um): about
@@ -231,8 +236,9 @@ def test_appendix_c_envelope_values_from_memory():
 
 
 def test_appendix_c_warnings_are_strings_with_counts():
-    ex = clouds.appendix_c_exceedances([1.0e-3, 0.3e-3, 3.0e-3], [263.15, 263.15, 263.15],
-                                       convective=[False, False, True])
+    ex = clouds.appendix_c_exceedances(
+        [1.0e-3, 0.3e-3, 3.0e-3], [263.15, 263.15, 263.15], convective=[False, False, True]
+    )
     assert ex == {"continuous maximum": (1, 1.0e-3), "intermittent maximum": (1, 3.0e-3)}
     lines = clouds.appendix_c_warnings(ex)
     assert len(lines) == 2 and all("from memory" in s for s in lines)

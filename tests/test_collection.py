@@ -180,13 +180,15 @@ def test_e_non_decreasing_in_k_everywhere(model):
 
 def test_unknown_model_error_lists_valid_names():
     with pytest.raises(ValueError, match="finstad88, langmuir46"):
-        col.cylinder_collision_efficiency(20e-6, 0.05, 100.0, pressure=P, temperature=T,
-                                          model="nope")
+        col.cylinder_collision_efficiency(
+            20e-6, 0.05, 100.0, pressure=P, temperature=T, model="nope"
+        )
 
 
 def test_nan_in_nan_out():
-    e = col.cylinder_collision_efficiency(np.array([20e-6, np.nan]), 0.05, 100.0, pressure=P,
-                                          temperature=T)
+    e = col.cylinder_collision_efficiency(
+        np.array([20e-6, np.nan]), 0.05, 100.0, pressure=P, temperature=T
+    )
     assert np.isfinite(e[0]) and np.isnan(e[1])
 
 
@@ -232,16 +234,30 @@ def test_e_falls_with_collector_size(d, D, factor, u, p, t, model):
 
 
 @settings(max_examples=150, deadline=None)
-@given(st.floats(5e-6, 100e-6), st.floats(0.02, 1.0), st.floats(5.0, 250.0),
-       st.floats(1.01, 2.0), pressures, temps)
+@given(
+    st.floats(5e-6, 100e-6),
+    st.floats(0.02, 1.0),
+    st.floats(5.0, 250.0),
+    st.floats(1.01, 2.0),
+    pressures,
+    temps,
+)
 def test_e_grows_with_speed_within_range(d, D, u, factor, p, t):
     # physical law, within the fits' range (sections of 2 cm and more, cloud and
     # drizzle drops). Langmuir-Blodgett: strictly. Finstad: its phi term competes
     # with K, and the phi = 100 join: within 0.0075 (derived by scanning the fit).
-    lb = [float(col.cylinder_collision_efficiency(d, D, x, pressure=p, temperature=t,
-                                                  model="langmuir46")) for x in (u, u * factor)]
-    fi = [float(col.cylinder_collision_efficiency(d, D, x, pressure=p, temperature=t))
-          for x in (u, u * factor)]
+    lb = [
+        float(
+            col.cylinder_collision_efficiency(
+                d, D, x, pressure=p, temperature=t, model="langmuir46"
+            )
+        )
+        for x in (u, u * factor)
+    ]
+    fi = [
+        float(col.cylinder_collision_efficiency(d, D, x, pressure=p, temperature=t))
+        for x in (u, u * factor)
+    ]
     assert lb[1] >= lb[0] - 1e-12
     assert fi[1] >= fi[0] - 0.0075
 
@@ -295,8 +311,9 @@ def test_table_matches_direct_sum():
 
 
 def test_spectrum_collection_broadcasts_and_propagates_nan():
-    e, b = col.spectrum_collection(np.array([[15e-6], [np.nan]]), np.array([0.02, 0.2]), 80.0,
-                                   pressure=P, temperature=T)
+    e, b = col.spectrum_collection(
+        np.array([[15e-6], [np.nan]]), np.array([0.02, 0.2]), 80.0, pressure=P, temperature=T
+    )
     assert e.shape == (2, 2) and np.all(np.isnan(e[1])) and np.all(np.isfinite(e[0]))
     assert np.all(e[0, 0] > e[0, 1])  # smaller collector catches more
 
@@ -304,8 +321,9 @@ def test_spectrum_collection_broadcasts_and_propagates_nan():
 def test_sld_millimetre_drops_hit_almost_all():
     # physical: mm drops have K in the thousands on airframe sections, E -> ~1
     # (0.95: the Finstad fit itself peaks at 0.98)
-    e, b = col.sld_collection(np.array([0.5e-3, 1.5e-3]), 0.06, 70.0, pressure=9e4,
-                              temperature=269.15)
+    e, b = col.sld_collection(
+        np.array([0.5e-3, 1.5e-3]), 0.06, 70.0, pressure=9e4, temperature=269.15
+    )
     assert np.all(e > 0.95) and np.all(b >= e)
     e0, b0 = col.sld_collection(np.nan, 0.06, 70.0, pressure=9e4, temperature=269.15)
     assert float(e0) == 0.0 and float(b0) == 0.0
@@ -382,8 +400,9 @@ def _trajectory_stagnation_efficiency(k, phi):
     return float(np.polyfit(theta[hit], y0[hit], 1)[0])
 
 
-@pytest.mark.parametrize("k, phi", [(0.25, 0.0), (1.0, 0.0), (4.0, 0.0), (1.0, 1000.0),
-                                    (4.0, 1000.0), (10.0, 100.0)])
+@pytest.mark.parametrize(
+    "k, phi", [(0.25, 0.0), (1.0, 0.0), (4.0, 0.0), (1.0, 1000.0), (4.0, 1000.0), (10.0, 100.0)]
+)
 def test_fits_agree_with_an_independent_trajectory_calculation(k, phi):
     # ours: trajectories in potential flow with the Langmuir-Blodgett drag law. This
     # checks the K and phi conventions (a factor 2 in K would move E by ~0.2).
@@ -409,16 +428,31 @@ def test_many_spectrum_shapes_fall_back_to_the_direct_sum():
     e1, b1 = col.spectrum_collection(18e-6, 0.04, 90.0, method="table", **kw)
     e2, b2 = col.spectrum_collection(18e-6, 0.04, 90.0, method="direct", **kw)
     np.testing.assert_allclose(e1, e2, atol=1e-12)
-    few = col.spectrum_collection(18e-6, 0.04, 90.0, method="table", pressure=P, temperature=T,
-                                  shape=np.array([1.0, 3.0, 1.0]))[0]
-    ref = col.spectrum_collection(18e-6, 0.04, 90.0, method="direct", pressure=P, temperature=T,
-                                  shape=np.array([1.0, 3.0, 1.0]))[0]
+    few = col.spectrum_collection(
+        18e-6,
+        0.04,
+        90.0,
+        method="table",
+        pressure=P,
+        temperature=T,
+        shape=np.array([1.0, 3.0, 1.0]),
+    )[0]
+    ref = col.spectrum_collection(
+        18e-6,
+        0.04,
+        90.0,
+        method="direct",
+        pressure=P,
+        temperature=T,
+        shape=np.array([1.0, 3.0, 1.0]),
+    )[0]
     np.testing.assert_allclose(few, ref, atol=1e-3)  # table design tolerance
     assert few[1] != few[0]  # a narrower spectrum collects differently
 
 
-@pytest.mark.parametrize("k, phi", [(0.5, 0.0), (1.0, 0.0), (4.0, 0.0), (1.0, 1000.0),
-                                    (10.0, 100.0)])
+@pytest.mark.parametrize(
+    "k, phi", [(0.5, 0.0), (1.0, 0.0), (4.0, 0.0), (1.0, 1000.0), (10.0, 100.0)]
+)
 def test_beta0_agrees_with_an_independent_trajectory_calculation(k, phi):
     # ours: the slope of offset against impact arc near the stagnation line.
     # tolerance 0.06: the fit's own scatter, the drag law from memory, and the impact

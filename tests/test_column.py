@@ -25,8 +25,15 @@ from icing.calc.column import ColumnOptions, diagnose_columns
 from icing.errors import InputError
 
 T0 = 273.15
-ALL = (warm_nose_column, cold_dry_column, all_nan_column, supercooled_stratiform_deck,
-       warm_topped_drizzle_deck, deep_frontal_deck_with_ice, thin_minus8_deck)
+ALL = (
+    warm_nose_column,
+    cold_dry_column,
+    all_nan_column,
+    supercooled_stratiform_deck,
+    warm_topped_drizzle_deck,
+    deep_frontal_deck_with_ice,
+    thin_minus8_deck,
+)
 
 
 def test_shapes_level_n_and_nm():
@@ -90,11 +97,11 @@ def test_no_humidity_is_a_clear_error():
 
 def test_basis_codes_are_known():
     d = diagnose_columns(**stack(*(f() for f in ALL)))
-    assert set(np.unique(d.basis)) <= {codes.BASIS_NONE, codes.BASIS_MODEL,
-                                       codes.BASIS_DIAGNOSED}
+    assert set(np.unique(d.basis)) <= {codes.BASIS_NONE, codes.BASIS_MODEL, codes.BASIS_DIAGNOSED}
 
 
 # --- liquid: bounds, limits, basis ---------------------------------------------------------
+
 
 def test_lwc_nonnegative_and_none_below_homogeneous_freezing():
     # physical laws: LWC >= 0; no liquid below homogeneous freezing (about -38 C, textbook
@@ -104,8 +111,7 @@ def test_lwc_nonnegative_and_none_below_homogeneous_freezing():
     assert np.all(d.lwc[np.isfinite(d.lwc)] >= 0.0)
     t = np.linspace(250.0, 225.0, 40)
     p = np.linspace(60000.0, 25000.0, 40)
-    cold = diagnose_columns(p, t, relative_humidity=np.ones(40),
-                            cloud_liquid=np.full(40, 3e-4))
+    cold = diagnose_columns(p, t, relative_humidity=np.ones(40), cloud_liquid=np.full(40, 3e-4))
     assert np.all(cold.lwc[t <= 233.15] == 0.0)
     assert np.all(cold.lwc_model[t <= 235.15] == 0.0)
     assert np.all(cold.basis[t <= 235.15] == codes.BASIS_NONE)
@@ -149,8 +155,7 @@ def test_below_ground_levels_masked():
     d = diagnose_columns(**col, surface_pressure=92000.0)
     assert np.array_equal(d.below_ground, col["pressure"] > 92000.0)
     assert not d.cloud[d.below_ground].any() and np.isnan(d.lwc[d.below_ground]).all()
-    ground = float(np.interp(92000.0, col["pressure"][::-1], diagnose_columns(
-        **col).height[::-1]))
+    ground = float(np.interp(92000.0, col["pressure"][::-1], diagnose_columns(**col).height[::-1]))
     dh = diagnose_columns(**col, surface_height=ground)
     np.testing.assert_array_equal(dh.below_ground, d.below_ground)
 
@@ -175,6 +180,7 @@ def test_freezing_level():
 
 # --- droplets ------------------------------------------------------------------------------
 
+
 def test_droplet_number_maritime_vs_continental_climatology():
     # from memory: stratiform droplet number ~75 /cm3 marine, ~290 /cm3 continental
     # (Miles et al. 2000, J. Atmos. Sci. 57, 295). Factor 2: their means come with
@@ -197,10 +203,13 @@ def test_updraft_floor_by_cloud_type():
     # stated defaults (ColumnOptions): stratiform floor 0.1 m/s, convective 1.0 m/s; a
     # layer with |w| >= 1 m/s is convective and activates more droplets
     col = supercooled_stratiform_deck()
-    calm = diagnose_columns(**dict(col, vertical_velocity=np.zeros(40)),
-                            options=ColumnOptions(subgrid_updraft_m_s=0.0))
-    conv = diagnose_columns(**dict(col, vertical_velocity=np.where(
-        col["cloud_liquid"] > 0, 1.2, 0.0)), options=ColumnOptions(subgrid_updraft_m_s=0.0))
+    calm = diagnose_columns(
+        **dict(col, vertical_velocity=np.zeros(40)), options=ColumnOptions(subgrid_updraft_m_s=0.0)
+    )
+    conv = diagnose_columns(
+        **dict(col, vertical_velocity=np.where(col["cloud_liquid"] > 0, 1.2, 0.0)),
+        options=ColumnOptions(subgrid_updraft_m_s=0.0),
+    )
     assert np.nanmax(conv.droplet_number) > 2 * np.nanmax(calm.droplet_number)
 
 
@@ -214,6 +223,7 @@ def test_default_air_mass_is_the_conservative_maritime():
 
 
 # --- glaciation ------------------------------------------------------------------------------
+
 
 def test_glaciation_deep_frontal_deck_with_ice_above_is_high():
     # physical reasoning (seeder-feeder; Korolev & Mazin 2003): a deep -25 C deck with snow
@@ -235,13 +245,13 @@ def test_appendix_c_warning_in_the_output():
     # 14 CFR 25 Appendix C continuous maximum (values from memory): 1.5 g/kg of model
     # liquid in a -8 C stratiform deck passes it
     col = supercooled_stratiform_deck()
-    d = diagnose_columns(**dict(col, cloud_liquid=np.where(col["cloud_liquid"] > 0, 1.5e-3,
-                                                           0.0)))
+    d = diagnose_columns(**dict(col, cloud_liquid=np.where(col["cloud_liquid"] > 0, 1.5e-3, 0.0)))
     assert any("Appendix C continuous maximum" in w for w in d.warnings)
     assert all(isinstance(w, str) for w in d.warnings)
 
 
 # --- SLD through the column ------------------------------------------------------------------
+
 
 def test_warm_nose_column_gives_freezing_rain_below_the_nose():
     # Bourgouin (2000) via icing.sld: rain melted in the warm nose falls into a shallow
@@ -271,13 +281,19 @@ def test_nan_column_sld_is_a_gap():
 
 # --- input checks ----------------------------------------------------------------------------
 
-@pytest.mark.parametrize(("change", "where"), [
-    ({"pressure": supercooled_stratiform_deck()["pressure"] / 100.0}, "pressure"),
-    ({"temperature": supercooled_stratiform_deck()["temperature"] - 273.15}, "temperature"),
-    ({"relative_humidity": supercooled_stratiform_deck()["relative_humidity"] * 100.0},
-     "relative_humidity"),
-    ({"cloud_liquid": supercooled_stratiform_deck()["cloud_liquid"] * 1000.0}, "cloud_liquid"),
-])
+
+@pytest.mark.parametrize(
+    ("change", "where"),
+    [
+        ({"pressure": supercooled_stratiform_deck()["pressure"] / 100.0}, "pressure"),
+        ({"temperature": supercooled_stratiform_deck()["temperature"] - 273.15}, "temperature"),
+        (
+            {"relative_humidity": supercooled_stratiform_deck()["relative_humidity"] * 100.0},
+            "relative_humidity",
+        ),
+        ({"cloud_liquid": supercooled_stratiform_deck()["cloud_liquid"] * 1000.0}, "cloud_liquid"),
+    ],
+)
 def test_unit_mistakes_give_one_line_errors(change, where):
     col = dict(supercooled_stratiform_deck(), **change)
     with pytest.raises(InputError) as err:
@@ -302,8 +318,7 @@ def test_supersaturated_input_is_a_plausibility_note():
 
 def test_zero_columns_and_zero_levels():
     # an empty batch is fine (shape kept); a column without levels is an input error
-    d = diagnose_columns(np.zeros((0, 40)), np.zeros((0, 40)),
-                         relative_humidity=np.zeros((0, 40)))
+    d = diagnose_columns(np.zeros((0, 40)), np.zeros((0, 40)), relative_humidity=np.zeros((0, 40)))
     assert d.lwc.shape == (0, 40) and d.freezing_level.shape == (0,)
     with pytest.raises(InputError, match="level"):
         diagnose_columns(np.zeros((3, 0)), np.zeros((3, 0)), relative_humidity=np.zeros((3, 0)))
@@ -321,10 +336,16 @@ def test_single_and_two_level_columns():
 
 # --- invariants over random columns ----------------------------------------------------------
 
+
 @settings(max_examples=25, deadline=None)
-@given(t_sfc=st.floats(255.0, 295.0), lapse=st.floats(3e-3, 9e-3),
-       rh=st.lists(st.floats(0.0, 1.05), min_size=12, max_size=12),
-       w=st.floats(-2.0, 3.0), ql=st.floats(0.0, 1e-3), ice=st.floats(0.0, 5e-4))
+@given(
+    t_sfc=st.floats(255.0, 295.0),
+    lapse=st.floats(3e-3, 9e-3),
+    rh=st.lists(st.floats(0.0, 1.05), min_size=12, max_size=12),
+    w=st.floats(-2.0, 3.0),
+    ql=st.floats(0.0, 1e-3),
+    ice=st.floats(0.0, 5e-4),
+)
 def test_physical_invariants_on_random_columns(t_sfc, lapse, rh, w, ql, ice):
     # physical laws: LWC >= 0; no liquid at or below -38 C (homogeneous freezing);
     # glaciation in [0, 1]; droplet number > 0 and MVD > 0 where there is liquid; cloud
@@ -332,8 +353,14 @@ def test_physical_invariants_on_random_columns(t_sfc, lapse, rh, w, ql, ice):
     p = np.linspace(100000.0, 40000.0, 12)
     z = np.linspace(0.0, 7000.0, 12)
     t = t_sfc - lapse * z
-    d = diagnose_columns(p, t, relative_humidity=np.array(rh), cloud_liquid=np.full(12, ql),
-                         cloud_ice=np.full(12, ice), vertical_velocity=np.full(12, w))
+    d = diagnose_columns(
+        p,
+        t,
+        relative_humidity=np.array(rh),
+        cloud_liquid=np.full(12, ql),
+        cloud_ice=np.full(12, ice),
+        vertical_velocity=np.full(12, w),
+    )
     assert np.all(d.lwc >= 0.0)
     assert np.all(d.lwc[t <= 235.15] == 0.0)
     g = d.glaciation[d.cloud]
@@ -344,8 +371,9 @@ def test_physical_invariants_on_random_columns(t_sfc, lapse, rh, w, ql, ice):
     assert np.all(d.lwc <= np.maximum(d.lwc_model, d.lwc_diagnosed) + 1e-15)
 
 
-@pytest.mark.parametrize("field", ["sub_adiabatic_scale_height_m", "drizzle_time_scale_s",
-                                   "chunk_columns"])
+@pytest.mark.parametrize(
+    "field", ["sub_adiabatic_scale_height_m", "drizzle_time_scale_s", "chunk_columns"]
+)
 def test_options_refuse_non_positive_values(field):
     with pytest.raises(InputError, match=field):
         ColumnOptions(**{field: 0})
@@ -405,8 +433,9 @@ def test_one_level_humidity_dip_does_not_split_a_deck():
     k = inside[len(inside) // 2]
     dip[k] = 0.94  # above ice saturation (~0.93 at -8 C), below the 0.95 threshold
     bridged = diagnose_columns(**dict(col, relative_humidity=dip))
-    split = diagnose_columns(**dict(col, relative_humidity=dip),
-                             options=ColumnOptions(bridge_single_level_gaps=False))
+    split = diagnose_columns(
+        **dict(col, relative_humidity=dip), options=ColumnOptions(bridge_single_level_gaps=False)
+    )
     assert bridged.cloud[k] and not split.cloud[k]
     top = inside[-1]
     assert bridged.lwc_diagnosed[top] > split.lwc_diagnosed[top]
@@ -431,6 +460,7 @@ def test_nan_surface_anchor_leaves_levels_invalid():
     # A column whose computed heights cannot be anchored has no usable level.
     p = np.array([100000, 90000, 80000.0])
     t = np.array([275, 268, 262.0])
-    d = diagnose_columns(p, t, relative_humidity=np.ones(3), surface_pressure=np.nan,
-                         surface_height=0.0)
+    d = diagnose_columns(
+        p, t, relative_humidity=np.ones(3), surface_pressure=np.nan, surface_height=0.0
+    )
     assert not d.valid.any()

@@ -46,6 +46,7 @@ def _module(name, path):
 
 mf = _module("make_fixtures", FIX / "make_fixtures.py")
 
+
 def _ds():
     """The lat-lon fixture in memory (a fresh copy, encodings dropped for fast writes)."""
     return mf.in_memory(LATLON)
@@ -94,8 +95,12 @@ def test_levels_surface_first_in_si():
 
 
 def test_gap_reasons_are_the_documented_words():
-    assert GAP_REASONS == ("outside-radius", "outside-grid", "outside-time-window",
-                           "missing-values")
+    assert GAP_REASONS == (
+        "outside-radius",
+        "outside-grid",
+        "outside-time-window",
+        "missing-values",
+    )
 
 
 # --------------------------------------------------------------------------- lat-lon grids
@@ -104,16 +109,23 @@ def test_gap_reasons_are_the_documented_words():
 def test_grid_point_column_is_the_file_column():
     ds = _ds()
     cs = load_forecast(LATLON).columns_at([57.0], [-24.5], [T12])
-    np.testing.assert_allclose(cs.columns["temperature"][0],
-                               _grid_column(ds, "t", 57.0, -24.5, T12), rtol=1e-6)
-    np.testing.assert_allclose(cs.columns["relative_humidity"][0],
-                               np.minimum(_grid_column(ds, "r", 57.0, -24.5, T12) / 100, 1.0),
-                               rtol=1e-6)
+    np.testing.assert_allclose(
+        cs.columns["temperature"][0], _grid_column(ds, "t", 57.0, -24.5, T12), rtol=1e-6
+    )
+    np.testing.assert_allclose(
+        cs.columns["relative_humidity"][0],
+        np.minimum(_grid_column(ds, "r", 57.0, -24.5, T12) / 100, 1.0),
+        rtol=1e-6,
+    )
     np.testing.assert_allclose(cs.columns["height"][0], _grid_column(ds, "gh", 57.0, -24.5, T12))
-    np.testing.assert_allclose(cs.columns["cloud_liquid"][0],
-                               _grid_column(ds, "clwc", 57.0, -24.5, T12), rtol=1e-6)
-    np.testing.assert_allclose(cs.columns["precipitation_rate_mm_h"][0],
-                               _grid_column(ds, "prate", 57.0, -24.5, T12) * 3600.0, rtol=1e-5)
+    np.testing.assert_allclose(
+        cs.columns["cloud_liquid"][0], _grid_column(ds, "clwc", 57.0, -24.5, T12), rtol=1e-6
+    )
+    np.testing.assert_allclose(
+        cs.columns["precipitation_rate_mm_h"][0],
+        _grid_column(ds, "prate", 57.0, -24.5, T12) * 3600.0,
+        rtol=1e-5,
+    )
     assert cs.covered.all() and cs.gap_reason[0] == ""
 
 
@@ -123,8 +135,9 @@ def test_bilinear_whole_column_between_grid_points():
     lat, lon = 57.125, -24.4375
     cs = load_forecast(LATLON).columns_at([lat], [lon], [T12])
     c = {(a, b): _grid_column(ds, "t", a, b, T12) for a in (57.0, 57.25) for b in (-24.5, -24.25)}
-    expect = 0.5 * (0.75 * c[57.0, -24.5] + 0.25 * c[57.0, -24.25]) \
-        + 0.5 * (0.75 * c[57.25, -24.5] + 0.25 * c[57.25, -24.25])
+    expect = 0.5 * (0.75 * c[57.0, -24.5] + 0.25 * c[57.0, -24.25]) + 0.5 * (
+        0.75 * c[57.25, -24.5] + 0.25 * c[57.25, -24.25]
+    )
     np.testing.assert_allclose(cs.columns["temperature"][0], expect, rtol=1e-9)
 
 
@@ -139,12 +152,15 @@ def test_time_linear_between_valid_times():
     np.testing.assert_allclose(cs.columns["temperature"][1], a / 3 + 2 * b / 3, rtol=1e-9)
 
 
-@pytest.mark.parametrize("layout", [
-    {"lon360": True},
-    {"lat_ascending": True},
-    {"pressure_unit": "Pa", "levels_ascending": True},
-    {"lon360": True, "lat_ascending": True, "pressure_unit": "Pa"},
-])
+@pytest.mark.parametrize(
+    "layout",
+    [
+        {"lon360": True},
+        {"lat_ascending": True},
+        {"pressure_unit": "Pa", "levels_ascending": True},
+        {"lon360": True, "lat_ascending": True, "pressure_unit": "Pa"},
+    ],
+)
 def test_grid_layouts_give_the_same_column(tmp_path, layout):
     path = _write(mf.latlon_dataset(**layout), tmp_path)
     lat, lon, t = [57.13, 59.4, 55.02], [-24.61, -19.9, -30.8], [T12, T06, T18]
@@ -153,8 +169,9 @@ def test_grid_layouts_give_the_same_column(tmp_path, layout):
     assert got.covered.all()
     for key in ref.columns:
         # float32 storage vs the quantised fixture: 0.01 K / 0.1 % / 1 m steps
-        np.testing.assert_allclose(got.columns[key], ref.columns[key], rtol=2e-3, atol=2e-2,
-                                   err_msg=key)
+        np.testing.assert_allclose(
+            got.columns[key], ref.columns[key], rtol=2e-3, atol=2e-2, err_msg=key
+        )
 
 
 def test_longitude_east_of_180_on_a_0_360_grid(tmp_path):
@@ -182,25 +199,43 @@ def test_outside_grid_and_time_window_are_gaps():
     fc = load_forecast(LATLON, time_tolerance_h=3.0)
     lat = [57.0, 62.0, 57.0, 57.0, 57.0, 57.0]
     lon = [-24.5, -24.5, -40.0, -24.5, -24.5, -24.5]
-    t = [T12, T12, T12, T18 + np.timedelta64(4, "h"), T06 - np.timedelta64(2, "h"),
-         T18 + np.timedelta64(3, "h")]
+    t = [
+        T12,
+        T12,
+        T12,
+        T18 + np.timedelta64(4, "h"),
+        T06 - np.timedelta64(2, "h"),
+        T18 + np.timedelta64(3, "h"),
+    ]
     cs = fc.columns_at(lat, lon, t)
-    assert cs.gap_reason.tolist() == ["", "outside-grid", "outside-grid", "outside-time-window",
-                                      "", ""]
+    assert cs.gap_reason.tolist() == [
+        "",
+        "outside-grid",
+        "outside-grid",
+        "outside-time-window",
+        "",
+        "",
+    ]
     assert cs.covered.tolist() == [True, False, False, False, True, True]
     assert (cs.candidates[~cs.covered] == -1).all()
     assert (cs.candidates[cs.covered, 0] >= 0).all()
     # within the tolerance the end time is held, never extrapolated
     ds = _ds()
-    np.testing.assert_allclose(cs.columns["temperature"][cs.candidates[4, 0]],
-                               _grid_column(ds, "t", 57.0, -24.5, T06), rtol=1e-9)
+    np.testing.assert_allclose(
+        cs.columns["temperature"][cs.candidates[4, 0]],
+        _grid_column(ds, "t", 57.0, -24.5, T06),
+        rtol=1e-9,
+    )
 
 
 def test_single_time_analysis_within_tolerance(tmp_path):
     path = _write(_ds().isel(time=[1]), tmp_path)
     fc = load_forecast(path, time_tolerance_h=2.0)
-    t = [T12 + np.timedelta64(90, "m"), T12 - np.timedelta64(2, "h"),
-         T12 + np.timedelta64(150, "m")]
+    t = [
+        T12 + np.timedelta64(90, "m"),
+        T12 - np.timedelta64(2, "h"),
+        T12 + np.timedelta64(150, "m"),
+    ]
     cs = fc.columns_at([57.0] * 3, [-24.5] * 3, t)
     assert cs.gap_reason.tolist() == ["", "", "outside-time-window"]
     fc0 = load_forecast(path, time_tolerance_h=0.0)
@@ -219,8 +254,7 @@ def test_several_files_form_one_forecast(tmp_path):
     ds = _ds()
     paths = [_write(ds.isel(time=[i]), tmp_path, f"lead{i}.nc") for i in (2, 0, 1)]
     fc = load_forecast(paths)
-    assert fc.valid_times.tolist() == [T06.astype(object), T12.astype(object),
-                                       T18.astype(object)]
+    assert fc.valid_times.tolist() == [T06.astype(object), T12.astype(object), T18.astype(object)]
     t = [np.datetime64("2027-01-14T09:00", "ms"), np.datetime64("2027-01-14T16:30", "ms")]
     a = fc.columns_at([57.1, 58.0], [-24.3, -21.0], t)
     b = load_forecast(LATLON).columns_at([57.1, 58.0], [-24.3, -21.0], t)
@@ -282,7 +316,7 @@ def test_variables_on_their_own_levels_are_interpolated(tmp_path):
     on = np.isin(p, rh["plev_rh"].values)
     np.testing.assert_allclose(got[on], np.minimum(ref[on], 1.0), rtol=1e-6)
     assert np.isnan(got[p < 750]).all()  # above the variable's levels: missing, not invented
-    between = (p == 975.0)
+    between = p == 975.0
     lo, hi = ref[p == 1000.0], ref[p == 950.0]  # linear in log p between its neighbours
     w = np.log(1000 / 975) / np.log(1000 / 950)
     np.testing.assert_allclose(got[between], (1 - w) * lo + w * hi, rtol=1e-6)
@@ -296,12 +330,14 @@ def test_height_level_file(tmp_path):
     assert fc.vertical == "height"
     cs = fc.columns_at([57.0], [-24.5], [T12])
     np.testing.assert_allclose(cs.columns["height"][0], ds["height"].values)
-    np.testing.assert_allclose(cs.columns["pressure"][0],
-                               _grid_column(ds, "pres", 57.0, -24.5, T12), rtol=1e-6)
+    np.testing.assert_allclose(
+        cs.columns["pressure"][0], _grid_column(ds, "pres", 57.0, -24.5, T12), rtol=1e-6
+    )
     # temperature at each height equals the pressure-level column interpolated in height
     ref = load_forecast(LATLON).columns_at([57.0], [-24.5], [T12])
-    expect = np.interp(ds["height"].values, ref.columns["height"][0],
-                       ref.columns["temperature"][0])
+    expect = np.interp(
+        ds["height"].values, ref.columns["height"][0], ref.columns["temperature"][0]
+    )
     np.testing.assert_allclose(cs.columns["temperature"][0], expect, atol=0.02)  # float32
 
 
@@ -340,8 +376,9 @@ def test_var_map_finds_renamed_variables(tmp_path):
 def test_var_map_overrides_the_search():
     fc = load_forecast(LATLON, var_map={"cloud_liquid": "crwc"})
     cs = fc.columns_at([59.25], [-20.0], [T12])
-    np.testing.assert_allclose(cs.columns["cloud_liquid"][0],
-                               _grid_column(_ds(), "crwc", 59.25, -20.0, T12), rtol=1e-6)
+    np.testing.assert_allclose(
+        cs.columns["cloud_liquid"][0], _grid_column(_ds(), "crwc", 59.25, -20.0, T12), rtol=1e-6
+    )
 
 
 # --------------------------------------------------------------------------- projected grid
@@ -429,8 +466,7 @@ def test_wind_at_nearest_level_and_zero_outside():
 
 def test_surface_height():
     fc = load_forecast(LATLON)
-    np.testing.assert_array_equal(fc.surface_height_at([57.0, 80.0], [-24.0, 0.0]),
-                                  [0.0, np.nan])
+    np.testing.assert_array_equal(fc.surface_height_at([57.0, 80.0], [-24.0, 0.0]), [0.0, np.nan])
     pf = load_forecast(PROFILES)
     np.testing.assert_array_equal(pf.surface_height_at([57.0, 40.0], [-24.5, 0.0]), [0.0, np.nan])
 
@@ -439,11 +475,17 @@ def test_describe_provenance():
     d = load_forecast(LATLON).describe()
     assert d["kind"] == "grid" and d["files"] == [str(LATLON)]
     assert d["issue_time"] == "2027-01-14T00:00:00Z"
-    assert d["valid_times"] == ["2027-01-14T06:00:00Z", "2027-01-14T12:00:00Z",
-                                "2027-01-14T18:00:00Z"]
+    assert d["valid_times"] == [
+        "2027-01-14T06:00:00Z",
+        "2027-01-14T12:00:00Z",
+        "2027-01-14T18:00:00Z",
+    ]
     assert d["time_tolerance_h"] == 3.0 and d["radius_km"] == 50.0
-    assert d["variables"]["temperature"] == {"name": "t", "found_by": "standard_name",
-                                             "units": "K"}
+    assert d["variables"]["temperature"] == {
+        "name": "t",
+        "found_by": "standard_name",
+        "units": "K",
+    }
     json.dumps(d)  # provenance goes into the GeoJSON as it is
     p = load_forecast(PROFILES, radius_km=30.0).describe()
     assert p["kind"] == "profiles" and p["radius_km"] == 30.0 and p["profiles"] == 15
@@ -499,9 +541,15 @@ def test_profiles_are_never_blended():
 
 def test_profile_time_window():
     fc = load_forecast(PROFILES, time_tolerance_h=1.0)
-    cs = fc.columns_at([57.0] * 3, [-24.5] * 3,
-                       [T06 - np.timedelta64(30, "m"), T06 - np.timedelta64(90, "m"),
-                        T18 + np.timedelta64(2, "h")])
+    cs = fc.columns_at(
+        [57.0] * 3,
+        [-24.5] * 3,
+        [
+            T06 - np.timedelta64(30, "m"),
+            T06 - np.timedelta64(90, "m"),
+            T18 + np.timedelta64(2, "h"),
+        ],
+    )
     assert cs.gap_reason.tolist() == ["", "outside-time-window", "outside-time-window"]
 
 
@@ -513,12 +561,16 @@ def test_profile_json_round_trip(tmp_path):
     for i, prof in enumerate(doc["profiles"]):
         lv = prof["levels"]
         np.testing.assert_allclose(tab.levels["pressure"][i], np.array(lv["pressure_hpa"]) * 100)
-        np.testing.assert_allclose(tab.levels["temperature"][i],
-                                   np.array(lv["temperature_c"]) + 273.15)
-        np.testing.assert_allclose(tab.levels["relative_humidity"][i],
-                                   np.minimum(np.array(lv["relative_humidity_pct"]) / 100, 1))
-        np.testing.assert_allclose(tab.levels["cloud_liquid"][i],
-                                   np.array(lv["cloud_liquid_g_kg"]) / 1000)
+        np.testing.assert_allclose(
+            tab.levels["temperature"][i], np.array(lv["temperature_c"]) + 273.15
+        )
+        np.testing.assert_allclose(
+            tab.levels["relative_humidity"][i],
+            np.minimum(np.array(lv["relative_humidity_pct"]) / 100, 1),
+        )
+        np.testing.assert_allclose(
+            tab.levels["cloud_liquid"][i], np.array(lv["cloud_liquid_g_kg"]) / 1000
+        )
         np.testing.assert_allclose(tab.levels["wind_u"][i], lv["wind_u_m_s"])
         assert tab.scalars["precipitation_rate_mm_h"][i] == prof["precipitation_rate_mm_h"]
         assert tab.time[i] == np.datetime64(prof["valid_time"][:-1], "ms")
@@ -562,10 +614,23 @@ def test_hypsometric_layer_thickness_against_metpy(tmp_path):
 def test_hypsometric_heights_without_surface_anchor(tmp_path):
     from icing.calc.thermo import standard_atmosphere_height
 
-    doc = {"format": "icing-profiles", "version": 1, "profiles": [
-        {"id": "X", "lat": 56.0, "lon": -28.0, "valid_time": "2027-01-14T12:00Z",
-         "levels": {"pressure_hpa": [950, 900, 850], "temperature_c": [2.0, -1.0, -4.0],
-                    "relative_humidity_pct": [70, 70, 70]}}]}
+    doc = {
+        "format": "icing-profiles",
+        "version": 1,
+        "profiles": [
+            {
+                "id": "X",
+                "lat": 56.0,
+                "lon": -28.0,
+                "valid_time": "2027-01-14T12:00Z",
+                "levels": {
+                    "pressure_hpa": [950, 900, 850],
+                    "temperature_c": [2.0, -1.0, -4.0],
+                    "relative_humidity_pct": [70, 70, 70],
+                },
+            }
+        ],
+    }
     z = load_forecast(mf.write_profiles(tmp_path / "p.json", doc)).table.levels["height"][0]
     # lowest level at its standard-atmosphere height (ICAO; icing.thermo)
     assert z[0] == pytest.approx(float(standard_atmosphere_height(95000.0)))
@@ -588,17 +653,24 @@ def test_several_profile_files_form_one_forecast(tmp_path):
     doc = mf.profiles_document()
     a, b = dict(doc), dict(doc)
     a["profiles"], b["profiles"] = doc["profiles"][:5], doc["profiles"][5:]
-    fc = load_forecast([mf.write_profiles(tmp_path / "a.json", a),
-                        mf.write_profiles(tmp_path / "b.json", b)])
+    fc = load_forecast(
+        [mf.write_profiles(tmp_path / "a.json", a), mf.write_profiles(tmp_path / "b.json", b)]
+    )
     assert fc.table.size == 15 and len(fc.describe()["files"]) == 2
     assert len(fc.valid_times) == 3
 
 
 def test_golden_columns_load():
     fc = load_forecast(GOLDEN)
-    assert set(fc.table.ids) == {"stratiform-deck", "warm-nose", "drizzle-deck",
-                                 "convective-cell", "dry", "glaciating-deep-cold-deck",
-                                 "ice-pellets-deep-cold"}
+    assert set(fc.table.ids) == {
+        "stratiform-deck",
+        "warm-nose",
+        "drizzle-deck",
+        "convective-cell",
+        "dry",
+        "glaciating-deep-cold-deck",
+        "ice-pellets-deep-cold",
+    }
 
 
 def test_bad_radius_and_tolerance():
@@ -611,8 +683,9 @@ def test_bad_radius_and_tolerance():
 def test_fixture_generator_is_deterministic(tmp_path):
     a = mf.write_golden(tmp_path / "a.json").read_text()
     assert a == GOLDEN.read_text()
-    assert json.loads(mf.write_profiles(tmp_path / "p.json").read_text()) == \
-        json.loads(PROFILES.read_text())
+    assert json.loads(mf.write_profiles(tmp_path / "p.json").read_text()) == json.loads(
+        PROFILES.read_text()
+    )
 
 
 @pytest.mark.parametrize("path", [LATLON, PROFILES])
@@ -623,8 +696,7 @@ def test_no_sample_covered_gives_one_placeholder_column(path):
     assert set(cs.gap_reason) <= {"outside-grid", "outside-radius"}
 
 
-@pytest.mark.parametrize("make", [lambda: mf.lcc_dataset(xy_units="km"),
-                                  mf.rotated_pole_dataset])
+@pytest.mark.parametrize("make", [lambda: mf.lcc_dataset(xy_units="km"), mf.rotated_pole_dataset])
 def test_other_projections_and_coordinate_units(tmp_path, make):
     fc = load_forecast(_write(make(), tmp_path))
     lat = np.array([57.3, 54.2])

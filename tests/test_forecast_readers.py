@@ -19,8 +19,9 @@ from icing.forecast.core import load_forecast
 from icing.forecast.readers import parse_time, profile_schema
 
 ROOT = Path(__file__).resolve().parents[1]
-_spec = importlib.util.spec_from_file_location("make_fixtures", ROOT / "fixtures" /
-                                               "make_fixtures.py")
+_spec = importlib.util.spec_from_file_location(
+    "make_fixtures", ROOT / "fixtures" / "make_fixtures.py"
+)
 mf = importlib.util.module_from_spec(_spec)
 _spec.loader.exec_module(mf)
 PROFILES = ROOT / "fixtures" / "skerrow-profiles.json"
@@ -35,13 +36,26 @@ def _doc():
 
 def _one_profile_doc(**levels):
     """A small valid document (three levels), level fields overridable."""
-    lv = {"pressure_hpa": [1000, 850, 700], "temperature_c": [5.0, -3.0, -10.0],
-          "relative_humidity_pct": [80.0, 95.0, 60.0]}
+    lv = {
+        "pressure_hpa": [1000, 850, 700],
+        "temperature_c": [5.0, -3.0, -10.0],
+        "relative_humidity_pct": [80.0, 95.0, 60.0],
+    }
     lv.update(levels)
     lv = {k: v for k, v in lv.items() if v is not None}
-    return {"format": "icing-profiles", "version": 1,
-            "profiles": [{"id": "P", "lat": 57.0, "lon": -24.0,
-                          "valid_time": "2027-01-14T12:00:00Z", "levels": lv}]}
+    return {
+        "format": "icing-profiles",
+        "version": 1,
+        "profiles": [
+            {
+                "id": "P",
+                "lat": 57.0,
+                "lon": -24.0,
+                "valid_time": "2027-01-14T12:00:00Z",
+                "levels": lv,
+            }
+        ],
+    }
 
 
 def _write(tmp_path, doc, name="p.json"):
@@ -76,15 +90,27 @@ def test_schema_is_valid_and_fixtures_follow_it():
 
 def test_example_document_of_the_design_loads(tmp_path):
     # DESIGN.md 3.3's illustrative profile (its heights are not hypsometric: kept as given)
-    doc = {"format": "icing-profiles", "version": 1, "profiles": [
-        {"id": "A", "lat": 51.2, "lon": -4.1, "valid_time": "2027-01-14T12:00:00Z",
-         "levels": {"pressure_hpa": [1000, 950, 900, 850, 800, 700, 600, 500],
+    doc = {
+        "format": "icing-profiles",
+        "version": 1,
+        "profiles": [
+            {
+                "id": "A",
+                "lat": 51.2,
+                "lon": -4.1,
+                "valid_time": "2027-01-14T12:00:00Z",
+                "levels": {
+                    "pressure_hpa": [1000, 950, 900, 850, 800, 700, 600, 500],
                     "height_m": [120, 540, 990, 1460, 1950, 3010, 4200, 5570],
                     "temperature_c": [3.0, 0.5, -2.0, -4.5, -7.0, -13.0, -20.0, -28.0],
                     "dewpoint_c": [2.0, 0.0, -2.3, -4.7, -7.3, -18.0, -30.0, -40.0],
                     "cloud_liquid_g_kg": [0, 0.05, 0.20, 0.25, 0.10, 0, 0, 0],
-                    "vertical_velocity_m_s": [0, 0.1, 0.2, 0.3, 0.2, 0.1, 0, 0]},
-         "precipitation_rate_mm_h": 0.0}]}
+                    "vertical_velocity_m_s": [0, 0.1, 0.2, 0.3, 0.2, 0.1, 0, 0],
+                },
+                "precipitation_rate_mm_h": 0.0,
+            }
+        ],
+    }
     fc = load_forecast(_write(tmp_path, doc))
     lv = fc.table.levels
     assert fc.table.humidity == "dewpoint"
@@ -98,41 +124,86 @@ def test_example_document_of_the_design_loads(tmp_path):
 
 BAD_JSON = {
     # name: (document edit, expected words in the message, expected place)
-    "malformed": ('{"format": "icing-profiles", "version": 1, "profiles": [}', "malformed JSON",
-                  "line 1"),
-    "unknown-format": ({"format": "soundings", "version": 1, "profiles": []}, "unknown format",
-                       "format"),
-    "unknown-version": ({"format": "icing-profiles", "version": 2, "profiles": []},
-                        "version", "version"),
-    "ragged": (_one_profile_doc(temperature_c=[5.0, -3.0]), "ragged",
-               "profiles[0].levels.temperature_c"),
-    "not-monotonic": (_one_profile_doc(pressure_hpa=[1000, 700, 850]), "monotonic",
-                      "profiles[0].levels.pressure_hpa[2]"),
-    "repeated-pressure": (_one_profile_doc(pressure_hpa=[1000, 850, 850]), "monotonic",
-                          "profiles[0].levels.pressure_hpa[2]"),
-    "kelvin-in-celsius": (_one_profile_doc(temperature_c=[278.0, 270.0, 263.0]), "kelvin",
-                          "profiles[0].levels.temperature_c[0]"),
-    "kelvin-dewpoint": (_one_profile_doc(relative_humidity_pct=None,
-                                         dewpoint_c=[275.0, 268.0, 255.0]), "kelvin",
-                        "profiles[0].levels.dewpoint_c[0]"),
-    "pressure-in-pa": (_one_profile_doc(pressure_hpa=[100000, 85000, 70000]), "pascals",
-                       "profiles[0].levels.pressure_hpa[0]"),
-    "humidity-far-above": (_one_profile_doc(relative_humidity_pct=[80, 160, 60]),
-                           "far outside", "profiles[0].levels.relative_humidity_pct[1]"),
-    "humidity-negative": (_one_profile_doc(relative_humidity_pct=[80, -5, 60]), "far outside",
-                          "profiles[0].levels.relative_humidity_pct[1]"),
-    "humidity-fraction-as-kg-kg": (_one_profile_doc(relative_humidity_pct=None,
-                                                    specific_humidity_g_kg=[40, 30, 20]),
-                                   "far outside",
-                                   "profiles[0].levels.specific_humidity_g_kg[0]"),
-    "no-humidity": (_one_profile_doc(relative_humidity_pct=None), "no humidity",
-                    "profiles[0].levels"),
-    "missing-temperature": (_one_profile_doc(temperature_c=None), "temperature_c",
-                            "profiles[0].levels"),
-    "unknown-level-field": (_one_profile_doc(humidity=[1, 2, 3]), "humidity",
-                            "profiles[0].levels"),
-    "cloud-fraction-percent": (_one_profile_doc(cloud_fraction=[0, 80, 100]), "out of range",
-                               "profiles[0].levels.cloud_fraction[1]"),
+    "malformed": (
+        '{"format": "icing-profiles", "version": 1, "profiles": [}',
+        "malformed JSON",
+        "line 1",
+    ),
+    "unknown-format": (
+        {"format": "soundings", "version": 1, "profiles": []},
+        "unknown format",
+        "format",
+    ),
+    "unknown-version": (
+        {"format": "icing-profiles", "version": 2, "profiles": []},
+        "version",
+        "version",
+    ),
+    "ragged": (
+        _one_profile_doc(temperature_c=[5.0, -3.0]),
+        "ragged",
+        "profiles[0].levels.temperature_c",
+    ),
+    "not-monotonic": (
+        _one_profile_doc(pressure_hpa=[1000, 700, 850]),
+        "monotonic",
+        "profiles[0].levels.pressure_hpa[2]",
+    ),
+    "repeated-pressure": (
+        _one_profile_doc(pressure_hpa=[1000, 850, 850]),
+        "monotonic",
+        "profiles[0].levels.pressure_hpa[2]",
+    ),
+    "kelvin-in-celsius": (
+        _one_profile_doc(temperature_c=[278.0, 270.0, 263.0]),
+        "kelvin",
+        "profiles[0].levels.temperature_c[0]",
+    ),
+    "kelvin-dewpoint": (
+        _one_profile_doc(relative_humidity_pct=None, dewpoint_c=[275.0, 268.0, 255.0]),
+        "kelvin",
+        "profiles[0].levels.dewpoint_c[0]",
+    ),
+    "pressure-in-pa": (
+        _one_profile_doc(pressure_hpa=[100000, 85000, 70000]),
+        "pascals",
+        "profiles[0].levels.pressure_hpa[0]",
+    ),
+    "humidity-far-above": (
+        _one_profile_doc(relative_humidity_pct=[80, 160, 60]),
+        "far outside",
+        "profiles[0].levels.relative_humidity_pct[1]",
+    ),
+    "humidity-negative": (
+        _one_profile_doc(relative_humidity_pct=[80, -5, 60]),
+        "far outside",
+        "profiles[0].levels.relative_humidity_pct[1]",
+    ),
+    "humidity-fraction-as-kg-kg": (
+        _one_profile_doc(relative_humidity_pct=None, specific_humidity_g_kg=[40, 30, 20]),
+        "far outside",
+        "profiles[0].levels.specific_humidity_g_kg[0]",
+    ),
+    "no-humidity": (
+        _one_profile_doc(relative_humidity_pct=None),
+        "no humidity",
+        "profiles[0].levels",
+    ),
+    "missing-temperature": (
+        _one_profile_doc(temperature_c=None),
+        "temperature_c",
+        "profiles[0].levels",
+    ),
+    "unknown-level-field": (
+        _one_profile_doc(humidity=[1, 2, 3]),
+        "humidity",
+        "profiles[0].levels",
+    ),
+    "cloud-fraction-percent": (
+        _one_profile_doc(cloud_fraction=[0, 80, 100]),
+        "out of range",
+        "profiles[0].levels.cloud_fraction[1]",
+    ),
 }
 
 
@@ -144,14 +215,17 @@ def test_bad_profile_json_gives_one_line_error(tmp_path, case):
     assert err.where is not None and err.where.startswith(where)
 
 
-@pytest.mark.parametrize("field, value, words", [
-    ("valid_time", "2027-01-14T12:00:00", "no time zone"),
-    ("valid_time", "14/01/2027 12:00", "not ISO 8601"),
-    ("valid_time", 20270114, "type"),
-    ("lat", 95.0, "maximum"),
-    ("precipitation_rate_mm_h", -1.0, "minimum"),
-    ("surface_pressure_hpa", 101325.0, "out of range"),
-])
+@pytest.mark.parametrize(
+    "field, value, words",
+    [
+        ("valid_time", "2027-01-14T12:00:00", "no time zone"),
+        ("valid_time", "14/01/2027 12:00", "not ISO 8601"),
+        ("valid_time", 20270114, "type"),
+        ("lat", 95.0, "maximum"),
+        ("precipitation_rate_mm_h", -1.0, "minimum"),
+        ("surface_pressure_hpa", 101325.0, "out of range"),
+    ],
+)
 def test_bad_profile_fields(tmp_path, field, value, words):
     doc = _one_profile_doc()
     doc["profiles"][0][field] = value
@@ -232,8 +306,9 @@ def test_mixed_humidity_kinds_become_relative_humidity(tmp_path):
     import metpy.calc as mpcalc
     from metpy.units import units
 
-    expect = mpcalc.relative_humidity_from_dewpoint(units.Quantity([5.0, -3.0, -10.0], "degC"),
-                                                    units.Quantity([2.0, -4.0, -20.0], "degC"))
+    expect = mpcalc.relative_humidity_from_dewpoint(
+        units.Quantity([5.0, -3.0, -10.0], "degC"), units.Quantity([2.0, -4.0, -20.0], "degC")
+    )
     np.testing.assert_allclose(rh, expect.m_as(""), rtol=1e-6)  # same formula, float noise
 
 
@@ -252,27 +327,56 @@ def test_csv_profiles_equal_json_profiles():
 CSV_HEAD = "id,lat,lon,valid_time,pressure_hpa,temperature_c,relative_humidity_pct"
 
 
-@pytest.mark.parametrize("text, words, where", [
-    ("id,lat,lon,pressure_hpa,temperature_c,relative_humidity_pct\n", "valid_time",
-     "line 1"),
-    ("id,lat,lon,valid_time,pressure_hpa,temperature_c\nP,57,-24,2027-01-14T12:00Z,1000,5\n",
-     "humidity", "line 1"),
-    (CSV_HEAD + ",wind\nP,57,-24,2027-01-14T12:00Z,1000,5,80,3\n", "unknown column", "line 1"),
-    (CSV_HEAD + "\nP,57,-24,2027-01-14T12:00Z,1000,5,80\nP,57,-24,2027-01-14T12:00Z,850,x,90\n",
-     "not a number", "line 3, column temperature_c"),
-    (CSV_HEAD + "\nP,57,-24,2027-01-14T12:00Z,1000,5,80\nP,57.5,-24,2027-01-14T12:00Z,850,1,90\n",
-     "differs", "lines 2-3, column lat"),
-    (CSV_HEAD + "\nP,57,-24,2027-01-14T12:00Z,1000,5,80\nP,57,-24,2027-01-14T12:00Z,1000,1,90\n",
-     "monotonic", "line 3, column pressure_hpa"),
-    (CSV_HEAD + "\nP,57,-24,2027-01-14T12:00,1000,5,80\nP,57,-24,2027-01-14T12:00,850,1,90\n",
-     "no time zone", "lines 2-3, column valid_time"),
-    (CSV_HEAD + "\nP,57,-24,2027-01-14T12:00Z,1000,280,80\nP,57,-24,2027-01-14T12:00Z,850,1,90\n",
-     "kelvin", "line 2, column temperature_c"),
-    (CSV_HEAD + "\nP,97,-24,2027-01-14T12:00Z,1000,5,80\nP,97,-24,2027-01-14T12:00Z,850,1,90\n",
-     "out of range", "lines 2-3, column lat"),
-    (CSV_HEAD + "\nP,57,-24,2027-01-14T12:00Z,1000,5,80\n", "fewer than 2 levels", "line"),
-    (CSV_HEAD + "\n", "no data rows", None),
-])
+@pytest.mark.parametrize(
+    "text, words, where",
+    [
+        ("id,lat,lon,pressure_hpa,temperature_c,relative_humidity_pct\n", "valid_time", "line 1"),
+        (
+            "id,lat,lon,valid_time,pressure_hpa,temperature_c\nP,57,-24,2027-01-14T12:00Z,1000,5\n",
+            "humidity",
+            "line 1",
+        ),
+        (CSV_HEAD + ",wind\nP,57,-24,2027-01-14T12:00Z,1000,5,80,3\n", "unknown column", "line 1"),
+        (
+            CSV_HEAD
+            + "\nP,57,-24,2027-01-14T12:00Z,1000,5,80\nP,57,-24,2027-01-14T12:00Z,850,x,90\n",
+            "not a number",
+            "line 3, column temperature_c",
+        ),
+        (
+            CSV_HEAD
+            + "\nP,57,-24,2027-01-14T12:00Z,1000,5,80\nP,57.5,-24,2027-01-14T12:00Z,850,1,90\n",
+            "differs",
+            "lines 2-3, column lat",
+        ),
+        (
+            CSV_HEAD
+            + "\nP,57,-24,2027-01-14T12:00Z,1000,5,80\nP,57,-24,2027-01-14T12:00Z,1000,1,90\n",
+            "monotonic",
+            "line 3, column pressure_hpa",
+        ),
+        (
+            CSV_HEAD
+            + "\nP,57,-24,2027-01-14T12:00,1000,5,80\nP,57,-24,2027-01-14T12:00,850,1,90\n",
+            "no time zone",
+            "lines 2-3, column valid_time",
+        ),
+        (
+            CSV_HEAD
+            + "\nP,57,-24,2027-01-14T12:00Z,1000,280,80\nP,57,-24,2027-01-14T12:00Z,850,1,90\n",
+            "kelvin",
+            "line 2, column temperature_c",
+        ),
+        (
+            CSV_HEAD
+            + "\nP,97,-24,2027-01-14T12:00Z,1000,5,80\nP,97,-24,2027-01-14T12:00Z,850,1,90\n",
+            "out of range",
+            "lines 2-3, column lat",
+        ),
+        (CSV_HEAD + "\nP,57,-24,2027-01-14T12:00Z,1000,5,80\n", "fewer than 2 levels", "line"),
+        (CSV_HEAD + "\n", "no data rows", None),
+    ],
+)
 def test_bad_profile_csv(tmp_path, text, words, where):
     err = _error(tmp_path, text, name="p.csv")
     assert words in err.one_line()
@@ -323,11 +427,14 @@ def test_no_humidity(tmp_path):
     assert "--var" in info.value.fix
 
 
-@pytest.mark.parametrize("name, units, words, where", [
-    ("t", "degC", "implausible", "variable t"),  # kelvin values labelled Celsius
-    ("r", "bananas", "not understood", "variable r"),
-    ("u", "K", "cannot be converted", "variable u"),
-])
+@pytest.mark.parametrize(
+    "name, units, words, where",
+    [
+        ("t", "degC", "implausible", "variable t"),  # kelvin values labelled Celsius
+        ("r", "bananas", "not understood", "variable r"),
+        ("u", "K", "cannot be converted", "variable u"),
+    ],
+)
 def test_bad_units_attribute(tmp_path, name, units, words, where):
     ds = _latlon_ds()
     ds[name].attrs["units"] = units
@@ -338,8 +445,11 @@ def test_bad_units_attribute(tmp_path, name, units, words, where):
 
 def test_model_levels_are_refused(tmp_path):
     ds = _latlon_ds().rename({"pressure": "hybrid"})
-    ds["hybrid"] = ("hybrid", np.arange(ds.sizes["hybrid"], dtype=float),
-                    {"positive": "down", "long_name": "model level"})
+    ds["hybrid"] = (
+        "hybrid",
+        np.arange(ds.sizes["hybrid"], dtype=float),
+        {"positive": "down", "long_name": "model level"},
+    )
     with pytest.raises(ForecastError, match="model levels"):
         load_forecast(_to_nc(ds, tmp_path))
 
@@ -405,10 +515,14 @@ def test_specific_humidity_in_g_per_kg(tmp_path):
 
     ds = _latlon_ds()
     p = ds["pressure"] * 100.0
-    q = specific_humidity_from_relative_humidity(p.values[None, :, None, None],
-                                                 ds["t"].values, ds["r"].values / 100.0)
-    ds["q"] = (ds["t"].dims, (q * 1000.0).astype(np.float32),
-               {"standard_name": "specific_humidity", "units": "g kg-1"})
+    q = specific_humidity_from_relative_humidity(
+        p.values[None, :, None, None], ds["t"].values, ds["r"].values / 100.0
+    )
+    ds["q"] = (
+        ds["t"].dims,
+        (q * 1000.0).astype(np.float32),
+        {"standard_name": "specific_humidity", "units": "g kg-1"},
+    )
     ds = ds.drop_vars("r")
     fc = load_forecast(_to_nc(ds, tmp_path))
     assert fc.humidity == "specific_humidity"

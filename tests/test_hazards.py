@@ -69,9 +69,16 @@ def _screening(severity):
     """A screening-like object over made-up per-sample severities."""
     s = _samples(len(severity))
     at = _at(severity)
-    return SimpleNamespace(route_name="r", airframe_name="af", samples=s, at_flight=at,
-                           segments=build_segments("r", "af", s, at), summary={},
-                           provenance={}, assumptions={})
+    return SimpleNamespace(
+        route_name="r",
+        airframe_name="af",
+        samples=s,
+        at_flight=at,
+        segments=build_segments("r", "af", s, at),
+        summary={},
+        provenance={},
+        assumptions={},
+    )
 
 
 def test_short_severe_stretch_is_not_hidden():

@@ -73,9 +73,12 @@ def test_time_step_bounds_spacing_for_a_slow_drone():
 
 
 def test_altitude_step_bounds_spacing_and_is_linear_in_distance():
-    climb = Route("climb", [Waypoint("KARVO", 57.0, -25.0, 1000 * FT),
-                            Waypoint("PENTU", 57.0, -24.7, 9000 * FT)],
-                  departure_time=DEPARTURE, true_airspeed_kt=150.0)
+    climb = Route(
+        "climb",
+        [Waypoint("KARVO", 57.0, -25.0, 1000 * FT), Waypoint("PENTU", 57.0, -24.7, 9000 * FT)],
+        departure_time=DEPARTURE,
+        true_airspeed_kt=150.0,
+    )
     s = sample_route(climb, step_km=50.0, max_step_s=1e6, max_step_ft=100.0)
     assert np.abs(np.diff(s.altitude_m)).max() <= 100 * FT + 1e-9
     assert len(s) == 81  # 8,000 ft in 100 ft steps
@@ -84,9 +87,12 @@ def test_altitude_step_bounds_spacing_and_is_linear_in_distance():
 
 
 def test_a_1000_km_route_gives_about_1000_samples():
-    long = Route("long", [Waypoint("KARVO", 57.0, -30.0, 3000.0),
-                          Waypoint("PENTU", 57.0, -13.5, 3000.0)],
-                 departure_time=DEPARTURE, true_airspeed_kt=250.0)
+    long = Route(
+        "long",
+        [Waypoint("KARVO", 57.0, -30.0, 3000.0), Waypoint("PENTU", 57.0, -13.5, 3000.0)],
+        departure_time=DEPARTURE,
+        true_airspeed_kt=250.0,
+    )
     s = sample_route(long)
     assert 995 <= len(s) <= 1010
 
@@ -102,9 +108,12 @@ def test_antimeridian_crossing_stays_on_the_short_geodesic():
 
 
 def test_longitude_180_is_normalised():
-    r = Route("east", [Waypoint("VEKTU", 10.0, 179.5, 3000.0), Waypoint("SOLRI", 10.0, 180.0,
-                                                                       3000.0)],
-              departure_time=DEPARTURE, true_airspeed_kt=200.0)
+    r = Route(
+        "east",
+        [Waypoint("VEKTU", 10.0, 179.5, 3000.0), Waypoint("SOLRI", 10.0, 180.0, 3000.0)],
+        departure_time=DEPARTURE,
+        true_airspeed_kt=200.0,
+    )
     s = sample_route(r)
     assert s.lon[-1] == -180.0
     assert np.all((s.lon >= -180.0) & (s.lon < 180.0))
@@ -167,9 +176,14 @@ def test_no_time_at_all_is_an_error_naming_the_fix():
 
 def test_departure_argument_overrides_and_shifts_waypoint_times():
     t0 = DEPARTURE
-    r = Route("timed", [Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
-                        Waypoint("LEMBA", 57.0, -24.0, 2500.0, time=t0 + timedelta(minutes=10)),
-                        Waypoint("PENTU", 57.0, -23.0, 2500.0, time=t0 + timedelta(minutes=30))])
+    r = Route(
+        "timed",
+        [
+            Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
+            Waypoint("LEMBA", 57.0, -24.0, 2500.0, time=t0 + timedelta(minutes=10)),
+            Waypoint("PENTU", 57.0, -23.0, 2500.0, time=t0 + timedelta(minutes=30)),
+        ],
+    )
     base = sample_route(r)
     shifted = sample_route(r, departure=datetime(2027, 1, 14, 12, 0, tzinfo=UTC))
     assert shifted.time[0] == np.datetime64("2027-01-14T12:00:00.000")
@@ -183,9 +197,14 @@ def test_departure_argument_overrides_and_shifts_waypoint_times():
 
 def test_waypoint_times_interpolate_linearly_in_distance():
     t0 = DEPARTURE
-    r = Route("timed", [Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
-                        Waypoint("LEMBA", 57.0, -24.0, 2500.0),
-                        Waypoint("PENTU", 57.0, -23.0, 2500.0, time=t0 + timedelta(hours=1))])
+    r = Route(
+        "timed",
+        [
+            Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
+            Waypoint("LEMBA", 57.0, -24.0, 2500.0),
+            Waypoint("PENTU", 57.0, -23.0, 2500.0, time=t0 + timedelta(hours=1)),
+        ],
+    )
     s = sample_route(r)
     frac = s.distance_m / s.distance_m[-1]
     assert seconds(s) == pytest.approx(3600.0 * frac, abs=1e-3)  # ms rounding
@@ -196,9 +215,11 @@ def test_waypoint_times_interpolate_linearly_in_distance():
 
 def test_times_before_the_first_timed_waypoint_use_the_airspeed():
     t1 = DEPARTURE + timedelta(hours=1)
-    r = Route("late", [Waypoint("KARVO", 57.0, -25.0, 2500.0),
-                       Waypoint("PENTU", 57.0, -24.0, 2500.0, time=t1)],
-              true_airspeed_kt=200.0)
+    r = Route(
+        "late",
+        [Waypoint("KARVO", 57.0, -25.0, 2500.0), Waypoint("PENTU", 57.0, -24.0, 2500.0, time=t1)],
+        true_airspeed_kt=200.0,
+    )
     s = sample_route(r)
     assert s.time[-1] == np.datetime64("2027-01-14T10:00:00.000")
     assert s.dt_s.sum() == pytest.approx(s.distance_m[-1] / (200.0 * KT), abs=1e-3)
@@ -206,23 +227,40 @@ def test_times_before_the_first_timed_waypoint_use_the_airspeed():
 
 def test_times_that_do_not_increase_are_refused():
     t0 = DEPARTURE
-    r = Route("back", [Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
-                       Waypoint("PENTU", 57.0, -24.0, 2500.0, time=t0)])
+    r = Route(
+        "back",
+        [
+            Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
+            Waypoint("PENTU", 57.0, -24.0, 2500.0, time=t0),
+        ],
+    )
     with pytest.raises(RouteError, match="not after"):
         sample_route(r)
 
 
 def test_naive_waypoint_time_is_refused():
-    r = Route("naive", [Waypoint("KARVO", 57.0, -25.0, 2500.0, time=datetime(2027, 1, 14, 9)),
-                        Waypoint("PENTU", 57.0, -24.0, 2500.0)], true_airspeed_kt=100.0)
+    r = Route(
+        "naive",
+        [
+            Waypoint("KARVO", 57.0, -25.0, 2500.0, time=datetime(2027, 1, 14, 9)),
+            Waypoint("PENTU", 57.0, -24.0, 2500.0),
+        ],
+        true_airspeed_kt=100.0,
+    )
     with pytest.raises(RouteError, match="no time zone"):
         sample_route(r)
 
 
 def test_departure_time_disagreeing_with_first_waypoint_is_refused():
-    r = Route("two-starts", [Waypoint("KARVO", 57.0, -25.0, 2500.0, time=DEPARTURE),
-                             Waypoint("PENTU", 57.0, -24.0, 2500.0)],
-              departure_time=DEPARTURE + timedelta(minutes=5), true_airspeed_kt=100.0)
+    r = Route(
+        "two-starts",
+        [
+            Waypoint("KARVO", 57.0, -25.0, 2500.0, time=DEPARTURE),
+            Waypoint("PENTU", 57.0, -24.0, 2500.0),
+        ],
+        departure_time=DEPARTURE + timedelta(minutes=5),
+        true_airspeed_kt=100.0,
+    )
     with pytest.raises(RouteError, match="differs"):
         sample_route(r)
 
@@ -241,9 +279,11 @@ def test_single_point_hover_spreads_samples_over_the_hold():
 
 
 def test_hold_inside_a_route_adds_its_time_at_the_waypoint():
-    wps = [Waypoint("KARVO", 57.0, -25.0, 2500.0), Waypoint("LEMBA", 57.0, -24.0, 2500.0,
-                                                              hold_min=5.0),
-           Waypoint("PENTU", 57.0, -23.0, 2500.0)]
+    wps = [
+        Waypoint("KARVO", 57.0, -25.0, 2500.0),
+        Waypoint("LEMBA", 57.0, -24.0, 2500.0, hold_min=5.0),
+        Waypoint("PENTU", 57.0, -23.0, 2500.0),
+    ]
     r = Route("hold", wps, departure_time=DEPARTURE, true_airspeed_kt=200.0)
     s = sample_route(r)
     flight = s.distance_m[-1] / (200.0 * KT)
@@ -258,9 +298,11 @@ def test_hold_inside_a_route_adds_its_time_at_the_waypoint():
 
 def test_timed_hold_leaves_its_time_out_of_the_moving_part():
     t0 = DEPARTURE
-    wps = [Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
-           Waypoint("LEMBA", 57.0, -24.0, 2500.0, hold_min=10.0),
-           Waypoint("PENTU", 57.0, -23.0, 2500.0, time=t0 + timedelta(minutes=40))]
+    wps = [
+        Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
+        Waypoint("LEMBA", 57.0, -24.0, 2500.0, hold_min=10.0),
+        Waypoint("PENTU", 57.0, -23.0, 2500.0, time=t0 + timedelta(minutes=40)),
+    ]
     s = sample_route(Route("timed-hold", wps))
     assert s.dt_s.sum() == pytest.approx(2400.0, abs=1e-3)
     t = seconds(s)
@@ -324,8 +366,13 @@ def test_wind_stronger_than_the_airspeed_is_floored_with_a_warning():
 
 def test_wind_does_not_change_times_between_timed_waypoints():
     t0 = DEPARTURE
-    r = Route("timed", [Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
-                        Waypoint("PENTU", 57.0, -24.0, 2500.0, time=t0 + timedelta(hours=1))])
+    r = Route(
+        "timed",
+        [
+            Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
+            Waypoint("PENTU", 57.0, -24.0, 2500.0, time=t0 + timedelta(hours=1)),
+        ],
+    )
 
     def strong(lat, lon, alt, time):
         return np.full(np.shape(lat), 30.0), np.zeros(np.shape(lat))
@@ -338,15 +385,33 @@ def test_wind_does_not_change_times_between_timed_waypoints():
 
 def test_sample_attributes_and_legs():
     t0 = DEPARTURE
-    r = Route("three", [Waypoint("KARVO", 57.0, -25.0, 2500.0),
-                        Waypoint("LEMBA", 57.1, -24.5, 2600.0),
-                        Waypoint("PENTU", 57.2, -24.0, 2700.0)],
-              departure_time=t0, true_airspeed_kt=180.0)
+    r = Route(
+        "three",
+        [
+            Waypoint("KARVO", 57.0, -25.0, 2500.0),
+            Waypoint("LEMBA", 57.1, -24.5, 2600.0),
+            Waypoint("PENTU", 57.2, -24.0, 2700.0),
+        ],
+        departure_time=t0,
+        true_airspeed_kt=180.0,
+    )
     s = sample_route(r)
     assert isinstance(s, RouteSamples)
     n = len(s)
-    for name in ("lat", "lon", "altitude_m", "distance_m", "time", "tas", "leg",
-                 "from_waypoint", "to_waypoint", "hold", "dt_s", "ground_speed"):
+    for name in (
+        "lat",
+        "lon",
+        "altitude_m",
+        "distance_m",
+        "time",
+        "tas",
+        "leg",
+        "from_waypoint",
+        "to_waypoint",
+        "hold",
+        "dt_s",
+        "ground_speed",
+    ):
         assert getattr(s, name).shape == (n,), name
     assert s.route_name == "three" and s.waypoint_names == ["KARVO", "LEMBA", "PENTU"]
     assert s.leg[0] == 0 and s.leg[-1] == 1 and set(s.leg) == {0, 1}
@@ -370,22 +435,31 @@ def test_flight_level_is_pressure_altitude():
 def test_empty_and_single_waypoint_routes_are_refused():
     with pytest.raises(RouteError, match="no waypoints"):
         sample_route(EMPTY_ROUTE)
-    lone = replace(SINGLE_POINT_ROUTE,
-                   waypoints=(replace(SINGLE_POINT_ROUTE.waypoints[0], hold_min=0.0),))
+    lone = replace(
+        SINGLE_POINT_ROUTE, waypoints=(replace(SINGLE_POINT_ROUTE.waypoints[0], hold_min=0.0),)
+    )
     with pytest.raises(RouteError, match="single waypoint.*hold_min"):
         sample_route(lone)
 
 
 def test_mixed_altitude_references_are_refused():
-    r = Route("mixed", [Waypoint("KARVO", 57.0, -25.0, 2500.0, "msl"),
-                        Waypoint("PENTU", 57.0, -24.0, 3048.0, "pressure")],
-              departure_time=DEPARTURE, true_airspeed_kt=200.0)
+    r = Route(
+        "mixed",
+        [
+            Waypoint("KARVO", 57.0, -25.0, 2500.0, "msl"),
+            Waypoint("PENTU", 57.0, -24.0, 3048.0, "pressure"),
+        ],
+        departure_time=DEPARTURE,
+        true_airspeed_kt=200.0,
+    )
     with pytest.raises(RouteError, match="one altitude reference"):
         sample_route(r)
 
 
-@pytest.mark.parametrize("kwargs", [{"step_km": 0.0}, {"max_step_s": -1.0},
-                                    {"max_step_ft": float("nan")}, {"tas_kt": "fast"}])
+@pytest.mark.parametrize(
+    "kwargs",
+    [{"step_km": 0.0}, {"max_step_s": -1.0}, {"max_step_ft": float("nan")}, {"tas_kt": "fast"}],
+)
 def test_bad_sampling_arguments_are_refused(kwargs):
     with pytest.raises(RouteError):
         sample_route(STRAIGHT_ROUTE, **kwargs)
@@ -397,11 +471,17 @@ def test_too_many_samples_is_refused():
 
 
 def test_zero_length_leg_and_vertical_leg():
-    r = Route("hop", [Waypoint("KARVO", 57.0, -25.0, 30.0, "agl"),
-                      Waypoint("KARVO", 57.0, -25.0, 120.0, "agl"),
-                      Waypoint("KARVO", 57.0, -25.0, 120.0, "agl"),
-                      Waypoint("PENTU", 57.0, -24.99, 120.0, "agl")],
-              departure_time=DEPARTURE, true_airspeed_kt=20.0)
+    r = Route(
+        "hop",
+        [
+            Waypoint("KARVO", 57.0, -25.0, 30.0, "agl"),
+            Waypoint("KARVO", 57.0, -25.0, 120.0, "agl"),
+            Waypoint("KARVO", 57.0, -25.0, 120.0, "agl"),
+            Waypoint("PENTU", 57.0, -24.99, 120.0, "agl"),
+        ],
+        departure_time=DEPARTURE,
+        true_airspeed_kt=20.0,
+    )
     s = sample_route(r)
     assert np.all(np.diff(seconds(s)) >= 0)
     # the vertical leg takes its climb over the airspeed (3-D path length)
@@ -418,15 +498,17 @@ def test_route_geo_interface():
 
 # --------------------------------------------------------------------------- invariants
 
-_waypoint = st.tuples(st.floats(-80, 80), st.floats(-180, 180), st.floats(0, 12000),
-                      st.sampled_from([0.0, 0.0, 0.5]))
+_waypoint = st.tuples(
+    st.floats(-80, 80), st.floats(-180, 180), st.floats(0, 12000), st.sampled_from([0.0, 0.0, 0.5])
+)
 
 
 @settings(max_examples=40, deadline=None)
 @given(st.lists(_waypoint, min_size=2, max_size=5), st.floats(20, 500))
 def test_invariants_on_random_routes(points, tas):
-    wps = [Waypoint(f"WP{i}", la, lo, z, "msl", None, h) for i, (la, lo, z, h) in
-           enumerate(points)]
+    wps = [
+        Waypoint(f"WP{i}", la, lo, z, "msl", None, h) for i, (la, lo, z, h) in enumerate(points)
+    ]
     r = Route("random", wps, departure_time=DEPARTURE, true_airspeed_kt=tas)
     s = sample_route(r, step_km=200.0, max_step_s=3600.0, max_step_ft=5000.0)
     t = seconds(s)
@@ -438,8 +520,10 @@ def test_invariants_on_random_routes(points, tas):
     assert t[-1] >= expected - 1e-2
     assert t[-1] <= expected + vertical / (tas * KT) + 1e-2  # 3-D path <= horizontal + vertical
     assert np.all((s.lon >= -180.0) & (s.lon < 180.0))
-    assert np.all((s.altitude_m >= min(p[2] for p in points) - 1e-6)
-                  & (s.altitude_m <= max(p[2] for p in points) + 1e-6))
+    assert np.all(
+        (s.altitude_m >= min(p[2] for p in points) - 1e-6)
+        & (s.altitude_m <= max(p[2] for p in points) + 1e-6)
+    )
 
 
 def test_wind_is_read_at_an_msl_height_for_agl_routes():
@@ -449,17 +533,29 @@ def test_wind_is_read_at_an_msl_height_for_agl_routes():
         seen.append(np.asarray(alt))
         return np.zeros(np.shape(lat)), np.zeros(np.shape(lat))
 
-    drone = Route("agl", [Waypoint("JORVE", 57.2, -24.5, 100.0, "agl"),
-                          Waypoint("MAKTI", 57.2, -24.45, 100.0, "agl")],
-                  departure_time=DEPARTURE, true_airspeed_kt=30.0, ground_elevation_m=250.0)
+    drone = Route(
+        "agl",
+        [
+            Waypoint("JORVE", 57.2, -24.5, 100.0, "agl"),
+            Waypoint("MAKTI", 57.2, -24.45, 100.0, "agl"),
+        ],
+        departure_time=DEPARTURE,
+        true_airspeed_kt=30.0,
+        ground_elevation_m=250.0,
+    )
     sample_route(drone, wind=probe)
     assert seen[0] == pytest.approx(350.0)
 
 
 def test_times_implying_an_impossible_ground_speed_warn():
     t0 = DEPARTURE
-    r = Route("typo", [Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
-                       Waypoint("PENTU", 57.0, -15.0, 2500.0, time=t0 + timedelta(minutes=6))])
+    r = Route(
+        "typo",
+        [
+            Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
+            Waypoint("PENTU", 57.0, -15.0, 2500.0, time=t0 + timedelta(minutes=6)),
+        ],
+    )
     with pytest.warns(PlausibilityWarning, match="kt over the ground"):
         sample_route(r)
 

@@ -24,8 +24,7 @@ from metpy.units import units
 
 from icing.calc import thermo
 
-VERSIONS = (f"iapws {iapws.__version__}, ambiance {version('ambiance')}, "
-            f"metpy {metpy.__version__}")
+VERSIONS = f"iapws {iapws.__version__}, ambiance {version('ambiance')}, metpy {metpy.__version__}"
 
 
 @pytest.mark.parametrize("temperature", [273.16, 283.15, 293.15, 303.15, 313.15])
@@ -40,8 +39,14 @@ def test_saturation_over_water_matches_iapws_if97(temperature):
 
 @pytest.mark.parametrize(
     ("temperature", "rel"),
-    [(273.16, 1e-3), (263.15, 1e-3), (253.15, 1e-3), (243.15, 2e-3), (233.15, 3e-3),
-     (213.15, 1.2e-2)],
+    [
+        (273.16, 1e-3),
+        (263.15, 1e-3),
+        (253.15, 1e-3),
+        (243.15, 2e-3),
+        (233.15, 3e-3),
+        (213.15, 1.2e-2),
+    ],
 )
 def test_saturation_over_ice_matches_iapws_sublimation(temperature, rel):
     # reference library: iapws (IAPWS 2011 sublimation pressure of ice Ih, MPa)
@@ -52,8 +57,7 @@ def test_saturation_over_ice_matches_iapws_sublimation(temperature, rel):
     assert got == pytest.approx(expected, rel=rel), VERSIONS
 
 
-@pytest.mark.parametrize(("temperature_c", "expected"), [(-10, 0.91), (-20, 0.82),
-                                                         (-30, 0.75)])
+@pytest.mark.parametrize(("temperature_c", "expected"), [(-10, 0.91), (-20, 0.82), (-30, 0.75)])
 def test_ice_saturation_relative_humidity(temperature_c, expected):
     # from memory: textbook ratio e_si/e_sw ~91/82/75 % at -10/-20/-30 C (Rogers & Yau
     # 1989, table 2.1, from memory); IAPWS-IF97 has no supercooled-water branch to
@@ -71,7 +75,8 @@ def test_standard_atmosphere_pressure_fl100():
     # published: ICAO standard atmosphere, FL100 = 3048 m pressure altitude = 696.8 hPa
     # (ICAO Doc 7488 tables, from memory; also ambiance below)
     assert float(thermo.standard_atmosphere_pressure(3048.0)) / 100 == pytest.approx(
-        696.8, abs=0.05)  # printed to 0.1 hPa
+        696.8, abs=0.05
+    )  # printed to 0.1 hPa
 
 
 @pytest.mark.parametrize("geometric_height", [0.0, 1000.0, 3048.0, 5000.0, 10000.0])
@@ -90,7 +95,8 @@ def test_hypsometric_heights_match_ambiance():
     h = np.linspace(0.0, 10000.0, 40)
     atm = ambiance.Atmosphere(h)
     z = thermo.height_from_pressure_hypsometric(
-        atm.pressure, atm.temperature, base_height=0.0, base_pressure=101325.0)
+        atm.pressure, atm.temperature, base_height=0.0, base_pressure=101325.0
+    )
     # 1 m: trapezoidal layer means over ~250 m layers of a linear lapse; ambiance uses
     # g0 = 9.80665 and R = 287.05287, ours 287.0475 (2e-5 relative, 0.2 m at 10 km)
     np.testing.assert_allclose(z, atm.H, atol=1.0, err_msg=VERSIONS)
@@ -110,8 +116,9 @@ def test_viscosity_sutherland_at_zero_celsius():
 def test_viscosity_matches_ambiance():
     # reference library: ambiance 1.3.1 dynamic viscosity (same Sutherland law, ICAO 1993)
     atm = ambiance.Atmosphere([0.0, 5000.0, 10000.0])
-    np.testing.assert_allclose(thermo.air_viscosity(atm.temperature), atm.dynamic_viscosity,
-                               rtol=1e-4, err_msg=VERSIONS)
+    np.testing.assert_allclose(
+        thermo.air_viscosity(atm.temperature), atm.dynamic_viscosity, rtol=1e-4, err_msg=VERSIONS
+    )
 
 
 @settings(max_examples=60, deadline=None)
@@ -151,8 +158,9 @@ def test_moist_adiabat_matches_metpy_moist_lapse(start_c):
 def test_moist_adiabat_from_a_middle_start_both_ways():
     # reference library: MetPy moist_lapse with reference_pressure inside the levels
     start = 70000.0
-    ref = mpcalc.moist_lapse(LEVELS * units.Pa, 265.0 * units.K,
-                             reference_pressure=start * units.Pa).m_as("K")
+    ref = mpcalc.moist_lapse(
+        LEVELS * units.Pa, 265.0 * units.K, reference_pressure=start * units.Pa
+    ).m_as("K")
     got = thermo.moist_adiabat_temperature(LEVELS, 265.0, start)
     np.testing.assert_allclose(got, ref, atol=5e-3)  # as above
 

@@ -146,8 +146,9 @@ def _evaporation_coefficient(pressure, temperature):
     return (PRANDTL_AIR / sc) ** (2.0 / 3.0) * EPSILON / (CP_AIR * np.asarray(pressure, float))
 
 
-def evaporation_mass_flux(h_c, surface_vapor_pressure, ambient_vapor_pressure, *, pressure,
-                          temperature):
+def evaporation_mass_flux(
+    h_c, surface_vapor_pressure, ambient_vapor_pressure, *, pressure, temperature
+):
     """Evaporation (or sublimation) mass flux by the Chilton-Colburn analogy.
 
     ``m_e = (h_c / c_p) (Pr/Sc)^(2/3) eps (e_s - e_a) / p``: heat and mass transfer
@@ -179,8 +180,10 @@ def evaporation_mass_flux(h_c, surface_vapor_pressure, ambient_vapor_pressure, *
     0.0
     """
     coef = _evaporation_coefficient(pressure, temperature)
-    return np.asarray(h_c, float) * coef * (
-        np.asarray(surface_vapor_pressure, float) - np.asarray(ambient_vapor_pressure, float)
+    return (
+        np.asarray(h_c, float)
+        * coef
+        * (np.asarray(surface_vapor_pressure, float) - np.asarray(ambient_vapor_pressure, float))
     )
 
 
@@ -206,8 +209,9 @@ def _glaze_fraction(t, v, m_imp, h_c, evap_coef, e_a, recovery_factor):
     return np.where(m_imp > 0.0, n0, np.nan)
 
 
-def _balance_terms(temperature, airspeed, pressure, lwc, beta0, cylinder_diameter,
-                   relative_humidity):
+def _balance_terms(
+    temperature, airspeed, pressure, lwc, beta0, cylinder_diameter, relative_humidity
+):
     """(T, V, impinging flux, h_c, evaporation coefficient, ambient vapour pressure)."""
     t = np.asarray(temperature, dtype=float)
     v = np.asarray(airspeed, dtype=float)
@@ -285,8 +289,9 @@ def freezing_fraction(
     >>> bool(n_cold > 1.0 > n_warm > 0.0)
     True
     """
-    terms = _balance_terms(temperature, airspeed, pressure, lwc, beta0, cylinder_diameter,
-                           relative_humidity)
+    terms = _balance_terms(
+        temperature, airspeed, pressure, lwc, beta0, cylinder_diameter, relative_humidity
+    )
     return _glaze_fraction(*terms, recovery_factor)
 
 
@@ -302,8 +307,11 @@ def _dry_surface_temperature(t, v, m_imp, h_c, evap_coef, e_a, recovery_factor, 
     ts = np.clip(ts, t - 5.0, T0)
     for _ in range(iterations):
         es = saturation_vapor_pressure(ts, phase="solid")
-        f = gain + h_c * (t_r - ts) - h_c * evap_coef * (es - e_a) * LS0 - m_imp * CP_WATER * (
-            ts - t
+        f = (
+            gain
+            + h_c * (t_r - ts)
+            - h_c * evap_coef * (es - e_a) * LS0
+            - m_imp * CP_WATER * (ts - t)
         )
         dfdt = -h_c - m_imp * CP_WATER - h_c * evap_coef * LS0 * es * LS0 / (RV * ts * ts)
         ts = np.clip(ts - f / dfdt, t - 20.0, T0)
@@ -348,8 +356,9 @@ def surface_temperature(
     >>> bool(253.15 < ts < 273.15)
     True
     """
-    terms = _balance_terms(temperature, airspeed, pressure, lwc, beta0, cylinder_diameter,
-                           relative_humidity)
+    terms = _balance_terms(
+        temperature, airspeed, pressure, lwc, beta0, cylinder_diameter, relative_humidity
+    )
     n0 = _glaze_fraction(*terms, recovery_factor)
     ts = _dry_surface_temperature(*terms, recovery_factor)
     return np.where(np.isnan(n0), np.nan, np.where(n0 >= 1.0, ts, T0))
@@ -467,9 +476,10 @@ def ice_type(n0):
         out = np.where(
             n >= 1.0,
             codes.ICE_RIME,
-            np.where(n >= MIXED_MIN_FRACTION, codes.ICE_MIXED,
-                     np.where(n > 0.0, codes.ICE_CLEAR, codes.ICE_NONE)),
+            np.where(
+                n >= MIXED_MIN_FRACTION,
+                codes.ICE_MIXED,
+                np.where(n > 0.0, codes.ICE_CLEAR, codes.ICE_NONE),
+            ),
         )
     return out.astype(np.int8)
-
-

@@ -150,7 +150,6 @@ PROTECTIONS = ("none", "de-ice", "anti-ice")
 LEADING_EDGE_RADIUS_FACTOR = 1.1019
 
 
-
 @dataclass(frozen=True)
 class Collector:
     """One part of an airframe that catches water, as an equivalent cylinder.
@@ -294,7 +293,6 @@ class Airframe:
         return d
 
 
-
 _FIELDS = (
     "severity",
     "collection_efficiency",
@@ -368,12 +366,18 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
         if st["method"] == "table":
             lv = np.log10(np.maximum(v, 1e-6))
             ld = np.log10(d)
-            e, b0 = _spectrum_fast(st["lk0"] + lv - ld, st["lp0"] + lv + ld, st["shape"],
-                                   st["n_bins"], st["model"])
+            e, b0 = _spectrum_fast(
+                st["lk0"] + lv - ld, st["lp0"] + lv + ld, st["shape"], st["n_bins"], st["model"]
+            )
         else:
             phi = range_parameter(d, v, st["rho"], st["mu"])
-            e, b0 = _spectrum_kernel(inertia_parameter(st["mvd"], d, v, st["mu"]), phi,
-                                     st["ratios"], st["fractions"], st["model_fn"])
+            e, b0 = _spectrum_kernel(
+                inertia_parameter(st["mvd"], d, v, st["mu"]),
+                phi,
+                st["ratios"],
+                st["fractions"],
+                st["model_fn"],
+            )
         e = np.where(lwc > 0.0, e * c.catch_factor, 0.0)
         b0 = np.where(lwc > 0.0, b0, 0.0)
         has_sld = sld_lwc > 0.0
@@ -384,8 +388,9 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
             vs = v[sel] if np.ndim(v) else np.broadcast_to(v, e.shape)[sel]
             phi_s = range_parameter(d, vs, st["rho"][sel], st["mu"][sel])
             k_s = inertia_parameter(st["sld_mvd"][sel], d, vs, st["mu"][sel])
-            es[sel], bs[sel] = _spectrum_kernel(k_s, phi_s, st["sld_ratios"],
-                                                st["sld_fractions"], st["model_fn"])
+            es[sel], bs[sel] = _spectrum_kernel(
+                k_s, phi_s, st["sld_ratios"], st["sld_fractions"], st["model_fn"]
+            )
             es *= c.catch_factor
         else:
             es = bs = np.zeros_like(e)
@@ -394,8 +399,7 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
         m_imp = (b0 * lwc + bs * sld_lwc) * v  # stagnation impinging flux [kg m-2 s-1]
         h_c = st["h_c"](d, v)
         n0 = _glaze_fraction(t, v, m_imp, h_c, coef, e_a, recovery_factor)
-        n_aft = _glaze_fraction(t, v, m_imp, h_c, coef, e_a,
-                                recovery_factor * AFT_RECOVERY_FACTOR)
+        n_aft = _glaze_fraction(t, v, m_imp, h_c, coef, e_a, recovery_factor * AFT_RECOVERY_FACTOR)
         stag = (m_imp > 0.0) & (n0 > 0.0)  # ice at the stagnation line
         # fraction of the catch that freezes somewhere on the collector (module doc)
         counted = np.clip(np.fmax(n0, n_aft) / MIXED_MIN_FRACTION, 0.0, 1.0)
@@ -422,8 +426,15 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
     # a screening tool must not let ram heating hide freezing rain).
     sld_cold = has_sld & ((bs > 0.0) | (es > 0.0)) & (t <= T0)
     sld_ice = (freezes & has_sld & (bs > 0.0)) | sld_cold
-    sev = collector_severity(outer_wing, freezes, ttt, prot, sld_ice=sld_ice, sld_cold=sld_cold,
-                             sld_class=st["sld_class"])
+    sev = collector_severity(
+        outer_wing,
+        freezes,
+        ttt,
+        prot,
+        sld_ice=sld_ice,
+        sld_cold=sld_cold,
+        sld_class=st["sld_class"],
+    )
     with np.errstate(invalid="ignore", divide="ignore"):
         total_lwc = lwc + sld_lwc
         e_all = np.where(total_lwc > 0.0, (e * lwc + es * sld_lwc) / total_lwc, e)
@@ -433,9 +444,9 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
         "collection_efficiency": e_all,
         "beta0": b_all,
         "freezing_fraction": n0,
-        "ice_type": np.where(stag, ice_type(n0),
-                             np.where(freezes | sld_cold, codes.ICE_CLEAR,
-                                      codes.ICE_NONE)).astype(np.int8),
+        "ice_type": np.where(
+            stag, ice_type(n0), np.where(freezes | sld_cold, codes.ICE_CLEAR, codes.ICE_NONE)
+        ).astype(np.int8),
         "ice_density": rho_i,
         "accretion_rate_mm_h": stag_rate,
         "mass_rate": flux_total * d,
@@ -445,12 +456,34 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
     }
 
 
-def _broadcast_inputs(lwc, mvd, temperature, pressure, spectrum_shape, sld_lwc, sld_mvd,
-                      sld_class, airspeed, relative_humidity):
+def _broadcast_inputs(
+    lwc,
+    mvd,
+    temperature,
+    pressure,
+    spectrum_shape,
+    sld_lwc,
+    sld_mvd,
+    sld_class,
+    airspeed,
+    relative_humidity,
+):
     arrays = np.broadcast_arrays(
-        *(np.asarray(a, dtype=float) for a in (lwc, mvd, temperature, pressure, spectrum_shape,
-                                              sld_lwc, sld_mvd, sld_class, airspeed,
-                                              relative_humidity))
+        *(
+            np.asarray(a, dtype=float)
+            for a in (
+                lwc,
+                mvd,
+                temperature,
+                pressure,
+                spectrum_shape,
+                sld_lwc,
+                sld_mvd,
+                sld_class,
+                airspeed,
+                relative_humidity,
+            )
+        )
     )
     return arrays[0].shape, [a.reshape(-1) for a in arrays]
 
@@ -545,12 +578,27 @@ def airframe_icing(
     if airspeed is None:
         airspeed = airframe.cruise_tas
     shape, (lwc, mvd, t, p, mu_shape, sld_lwc, sld_mvd, sld_cls, v_air, rh) = _broadcast_inputs(
-        lwc, mvd, temperature, pressure, spectrum_shape, sld_lwc, sld_mvd, sld_class, airspeed,
+        lwc,
+        mvd,
+        temperature,
+        pressure,
+        spectrum_shape,
+        sld_lwc,
+        sld_mvd,
+        sld_class,
+        airspeed,
         relative_humidity,
     )
     n = lwc.size
-    gap = (np.isnan(t) | np.isnan(p) | np.isnan(lwc) | np.isnan(v_air) | np.isnan(rh)
-           | np.isnan(sld_lwc) | (np.nan_to_num(sld_cls, nan=-1) < codes.SLD_NONE))
+    gap = (
+        np.isnan(t)
+        | np.isnan(p)
+        | np.isnan(lwc)
+        | np.isnan(v_air)
+        | np.isnan(rh)
+        | np.isnan(sld_lwc)
+        | (np.nan_to_num(sld_cls, nan=-1) < codes.SLD_NONE)
+    )
     cloud = np.where(gap, False, lwc >= IN_CLOUD_LWC)
     gap |= cloud & (np.isnan(mvd) | np.isnan(mu_shape) | (mvd <= 0.0))
     sld = np.where(gap, False, sld_lwc >= IN_CLOUD_LWC)
@@ -575,10 +623,21 @@ def airframe_icing(
         return 1.14 * np.sqrt(rho * v * d / mu) * pr04 * kcond / d  # Nu = 1.14 Re^0.5 Pr^0.4
 
     st = {
-        "v": v_w, "t": t_w, "rho": rho, "mu": mu, "lwc": lwc_w, "mvd": mvd_w,
-        "sld_lwc": sld_w, "sld_mvd": sld_mvd_w, "sld_class": cls_w, "h_c": h_c,
-        "model": model, "model_fn": fn,
-        "n_bins": n_bins, "method": spectrum_method, "shape": shape_w,
+        "v": v_w,
+        "t": t_w,
+        "rho": rho,
+        "mu": mu,
+        "lwc": lwc_w,
+        "mvd": mvd_w,
+        "sld_lwc": sld_w,
+        "sld_mvd": sld_mvd_w,
+        "sld_class": cls_w,
+        "h_c": h_c,
+        "model": model,
+        "model_fn": fn,
+        "n_bins": n_bins,
+        "method": spectrum_method,
+        "shape": shape_w,
         "coef": _evaporation_coefficient(p_w, t_w),
         "e_a": rh_w * saturation_vapor_pressure(t_w, phase="liquid"),
     }
@@ -708,7 +767,7 @@ def assumptions(*, model="finstad88", n_bins=7, spectrum_method="table"):
             "spectrum": f"gamma, mass-weighted over {n_bins} bins ({spectrum_method})",
             "sld_spectrum": "exponential (gamma shape 0)",
             "equivalent_cylinder": "airfoil and rotor sections: D = 2 * 1.1019 t^2 c "
-                                   "(NACA 4-digit leading-edge radius)",
+            "(NACA 4-digit leading-edge radius)",
             "below_phi_100": "max(Finstad at phi = 100, Langmuir-Blodgett), flagged",
             "above_phi_1e4": "Finstad at phi = 1e4 (conservative), flagged",
         },
@@ -718,10 +777,12 @@ def assumptions(*, model="finstad88", n_bins=7, spectrum_method="table"):
             "evaporation": "Chilton-Colburn, saturation over water at 0 C",
             "aft_recovery_factor": AFT_RECOVERY_FACTOR,
         },
-        "ice_type": {"rime_min_freezing_fraction": 1.0,
-                     "mixed_min_freezing_fraction": MIXED_MIN_FRACTION},
+        "ice_type": {
+            "rime_min_freezing_fraction": 1.0,
+            "mixed_min_freezing_fraction": MIXED_MIN_FRACTION,
+        },
         "ice_density": "Makkonen-Stallabrass 1 <= R <= 60, bridged to 917 kg/m3 at R = 173; "
-                       "917 kg/m3 for glaze; impact speed = section speed",
+        "917 kg/m3 for glaze; impact speed = section speed",
         "severity": {
             "scale_mm_h": list(AIM_RATES_MM_H),
             "rate": "counted catch as solid ice over the collector's frontal height",
@@ -729,6 +790,6 @@ def assumptions(*, model="finstad88", n_bins=7, spectrum_method="table"):
             "tolerance_minutes_unprotected": list(TOLERANCE_MINUTES),
             "in_cloud_lwc_g_m3": IN_CLOUD_LWC * 1e3,
             "sld": "freezing rain: severe (none, de-ice), >= moderate (anti-ice); freezing "
-                   "drizzle: severe (de-ice), >= moderate (none, anti-ice)",
+            "drizzle: severe (de-ice), >= moderate (none, anti-ice)",
         },
     }

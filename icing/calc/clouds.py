@@ -59,8 +59,9 @@ IN_CLOUD_LWC = _IN_CLOUD_LWC  # constants.IN_CLOUD_LWC (Korolev et al. 2003)
 RH_THRESHOLD_MODELS = ("ice-water-blend", "water-saturation")
 
 
-def liquid_cloud_rh_threshold(temperature, *, model="ice-water-blend", warm=0.95,
-                              ice_fraction=0.5, ice_saturation=None):
+def liquid_cloud_rh_threshold(
+    temperature, *, model="ice-water-blend", warm=0.95, ice_fraction=0.5, ice_saturation=None
+):
     """Relative humidity over water above which a level is taken as liquid cloud.
 
     ``"ice-water-blend"`` (default):
@@ -114,15 +115,29 @@ def liquid_cloud_rh_threshold(temperature, *, model="ice-water-blend", warm=0.95
     if model == "water-saturation":
         return np.where(np.isnan(t), np.nan, 0.999)
     if model != "ice-water-blend":
-        raise ValueError(f"unknown humidity-threshold model {model!r}; expected one of "
-                         f"{', '.join(RH_THRESHOLD_MODELS)}")
-    f_i = (thermo.ice_saturation_relative_humidity(t) if ice_saturation is None
-           else np.asarray(ice_saturation, dtype=float))
+        raise ValueError(
+            f"unknown humidity-threshold model {model!r}; expected one of "
+            f"{', '.join(RH_THRESHOLD_MODELS)}"
+        )
+    f_i = (
+        thermo.ice_saturation_relative_humidity(t)
+        if ice_saturation is None
+        else np.asarray(ice_saturation, dtype=float)
+    )
     return np.minimum(warm, f_i + ice_fraction * (1.0 - f_i))
 
 
-def cloud_mask(relative_humidity, temperature, *, lwc_model=None, valid=None,
-               model="ice-water-blend", warm=0.95, ice_fraction=0.5, ice_saturation=None):
+def cloud_mask(
+    relative_humidity,
+    temperature,
+    *,
+    lwc_model=None,
+    valid=None,
+    model="ice-water-blend",
+    warm=0.95,
+    ice_fraction=0.5,
+    ice_saturation=None,
+):
     """Liquid-cloud mask: model cloud water above 0.01 g/m3, or humidity above threshold.
 
     Parameters
@@ -161,9 +176,13 @@ def cloud_mask(relative_humidity, temperature, *, lwc_model=None, valid=None,
     """
     rh = np.asarray(relative_humidity, dtype=float)
     with np.errstate(invalid="ignore"):
-        cloud = rh >= liquid_cloud_rh_threshold(temperature, model=model, warm=warm,
-                                                ice_fraction=ice_fraction,
-                                                ice_saturation=ice_saturation)
+        cloud = rh >= liquid_cloud_rh_threshold(
+            temperature,
+            model=model,
+            warm=warm,
+            ice_fraction=ice_fraction,
+            ice_saturation=ice_saturation,
+        )
         if lwc_model is not None:
             cloud = cloud | (np.asarray(lwc_model, dtype=float) >= IN_CLOUD_LWC)
     if valid is not None:
@@ -171,8 +190,9 @@ def cloud_mask(relative_humidity, temperature, *, lwc_model=None, valid=None,
     return cloud
 
 
-def bridge_single_level_gaps(cloud, relative_humidity, temperature, *, valid=None,
-                             ice_saturation=None):
+def bridge_single_level_gaps(
+    cloud, relative_humidity, temperature, *, valid=None, ice_saturation=None
+):
     """Close one-level gaps inside a cloud deck where the air is at least ice-saturated.
 
     A single level between two cloudy levels whose humidity is at or above ice
@@ -234,8 +254,15 @@ class CloudLayers:
         Temperature of the highest cloudy level of the layer. [K]
     """
 
-    __slots__ = ("base_index", "top_index", "base_height", "top_height", "base_pressure",
-                 "base_temperature", "top_temperature")
+    __slots__ = (
+        "base_index",
+        "top_index",
+        "base_height",
+        "top_height",
+        "base_pressure",
+        "base_temperature",
+        "top_temperature",
+    )
 
     def __init__(self, **fields):
         for name in self.__slots__:
@@ -327,8 +354,9 @@ def cloud_layers(cloud, height, pressure, temperature):
     )
 
 
-def adiabatic_lwc(pressure, temperature, base_pressure, base_temperature, *,
-                  specific_humidity=0.0, max_step=0.2):
+def adiabatic_lwc(
+    pressure, temperature, base_pressure, base_temperature, *, specific_humidity=0.0, max_step=0.2
+):
     """Adiabatic liquid water content of a parcel lifted from cloud base.
 
     ``LWC_ad(z) = rho(z) [r_s(p_b, T_b) - r_s(p, T_parcel(p))]`` with the parcel
@@ -366,8 +394,11 @@ def adiabatic_lwc(pressure, temperature, base_pressure, base_temperature, *,
     tb = np.asarray(base_temperature, dtype=float)
     shape = np.broadcast_shapes(p.shape, pb.shape, tb.shape)
     t_parcel = thermo.moist_adiabat_temperature(
-        np.broadcast_to(p, shape)[..., None], np.broadcast_to(tb, shape),
-        np.broadcast_to(pb, shape), max_step=max_step)[..., 0]
+        np.broadcast_to(p, shape)[..., None],
+        np.broadcast_to(tb, shape),
+        np.broadcast_to(pb, shape),
+        max_step=max_step,
+    )[..., 0]
     with np.errstate(invalid="ignore"):
         r_base = thermo.saturation_mixing_ratio(pb, tb)
         r_here = thermo.saturation_mixing_ratio(p, t_parcel)
@@ -505,8 +536,10 @@ def ice_nuclei_concentration(temperature, *, model="meyers92", aerosol_per_cm3=1
             d = 273.16 - t
             n = 1e3 * 5.94e-5 * d**3.33 * aerosol_per_cm3 ** (0.0264 * d + 0.0033)  # eq. 1
         else:
-            raise ValueError(f"unknown ice-nucleus model {model!r}; expected one of "
-                             "fletcher62, meyers92, demott10")
+            raise ValueError(
+                f"unknown ice-nucleus model {model!r}; expected one of "
+                "fletcher62, meyers92, demott10"
+            )
         inside = (t <= T0) & (t >= T_HOMOGENEOUS)
         return np.where(inside, n, np.nan)
 
@@ -585,15 +618,27 @@ def liquid_maintenance_updraft(temperature, pressure, ice_number, *, ice_radius=
     0.251
     """
     uptake = np.asarray(ice_number, dtype=float) * ice_crystal_mass_growth_rate(
-        temperature, pressure, ice_radius)
+        temperature, pressure, ice_radius
+    )
     with np.errstate(invalid="ignore", divide="ignore"):
         return uptake / adiabatic_lwc_gradient(pressure, temperature)
 
 
-def glaciation_likelihood(temperature, pressure, lwc, cloud_top_temperature, *,
-                          ice_above=0.0, updraft=0.0, air_density=None,
-                          ice_nuclei_model="meyers92", aerosol_per_cm3=1.0,
-                          ice_radius=50e-6, crystal_density=500.0, residence_time=3600.0):
+def glaciation_likelihood(
+    temperature,
+    pressure,
+    lwc,
+    cloud_top_temperature,
+    *,
+    ice_above=0.0,
+    updraft=0.0,
+    air_density=None,
+    ice_nuclei_model="meyers92",
+    aerosol_per_cm3=1.0,
+    ice_radius=50e-6,
+    crystal_density=500.0,
+    residence_time=3600.0,
+):
     """Likelihood [0..1] that the liquid at a level has been (or is being) glaciated.
 
     Reported beside the LWC, never multiplied into it.
@@ -647,8 +692,9 @@ def glaciation_likelihood(temperature, pressure, lwc, cloud_top_temperature, *,
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         rho = thermo.air_density(p, t) if air_density is None else air_density
         ctt = np.clip(np.asarray(cloud_top_temperature, dtype=float), T_HOMOGENEOUS, T0)
-        n_primary = np.nan_to_num(ice_nuclei_concentration(ctt, model=ice_nuclei_model,
-                                                           aerosol_per_cm3=aerosol_per_cm3))
+        n_primary = np.nan_to_num(
+            ice_nuclei_concentration(ctt, model=ice_nuclei_model, aerosol_per_cm3=aerosol_per_cm3)
+        )
         crystal_mass = crystal_density * 4.0 / 3.0 * np.pi * ice_radius**3
         n_falling = np.maximum(np.asarray(ice_above, dtype=float), 0.0) * rho / crystal_mass
         uptake = (n_primary + n_falling) * ice_crystal_mass_growth_rate(t, p, ice_radius)
@@ -666,13 +712,13 @@ def glaciation_likelihood(temperature, pressure, lwc, cloud_top_temperature, *,
 APPENDIX_C_CONTINUOUS_MAX = ((-30.0, 0.2), (-20.0, 0.35), (-10.0, 0.6), (0.0, 0.8))
 #: Appendix C intermittent-maximum LWC at MED 15 um [(degC, g/m3)]: FROM MEMORY of
 #: figure 4 (about 2.5-3 g/m3 near 0 degC); the lower, more cautious end is used.
-APPENDIX_C_INTERMITTENT_MAX = ((-40.0, 1.0), (-30.0, 1.3), (-20.0, 1.9), (-10.0, 2.4),
-                               (0.0, 2.5))
+APPENDIX_C_INTERMITTENT_MAX = ((-40.0, 1.0), (-30.0, 1.3), (-20.0, 1.9), (-10.0, 2.4), (0.0, 2.5))
 
 
 #: The smallest LWC of either envelope [kg m-3]: no level at or below it passes one.
 _APPENDIX_C_SMALLEST = 1e-3 * min(
-    v for _, v in APPENDIX_C_CONTINUOUS_MAX + APPENDIX_C_INTERMITTENT_MAX)
+    v for _, v in APPENDIX_C_CONTINUOUS_MAX + APPENDIX_C_INTERMITTENT_MAX
+)
 
 
 def appendix_c_limit(temperature, envelope):

@@ -103,8 +103,12 @@ def inertia_parameter(droplet_diameter, cylinder_diameter, airspeed, viscosity):
     5.229
     """
     d = np.asarray(droplet_diameter, dtype=float)
-    return RHO_WATER * d * d * np.asarray(airspeed, dtype=float) / (
-        9.0 * np.asarray(viscosity, dtype=float) * np.asarray(cylinder_diameter, dtype=float)
+    return (
+        RHO_WATER
+        * d
+        * d
+        * np.asarray(airspeed, dtype=float)
+        / (9.0 * np.asarray(viscosity, dtype=float) * np.asarray(cylinder_diameter, dtype=float))
     )
 
 
@@ -619,8 +623,11 @@ def _planes(table):
     """Contiguous flat E and beta0 planes of a (cached) table."""
     key = id(table)
     if key not in _PLANES:
-        _PLANES[key] = (table, np.ascontiguousarray(table[..., 0]).ravel(),
-                        np.ascontiguousarray(table[..., 1]).ravel())
+        _PLANES[key] = (
+            table,
+            np.ascontiguousarray(table[..., 0]).ravel(),
+            np.ascontiguousarray(table[..., 1]).ravel(),
+        )
     return _PLANES[key][1:]
 
 
@@ -631,8 +638,7 @@ def _spectrum_fast(log_k, log_phi, shape, n_bins, model):
     """Table-interpolated (E, beta0), per-point shapes grouped by unique value."""
     shape = np.asarray(shape, dtype=float)
     if shape.ndim == 0 or shape.size == 1:
-        return _table_lookup(collection_table(model, float(shape.flat[0]), n_bins), log_k,
-                             log_phi)
+        return _table_lookup(collection_table(model, float(shape.flat[0]), n_bins), log_k, log_phi)
     shape = np.broadcast_to(shape, log_k.shape)
     uniq, inv = np.unique(shape, return_inverse=True)
     if uniq.size == 1:
@@ -644,8 +650,9 @@ def _spectrum_fast(log_k, log_phi, shape, n_bins, model):
     b = np.empty_like(log_k)
     for u_i, u in enumerate(uniq):  # a handful of air-mass shapes, not points
         sel = inv == u_i
-        e[sel], b[sel] = _table_lookup(collection_table(model, float(u), n_bins), log_k[sel],
-                                       log_phi[sel])
+        e[sel], b[sel] = _table_lookup(
+            collection_table(model, float(u), n_bins), log_k[sel], log_phi[sel]
+        )
     return e, b
 
 
@@ -706,8 +713,10 @@ def spectrum_collection(
     if method not in ("direct", "table"):
         raise ValueError(f"unknown method {method!r}; expected one of direct, table")
     arrays = np.broadcast_arrays(
-        *(np.asarray(a, dtype=float) for a in (mvd, cylinder_diameter, airspeed, pressure,
-                                              temperature, shape))
+        *(
+            np.asarray(a, dtype=float)
+            for a in (mvd, cylinder_diameter, airspeed, pressure, temperature, shape)
+        )
     )
     out_shape = arrays[0].shape
     m, dc, u, p, t, mu_shape = (a.reshape(-1) for a in arrays)
@@ -718,9 +727,13 @@ def spectrum_collection(
     bad = np.isnan(k_mvd) | np.isnan(phi) | np.isnan(mu_shape)
     with np.errstate(invalid="ignore", divide="ignore"):
         if method == "table":
-            e, b = _spectrum_fast(np.log10(np.where(bad, 1.0, k_mvd)),
-                                  np.log10(np.where(bad, 1.0, phi)),
-                                  np.where(bad, 2.0, mu_shape), n_bins, model)
+            e, b = _spectrum_fast(
+                np.log10(np.where(bad, 1.0, k_mvd)),
+                np.log10(np.where(bad, 1.0, phi)),
+                np.where(bad, 2.0, mu_shape),
+                n_bins,
+                model,
+            )
         else:
             ratios, fractions = _ratios_per_point(np.where(bad, 2.0, mu_shape), n_bins, m.size)
             e, b = _spectrum_kernel(k_mvd, phi, ratios, fractions, fn)
@@ -730,7 +743,14 @@ def spectrum_collection(
 
 
 def sld_collection(
-    sld_mvd, cylinder_diameter, airspeed, *, pressure, temperature, model="finstad88", n_bins=7,
+    sld_mvd,
+    cylinder_diameter,
+    airspeed,
+    *,
+    pressure,
+    temperature,
+    model="finstad88",
+    n_bins=7,
     method="direct",
 ):
     """Collect the drizzle or rain population (supercooled large drops).
@@ -752,8 +772,15 @@ def sld_collection(
     """
     m = np.asarray(sld_mvd, dtype=float)
     e, b = spectrum_collection(
-        np.where(np.isnan(m), 0.0, m), cylinder_diameter, airspeed, pressure=pressure,
-        temperature=temperature, shape=0.0, model=model, n_bins=n_bins, method=method,
+        np.where(np.isnan(m), 0.0, m),
+        cylinder_diameter,
+        airspeed,
+        pressure=pressure,
+        temperature=temperature,
+        shape=0.0,
+        model=model,
+        n_bins=n_bins,
+        method=method,
     )
     none = np.isnan(m) | (m <= 0.0)
     return np.where(none, 0.0, e), np.where(none, 0.0, b)

@@ -126,33 +126,54 @@ class ColumnOptions:
         try:
             droplets.air_mass(self.air_mass)
         except ValueError as err:
-            raise InputError(str(err), where="ColumnOptions.air_mass",
-                             fix="use 'maritime', 'continental' or a mapping with "
-                             "c_per_cm3, k and shape") from None
+            raise InputError(
+                str(err),
+                where="ColumnOptions.air_mass",
+                fix="use 'maritime', 'continental' or a mapping with c_per_cm3, k and shape",
+            ) from None
         if self.rh_threshold_model not in clouds.RH_THRESHOLD_MODELS:
-            raise InputError(f"unknown humidity-threshold model {self.rh_threshold_model!r}",
-                             where="ColumnOptions.rh_threshold_model",
-                             fix=f"use one of {', '.join(clouds.RH_THRESHOLD_MODELS)}")
+            raise InputError(
+                f"unknown humidity-threshold model {self.rh_threshold_model!r}",
+                where="ColumnOptions.rh_threshold_model",
+                fix=f"use one of {', '.join(clouds.RH_THRESHOLD_MODELS)}",
+            )
         if self.ice_nuclei_model not in ("meyers92", "fletcher62", "demott10"):
-            raise InputError(f"unknown ice-nucleus model {self.ice_nuclei_model!r}",
-                             where="ColumnOptions.ice_nuclei_model",
-                             fix="use meyers92, fletcher62 or demott10")
+            raise InputError(
+                f"unknown ice-nucleus model {self.ice_nuclei_model!r}",
+                where="ColumnOptions.ice_nuclei_model",
+                fix="use meyers92, fletcher62 or demott10",
+            )
         if not 0.0 < self.cloud_fraction_floor <= 1.0:
-            raise InputError(f"cloud_fraction_floor must be in (0, 1], got "
-                             f"{self.cloud_fraction_floor!r}",
-                             where="ColumnOptions.cloud_fraction_floor", fix="use e.g. 0.1")
-        positive = ("updraft_floor_stratiform_m_s", "updraft_floor_convective_m_s",
-                    "sub_adiabatic_scale_height_m", "drizzle_time_scale_s", "aerosol_per_cm3",
-                    "ice_crystal_radius_m", "crystal_density_kg_m3",
-                    "glaciation_residence_time_s", "moist_adiabat_step", "chunk_columns")
+            raise InputError(
+                f"cloud_fraction_floor must be in (0, 1], got {self.cloud_fraction_floor!r}",
+                where="ColumnOptions.cloud_fraction_floor",
+                fix="use e.g. 0.1",
+            )
+        positive = (
+            "updraft_floor_stratiform_m_s",
+            "updraft_floor_convective_m_s",
+            "sub_adiabatic_scale_height_m",
+            "drizzle_time_scale_s",
+            "aerosol_per_cm3",
+            "ice_crystal_radius_m",
+            "crystal_density_kg_m3",
+            "glaciation_residence_time_s",
+            "moist_adiabat_step",
+            "chunk_columns",
+        )
         if not self.subgrid_updraft_m_s >= 0:
-            raise InputError(f"subgrid_updraft_m_s must be at least 0, got "
-                             f"{self.subgrid_updraft_m_s!r}",
-                             where="ColumnOptions.subgrid_updraft_m_s", fix="use e.g. 0.2")
+            raise InputError(
+                f"subgrid_updraft_m_s must be at least 0, got {self.subgrid_updraft_m_s!r}",
+                where="ColumnOptions.subgrid_updraft_m_s",
+                fix="use e.g. 0.2",
+            )
         for name in positive:
             if not getattr(self, name) > 0:
-                raise InputError(f"{name} must be positive, got {getattr(self, name)!r}",
-                                 where=f"ColumnOptions.{name}", fix="give a positive value")
+                raise InputError(
+                    f"{name} must be positive, got {getattr(self, name)!r}",
+                    where=f"ColumnOptions.{name}",
+                    fix="give a positive value",
+                )
 
     def describe(self) -> dict:
         """Return the assumptions of the column physics as a JSON-serialisable dict."""
@@ -162,31 +183,38 @@ class ColumnOptions:
             "air_mass_default_reason": (
                 "maritime is the default because it is conservative for icing screening: "
                 "fewer droplets for the same liquid give a larger MVD, a higher collection "
-                "efficiency and more drizzle by the warm-rain process"),
+                "efficiency and more drizzle by the warm-rain process"
+            ),
             "liquid_cloud": (
                 "model cloud liquid >= 0.01 g/m3 (Korolev et al. 2003) or relative humidity "
-                "over water above the threshold model"),
+                "over water above the threshold model"
+            ),
             "rh_threshold_model": self.rh_threshold_model,
             "rh_threshold_formula": (
                 "min(warm, f_i + ice_fraction (1 - f_i)), f_i = e_si/e_sw (stays above ice "
-                "saturation below about -5 C)" if self.rh_threshold_model == "ice-water-blend"
-                else "0.999 (saturated air only)"),
+                "saturation below about -5 C)"
+                if self.rh_threshold_model == "ice-water-blend"
+                else "0.999 (saturated air only)"
+            ),
             "rh_threshold_warm": self.rh_threshold_warm,
             "bridge_single_level_gaps": self.bridge_single_level_gaps,
             "rh_threshold_ice_fraction": self.rh_threshold_ice_fraction,
             "liquid_combination": (
                 "the larger of model cloud water (q_c rho, divided by the cloud fraction where "
                 "given, floored at cloud_fraction_floor) and diagnosed sub-adiabatic liquid, "
-                "never their sum; basis says which"),
+                "never their sum; basis says which"
+            ),
             "cloud_fraction_floor": self.cloud_fraction_floor,
             "sub_adiabatic_factor": (
                 f"{self.sub_adiabatic_factor_at_base} exp(-h / "
                 f"{self.sub_adiabatic_scale_height_m} m), h above the layer base "
-                "(0.77 Braun et al. 2018; fall with height after Warner 1955)"),
+                "(0.77 Braun et al. 2018; fall with height after Warner 1955)"
+            ),
             "homogeneous_freezing_c": round(T_HOMOGENEOUS - T0, 2),
             "droplet_number": (
                 "Twomey (1959) activation at the layer base, held up the layer; effective "
-                "updraft |w| + sub-grid, floored by cloud type"),
+                "updraft |w| + sub-grid, floored by cloud type"
+            ),
             "subgrid_updraft_m_s": self.subgrid_updraft_m_s,
             "updraft_floor_stratiform_m_s": self.updraft_floor_stratiform_m_s,
             "updraft_floor_convective_m_s": self.updraft_floor_convective_m_s,
@@ -195,7 +223,8 @@ class ColumnOptions:
                 "likelihood beside the LWC (never thinning it): ice nuclei at cloud-top "
                 f"temperature ({self.ice_nuclei_model}) plus ice and snow falling from above, "
                 "diffusional growth against the grid-mean updraft's condensate supply (Korolev "
-                "& Mazin 2003 balance), over a residence time"),
+                "& Mazin 2003 balance), over a residence time"
+            ),
             "aerosol_per_cm3": self.aerosol_per_cm3,
             "ice_crystal_radius_m": self.ice_crystal_radius_m,
             "crystal_density_kg_m3": self.crystal_density_kg_m3,
@@ -237,15 +266,43 @@ class ColumnDiagnosis:
     assumptions: dict = field(default_factory=dict)
 
 
-_LEVEL_INPUTS = ("dewpoint", "relative_humidity", "specific_humidity", "height",
-                 "cloud_liquid", "cloud_ice", "rain", "snow", "cloud_fraction",
-                 "vertical_velocity")
+_LEVEL_INPUTS = (
+    "dewpoint",
+    "relative_humidity",
+    "specific_humidity",
+    "height",
+    "cloud_liquid",
+    "cloud_ice",
+    "rain",
+    "snow",
+    "cloud_fraction",
+    "vertical_velocity",
+)
 _COLUMN_INPUTS = ("precipitation_rate_mm_h", "surface_pressure", "surface_height")
-_PER_LEVEL_OUT = ("pressure", "height", "temperature", "relative_humidity", "valid",
-                  "below_ground", "cloud", "cloud_base_height", "cloud_top_height",
-                  "cloud_top_temperature", "lwc", "lwc_model", "lwc_diagnosed", "basis",
-                  "glaciation", "droplet_number", "mvd", "spectrum_shape", "sld_class",
-                  "sld_lwc", "sld_mvd", "sld_dmax")
+_PER_LEVEL_OUT = (
+    "pressure",
+    "height",
+    "temperature",
+    "relative_humidity",
+    "valid",
+    "below_ground",
+    "cloud",
+    "cloud_base_height",
+    "cloud_top_height",
+    "cloud_top_temperature",
+    "lwc",
+    "lwc_model",
+    "lwc_diagnosed",
+    "basis",
+    "glaciation",
+    "droplet_number",
+    "mvd",
+    "spectrum_shape",
+    "sld_class",
+    "sld_lwc",
+    "sld_mvd",
+    "sld_dmax",
+)
 _PER_COLUMN_OUT = ("precip_type", "freezing_level")
 
 
@@ -253,8 +310,11 @@ def _as_float(name, value):
     try:
         return np.asarray(value, dtype=float)
     except (TypeError, ValueError):
-        raise InputError(f"{name} is not numeric", where=name,
-                         fix=f"pass {name} as an array of numbers (SI units)") from None
+        raise InputError(
+            f"{name} is not numeric",
+            where=name,
+            fix=f"pass {name} as an array of numbers (SI units)",
+        ) from None
 
 
 def _prepare(pressure, temperature, level_inputs, column_inputs):
@@ -267,12 +327,17 @@ def _prepare(pressure, temperature, level_inputs, column_inputs):
         shape = np.broadcast_shapes(*(a.shape for a in arrays.values()))
     except ValueError:
         given = ", ".join(f"{k} {a.shape}" for k, a in arrays.items())
-        raise InputError(f"per-level inputs do not broadcast to one (..., level) shape: "
-                         f"{given}", where="diagnose_columns",
-                         fix="give every per-level array the shape (..., level)") from None
+        raise InputError(
+            f"per-level inputs do not broadcast to one (..., level) shape: {given}",
+            where="diagnose_columns",
+            fix="give every per-level array the shape (..., level)",
+        ) from None
     if len(shape) == 0 or shape[-1] == 0:
-        raise InputError("pressure and temperature need a level axis with levels",
-                         where="pressure", fix="pass arrays shaped (..., level), level >= 1")
+        raise InputError(
+            "pressure and temperature need a level axis with levels",
+            where="pressure",
+            fix="pass arrays shaped (..., level), level >= 1",
+        )
     lead, n_lev = shape[:-1], shape[-1]
     n = int(np.prod(lead, dtype=int))
     flat = {k: np.broadcast_to(a, shape).reshape(n, n_lev) for k, a in arrays.items()}
@@ -284,16 +349,33 @@ def _prepare(pressure, temperature, level_inputs, column_inputs):
         try:
             cols[k] = np.broadcast_to(a, lead).reshape(n)
         except ValueError:
-            raise InputError(f"{k} has shape {a.shape}, expected the column shape {lead}",
-                             where=k, fix=f"give {k} one value per column") from None
+            raise InputError(
+                f"{k} has shape {a.shape}, expected the column shape {lead}",
+                where=k,
+                fix=f"give {k} one value per column",
+            ) from None
     return lead, n_lev, flat, cols
 
 
-def diagnose_columns(pressure, temperature, *, dewpoint=None, relative_humidity=None,
-                     specific_humidity=None, height=None, cloud_liquid=None, cloud_ice=None,
-                     rain=None, snow=None, cloud_fraction=None, vertical_velocity=None,
-                     precipitation_rate_mm_h=None, surface_pressure=None, surface_height=None,
-                     options=None) -> ColumnDiagnosis:
+def diagnose_columns(
+    pressure,
+    temperature,
+    *,
+    dewpoint=None,
+    relative_humidity=None,
+    specific_humidity=None,
+    height=None,
+    cloud_liquid=None,
+    cloud_ice=None,
+    rain=None,
+    snow=None,
+    cloud_fraction=None,
+    vertical_velocity=None,
+    precipitation_rate_mm_h=None,
+    surface_pressure=None,
+    surface_height=None,
+    options=None,
+) -> ColumnDiagnosis:
     """Diagnose cloud, supercooled liquid, droplets, glaciation and SLD in columns.
 
     Parameters
@@ -345,15 +427,31 @@ def diagnose_columns(pressure, temperature, *, dewpoint=None, relative_humidity=
     """
     options = options or ColumnOptions()
     if relative_humidity is None and dewpoint is None and specific_humidity is None:
-        raise InputError("no humidity given", where="diagnose_columns",
-                         fix="pass relative_humidity, dewpoint or specific_humidity")
-    level_inputs = {k: v for k, v in {
-        "dewpoint": dewpoint, "relative_humidity": relative_humidity,
-        "specific_humidity": specific_humidity, "height": height,
-        "cloud_liquid": cloud_liquid, "cloud_ice": cloud_ice, "rain": rain, "snow": snow,
-        "cloud_fraction": cloud_fraction, "vertical_velocity": vertical_velocity}.items()}
-    column_inputs = {"precipitation_rate_mm_h": precipitation_rate_mm_h,
-                     "surface_pressure": surface_pressure, "surface_height": surface_height}
+        raise InputError(
+            "no humidity given",
+            where="diagnose_columns",
+            fix="pass relative_humidity, dewpoint or specific_humidity",
+        )
+    level_inputs = {
+        k: v
+        for k, v in {
+            "dewpoint": dewpoint,
+            "relative_humidity": relative_humidity,
+            "specific_humidity": specific_humidity,
+            "height": height,
+            "cloud_liquid": cloud_liquid,
+            "cloud_ice": cloud_ice,
+            "rain": rain,
+            "snow": snow,
+            "cloud_fraction": cloud_fraction,
+            "vertical_velocity": vertical_velocity,
+        }.items()
+    }
+    column_inputs = {
+        "precipitation_rate_mm_h": precipitation_rate_mm_h,
+        "surface_pressure": surface_pressure,
+        "surface_height": surface_height,
+    }
     lead, n_lev, flat, cols = _prepare(pressure, temperature, level_inputs, column_inputs)
     notes = _check_units(flat)
     n = int(np.prod(lead, dtype=int))
@@ -362,16 +460,20 @@ def diagnose_columns(pressure, temperature, *, dewpoint=None, relative_humidity=
     for start in range(0, max(n, 1), chunk):  # chunks of columns bound the memory
         sl = slice(start, min(start + chunk, n))
         out, exceed = _diagnose_sorted(
-            {k: v[sl] for k, v in flat.items()}, {k: v[sl] for k, v in cols.items()},
-            options)
+            {k: v[sl] for k, v in flat.items()}, {k: v[sl] for k, v in cols.items()}, options
+        )
         if n <= chunk:  # one chunk: its arrays are the result (views are copied, so the
             # diagnosis never aliases the caller's input arrays)
-            result = {name: out[name] if out[name].base is None else np.array(out[name])
-                      for name in _PER_LEVEL_OUT + _PER_COLUMN_OUT}
+            result = {
+                name: out[name] if out[name].base is None else np.array(out[name])
+                for name in _PER_LEVEL_OUT + _PER_COLUMN_OUT
+            }
         else:
             if not result:  # allocate the outputs once, then fill chunk by chunk
-                result = {name: _empty_output((n,) + out[name].shape[1:], out[name].dtype)
-                          for name in _PER_LEVEL_OUT + _PER_COLUMN_OUT}
+                result = {
+                    name: _empty_output((n,) + out[name].shape[1:], out[name].dtype)
+                    for name in _PER_LEVEL_OUT + _PER_COLUMN_OUT
+                }
             for name in _PER_LEVEL_OUT + _PER_COLUMN_OUT:
                 result[name][sl] = out[name]
         del out
@@ -434,23 +536,37 @@ def _check_units(flat):
     """Raise on clear unit mistakes; return plausibility notes (strings)."""
     p_max = _finite_max(flat["pressure"])
     if p_max < 2000.0:
-        raise InputError(f"pressure peaks at {p_max:g}, which looks like hPa", where="pressure",
-                         fix="give pressure in Pa (hPa x 100)")
+        raise InputError(
+            f"pressure peaks at {p_max:g}, which looks like hPa",
+            where="pressure",
+            fix="give pressure in Pa (hPa x 100)",
+        )
     t_max = _finite_max(flat["temperature"])
     if t_max < 150.0:
-        raise InputError(f"temperature peaks at {t_max:g}, which looks like degrees Celsius",
-                         where="temperature", fix="give temperature in K (degC + 273.15)")
+        raise InputError(
+            f"temperature peaks at {t_max:g}, which looks like degrees Celsius",
+            where="temperature",
+            fix="give temperature in K (degC + 273.15)",
+        )
     if "dewpoint" in flat and _finite_max(flat["dewpoint"]) < 150.0:
-        raise InputError("dewpoint looks like degrees Celsius", where="dewpoint",
-                         fix="give dewpoint in K (degC + 273.15)")
+        raise InputError(
+            "dewpoint looks like degrees Celsius",
+            where="dewpoint",
+            fix="give dewpoint in K (degC + 273.15)",
+        )
     for name, (limit, looks, fix) in _UNIT_LIMITS.items():
         if name in flat and _finite_max(flat[name]) > limit:
-            raise InputError(f"{name} peaks at {_finite_max(flat[name]):g}, which looks like "
-                             f"{looks}", where=name, fix=fix)
+            raise InputError(
+                f"{name} peaks at {_finite_max(flat[name]):g}, which looks like {looks}",
+                where=name,
+                fix=fix,
+            )
     notes = []
     if "relative_humidity" in flat and _finite_max(flat["relative_humidity"]) > 1.2:
-        notes.append("relative humidity above 120 % in the input: check its units and source "
-                     "(values a little above 100 % are normal model output)")
+        notes.append(
+            "relative humidity above 120 % in the input: check its units and source "
+            "(values a little above 100 % are normal model output)"
+        )
     return notes
 
 
@@ -472,15 +588,16 @@ def _diagnose_sorted(flat, cols, options):
         if np.all(step < 0):  # already ground-up everywhere (the usual case): no copy
             return _diagnose_core(dict(flat), cols, options)
         if np.all(step > 0):  # top-down everywhere: reversed views
-            out, exceed = _diagnose_core({k: v[..., ::-1] for k, v in flat.items()}, cols,
-                                         options)
-            return {k: (v[..., ::-1] if k in _PER_LEVEL_OUT else v)
-                    for k, v in out.items()}, exceed
+            out, exceed = _diagnose_core({k: v[..., ::-1] for k, v in flat.items()}, cols, options)
+            return {
+                k: (v[..., ::-1] if k in _PER_LEVEL_OUT else v) for k, v in out.items()
+            }, exceed
     # mixed orders or missing pressures: decreasing pressure, NaN pressures on top
     order = np.argsort(np.where(np.isnan(p_in), -np.inf, -p_in), axis=-1, kind="stable")
     inverse = np.argsort(order, axis=-1, kind="stable")
-    out, exceed = _diagnose_core({k: np.take_along_axis(v, order, -1)
-                                  for k, v in flat.items()}, cols, options)
+    out, exceed = _diagnose_core(
+        {k: np.take_along_axis(v, order, -1) for k, v in flat.items()}, cols, options
+    )
     for name in _PER_LEVEL_OUT:
         out[name] = np.take_along_axis(out[name], inverse, -1)
     return out, exceed
@@ -545,8 +662,10 @@ def _diagnose_core(s, cols, o):
                 pf = np.where(np.isfinite(p) & (p > 0), p, pf)
             base = {}
             if "surface_pressure" in cols and "surface_height" in cols:
-                base = {"base_pressure": cols["surface_pressure"],
-                        "base_height": cols["surface_height"]}
+                base = {
+                    "base_pressure": cols["surface_pressure"],
+                    "base_height": cols["surface_height"],
+                }
             z = thermo.height_from_pressure_hypsometric(pf, tf, specific_humidity=qf, **base)
             z = np.where(any_valid & np.isfinite(p) & (p > 0), z, np.nan)
         # a level without a height (e.g. a NaN surface anchor) cannot be placed: not valid
@@ -573,17 +692,23 @@ def _diagnose_core(s, cols, o):
                 cf = np.clip(s["cloud_fraction"], o.cloud_fraction_floor, 1.0)
                 lwc_model = lwc_model / cf
         # water RH of ice-saturated air: once for the threshold and the gap bridging
-        f_ice = (thermo.ice_saturation_relative_humidity(t)
-                 if o.bridge_single_level_gaps or o.rh_threshold_model == "ice-water-blend"
-                 else None)
-        cloud = clouds.cloud_mask(rh, t, lwc_model=lwc_model if "cloud_liquid" in s else None,
-                                  valid=air, model=o.rh_threshold_model,
-                                  warm=o.rh_threshold_warm,
-                                  ice_fraction=o.rh_threshold_ice_fraction,
-                                  ice_saturation=f_ice)
+        f_ice = (
+            thermo.ice_saturation_relative_humidity(t)
+            if o.bridge_single_level_gaps or o.rh_threshold_model == "ice-water-blend"
+            else None
+        )
+        cloud = clouds.cloud_mask(
+            rh,
+            t,
+            lwc_model=lwc_model if "cloud_liquid" in s else None,
+            valid=air,
+            model=o.rh_threshold_model,
+            warm=o.rh_threshold_warm,
+            ice_fraction=o.rh_threshold_ice_fraction,
+            ice_saturation=f_ice,
+        )
         if o.bridge_single_level_gaps:
-            cloud = clouds.bridge_single_level_gaps(cloud, rh, t, valid=air,
-                                                    ice_saturation=f_ice)
+            cloud = clouds.bridge_single_level_gaps(cloud, rh, t, valid=air, ice_saturation=f_ice)
         del f_ice
         # layer boundaries never reach into the ground or into missing levels
         all_air = bool(air.all())  # the usual case: nothing to mask
@@ -592,8 +717,7 @@ def _diagnose_core(s, cols, o):
             """``x`` in air, ``fill`` elsewhere (``x`` itself when every level is air)."""
             return x if all_air else np.where(air, x, fill)
 
-        lay = clouds.cloud_layers(cloud, in_air(z, np.nan), in_air(p, np.nan),
-                                  in_air(t, np.nan))
+        lay = clouds.cloud_layers(cloud, in_air(z, np.nan), in_air(p, np.nan), in_air(t, np.nan))
         # A layer resting on a missing level (not the ground) has an unknown base, so its
         # adiabatic liquid is unknown too: its levels read as a coverage gap, never as the
         # near-zero liquid a base placed too high would give.
@@ -609,40 +733,51 @@ def _diagnose_core(s, cols, o):
         lwc_diag = np.zeros(p.shape) if all_air else np.where(air, 0.0, np.nan)
         sel = np.nonzero(liquid_ok)
         if sel[0].size:
-            ad = clouds.adiabatic_lwc(p[sel], t[sel], lay.base_pressure[sel],
-                                      lay.base_temperature[sel],
-                                      specific_humidity=np.nan_to_num(q[sel]),
-                                      max_step=o.moist_adiabat_step)
+            ad = clouds.adiabatic_lwc(
+                p[sel],
+                t[sel],
+                lay.base_pressure[sel],
+                lay.base_temperature[sel],
+                specific_humidity=np.nan_to_num(q[sel]),
+                max_step=o.moist_adiabat_step,
+            )
             f = clouds.sub_adiabatic_factor(
-                z[sel] - lay.base_height[sel], factor_at_base=o.sub_adiabatic_factor_at_base,
-                scale_height=o.sub_adiabatic_scale_height_m)
+                z[sel] - lay.base_height[sel],
+                factor_at_base=o.sub_adiabatic_factor_at_base,
+                scale_height=o.sub_adiabatic_scale_height_m,
+            )
             ad_f = np.nan_to_num(ad * f)
             lwc_diag[sel] = np.where(ad_f > 1e-12, ad_f, 0.0)  # drop round-off at the base
         # --- combine: the larger, never the sum -----------------------------------------
         lwc = np.where(liquid_ok, np.maximum(lwc_model, lwc_diag), 0.0)
         lwc = in_air(lwc, np.nan)
         model_wins = lwc_model >= lwc_diag
-        basis = np.where(liquid_ok & (lwc > 0),
-                         np.where(model_wins, codes.BASIS_MODEL, codes.BASIS_DIAGNOSED),
-                         codes.BASIS_NONE).astype(np.int8)
+        basis = np.where(
+            liquid_ok & (lwc > 0),
+            np.where(model_wins, codes.BASIS_MODEL, codes.BASIS_DIAGNOSED),
+            codes.BASIS_NONE,
+        ).astype(np.int8)
         # --- cloud type and effective updraft --------------------------------------------
         start = lay.base_index == np.arange(n_lev)
-        w = np.nan_to_num(s["vertical_velocity"]) if "vertical_velocity" in s else np.zeros(
-            p.shape)
+        w = (
+            np.nan_to_num(s["vertical_velocity"])
+            if "vertical_velocity" in s
+            else np.zeros(p.shape)
+        )
         absw = np.where(cloud, np.minimum(np.abs(w), 1e5), 0.0)
         top_i = np.maximum(lay.top_index, 0)
         base_i = np.maximum(lay.base_index, 0)
         layer_max_w = np.take_along_axis(_segment_running_max(absw, start), top_i, -1)
         convective = cloud & (layer_max_w >= o.convective_updraft_m_s)
         w_base = np.take_along_axis(absw, base_i, -1) + o.subgrid_updraft_m_s
-        floor = np.where(convective, o.updraft_floor_convective_m_s,
-                         o.updraft_floor_stratiform_m_s)
+        floor = np.where(
+            convective, o.updraft_floor_convective_m_s, o.updraft_floor_stratiform_m_s
+        )
         w_eff = np.maximum(w_base, floor)
         # --- droplets ---------------------------------------------------------------------
         am = droplets.air_mass(o.air_mass)
         number = np.full(p.shape, np.nan)
-        number[sel] = droplets.twomey_activation(w_eff[sel], c_per_cm3=am.c_per_cm3,
-                                                 k=am.k)[0]
+        number[sel] = droplets.twomey_activation(w_eff[sel], c_per_cm3=am.c_per_cm3, k=am.k)[0]
         has_liquid = liquid_ok & (lwc >= clouds.IN_CLOUD_LWC)
         mvd = np.full(p.shape, np.nan)
         at = np.nonzero(has_liquid)  # sized only where there is liquid
@@ -653,35 +788,56 @@ def _diagnose_core(s, cols, o):
         for k in ("cloud_ice", "snow"):
             if k in s:
                 ice = ice + np.maximum(np.nan_to_num(s[k]), 0.0)
-        ice_above = (np.flip(np.maximum.accumulate(np.flip(ice, -1), axis=-1), -1)
-                     if "cloud_ice" in s or "snow" in s else ice)
+        ice_above = (
+            np.flip(np.maximum.accumulate(np.flip(ice, -1), axis=-1), -1)
+            if "cloud_ice" in s or "snow" in s
+            else ice
+        )
         glac = np.full(p.shape, np.nan)
         gsel = np.nonzero(cloud)
         if gsel[0].size:
             glac[gsel] = clouds.glaciation_likelihood(
-                t[gsel], p[gsel], lwc[gsel], lay.top_temperature[gsel],
+                t[gsel],
+                p[gsel],
+                lwc[gsel],
+                lay.top_temperature[gsel],
                 ice_above=ice_above[gsel],
                 # grid-mean ascent only: sub-grid ups and downs add no net condensate
                 updraft=np.maximum(w[gsel], 0.0),
-                air_density=rho[gsel], ice_nuclei_model=o.ice_nuclei_model,
+                air_density=rho[gsel],
+                ice_nuclei_model=o.ice_nuclei_model,
                 aerosol_per_cm3=o.aerosol_per_cm3,
-                ice_radius=o.ice_crystal_radius_m, crystal_density=o.crystal_density_kg_m3,
-                residence_time=o.glaciation_residence_time_s)
+                ice_radius=o.ice_crystal_radius_m,
+                crystal_density=o.crystal_density_kg_m3,
+                residence_time=o.glaciation_residence_time_s,
+            )
         # --- SLD ---------------------------------------------------------------------------
         sld_out = _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, o)
         # --- freezing level ----------------------------------------------------------------
         freezing = _freezing_level(t, z, air)
         # --- Appendix C ---------------------------------------------------------------------
-        exceed.update(clouds.appendix_c_exceedances(in_air(lwc, 0.0), t,
-                                                   convective=convective))
+        exceed.update(clouds.appendix_c_exceedances(in_air(lwc, 0.0), t, convective=convective))
     out = {
-        "pressure": p, "height": z, "temperature": t, "relative_humidity": rh,
-        "valid": valid, "below_ground": below, "cloud": cloud,
-        "cloud_base_height": lay.base_height, "cloud_top_height": lay.top_height,
+        "pressure": p,
+        "height": z,
+        "temperature": t,
+        "relative_humidity": rh,
+        "valid": valid,
+        "below_ground": below,
+        "cloud": cloud,
+        "cloud_base_height": lay.base_height,
+        "cloud_top_height": lay.top_height,
         "cloud_top_temperature": lay.top_temperature,
-        "lwc": lwc, "lwc_model": lwc_model, "lwc_diagnosed": lwc_diag, "basis": basis,
-        "glaciation": glac, "droplet_number": number, "mvd": mvd, "spectrum_shape": shape,
-        "freezing_level": freezing, **sld_out,
+        "lwc": lwc,
+        "lwc_model": lwc_model,
+        "lwc_diagnosed": lwc_diag,
+        "basis": basis,
+        "glaciation": glac,
+        "droplet_number": number,
+        "mvd": mvd,
+        "spectrum_shape": shape,
+        "freezing_level": freezing,
+        **sld_out,
     }
     return out, exceed
 
@@ -710,13 +866,28 @@ def _freezing_level(t, z, air):
 def _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, o):
     """Call :func:`icing.sld.diagnose_sld` on ground-up arrays; outputs keyed by field."""
     res = sld.diagnose_sld(
-        p, t, z, relative_humidity=rh, cloud=cloud, lwc=np.nan_to_num(lwc),
-        droplet_number=number, cloud_top_temperature=lay.top_temperature,
-        cloud_top_height=lay.top_height, cloud_base_height=lay.base_height,
-        precipitation_rate_mm_h=cols.get("precipitation_rate_mm_h"), rain=s.get("rain"),
-        snow=s.get("snow"), cloud_ice=s.get("cloud_ice"), valid=valid, below_ground=below,
-        drizzle_time_scale_s=o.drizzle_time_scale_s)
-    return {"sld_class": np.asarray(res.sld_class), "sld_lwc": np.asarray(res.sld_lwc, float),
-            "sld_mvd": np.asarray(res.sld_mvd, float),
-            "sld_dmax": np.asarray(res.sld_dmax, float),
-            "precip_type": np.asarray(res.precip_type)}
+        p,
+        t,
+        z,
+        relative_humidity=rh,
+        cloud=cloud,
+        lwc=np.nan_to_num(lwc),
+        droplet_number=number,
+        cloud_top_temperature=lay.top_temperature,
+        cloud_top_height=lay.top_height,
+        cloud_base_height=lay.base_height,
+        precipitation_rate_mm_h=cols.get("precipitation_rate_mm_h"),
+        rain=s.get("rain"),
+        snow=s.get("snow"),
+        cloud_ice=s.get("cloud_ice"),
+        valid=valid,
+        below_ground=below,
+        drizzle_time_scale_s=o.drizzle_time_scale_s,
+    )
+    return {
+        "sld_class": np.asarray(res.sld_class),
+        "sld_lwc": np.asarray(res.sld_lwc, float),
+        "sld_mvd": np.asarray(res.sld_mvd, float),
+        "sld_dmax": np.asarray(res.sld_dmax, float),
+        "precip_type": np.asarray(res.precip_type),
+    }

@@ -55,9 +55,9 @@ def rate_severity(rate_mm_h):
     return sev
 
 
-
-def collector_severity(outer_wing, freezes, time_to_tolerance, prot, *, sld_ice, sld_cold,
-                       sld_class):
+def collector_severity(
+    outer_wing, freezes, time_to_tolerance, prot, *, sld_ice, sld_cold, sld_class
+):
     """Severity code of one collector (conventions: :mod:`icing.calc.airframe`).
 
     Parameters
@@ -83,8 +83,11 @@ def collector_severity(outer_wing, freezes, time_to_tolerance, prot, *, sld_ice,
     sev = rate_severity(outer_wing).astype(np.int16)
     if prot == "none":
         floor = np.select(
-            [time_to_tolerance < TOLERANCE_MINUTES[0], time_to_tolerance < TOLERANCE_MINUTES[1],
-             time_to_tolerance < TOLERANCE_MINUTES[2]],
+            [
+                time_to_tolerance < TOLERANCE_MINUTES[0],
+                time_to_tolerance < TOLERANCE_MINUTES[1],
+                time_to_tolerance < TOLERANCE_MINUTES[2],
+            ],
             [codes.SEV_SEVERE, codes.SEV_MODERATE, codes.SEV_LIGHT],
             codes.SEV_NONE,
         )

@@ -136,12 +136,22 @@ def _placeholder_if_empty(cs):
     if cs.n_columns > 0:
         return cs
     one = {k: np.full((1,) + v.shape[1:], np.nan) for k, v in cs.columns.items()}
-    wind = [None if w is None else np.full((1,) + w.shape[1:], np.nan)
-            for w in (cs.wind_u, cs.wind_v)]
-    return ColumnSet(one, cs.candidates, cs.covered, cs.gap_reason, wind[0], wind[1],
-                     np.full(1, np.nan), np.full(1, np.nan),
-                     np.full(1, np.datetime64("NaT"), dtype="datetime64[ms]"),
-                     np.array([""], dtype=object), cs.candidate_distance_km)
+    wind = [
+        None if w is None else np.full((1,) + w.shape[1:], np.nan) for w in (cs.wind_u, cs.wind_v)
+    ]
+    return ColumnSet(
+        one,
+        cs.candidates,
+        cs.covered,
+        cs.gap_reason,
+        wind[0],
+        wind[1],
+        np.full(1, np.nan),
+        np.full(1, np.nan),
+        np.full(1, np.datetime64("NaT"), dtype="datetime64[ms]"),
+        np.array([""], dtype=object),
+        cs.candidate_distance_km,
+    )
 
 
 def _as_samples(lat, lon, time):
@@ -250,8 +260,11 @@ class ProfileForecast(Forecast):
         self.time_tolerance_h = float(time_tolerance_h)
         self.valid_times = np.unique(table.time)
         self.files = list(table.files)
-        self.has_wind = "wind_u" in table.levels and "wind_v" in table.levels and bool(
-            np.isfinite(table.levels["wind_u"]).any())
+        self.has_wind = (
+            "wind_u" in table.levels
+            and "wind_v" in table.levels
+            and bool(np.isfinite(table.levels["wind_u"]).any())
+        )
         from pyproj import Geod
 
         self._geod = Geod(ellps="WGS84")
@@ -260,16 +273,24 @@ class ProfileForecast(Forecast):
     def bounds(self):
         """(lon_min, lat_min, lon_max, lat_max) of the profile positions [deg]."""
         lon = (self.table.lon + 180.0) % 360.0 - 180.0
-        return (float(lon.min()), float(self.table.lat.min()), float(lon.max()),
-                float(self.table.lat.max()))
+        return (
+            float(lon.min()),
+            float(self.table.lat.min()),
+            float(lon.max()),
+            float(self.table.lat.max()),
+        )
 
     def _distances_km(self, lat, lon, idx=None):
         tl = self.table.lat if idx is None else self.table.lat[idx]
         tn = self.table.lon if idx is None else self.table.lon[idx]
         la = np.broadcast_to(lat[:, None], (lat.size, tl.size))
         lo = np.broadcast_to(lon[:, None], la.shape)
-        _, _, d = self._geod.inv(lo.ravel(), la.ravel(), np.broadcast_to(tn, la.shape).ravel(),
-                                 np.broadcast_to(tl, la.shape).ravel())
+        _, _, d = self._geod.inv(
+            lo.ravel(),
+            la.ravel(),
+            np.broadcast_to(tn, la.shape).ravel(),
+            np.broadcast_to(tl, la.shape).ravel(),
+        )
         return np.asarray(d).reshape(la.shape) / 1000.0
 
     def columns_at(self, lat, lon, time, *, fields=None):
@@ -289,8 +310,9 @@ class ProfileForecast(Forecast):
         covered = use.any(axis=1)
         # the place first (as on grids): far from every profile is "outside-radius"
         # near a profile but not covered: none of the near ones is valid around that time
-        gap = np.where(covered, "", np.where(near.any(axis=1), "outside-time-window",
-                                             "outside-radius"))
+        gap = np.where(
+            covered, "", np.where(near.any(axis=1), "outside-time-window", "outside-radius")
+        )
         used = np.flatnonzero(use.any(axis=0))
         remap = np.full(tab.size, -1)
         remap[used] = np.arange(used.size)
@@ -299,17 +321,29 @@ class ProfileForecast(Forecast):
         sel = np.take_along_axis(use, order, 1)
         candidates = np.where(sel, remap[order], -1)
         cand_d = np.where(sel, np.take_along_axis(dist, order, 1), np.nan)
-        cols = {key: val[used] for key, val in tab.levels.items()
-                if key not in ("wind_u", "wind_v")}
+        cols = {
+            key: val[used] for key, val in tab.levels.items() if key not in ("wind_u", "wind_v")
+        }
         for key in _PER_COLUMN:
             vals = tab.scalars.get(key)
             if vals is not None and np.isfinite(vals[used]).any():
                 cols[key] = vals[used]
         wind = {w: tab.levels[w][used] if w in tab.levels else None for w in ("wind_u", "wind_v")}
-        return _placeholder_if_empty(ColumnSet(
-            cols, candidates.astype(int), covered, gap.astype(str), wind["wind_u"],
-            wind["wind_v"], tab.lat[used], tab.lon[used], tab.time[used],
-            tab.ids[used].astype(str), cand_d))
+        return _placeholder_if_empty(
+            ColumnSet(
+                cols,
+                candidates.astype(int),
+                covered,
+                gap.astype(str),
+                wind["wind_u"],
+                wind["wind_v"],
+                tab.lat[used],
+                tab.lon[used],
+                tab.time[used],
+                tab.ids[used].astype(str),
+                cand_d,
+            )
+        )
 
     def surface_height_at(self, lat, lon):
         """Surface elevation of the nearest profile within the radius that gives one [m]."""
@@ -333,8 +367,10 @@ class ProfileForecast(Forecast):
             "radius_km": self.radius_km,
             "time_tolerance_h": self.time_tolerance_h,
             "humidity": tab.humidity,
-            "variables": {key: {"name": src, "found_by": "profile field"}
-                          for key, src in sorted(tab.sources.items())},
+            "variables": {
+                key: {"name": src, "found_by": "profile field"}
+                for key, src in sorted(tab.sources.items())
+            },
             "bounds": list(self.bounds),
             "notes": list(tab.notes),
         }
@@ -345,6 +381,7 @@ def _iso(t):
 
 
 # --------------------------------------------------------------------------- grids
+
 
 def _level_weights(src, dst, *, log):
     """Linear weights taking values on levels ``src`` to levels ``dst`` (NaN outside)."""
@@ -402,8 +439,9 @@ def _frac_index(v, c, *, periodic=False):
     if periodic:
         v = cs[0] + np.mod(v - cs[0], 360.0)
         span = cs[0] + 360.0 - cs[-1]
-        f = np.where(v > cs[-1], (n - 1) + (v - cs[-1]) / span,
-                     np.interp(v, cs, np.arange(n, dtype=float)))
+        f = np.where(
+            v > cs[-1], (n - 1) + (v - cs[-1]) / span, np.interp(v, cs, np.arange(n, dtype=float))
+        )
         inside = np.isfinite(v)
         i0 = np.floor(f).astype(int) % n
         w = f - np.floor(f)
@@ -437,8 +475,11 @@ class GridForecast(Forecast):
         dup = np.flatnonzero(np.diff(times.astype(np.int64)) == 0)
         if dup.size:
             t = times[dup[0]]
-            raise ForecastError(f"valid time {_iso(t)} appears twice", path=files[pairs[dup[0]][1]]
-                                .path, fix="give each valid time once (one file per lead time)")
+            raise ForecastError(
+                f"valid time {_iso(t)} appears twice",
+                path=files[pairs[dup[0]][1]].path,
+                fix="give each valid time once (one file per lead time)",
+            )
         self.valid_times = times
         self._time_map = [(p[1], p[2]) for p in pairs]
         self.variables = ref.variables
@@ -457,12 +498,15 @@ class GridForecast(Forecast):
             self.periodic = False
             self._transformer = Transformer.from_crs("EPSG:4326", ref.crs, always_xy=True)
         self._x, self._y = x, ref.y
-        surface_first = np.argsort(-ref.levels) if ref.vertical == "pressure" \
-            else np.argsort(ref.levels)
+        surface_first = (
+            np.argsort(-ref.levels) if ref.vertical == "pressure" else np.argsort(ref.levels)
+        )
         self.levels = ref.levels[surface_first]
         self.vertical = ref.vertical
-        self._level_w = {dim: _level_weights(vals, self.levels, log=ref.vertical == "pressure")
-                         for dim, vals in ref.level_coords.items()}
+        self._level_w = {
+            dim: _level_weights(vals, self.levels, log=ref.vertical == "pressure")
+            for dim, vals in ref.level_coords.items()
+        }
         chunks = ref.ds[ref.variables["temperature"].name].encoding.get("chunksizes")
         self.tile = int(tile or (max(8, min(64, min(chunks[-2:]))) if chunks else 32))
         self.read_stats = {"reads": 0, "values": 0, "cache_hits": 0}
@@ -474,9 +518,12 @@ class GridForecast(Forecast):
     @staticmethod
     def _check_same_grid(a, b):
         def refuse(what):
-            raise ForecastError(f"grid differs from {a.path.name} ({what})", path=b.path,
-                                fix="give files of one model grid (same coordinates, levels "
-                                    "and variables)")
+            raise ForecastError(
+                f"grid differs from {a.path.name} ({what})",
+                path=b.path,
+                fix="give files of one model grid (same coordinates, levels and variables)",
+            )
+
         if a.x.shape != b.x.shape or a.y.shape != b.y.shape:
             refuse(f"{b.y.size}x{b.x.size} points, not {a.y.size}x{a.x.size}")
         if not (np.allclose(a.x, b.x) and np.allclose(a.y, b.y)):
@@ -491,7 +538,12 @@ class GridForecast(Forecast):
         for key, va in a.variables.items():
             vb = b.variables[key]
             same = (va.name, va.scale, va.offset, va.level_dim, va.transform) == (
-                vb.name, vb.scale, vb.offset, vb.level_dim, vb.transform)
+                vb.name,
+                vb.scale,
+                vb.offset,
+                vb.level_dim,
+                vb.transform,
+            )
             if not same:
                 refuse(f"variable {key!r} ({va.name} in {va.units} vs {vb.name} in {vb.units})")
 
@@ -525,10 +577,22 @@ class GridForecast(Forecast):
         from pyproj import Transformer
 
         inv = Transformer.from_crs(self._files[0].crs, "EPSG:4326", always_xy=True)
-        xs = np.concatenate([self._x, np.full(self._y.size, self._x[-1]), self._x[::-1],
-                             np.full(self._y.size, self._x[0])])
-        ys = np.concatenate([np.full(self._x.size, self._y[0]), self._y,
-                             np.full(self._x.size, self._y[-1]), self._y[::-1]])
+        xs = np.concatenate(
+            [
+                self._x,
+                np.full(self._y.size, self._x[-1]),
+                self._x[::-1],
+                np.full(self._y.size, self._x[0]),
+            ]
+        )
+        ys = np.concatenate(
+            [
+                np.full(self._x.size, self._y[0]),
+                self._y,
+                np.full(self._x.size, self._y[-1]),
+                self._y[::-1],
+            ]
+        )
         lon, lat = inv.transform(xs, ys)
         return (float(np.min(lon)), float(np.min(lat)), float(np.max(lon)), float(np.max(lat)))
 
@@ -557,11 +621,19 @@ class GridForecast(Forecast):
             for d in var.dims:
                 if d not in idx and d != info.level_dim:
                     idx[d] = 0
-            order = [d for d in (gf.time_dim if timed else None, info.level_dim, gf.y_dim,
-                                 gf.x_dim) if d is not None]
-            ck = (fi, info.name, ys.start, ys.stop,
-                  (xs.start, xs.stop) if isinstance(xs, slice) else tuple(xs.tolist()),
-                  (idx[gf.time_dim].start, idx[gf.time_dim].stop) if timed else None)
+            order = [
+                d
+                for d in (gf.time_dim if timed else None, info.level_dim, gf.y_dim, gf.x_dim)
+                if d is not None
+            ]
+            ck = (
+                fi,
+                info.name,
+                ys.start,
+                ys.stop,
+                (xs.start, xs.stop) if isinstance(xs, slice) else tuple(xs.tolist()),
+                (idx[gf.time_dim].start, idx[gf.time_dim].stop) if timed else None,
+            )
             vals = self._cache.get(ck)
             if vals is not None:
                 self._cache[ck] = self._cache.pop(ck)  # most recently used last
@@ -623,8 +695,7 @@ class GridForecast(Forecast):
                         for b in (0, 1):
                             for c in (0, 1):
                                 v = blk[..., ly[m] + b, lx[m] + c]
-                                out[key][s, a, b, c] = np.moveaxis(v, -1, 0) if v.ndim > 1 \
-                                    else v
+                                out[key][s, a, b, c] = np.moveaxis(v, -1, 0) if v.ndim > 1 else v
         return out
 
     def _is_static(self, key):
@@ -635,9 +706,11 @@ class GridForecast(Forecast):
     @staticmethod
     def _combine(v, wy, wx, wt):
         """Bilinear in space, linear in time; zero weights never spread NaN."""
-        wts = np.stack([1.0 - wt, wt], 1)[:, :, None, None] \
-            * np.stack([1.0 - wy, wy], 1)[:, None, :, None] \
+        wts = (
+            np.stack([1.0 - wt, wt], 1)[:, :, None, None]
+            * np.stack([1.0 - wy, wy], 1)[:, None, :, None]
             * np.stack([1.0 - wx, wx], 1)[:, None, None, :]
+        )
         wts = wts.reshape(wts.shape + (1,) * (v.ndim - 4))
         with np.errstate(invalid="ignore"):
             part = np.where(wts > 0, v * wts, 0.0)
@@ -646,16 +719,17 @@ class GridForecast(Forecast):
     def _interpolate(self, lat, lon, t, keys):
         """Interpolated values of keys at the samples, and coverage."""
         (iy0, iy1, wy), (ix0, ix1, wx), inside_grid = self._locate(lat, lon)
-        it0, it1, wt, inside_time = _time_brackets(self.valid_times, t,
-                                                   self.time_tolerance_h * 3.6e6)
+        it0, it1, wt, inside_time = _time_brackets(
+            self.valid_times, t, self.time_tolerance_h * 3.6e6
+        )
         use = np.flatnonzero(inside_grid & inside_time)
-        gap = np.where(inside_grid, np.where(inside_time, "", "outside-time-window"),
-                       "outside-grid").astype(object)
+        gap = np.where(
+            inside_grid, np.where(inside_time, "", "outside-time-window"), "outside-grid"
+        ).astype(object)
         parts = {key: [] for key in keys}
         for start in range(0, use.size, self.chunk):  # bounded memory for grid-wide calls
-            u = use[start:start + self.chunk]
-            corners = self._corner_values(keys, (iy0[u], iy1[u]), (ix0[u], ix1[u]), it0[u],
-                                          it1[u])
+            u = use[start : start + self.chunk]
+            corners = self._corner_values(keys, (iy0[u], iy1[u]), (ix0[u], ix1[u]), it0[u], it1[u])
             for key in keys:
                 v = self._combine(corners[key], wy[u], wx[u], wt[u])
                 info = self.variables[key]
@@ -680,8 +754,17 @@ class GridForecast(Forecast):
         n = lat.size
         base = ["temperature", self.humidity, "surface_pressure", "surface_height"]
         base += ["height"] if self.vertical == "pressure" else ["pressure"]
-        optional = ["cloud_liquid", "cloud_ice", "rain", "snow", "cloud_fraction",
-                    "vertical_velocity", "precipitation_rate", "wind_u", "wind_v"]
+        optional = [
+            "cloud_liquid",
+            "cloud_ice",
+            "rain",
+            "snow",
+            "cloud_fraction",
+            "vertical_velocity",
+            "precipitation_rate",
+            "wind_u",
+            "wind_v",
+        ]
         if fields is not None:
             optional = [k for k in optional if k in fields]
         keys = [k for k in base + optional if k in self.variables]
@@ -690,8 +773,12 @@ class GridForecast(Forecast):
         cols = self._assemble(vals, m)
         good = np.ones(m, bool)
         if m:
-            ok_level = np.isfinite(cols["pressure"]) & np.isfinite(cols["temperature"]) \
-                & np.isfinite(cols["height"]) & np.isfinite(cols[self.humidity])
+            ok_level = (
+                np.isfinite(cols["pressure"])
+                & np.isfinite(cols["temperature"])
+                & np.isfinite(cols["height"])
+                & np.isfinite(cols[self.humidity])
+            )
             good = ok_level.any(axis=1)
         gap[use[~good]] = "missing-values"
         covered = gap == ""
@@ -703,9 +790,21 @@ class GridForecast(Forecast):
         wind_u = cols.pop("wind_u", None)
         wind_v = cols.pop("wind_v", None)
         cand_d = np.where(index >= 0, 0.0, np.nan)[:, None]
-        return _placeholder_if_empty(ColumnSet(
-            cols, index[:, None], covered, gap.astype(str), wind_u, wind_v, lat[keep],
-            lon[keep], t[keep], np.full(keep.size, "", dtype=object), cand_d))
+        return _placeholder_if_empty(
+            ColumnSet(
+                cols,
+                index[:, None],
+                covered,
+                gap.astype(str),
+                wind_u,
+                wind_v,
+                lat[keep],
+                lon[keep],
+                t[keep],
+                np.full(keep.size, "", dtype=object),
+                cand_d,
+            )
+        )
 
     def _assemble(self, vals, m):
         """Interpolated values -> diagnose_columns keyword arrays (SI, surface first)."""
@@ -736,10 +835,12 @@ class GridForecast(Forecast):
                 anchored = "surface_pressure" in cols and "surface_height" in cols
                 with np.errstate(invalid="ignore"):
                     cols["height"] = height_from_pressure_hypsometric(
-                        cols["pressure"], fill_along_levels(cols["temperature"]),
+                        cols["pressure"],
+                        fill_along_levels(cols["temperature"]),
                         specific_humidity=q,
                         base_height=cols["surface_height"] if anchored else None,
-                        base_pressure=cols["surface_pressure"] if anchored else None)
+                        base_pressure=cols["surface_pressure"] if anchored else None,
+                    )
         else:
             z = np.broadcast_to(self.levels, (m, L)).copy()
             if self._files[0].height_above_ground:
@@ -748,8 +849,11 @@ class GridForecast(Forecast):
             cols["height"] = z
         for key in ("cloud_liquid", "cloud_ice", "rain", "snow", "cloud_fraction"):
             if key in vals:
-                cols[key] = np.maximum(vals[key], 0.0) if key != "cloud_fraction" else \
-                    np.clip(vals[key], 0.0, 1.0)
+                cols[key] = (
+                    np.maximum(vals[key], 0.0)
+                    if key != "cloud_fraction"
+                    else np.clip(vals[key], 0.0, 1.0)
+                )
         if "vertical_velocity" in vals:
             w = vals["vertical_velocity"]
             if self.variables["vertical_velocity"].transform == "omega":
@@ -814,9 +918,16 @@ def _sniff(path: Path):
     if text[:1] in (b"{", b"["):
         return "json"
     suffix = path.suffix.lower()
-    return {".json": "json", ".csv": "csv", ".nc": "netcdf", ".nc4": "netcdf",
-            ".cdf": "netcdf", ".grib": "grib", ".grib2": "grib", ".grb2": "grib"}.get(
-        suffix, "csv" if b"," in head else "unknown")
+    return {
+        ".json": "json",
+        ".csv": "csv",
+        ".nc": "netcdf",
+        ".nc4": "netcdf",
+        ".cdf": "netcdf",
+        ".grib": "grib",
+        ".grib2": "grib",
+        ".grb2": "grib",
+    }.get(suffix, "csv" if b"," in head else "unknown")
 
 
 def load_forecast(paths, *, radius_km=50.0, time_tolerance_h=3.0, var_map=None) -> Forecast:
@@ -856,11 +967,17 @@ def load_forecast(paths, *, radius_km=50.0, time_tolerance_h=3.0, var_map=None) 
     if not paths:
         raise ForecastError("no forecast file given", fix="give at least one forecast file")
     if not (radius_km > 0):
-        raise ForecastError(f"radius {radius_km} km is not positive", where="radius_km",
-                            fix="give a positive radius")
+        raise ForecastError(
+            f"radius {radius_km} km is not positive",
+            where="radius_km",
+            fix="give a positive radius",
+        )
     if not (time_tolerance_h >= 0):
-        raise ForecastError(f"time tolerance {time_tolerance_h} h is negative",
-                            where="time_tolerance_h", fix="give 0 or more hours")
+        raise ForecastError(
+            f"time tolerance {time_tolerance_h} h is negative",
+            where="time_tolerance_h",
+            fix="give 0 or more hours",
+        )
     kinds = []
     for p in paths:
         if not p.exists():
@@ -870,22 +987,37 @@ def load_forecast(paths, *, radius_km=50.0, time_tolerance_h=3.0, var_map=None) 
         kinds.append(_sniff(p))
     for p, k in zip(paths, kinds, strict=True):
         if k == "grib":
-            raise ForecastError("GRIB2 is not read directly", path=p,
-                                fix="convert to CF-NetCDF (e.g. with cfgrib/xarray) first")
+            raise ForecastError(
+                "GRIB2 is not read directly",
+                path=p,
+                fix="convert to CF-NetCDF (e.g. with cfgrib/xarray) first",
+            )
         if k == "unknown":
-            raise ForecastError("unknown forecast format", path=p,
-                                fix="give a profile JSON, profile CSV or CF-NetCDF file")
+            raise ForecastError(
+                "unknown forecast format",
+                path=p,
+                fix="give a profile JSON, profile CSV or CF-NetCDF file",
+            )
     if "netcdf" in kinds and any(k != "netcdf" for k in kinds):
-        raise ForecastError("gridded and profile files mixed in one forecast",
-                            path=paths[kinds.index("netcdf")],
-                            fix="screen against either gridded files or profile files")
+        raise ForecastError(
+            "gridded and profile files mixed in one forecast",
+            path=paths[kinds.index("netcdf")],
+            fix="screen against either gridded files or profile files",
+        )
     if kinds[0] == "netcdf":
         files = [open_grid_file(p, var_map) for p in paths]
         return GridForecast(files, radius_km=radius_km, time_tolerance_h=time_tolerance_h)
     if var_map:
-        raise ForecastError("a variable mapping applies to gridded files only", path=paths[0],
-                            where="--var", fix="drop --var for profile files")
-    tables = [read_profiles_json(p) if k == "json" else read_profiles_csv(p)
-              for p, k in zip(paths, kinds, strict=True)]
-    return ProfileForecast(ProfileTable.concatenate(tables), radius_km=radius_km,
-                           time_tolerance_h=time_tolerance_h)
+        raise ForecastError(
+            "a variable mapping applies to gridded files only",
+            path=paths[0],
+            where="--var",
+            fix="drop --var for profile files",
+        )
+    tables = [
+        read_profiles_json(p) if k == "json" else read_profiles_csv(p)
+        for p, k in zip(paths, kinds, strict=True)
+    ]
+    return ProfileForecast(
+        ProfileTable.concatenate(tables), radius_km=radius_km, time_tolerance_h=time_tolerance_h
+    )

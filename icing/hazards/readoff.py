@@ -133,6 +133,13 @@ def read_off(diag, column_index, target, *, reference="msl"):
 
 
 def icing_at(airframe, state, airspeed):
+    """Airframe icing at read-off states; severity ``codes.GAP`` where a state is invalid.
+
+    Returns
+    -------
+    (AirframeIcing, ndarray)
+        The collector results and the severity with gaps marked.
+    """
     result = airframe_icing(
         airframe,
         lwc=np.where(state["valid"], state["lwc"], np.nan),
@@ -157,7 +164,6 @@ def worst_over_candidates(sev, rate):
 
 
 def take_last(a, k):
+    """Pick ``a[..., k]`` per leading index (``k`` shaped like ``a`` without its last axis)."""
     a = np.asarray(a)
     return np.take_along_axis(a, k[..., None], -1)[..., 0]
-
-

@@ -18,6 +18,7 @@ __all__ = ["format_number", "summary_table", "samples_csv", "sample_table", "SAM
 
 
 def format_number(x, nd=1, none="-"):
+    """Format a float to ``nd`` decimals; ``none`` for None, ``str`` otherwise."""
     if x is None:
         return none
     if isinstance(x, float):
@@ -78,7 +79,6 @@ def summary_table(summaries) -> str:
     lines.append("")
     lines.append(CAUTION)
     return "\n".join(lines)
-
 
 
 #: Columns of the per-sample audit table (``--samples OUT.csv``).
@@ -157,6 +157,7 @@ def sample_table(screening) -> list[dict]:
 
 
 def samples_csv(screenings) -> str:
+    """Return the per-sample audit table of the screenings as CSV text."""
     buf = io.StringIO()
     w = csv.DictWriter(buf, fieldnames=SAMPLE_COLUMNS, lineterminator="\n")
     w.writeheader()
@@ -164,5 +165,3 @@ def samples_csv(screenings) -> str:
         for row in sample_table(s):
             w.writerow(row)
     return buf.getvalue()
-
-

@@ -69,5 +69,3 @@ def write_outputs(
 
 def _safe(name: str) -> str:
     return "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in name).strip("-") or "route"
-
-

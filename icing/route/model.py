@@ -112,8 +112,11 @@ class Route:
         object.__setattr__(self, "waypoints", tuple(self.waypoints))
         if self.altitude_reference is None:
             refs = {w.altitude_reference for w in self.waypoints}
-            object.__setattr__(self, "altitude_reference", refs.pop() if len(refs) == 1 else (
-                "msl" if not refs else "mixed"))
+            object.__setattr__(
+                self,
+                "altitude_reference",
+                refs.pop() if len(refs) == 1 else ("msl" if not refs else "mixed"),
+            )
 
     def __len__(self):
         return len(self.waypoints)
@@ -121,14 +124,23 @@ class Route:
     @property
     def __geo_interface__(self):
         """The route as a GeoJSON LineString Feature (``[lon, lat, alt_m]``)."""
-        coords = [[round(w.lon, 6), round(w.lat, 6), round(w.altitude_m, 1)]
-                  for w in self.waypoints]
-        geometry = ({"type": "Point", "coordinates": coords[0]} if len(coords) == 1
-                    else {"type": "LineString", "coordinates": coords})
-        return {"type": "Feature", "geometry": geometry,
-                "properties": {"name": self.name,
-                               "altitude_reference": self.altitude_reference,
-                               "waypoint_names": [w.name for w in self.waypoints]}}
+        coords = [
+            [round(w.lon, 6), round(w.lat, 6), round(w.altitude_m, 1)] for w in self.waypoints
+        ]
+        geometry = (
+            {"type": "Point", "coordinates": coords[0]}
+            if len(coords) == 1
+            else {"type": "LineString", "coordinates": coords}
+        )
+        return {
+            "type": "Feature",
+            "geometry": geometry,
+            "properties": {
+                "name": self.name,
+                "altitude_reference": self.altitude_reference,
+                "waypoint_names": [w.name for w in self.waypoints],
+            },
+        }
 
 
 # --------------------------------------------------------------------------- helpers
@@ -147,8 +159,12 @@ def parse_time(value, *, path=None, where=None, what="time"):
     """
     if isinstance(value, np.datetime64):
         if np.isnat(value):
-            raise RouteError(f"{what} is NaT (not a time)", path=path, where=where,
-                             fix="give a time like 2027-01-14T09:00:00Z")
+            raise RouteError(
+                f"{what} is NaT (not a time)",
+                path=path,
+                where=where,
+                fix="give a time like 2027-01-14T09:00:00Z",
+            )
         ms = value.astype("datetime64[ms]").astype(np.int64)
         return _EPOCH + timedelta(milliseconds=int(ms))
     if isinstance(value, datetime):
@@ -159,14 +175,26 @@ def parse_time(value, *, path=None, where=None, what="time"):
         try:
             parsed = datetime.fromisoformat(shown)
         except ValueError:
-            raise RouteError(f"{what} {shown!r} is not an ISO 8601 time", path=path, where=where,
-                             fix="write it like 2027-01-14T09:00:00Z") from None
+            raise RouteError(
+                f"{what} {shown!r} is not an ISO 8601 time",
+                path=path,
+                where=where,
+                fix="write it like 2027-01-14T09:00:00Z",
+            ) from None
     else:
-        raise RouteError(f"{what} {value!r} is not an ISO 8601 time string", path=path,
-                         where=where, fix="write it like 2027-01-14T09:00:00Z")
+        raise RouteError(
+            f"{what} {value!r} is not an ISO 8601 time string",
+            path=path,
+            where=where,
+            fix="write it like 2027-01-14T09:00:00Z",
+        )
     if parsed.tzinfo is None or parsed.utcoffset() is None:
-        raise RouteError(f"{what} {shown!r} has no time zone", path=path, where=where,
-                         fix="append Z or +00:00 (UTC)")
+        raise RouteError(
+            f"{what} {shown!r} has no time zone",
+            path=path,
+            where=where,
+            fix="append Z or +00:00 (UTC)",
+        )
     return parsed.astimezone(UTC)
 
 
@@ -185,42 +213,74 @@ def check_number(value, what, *, path=None, where=None, low=None, high=None, fix
         except (TypeError, ValueError):
             number = math.nan
     if not math.isfinite(number):
-        raise RouteError(f"{what} {value!r} is not a number", path=path, where=where,
-                         fix=fix or f"give {what} as a number")
+        raise RouteError(
+            f"{what} {value!r} is not a number",
+            path=path,
+            where=where,
+            fix=fix or f"give {what} as a number",
+        )
     if (low is not None and number < low) or (high is not None and number > high):
-        raise RouteError(f"{what} {number:g} is outside {low:g}..{high:g}", path=path,
-                         where=where, fix=fix or f"give {what} within {low:g}..{high:g}")
+        raise RouteError(
+            f"{what} {number:g} is outside {low:g}..{high:g}",
+            path=path,
+            where=where,
+            fix=fix or f"give {what} within {low:g}..{high:g}",
+        )
     return number
 
 
 def check_position(lat, lon, *, path=None, where=None):
     """Return (lat, lon) as floats after checking their ranges."""
-    lat = check_number(lat, "latitude", path=path, where=where, low=-90.0, high=90.0,
-                       fix="latitude in degrees north, -90..90 (GeoJSON order is lon, lat)")
-    lon = check_number(lon, "longitude", path=path, where=where, low=-180.0, high=180.0,
-                       fix="longitude in degrees east, -180..180")
+    lat = check_number(
+        lat,
+        "latitude",
+        path=path,
+        where=where,
+        low=-90.0,
+        high=90.0,
+        fix="latitude in degrees north, -90..90 (GeoJSON order is lon, lat)",
+    )
+    lon = check_number(
+        lon,
+        "longitude",
+        path=path,
+        where=where,
+        low=-180.0,
+        high=180.0,
+        fix="longitude in degrees east, -180..180",
+    )
     return lat, lon
 
 
 def check_altitude(altitude_m, reference, *, path=None, where=None, given_in_metres=False):
     """Check an altitude [m] in its reference; warn when metres look like feet."""
     if reference not in ALTITUDE_REFERENCES:
-        raise RouteError(f"altitude_reference {reference!r} is not one of "
-                         f"{', '.join(ALTITUDE_REFERENCES)}", path=path, where=where,
-                         fix='use "msl", "agl" or "pressure"')
-    altitude_m = check_number(altitude_m, "altitude", path=path, where=where,
-                              fix="give the altitude as a number")
+        raise RouteError(
+            f"altitude_reference {reference!r} is not one of {', '.join(ALTITUDE_REFERENCES)}",
+            path=path,
+            where=where,
+            fix='use "msl", "agl" or "pressure"',
+        )
+    altitude_m = check_number(
+        altitude_m, "altitude", path=path, where=where, fix="give the altitude as a number"
+    )
     low = 0.0 if reference == "agl" else _LOWEST_M
     if altitude_m < low:
-        raise RouteError(f"altitude {altitude_m:g} m {reference.upper()} is below {low:g} m",
-                         path=path, where=where, fix="check the altitude and its unit")
+        raise RouteError(
+            f"altitude {altitude_m:g} m {reference.upper()} is below {low:g} m",
+            path=path,
+            where=where,
+            fix="check the altitude and its unit",
+        )
     if given_in_metres:
         limit = _FEET_LIKE_AGL_M if reference == "agl" else _FEET_LIKE_M
         if altitude_m > limit:
             place = ": ".join(str(p) for p in (path, where) if p)
-            warn_plausibility(f"{place}: altitude {altitude_m:g} m {reference.upper()} is above "
-                              f"{limit:g} m; it looks like feet given as metres (positions "
-                              "carry metres; use altitude_ft for feet)")
+            warn_plausibility(
+                f"{place}: altitude {altitude_m:g} m {reference.upper()} is above "
+                f"{limit:g} m; it looks like feet given as metres (positions "
+                "carry metres; use altitude_ft for feet)"
+            )
     return altitude_m
 
 
@@ -240,42 +300,51 @@ def check_waypoints(route, *, path=None, where_of=None):
     wps = route.waypoints
     where_of = where_of or (lambda i: _where_waypoint(i, wps[i]))
     if len(wps) == 0:
-        raise RouteError(f"route {route.name!r} has no waypoints", path=path,
-                         fix="give at least two waypoints")
+        raise RouteError(
+            f"route {route.name!r} has no waypoints", path=path, fix="give at least two waypoints"
+        )
     if len(wps) == 1 and not (wps[0].hold_min and wps[0].hold_min > 0):
-        raise RouteError(f"route {route.name!r} has a single waypoint", path=path,
-                         where=where_of(0),
-                         fix="give at least two waypoints, or hold_min > 0 for a hover")
+        raise RouteError(
+            f"route {route.name!r} has a single waypoint",
+            path=path,
+            where=where_of(0),
+            fix="give at least two waypoints, or hold_min > 0 for a hover",
+        )
     refs = [w.altitude_reference for w in wps]
     for i, w in enumerate(wps):
         check_position(w.lat, w.lon, path=path, where=where_of(i))
         check_altitude(w.altitude_m, w.altitude_reference, path=path, where=where_of(i))
-        check_number(w.hold_min, "hold_min", path=path, where=where_of(i), low=0.0,
-                     high=24 * 60.0)
+        check_number(w.hold_min, "hold_min", path=path, where=where_of(i), low=0.0, high=24 * 60.0)
         if w.tas_kt is not None:
-            check_number(w.tas_kt, "tas_kt", path=path, where=where_of(i), low=0.0,
-                         high=2000.0)
+            check_number(w.tas_kt, "tas_kt", path=path, where=where_of(i), low=0.0, high=2000.0)
         if w.time is not None:
             parse_time(w.time, path=path, where=where_of(i))
         if refs[i] != refs[0]:
-            raise RouteError(f"altitude reference {refs[i]!r} differs from {refs[0]!r} of the "
-                             "first waypoint", path=path, where=where_of(i),
-                             fix="use one altitude reference per route (flight levels or "
-                             "feet, not both)")
+            raise RouteError(
+                f"altitude reference {refs[i]!r} differs from {refs[0]!r} of the first waypoint",
+                path=path,
+                where=where_of(i),
+                fix="use one altitude reference per route (flight levels or feet, not both)",
+            )
     if route.altitude_reference not in (refs[0], None):
-        raise RouteError(f"route altitude_reference {route.altitude_reference!r} differs from "
-                         f"the waypoints' {refs[0]!r}", path=path,
-                         fix="use one altitude reference per route")
+        raise RouteError(
+            f"route altitude_reference {route.altitude_reference!r} differs from "
+            f"the waypoints' {refs[0]!r}",
+            path=path,
+            fix="use one altitude reference per route",
+        )
     if route.true_airspeed_kt is not None:
-        check_number(route.true_airspeed_kt, "true_airspeed_kt", path=path, low=0.0,
-                     high=2000.0)
+        check_number(route.true_airspeed_kt, "true_airspeed_kt", path=path, low=0.0, high=2000.0)
     if route.departure_time is not None:
         dep = parse_time(route.departure_time, path=path, where="departure_time")
         if wps[0].time is not None and parse_time(wps[0].time) != dep:
-            raise RouteError(f"departure_time {format_time(dep)} differs from the first "
-                             f"waypoint's time {format_time(parse_time(wps[0].time))}",
-                             path=path, where=where_of(0),
-                             fix="give one of them, or make them agree")
+            raise RouteError(
+                f"departure_time {format_time(dep)} differs from the first "
+                f"waypoint's time {format_time(parse_time(wps[0].time))}",
+                path=path,
+                where=where_of(0),
+                fix="give one of them, or make them agree",
+            )
     timed = [i for i, w in enumerate(wps) if w.time is not None]
     if len(timed) > 1:
         lat = np.array([w.lat for w in wps])
@@ -288,6 +357,10 @@ def check_waypoints(route, *, path=None, where_of=None):
             moving = (tb - ta).total_seconds() - holds
             if moving < 0 or (moving == 0 and cum[b] > cum[a]):
                 extra = f" plus {holds / 60:g} min of holds" if holds else ""
-                raise RouteError(f"time {format_time(tb)} is not after {format_time(ta)} "
-                                 f"({wps[a].name}){extra}", path=path, where=where_of(b),
-                                 fix="times must increase along the route")
+                raise RouteError(
+                    f"time {format_time(tb)} is not after {format_time(ta)} "
+                    f"({wps[a].name}){extra}",
+                    path=path,
+                    where=where_of(b),
+                    fix="times must increase along the route",
+                )

@@ -88,9 +88,11 @@ def read_routes(path):
     try:
         text = raw.decode(encoding)
     except UnicodeDecodeError as err:
-        raise RouteError(f"not a UTF-8 (or UTF-16 with BOM) text file (byte {err.start})",
-                         path=path,
-                         fix=_FORMAT_FIX) from None
+        raise RouteError(
+            f"not a UTF-8 (or UTF-16 with BOM) text file (byte {err.start})",
+            path=path,
+            fix=_FORMAT_FIX,
+        ) from None
     text = text.lstrip("\ufeff")
     if not text.strip():
         raise RouteError("file is empty", path=path, fix=_FORMAT_FIX)
@@ -106,8 +108,12 @@ def read_routes(path):
         return read_gpx_routes(text, path=path)
     if ext in _CSV_EXT or _looks_like_csv(text):
         return read_csv_routes(text, path=path)
-    raise RouteError(f"unknown extension {ext or '(none)'!r} and the content is not GeoJSON, "
-                     "GPX or a CSV with a lat,lon header", path=path, fix=_FORMAT_FIX)
+    raise RouteError(
+        f"unknown extension {ext or '(none)'!r} and the content is not GeoJSON, "
+        "GPX or a CSV with a lat,lon header",
+        path=path,
+        fix=_FORMAT_FIX,
+    )
 
 
 def _looks_like_csv(text):
@@ -137,34 +143,57 @@ def _optional_number(value, what, *, path, where, low, high):
 
 
 def _flight_level_m(value, *, path, where):
-    fl = check_number(value, "flight_level", path=path, where=where, low=-20.0, high=999.0,
-                      fix="flight_level is pressure altitude in hundreds of feet (FL100 = "
-                      "10,000 ft)")
+    fl = check_number(
+        value,
+        "flight_level",
+        path=path,
+        where=where,
+        low=-20.0,
+        high=999.0,
+        fix="flight_level is pressure altitude in hundreds of feet (FL100 = 10,000 ft)",
+    )
     return fl * 100.0 * FT
 
 
 def _altitude(*, path, where, reference, metres=None, feet=None, flight_level=None):
     """Altitude [m] and its reference from the ways a file may give it."""
     if feet is not None and flight_level is not None:
-        raise RouteError("both altitude_ft and flight_level are given", path=path, where=where,
-                         fix="give one of them")
+        raise RouteError(
+            "both altitude_ft and flight_level are given",
+            path=path,
+            where=where,
+            fix="give one of them",
+        )
     if flight_level is not None:
         if reference not in ("msl", "pressure"):
-            raise RouteError(f"flight_level given with altitude_reference {reference!r}",
-                             path=path, where=where,
-                             fix='flight levels are pressure altitudes: use "pressure"')
+            raise RouteError(
+                f"flight_level given with altitude_reference {reference!r}",
+                path=path,
+                where=where,
+                fix='flight levels are pressure altitudes: use "pressure"',
+            )
         alt = _flight_level_m(flight_level, path=path, where=where)
         return check_altitude(alt, "pressure", path=path, where=where), "pressure"
     if feet is not None:
         alt = check_number(feet, "altitude_ft", path=path, where=where) * FT
         return check_altitude(alt, reference, path=path, where=where), reference
     if metres is not None:
-        alt = check_number(metres, "altitude", path=path, where=where,
-                           fix="the third coordinate is the altitude in metres")
-        return check_altitude(alt, reference, path=path, where=where,
-                              given_in_metres=True), reference
-    raise RouteError("missing altitude", path=path, where=where,
-                     fix="give [lon, lat, alt_m] positions, altitude_ft or flight_level")
+        alt = check_number(
+            metres,
+            "altitude",
+            path=path,
+            where=where,
+            fix="the third coordinate is the altitude in metres",
+        )
+        return check_altitude(
+            alt, reference, path=path, where=where, given_in_metres=True
+        ), reference
+    raise RouteError(
+        "missing altitude",
+        path=path,
+        where=where,
+        fix="give [lon, lat, alt_m] positions, altitude_ft or flight_level",
+    )
 
 
 def _reference(value, *, path, where):
@@ -172,9 +201,12 @@ def _reference(value, *, path, where):
         return "msl"
     ref = str(value).strip().lower()
     if ref not in ALTITUDE_REFERENCES:
-        raise RouteError(f"altitude_reference {value!r} is not one of "
-                         f"{', '.join(ALTITUDE_REFERENCES)}", path=path, where=where,
-                         fix='use "msl", "agl" or "pressure"')
+        raise RouteError(
+            f"altitude_reference {value!r} is not one of {', '.join(ALTITUDE_REFERENCES)}",
+            path=path,
+            where=where,
+            fix='use "msl", "agl" or "pressure"',
+        )
     return ref
 
 
@@ -184,15 +216,28 @@ def _route_fields(props, *, path, where):
     name = props.get("name")
     return dict(
         name=None if name is None else str(name),
-        departure_time=_optional_time(props.get("departure_time"), path=path,
-                                      where=p + "departure_time", what="departure_time"),
-        true_airspeed_kt=_optional_number(props.get("true_airspeed_kt"), "true_airspeed_kt",
-                                          path=path, where=p + "true_airspeed_kt", low=0.0,
-                                          high=2000.0),
-        ground_elevation_m=_optional_number(props.get("ground_elevation_m"),
-                                            "ground_elevation_m", path=path,
-                                            where=p + "ground_elevation_m", low=-500.0,
-                                            high=9000.0),
+        departure_time=_optional_time(
+            props.get("departure_time"),
+            path=path,
+            where=p + "departure_time",
+            what="departure_time",
+        ),
+        true_airspeed_kt=_optional_number(
+            props.get("true_airspeed_kt"),
+            "true_airspeed_kt",
+            path=path,
+            where=p + "true_airspeed_kt",
+            low=0.0,
+            high=2000.0,
+        ),
+        ground_elevation_m=_optional_number(
+            props.get("ground_elevation_m"),
+            "ground_elevation_m",
+            path=path,
+            where=p + "ground_elevation_m",
+            low=-500.0,
+            high=9000.0,
+        ),
     )
 
 
@@ -215,18 +260,28 @@ def read_geojson_routes(text, *, path=None):
     try:
         obj = json.loads(text)
     except json.JSONDecodeError as err:
-        raise RouteError(f"malformed JSON: {err.msg}", path=path,
-                         where=f"line {err.lineno} column {err.colno}",
-                         fix="check the JSON syntax") from None
+        raise RouteError(
+            f"malformed JSON: {err.msg}",
+            path=path,
+            where=f"line {err.lineno} column {err.colno}",
+            fix="check the JSON syntax",
+        ) from None
     if not isinstance(obj, dict) or "type" not in obj:
-        raise RouteError("not a GeoJSON object (no 'type' member)", path=path,
-                         fix="give a LineString Feature or a FeatureCollection")
+        raise RouteError(
+            "not a GeoJSON object (no 'type' member)",
+            path=path,
+            fix="give a LineString Feature or a FeatureCollection",
+        )
     kind = obj["type"]
     if kind == "FeatureCollection":
         features = obj.get("features")
         if not isinstance(features, list) or not features:
-            raise RouteError("FeatureCollection has no features", path=path, where="features",
-                             fix="add a LineString route or Point waypoints")
+            raise RouteError(
+                "FeatureCollection has no features",
+                path=path,
+                where="features",
+                fix="add a LineString route or Point waypoints",
+            )
         defaults = _collection_properties(obj)
         geoms = []
         for i, f in enumerate(features):
@@ -235,14 +290,18 @@ def read_geojson_routes(text, *, path=None):
         if all(g == "Point" for g in geoms):
             return _default_names([_points_route(features, defaults, path)], path)
         if all(g in ("LineString", "MultiLineString") for g in geoms):
-            routes = [_line_route(f, defaults, path, f"features[{i}]")
-                      for i, f in enumerate(features)]
+            routes = [
+                _line_route(f, defaults, path, f"features[{i}]") for i, f in enumerate(features)
+            ]
             return _default_names(routes, path)
         odd = next(i for i, g in enumerate(geoms) if g not in ("LineString", "MultiLineString"))
         if "Point" in geoms and any(g in ("LineString", "MultiLineString") for g in geoms):
-            raise RouteError("FeatureCollection mixes Point and LineString features",
-                             path=path, where=f"features[{odd}]",
-                             fix="give either Point waypoints or LineString routes")
+            raise RouteError(
+                "FeatureCollection mixes Point and LineString features",
+                path=path,
+                where=f"features[{odd}]",
+                fix="give either Point waypoints or LineString routes",
+            )
         raise _wrong_geometry(geoms[odd], path, f"features[{odd}].geometry")
     if kind == "Feature":
         geom, _ = _feature_parts(obj, path=path, where="")
@@ -258,15 +317,23 @@ def read_geojson_routes(text, *, path=None):
 
 
 def _wrong_geometry(kind, path, where):
-    return RouteError(f"geometry type {kind!r} is not a route", path=path, where=where,
-                      fix="give a LineString (or MultiLineString cut at the antimeridian) or "
-                      "Point waypoints")
+    return RouteError(
+        f"geometry type {kind!r} is not a route",
+        path=path,
+        where=where,
+        fix="give a LineString (or MultiLineString cut at the antimeridian) or Point waypoints",
+    )
 
 
 def _collection_properties(obj):
     props = dict(obj.get("properties") or {}) if isinstance(obj.get("properties"), dict) else {}
-    for key in ("name", "departure_time", "true_airspeed_kt", "altitude_reference",
-                "ground_elevation_m"):
+    for key in (
+        "name",
+        "departure_time",
+        "true_airspeed_kt",
+        "altitude_reference",
+        "ground_elevation_m",
+    ):
         if key in obj and key not in props:
             props[key] = obj[key]
     return props
@@ -275,24 +342,43 @@ def _collection_properties(obj):
 def _feature_parts(f, *, path, where):
     p = where + "." if where else ""
     if not isinstance(f, dict) or f.get("type") != "Feature":
-        raise RouteError("not a GeoJSON Feature", path=path, where=where or "type",
-                         fix='each member of "features" is {"type": "Feature", ...}')
+        raise RouteError(
+            "not a GeoJSON Feature",
+            path=path,
+            where=where or "type",
+            fix='each member of "features" is {"type": "Feature", ...}',
+        )
     geom = f.get("geometry")
     if not isinstance(geom, dict) or "type" not in geom:
-        raise RouteError("Feature has no geometry", path=path, where=p + "geometry",
-                         fix="give a LineString or Point geometry")
+        raise RouteError(
+            "Feature has no geometry",
+            path=path,
+            where=p + "geometry",
+            fix="give a LineString or Point geometry",
+        )
     props = f.get("properties") or {}
     if not isinstance(props, dict):
-        raise RouteError("properties is not an object", path=path, where=p + "properties",
-                         fix="give properties as a JSON object")
+        raise RouteError(
+            "properties is not an object",
+            path=path,
+            where=p + "properties",
+            fix="give properties as a JSON object",
+        )
     return geom, props
 
 
 def _position(pos, *, path, where):
-    if (not isinstance(pos, list) or len(pos) < 2
-            or any(isinstance(c, bool) or not isinstance(c, (int, float)) for c in pos)):
-        raise RouteError(f"position {json.dumps(pos)[:60]} is not [lon, lat(, alt_m)]",
-                         path=path, where=where, fix="positions are [lon, lat, alt_m] numbers")
+    if (
+        not isinstance(pos, list)
+        or len(pos) < 2
+        or any(isinstance(c, bool) or not isinstance(c, (int, float)) for c in pos)
+    ):
+        raise RouteError(
+            f"position {json.dumps(pos)[:60]} is not [lon, lat(, alt_m)]",
+            path=path,
+            where=where,
+            fix="positions are [lon, lat, alt_m] numbers",
+        )
     lat, lon = check_position(pos[1], pos[0], path=path, where=where)
     return lat, lon, (pos[2] if len(pos) > 2 else None)
 
@@ -304,21 +390,33 @@ def _parallel(props, key, n, *, path, where, scalar_ok=False):
         return [None] * n
     if isinstance(value, list):
         if len(value) != n:
-            raise RouteError(f"{key} has {len(value)} entries for {n} positions", path=path,
-                             where=where + key, fix=f"give one {key} entry per position")
+            raise RouteError(
+                f"{key} has {len(value)} entries for {n} positions",
+                path=path,
+                where=where + key,
+                fix=f"give one {key} entry per position",
+            )
         return value
     if scalar_ok:
         return [value] * n
-    raise RouteError(f"{key} is not a list", path=path, where=where + key,
-                     fix=f"give {key} as a list parallel to the coordinates")
+    raise RouteError(
+        f"{key} is not a list",
+        path=path,
+        where=where + key,
+        fix=f"give {key} as a list parallel to the coordinates",
+    )
 
 
 def _line_coordinates(geom, *, path, where):
     coords = geom.get("coordinates")
     if geom["type"] == "MultiLineString":
         if not isinstance(coords, list) or not all(isinstance(c, list) for c in coords):
-            raise RouteError("MultiLineString coordinates are not lists of positions",
-                             path=path, where=where, fix="check the coordinates")
+            raise RouteError(
+                "MultiLineString coordinates are not lists of positions",
+                path=path,
+                where=where,
+                fix="check the coordinates",
+            )
         joined = []
         for part in coords:
             for pos in part:
@@ -327,16 +425,22 @@ def _line_coordinates(geom, *, path, where):
                 joined.append(pos)
         return joined
     if not isinstance(coords, list):
-        raise RouteError("LineString has no coordinates list", path=path, where=where,
-                         fix="give coordinates as a list of [lon, lat, alt_m]")
+        raise RouteError(
+            "LineString has no coordinates list",
+            path=path,
+            where=where,
+            fix="give coordinates as a list of [lon, lat, alt_m]",
+        )
     return coords
 
 
 def _same_point(a, b):
     try:
-        return (float(a[1]) == float(b[1]) and abs(((float(a[0]) - float(b[0]) + 180.0) % 360.0)
-                                                   - 180.0) < 1e-9
-                and (a[2:3] == b[2:3]))
+        return (
+            float(a[1]) == float(b[1])
+            and abs(((float(a[0]) - float(b[0]) + 180.0) % 360.0) - 180.0) < 1e-9
+            and (a[2:3] == b[2:3])
+        )
     except (TypeError, ValueError, IndexError):
         return False
 
@@ -359,11 +463,21 @@ def _line_route(f, defaults, path, where, bare=False):
     for i, pos in enumerate(coords):
         wi = f"{cw}[{i}]"
         lat, lon, z = _position(pos, path=path, where=wi)
-        alt, wref = _altitude(path=path, where=wi, reference=ref, metres=z, feet=feet[i],
-                              flight_level=levels[i])
+        alt, wref = _altitude(
+            path=path, where=wi, reference=ref, metres=z, feet=feet[i], flight_level=levels[i]
+        )
         t = _optional_time(times[i], path=path, where=f"{pp}times[{i}]")
-        hold = _optional_number(holds[i], "hold_min", path=path, where=f"{pp}hold_min[{i}]",
-                                low=0.0, high=24 * 60.0) or 0.0
+        hold = (
+            _optional_number(
+                holds[i],
+                "hold_min",
+                path=path,
+                where=f"{pp}hold_min[{i}]",
+                low=0.0,
+                high=24 * 60.0,
+            )
+            or 0.0
+        )
         name = names[i] if names[i] is not None else f"WP{i + 1}"
         wps.append(Waypoint(str(name), lat, lon, alt, wref, t, hold, None))
     fields = _route_fields(props, path=path, where=(p + "properties") if not bare else "")
@@ -371,26 +485,53 @@ def _line_route(f, defaults, path, where, bare=False):
 
 
 def _points_route(features, defaults, path):
-    ref = _reference(defaults.get("altitude_reference"), path=path,
-                     where="properties.altitude_reference")
+    ref = _reference(
+        defaults.get("altitude_reference"), path=path, where="properties.altitude_reference"
+    )
     wps = []
     for i, f in enumerate(features):
         where = f"features[{i}]"
         geom, props = _feature_parts(f, path=path, where=where)
-        lat, lon, z = _position(geom.get("coordinates"), path=path,
-                                where=where + ".geometry.coordinates")
-        pref = (_reference(props["altitude_reference"], path=path,
-                           where=where + ".properties.altitude_reference")
-                if props.get("altitude_reference") is not None else ref)
-        alt, wref = _altitude(path=path, where=where, reference=pref, metres=z,
-                              feet=props.get("altitude_ft"),
-                              flight_level=props.get("flight_level"))
+        lat, lon, z = _position(
+            geom.get("coordinates"), path=path, where=where + ".geometry.coordinates"
+        )
+        pref = (
+            _reference(
+                props["altitude_reference"],
+                path=path,
+                where=where + ".properties.altitude_reference",
+            )
+            if props.get("altitude_reference") is not None
+            else ref
+        )
+        alt, wref = _altitude(
+            path=path,
+            where=where,
+            reference=pref,
+            metres=z,
+            feet=props.get("altitude_ft"),
+            flight_level=props.get("flight_level"),
+        )
         t = _optional_time(props.get("time"), path=path, where=where + ".properties.time")
-        hold = _optional_number(props.get("hold_min"), "hold_min", path=path,
-                                where=where + ".properties.hold_min", low=0.0,
-                                high=24 * 60.0) or 0.0
-        tas = _optional_number(props.get("tas_kt"), "tas_kt", path=path,
-                               where=where + ".properties.tas_kt", low=0.0, high=2000.0)
+        hold = (
+            _optional_number(
+                props.get("hold_min"),
+                "hold_min",
+                path=path,
+                where=where + ".properties.hold_min",
+                low=0.0,
+                high=24 * 60.0,
+            )
+            or 0.0
+        )
+        tas = _optional_number(
+            props.get("tas_kt"),
+            "tas_kt",
+            path=path,
+            where=where + ".properties.tas_kt",
+            low=0.0,
+            high=2000.0,
+        )
         name = props.get("name") or f"WP{i + 1}"
         wps.append(Waypoint(str(name), lat, lon, alt, wref, t, hold, tas))
     fields = _route_fields(defaults, path=path, where="properties")
@@ -399,8 +540,18 @@ def _points_route(features, defaults, path):
 
 # --------------------------------------------------------------------------- CSV
 
-_CSV_COLUMNS = ("name", "lat", "lon", "altitude_ft", "time", "altitude_reference",
-                "flight_level", "tas_kt", "hold_min", "route")
+_CSV_COLUMNS = (
+    "name",
+    "lat",
+    "lon",
+    "altitude_ft",
+    "time",
+    "altitude_reference",
+    "flight_level",
+    "tas_kt",
+    "hold_min",
+    "route",
+)
 
 
 def read_csv_routes(text, *, path=None):
@@ -413,33 +564,50 @@ def read_csv_routes(text, *, path=None):
         try:
             fields = next(csv.reader([s], skipinitialspace=True, strict=True))
         except csv.Error as err:
-            raise RouteError(f"malformed CSV: {err}", path=path, where=f"line {lineno}",
-                             fix="check the quoting") from None
+            raise RouteError(
+                f"malformed CSV: {err}", path=path, where=f"line {lineno}", fix="check the quoting"
+            ) from None
         rows.append((lineno, [x.strip() for x in fields]))
     if not rows:
-        raise RouteError("no header and no rows (only comments or blank lines)", path=path,
-                         fix="start with the header name,lat,lon,altitude_ft[,time]")
+        raise RouteError(
+            "no header and no rows (only comments or blank lines)",
+            path=path,
+            fix="start with the header name,lat,lon,altitude_ft[,time]",
+        )
     head_line, header = rows[0]
     header = [h.lower() for h in header]
     if not {"lat", "lon"} <= set(header) or len(set(header)) != len(header):
         separator = " separated by commas, not semicolons" if ";" in header[0] else ""
-        raise RouteError(f"header {','.join(header)[:80]!r} is not a route header", path=path,
-                         where=f"line {head_line}",
-                         fix="start with the header name,lat,lon,altitude_ft[,time] "
-                         f"(unique column names{separator})")
+        raise RouteError(
+            f"header {','.join(header)[:80]!r} is not a route header",
+            path=path,
+            where=f"line {head_line}",
+            fix="start with the header name,lat,lon,altitude_ft[,time] "
+            f"(unique column names{separator})",
+        )
     if "altitude_ft" not in header and "flight_level" not in header:
-        raise RouteError("header has no altitude_ft or flight_level column (missing altitude)",
-                         path=path, where=f"line {head_line}",
-                         fix="add an altitude_ft (feet) or flight_level column")
+        raise RouteError(
+            "header has no altitude_ft or flight_level column (missing altitude)",
+            path=path,
+            where=f"line {head_line}",
+            fix="add an altitude_ft (feet) or flight_level column",
+        )
     if len(rows) == 1:
-        raise RouteError("no waypoint rows after the header", path=path,
-                         where=f"line {head_line}", fix="add at least two waypoints")
+        raise RouteError(
+            "no waypoint rows after the header",
+            path=path,
+            where=f"line {head_line}",
+            fix="add at least two waypoints",
+        )
     groups = {}
     for lineno, fields in rows[1:]:
         if len(fields) > len(header):
-            raise RouteError(f"{len(fields)} fields for {len(header)} header columns",
-                             path=path, where=f"line {lineno}",
-                             fix="check the commas in this line")
+            raise RouteError(
+                f"{len(fields)} fields for {len(header)} header columns",
+                path=path,
+                where=f"line {lineno}",
+                fix="check the commas in this line",
+            )
         row = dict(zip(header, fields + [""] * (len(header) - len(fields)), strict=True))
         row = {k: (v if v != "" else None) for k, v in row.items()}
         groups.setdefault(row.get("route") or "", []).append((lineno, row))
@@ -450,16 +618,31 @@ def read_csv_routes(text, *, path=None):
             where = f"line {lineno}"
             lat, lon = check_position(row["lat"], row["lon"], path=path, where=where)
             ref = _reference(row.get("altitude_reference"), path=path, where=where)
-            alt, wref = _altitude(path=path, where=where, reference=ref,
-                                  feet=row.get("altitude_ft"),
-                                  flight_level=row.get("flight_level"))
+            alt, wref = _altitude(
+                path=path,
+                where=where,
+                reference=ref,
+                feet=row.get("altitude_ft"),
+                flight_level=row.get("flight_level"),
+            )
             t = _optional_time(row.get("time"), path=path, where=where)
-            hold = _optional_number(row.get("hold_min"), "hold_min", path=path, where=where,
-                                    low=0.0, high=24 * 60.0) or 0.0
-            tas = _optional_number(row.get("tas_kt"), "tas_kt", path=path, where=where,
-                                   low=0.0, high=2000.0)
-            wps.append(Waypoint(row.get("name") or f"WP{i + 1}", lat, lon, alt, wref, t,
-                                hold, tas))
+            hold = (
+                _optional_number(
+                    row.get("hold_min"),
+                    "hold_min",
+                    path=path,
+                    where=where,
+                    low=0.0,
+                    high=24 * 60.0,
+                )
+                or 0.0
+            )
+            tas = _optional_number(
+                row.get("tas_kt"), "tas_kt", path=path, where=where, low=0.0, high=2000.0
+            )
+            wps.append(
+                Waypoint(row.get("name") or f"WP{i + 1}", lat, lon, alt, wref, t, hold, tas)
+            )
             lines.append(lineno)
         fields = {"name": key or None}
         routes.append((fields, wps, (lambda i, lines=lines: f"line {lines[i]}")))
@@ -473,33 +656,44 @@ def read_gpx_routes(text, *, path=None):
     """Read the routes of a GPX 1.1 text (see the module docstring)."""
     head = text[:4096].upper()
     if "<!DOCTYPE" in head or "<!ENTITY" in head:
-        raise RouteError("GPX with a DOCTYPE or entity declarations is refused", path=path,
-                         fix="remove the <!DOCTYPE ...> declaration")
+        raise RouteError(
+            "GPX with a DOCTYPE or entity declarations is refused",
+            path=path,
+            fix="remove the <!DOCTYPE ...> declaration",
+        )
     try:
         root = ET.fromstring(text)
     except ET.ParseError as err:
         line, col = err.position
-        raise RouteError(f"malformed XML: {str(err).split(':')[0]}", path=path,
-                         where=f"line {line} column {col + 1}",
-                         fix="check the XML syntax") from None
+        raise RouteError(
+            f"malformed XML: {str(err).split(':')[0]}",
+            path=path,
+            where=f"line {line} column {col + 1}",
+            fix="check the XML syntax",
+        ) from None
     ns = root.tag[1:].split("}")[0] if root.tag.startswith("{") else ""
     local = root.tag.split("}")[-1]
     if local != "gpx" or ns not in _GPX_NS:
-        raise RouteError(f"root element <{local}> is not GPX", path=path, where="line 1",
-                         fix="give a GPX 1.1 file (<gpx xmlns=\"http://www.topografix.com/"
-                         "GPX/1/1\">)")
+        raise RouteError(
+            f"root element <{local}> is not GPX",
+            path=path,
+            where="line 1",
+            fix='give a GPX 1.1 file (<gpx xmlns="http://www.topografix.com/GPX/1/1">)',
+        )
     q = (lambda tag: f"{{{ns}}}{tag}") if ns else (lambda tag: tag)
     routes = []
     for r, rte in enumerate(root.findall(q("rte"))):
-        routes.append(_gpx_route(rte, rte.findall(q("rtept")), q, path, f"rte {r + 1}",
-                                 "rtept"))
+        routes.append(_gpx_route(rte, rte.findall(q("rtept")), q, path, f"rte {r + 1}", "rtept"))
     for r, trk in enumerate(root.findall(q("trk"))):
         points = [pt for seg in trk.findall(q("trkseg")) for pt in seg.findall(q("trkpt"))]
         routes.append(_gpx_route(trk, points, q, path, f"trk {r + 1}", "trkpt"))
     if not routes:
         has_wpt = root.find(q("wpt")) is not None
-        raise RouteError("GPX has no rte or trk" + (" (only wpt waypoints)" if has_wpt else ""),
-                         path=path, fix="put the waypoints in order in a <rte> of <rtept>")
+        raise RouteError(
+            "GPX has no rte or trk" + (" (only wpt waypoints)" if has_wpt else ""),
+            path=path,
+            fix="put the waypoints in order in a <rte> of <rtept>",
+        )
     return _default_names(routes, path)
 
 
@@ -522,27 +716,37 @@ def _extensions(el, q):
 
 def _gpx_route(el, points, q, path, where, point_tag):
     ext = _extensions(el, q)
-    ref = _reference(ext.get("altitude_reference"), path=path,
-                     where=f"{where} extensions altitude_reference")
+    ref = _reference(
+        ext.get("altitude_reference"), path=path, where=f"{where} extensions altitude_reference"
+    )
     wps = []
     for i, pt in enumerate(points):
         wi = f"{where} {point_tag} {i + 1}"
         lat, lon = check_position(pt.get("lat"), pt.get("lon"), path=path, where=wi)
         ele = _text(pt, q("ele"))
         if ele is None:
-            raise RouteError("missing altitude (no <ele>)", path=path, where=wi,
-                             fix="give <ele> in metres")
+            raise RouteError(
+                "missing altitude (no <ele>)", path=path, where=wi, fix="give <ele> in metres"
+            )
         pext = _extensions(pt, q)
         alt, wref = _altitude(path=path, where=wi, reference=ref, metres=ele)
         t = _optional_time(_text(pt, q("time")), path=path, where=wi)
-        hold = _optional_number(pext.get("hold_min"), "hold_min", path=path, where=wi,
-                                low=0.0, high=24 * 60.0) or 0.0
-        tas = _optional_number(pext.get("tas_kt"), "tas_kt", path=path, where=wi, low=0.0,
-                               high=2000.0)
-        wps.append(Waypoint(_text(pt, q("name")) or f"WP{i + 1}", lat, lon, alt, wref, t,
-                            hold, tas))
-    props = {"name": _text(el, q("name")), **{k: ext.get(k) for k in (
-        "departure_time", "true_airspeed_kt", "ground_elevation_m")}}
+        hold = (
+            _optional_number(
+                pext.get("hold_min"), "hold_min", path=path, where=wi, low=0.0, high=24 * 60.0
+            )
+            or 0.0
+        )
+        tas = _optional_number(
+            pext.get("tas_kt"), "tas_kt", path=path, where=wi, low=0.0, high=2000.0
+        )
+        wps.append(
+            Waypoint(_text(pt, q("name")) or f"WP{i + 1}", lat, lon, alt, wref, t, hold, tas)
+        )
+    props = {
+        "name": _text(el, q("name")),
+        **{k: ext.get(k) for k in ("departure_time", "true_airspeed_kt", "ground_elevation_m")},
+    }
     fields = _route_fields(props, path=path, where=f"{where} extensions")
     wheres = [f"{where} {point_tag} {i + 1}" for i in range(len(points))]
     if not points:
@@ -587,7 +791,9 @@ def load_route(path):
     routes = load_routes(path)
     if len(routes) != 1:
         names = ", ".join(repr(r.name) for r in routes)
-        raise RouteError(f"file holds {len(routes)} routes ({names}), one was expected",
-                         path=path, fix="use load_routes to read them all")
+        raise RouteError(
+            f"file holds {len(routes)} routes ({names}), one was expected",
+            path=path,
+            fix="use load_routes to read them all",
+        )
     return routes[0]
-

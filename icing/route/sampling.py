@@ -26,7 +26,6 @@ Examples
 (85, 83.9, 653)
 """
 
-
 from __future__ import annotations
 
 from dataclasses import dataclass, field
@@ -56,7 +55,6 @@ _EPOCH = datetime(1970, 1, 1, tzinfo=UTC)
 # waypoint times implying more ground speed look wrong (common practice, no source:
 # subsonic aircraft with a jet-stream tail wind stay below ~750 kt)
 _FASTEST_GROUND_SPEED = 800.0 * KT
-
 
 
 @dataclass
@@ -122,8 +120,6 @@ class RouteSamples:
         return int(self.lat.shape[0])
 
 
-
-
 # --------------------------------------------------------------------------- sampling
 
 
@@ -140,12 +136,22 @@ def _interleave(a, b):
 
 
 def _check_step(value, what):
-    return check_number(value, what, where=what, low=1e-9, high=1e12,
-                        fix=f"give {what} as a positive number")
+    return check_number(
+        value, what, where=what, low=1e-9, high=1e12, fix=f"give {what} as a positive number"
+    )
 
 
-def sample_route(route, *, step_km=1.0, max_step_s=20.0, max_step_ft=100.0, tas_kt=None,
-                 departure=None, wind=None, default_tas_kt=None):
+def sample_route(
+    route,
+    *,
+    step_km=1.0,
+    max_step_s=20.0,
+    max_step_ft=100.0,
+    tas_kt=None,
+    departure=None,
+    wind=None,
+    default_tas_kt=None,
+):
     """Sample a route along its geodesics in distance, time and altitude.
 
     Parameters
@@ -207,18 +213,24 @@ def sample_route(route, *, step_km=1.0, max_step_s=20.0, max_step_ft=100.0, tas_
     anchor = np.array([np.nan if w.time is None else _epoch_s(parse_time(w.time)) for w in wps])
     if np.isnan(anchor[0]) and route.departure_time is not None:
         anchor[0] = _epoch_s(parse_time(route.departure_time))
-    dep_override = None if departure is None else _epoch_s(
-        parse_time(departure, where="departure", what="departure"))
+    dep_override = (
+        None
+        if departure is None
+        else _epoch_s(parse_time(departure, where="departure", what="departure"))
+    )
     if np.all(np.isnan(anchor)):
         if dep_override is None:
-            raise RouteError(f"route {route.name!r} has no departure time and no waypoint "
-                             "times", path=route.source,
-                             fix="give departure_time in the route or --depart")
+            raise RouteError(
+                f"route {route.name!r} has no departure time and no waypoint times",
+                path=route.source,
+                fix="give departure_time in the route or --depart",
+            )
         anchor[0] = dep_override
 
     def speed_kt(value, what):
-        return None if value is None else check_number(value, what, where=what, low=0.0,
-                                                       high=2000.0)
+        return (
+            None if value is None else check_number(value, what, where=what, low=0.0, high=2000.0)
+        )
 
     tas_arg = speed_kt(tas_kt, "tas_kt")
     tas_default = speed_kt(default_tas_kt, "default_tas_kt")
@@ -265,9 +277,11 @@ def sample_route(route, *, step_km=1.0, max_step_s=20.0, max_step_ft=100.0, tas_
     missing = free & ~(tas_leg > 0) & (path3 > 0)
     if np.any(missing):
         i = int(np.flatnonzero(missing)[0])
-        raise RouteError(f"no true airspeed for the leg {name[i]} -> {name[i + 1]} of route "
-                         f"{route.name!r}", path=route.source,
-                         fix="give --tas-kt, an airframe, or true_airspeed_kt in the route")
+        raise RouteError(
+            f"no true airspeed for the leg {name[i]} -> {name[i + 1]} of route {route.name!r}",
+            path=route.source,
+            fix="give --tas-kt, an airframe, or true_airspeed_kt in the route",
+        )
     with np.errstate(invalid="ignore", divide="ignore"):
         duration[free] = np.where(path3[free] > 0, path3[free] / tas_leg[free], 0.0)
         implied = np.where(duration > 0, path3 / duration, 0.0)
@@ -275,23 +289,37 @@ def sample_route(route, *, step_km=1.0, max_step_s=20.0, max_step_ft=100.0, tas_
     fast = anchored & (implied > _FASTEST_GROUND_SPEED)
     if np.any(fast):
         i = int(np.flatnonzero(fast)[0])
-        warn_plausibility(f"route {route.name!r}: the waypoint times imply "
-                          f"{implied[i] / KT:.0f} kt over the ground from {name[i]} to "
-                          f"{name[i + 1]}; check the times")
+        warn_plausibility(
+            f"route {route.name!r}: the waypoint times imply "
+            f"{implied[i] / KT:.0f} kt over the ground from {name[i]} to "
+            f"{name[i + 1]}; check the times"
+        )
 
     # subdivisions ------------------------------------------------------------
     def parts(x):
         return np.ceil(np.maximum(x, 0.0) * (1.0 - 1e-12))
 
-    n = np.maximum.reduce([np.ones(nl), parts(dist / step_m), parts(np.abs(dz) / step_z),
-                           parts(duration / step_s)]).astype(np.int64) if nl else np.zeros(
-        0, dtype=np.int64)
+    n = (
+        np.maximum.reduce(
+            [
+                np.ones(nl),
+                parts(dist / step_m),
+                parts(np.abs(dz) / step_z),
+                parts(duration / step_s),
+            ]
+        ).astype(np.int64)
+        if nl
+        else np.zeros(0, dtype=np.int64)
+    )
     m = np.where(hold > 0, np.maximum(2, parts(hold / step_s)), 0).astype(np.int64)
     block = np.where(hold > 0, m + 1, 1)
     total = int(block.sum() + (n - 1).sum())
     if total > _MAX_SAMPLES:
-        raise RouteError(f"route {route.name!r} would give {total} samples", path=route.source,
-                         fix="use a larger step_km / max_step_s / max_step_ft")
+        raise RouteError(
+            f"route {route.name!r} would give {total} samples",
+            path=route.source,
+            fix="use a larger step_km / max_step_s / max_step_ft",
+        )
 
     # samples: block 0, interior of leg 0, block 1, ..., block nw-1
     counts = _interleave(block, n - 1)
@@ -299,8 +327,11 @@ def sample_route(route, *, step_km=1.0, max_step_s=20.0, max_step_ft=100.0, tas_
     local = np.arange(total) - np.repeat(np.cumsum(counts) - counts, counts)
     is_block = seg % 2 == 0
     owner = seg // 2  # waypoint index for blocks, leg index for interiors
-    frac = np.where(is_block, 0.0, (local + 1) / np.where(is_block, 1, n[np.minimum(
-        owner, max(nl - 1, 0))] if nl else 1))
+    frac = np.where(
+        is_block,
+        0.0,
+        (local + 1) / np.where(is_block, 1, n[np.minimum(owner, max(nl - 1, 0))] if nl else 1),
+    )
     s_lat, s_lon = lat[owner].copy(), lon[owner].copy()
     s_alt = alt[owner].copy()
     s_dist = cum_h[owner].copy()
@@ -354,10 +385,12 @@ def sample_route(route, *, step_km=1.0, max_step_s=20.0, max_step_ft=100.0, tas_
         gs = tas_here + u * np.sin(track) + v * np.cos(track)
         floor = GROUND_SPEED_FLOOR * tas_here
         if np.any(gs < floor):
-            warn_plausibility(f"route {route.name!r}: the wind exceeds "
-                              f"{1 - GROUND_SPEED_FLOOR:.0%} of the true airspeed on "
-                              f"{int(np.sum(gs < floor))} of {gs.size} parts; ground speed "
-                              f"floored at {GROUND_SPEED_FLOOR:.0%} of it")
+            warn_plausibility(
+                f"route {route.name!r}: the wind exceeds "
+                f"{1 - GROUND_SPEED_FLOOR:.0%} of the true airspeed on "
+                f"{int(np.sum(gs < floor))} of {gs.size} parts; ground speed "
+                f"floored at {GROUND_SPEED_FLOOR:.0%} of it"
+            )
         gs = np.maximum(gs, floor)
         sub_dur = sub_dur.copy()
         sub_dur[windy] = sub_path[windy] / gs
@@ -390,8 +423,21 @@ def sample_route(route, *, step_km=1.0, max_step_s=20.0, max_step_ft=100.0, tas_
     tas_s = np.nan_to_num(tas_s, nan=0.0)
     gs_s = np.where(s_hold, 0.0, gs_s)
     return RouteSamples(
-        lat=s_lat, lon=(s_lon + 180.0) % 360.0 - 180.0, altitude_m=s_alt, distance_m=s_dist,
-        time=times, tas=tas_s.astype(float), leg=s_leg.astype(np.int64), from_waypoint=from_wp,
-        to_waypoint=to_wp, hold=s_hold, dt_s=dt, altitude_reference=route.altitude_reference,
-        route_name=route.name, waypoint_distance_m=cum_h, waypoint_names=list(name),
-        ground_elevation_m=route.ground_elevation_m, ground_speed=gs_s)
+        lat=s_lat,
+        lon=(s_lon + 180.0) % 360.0 - 180.0,
+        altitude_m=s_alt,
+        distance_m=s_dist,
+        time=times,
+        tas=tas_s.astype(float),
+        leg=s_leg.astype(np.int64),
+        from_waypoint=from_wp,
+        to_waypoint=to_wp,
+        hold=s_hold,
+        dt_s=dt,
+        altitude_reference=route.altitude_reference,
+        route_name=route.name,
+        waypoint_distance_m=cum_h,
+        waypoint_names=list(name),
+        ground_elevation_m=route.ground_elevation_m,
+        ground_speed=gs_s,
+    )

@@ -23,6 +23,7 @@ from icing.hazards.results import Curtain, RouteScreening
 
 __all__ = ["ScreenOptions", "screen_route", "screen_routes"]
 
+
 @dataclass(frozen=True)
 class ScreenOptions:
     """Choices of a screening run (all stated in the output's assumptions).
@@ -376,5 +377,3 @@ def screen_routes(routes, forecast, *, airframe, progress=None, **kwargs) -> lis
         if progress is not None:
             progress(i + 1, len(routes), out[-1].route_name)
     return out
-
-
