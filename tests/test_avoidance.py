@@ -12,7 +12,6 @@ import json
 
 import numpy as np
 import pytest
-from common_results import DECK_TOP_FT, FREEZING_LEVEL_FT, GAP_KM, make_screening
 
 from icing import codes
 from icing.constants import FT
@@ -36,24 +35,28 @@ def _first_multiple_below(ft):
 
 
 @pytest.fixture(scope="module")
-def deck():
+def deck(make_screening):
     return make_screening()
 
 
-def test_clear_altitude_above_a_deck_with_known_top(deck):
+def test_clear_altitude_above_a_deck_with_known_top(deck, screening_scenario):
     # Fixture: the deck top is DECK_TOP_FT (8,000 ft) everywhere from km 10 to 150.
     cur = deck.curtain
     out = candidate_altitudes(
         cur, _stretch(cur, 60, 120), flight_altitude_m=6000 * FT, tas_m_s=70.0
     )
-    assert out["above"]["altitude_ft"] == _first_multiple_above(DECK_TOP_FT) == 9000
+    assert (
+        out["above"]["altitude_ft"]
+        == _first_multiple_above(screening_scenario.DECK_TOP_FT)
+        == 9000
+    )
     assert out["above"]["clear"] is True
     assert out["above"]["worst_severity"] == "none"
     assert 8000 not in out["ice_free_altitudes_ft"]  # the top row itself is in cloud
     assert CANDIDATE_WORDING in out["basis"]
 
 
-def test_clear_altitude_below_when_freezing_level_above_ground(deck):
+def test_clear_altitude_below_when_freezing_level_above_ground(deck, screening_scenario):
     # Fixture: 0 degC at FREEZING_LEVEL_FT (4,250 ft); ground at most 550 m (1,804 ft), so
     # with the 1,000 ft margin the floor is 3,000 ft and 4,000 ft is warm cloud.
     cur = deck.curtain
@@ -61,7 +64,9 @@ def test_clear_altitude_below_when_freezing_level_above_ground(deck):
         cur, _stretch(cur, 60, 120), flight_altitude_m=6000 * FT, tas_m_s=70.0
     )
     below = out["below"]
-    assert below["altitude_ft"] == _first_multiple_below(FREEZING_LEVEL_FT) == 4000
+    assert (
+        below["altitude_ft"] == _first_multiple_below(screening_scenario.FREEZING_LEVEL_FT) == 4000
+    )
     assert below["clear"] and below["warm_layer"]
     assert not below["freezing_rain_below"]
     assert out["ice_free_altitudes_ft"] == sorted(out["ice_free_altitudes_ft"])
@@ -178,7 +183,7 @@ def test_sld_at_a_candidate_in_freezing_air_is_not_clear(deck):
     assert out["above"]["altitude_ft"] == 10000
 
 
-def test_warm_layer_is_an_option_with_freezing_rain_named():
+def test_warm_layer_is_an_option_with_freezing_rain_named(make_screening):
     # Fixture: flown at 3,000 ft in freezing rain under a layer above 0 degC (~3,800-6,800 ft).
     scr = make_screening(warm_nose=True)
     cur = scr.curtain
@@ -209,7 +214,7 @@ def test_least_severe_when_nothing_is_clear(deck):
     assert "least severe" in out["above"]["note"]
 
 
-def test_flight_levels_on_pressure_altitude():
+def test_flight_levels_on_pressure_altitude(make_screening):
     scr = make_screening(altitude_reference="pressure")
     cur = scr.curtain
     out = candidate_altitudes(
@@ -223,7 +228,7 @@ def test_flight_levels_on_pressure_altitude():
     assert msl["above"]["flight_level"] is None and msl["ice_free_flight_levels"] is None
 
 
-def test_annotate_segments_fills_properties_and_summary():
+def test_annotate_segments_fills_properties_and_summary(make_screening, screening_scenario):
     scr = make_screening()
     results = annotate_segments(scr)
     json.dumps(results, allow_nan=False)  # goes into GeoJSON and the sibling JSON as is
@@ -244,10 +249,10 @@ def test_annotate_segments_fills_properties_and_summary():
     assert "not advice to fly" in scr.summary["candidate_altitudes_wording"]
     # The ceiling from the assumptions (25,000 ft) is above the curtain: capped at its top.
     assert max(results[0]["ice_free_altitudes_ft"]) == 20000
-    assert GAP_KM[0] not in [r["stretch_km"][0] for r in results]
+    assert screening_scenario.GAP_KM[0] not in [r["stretch_km"][0] for r in results]
 
 
-def test_bad_input_is_one_clear_line(deck):
+def test_bad_input_is_one_clear_line(deck, make_screening):
     cur = deck.curtain
     with pytest.raises(InputError, match="selects no curtain samples") as err:
         candidate_altitudes(

@@ -6,17 +6,6 @@ import json
 
 import numpy as np
 import pytest
-from common_columns import (
-    all_nan_column,
-    cold_dry_column,
-    deep_frontal_deck_with_ice,
-    sld_drizzle_deck_column,
-    stack,
-    supercooled_stratiform_deck,
-    thin_minus8_deck,
-    warm_nose_column,
-    warm_topped_drizzle_deck,
-)
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -26,21 +15,21 @@ from icing.errors import InputError
 
 T0 = 273.15
 ALL = (
-    warm_nose_column,
-    cold_dry_column,
-    all_nan_column,
-    supercooled_stratiform_deck,
-    warm_topped_drizzle_deck,
-    deep_frontal_deck_with_ice,
-    thin_minus8_deck,
+    "warm_nose_column",
+    "cold_dry_column",
+    "all_nan_column",
+    "supercooled_stratiform_deck",
+    "warm_topped_drizzle_deck",
+    "deep_frontal_deck_with_ice",
+    "thin_minus8_deck",
 )
 
 
-def test_shapes_level_n_and_nm():
-    one = supercooled_stratiform_deck()
+def test_shapes_level_n_and_nm(columns):
+    one = columns.supercooled_stratiform_deck()
     d1 = diagnose_columns(**one)
     assert d1.lwc.shape == (40,) and d1.freezing_level.shape == ()
-    two = stack(*(f() for f in ALL))
+    two = columns.stack(*(getattr(columns, f)() for f in ALL))
     d2 = diagnose_columns(**two)
     assert d2.lwc.shape == (len(ALL), 40) and d2.precip_type.shape == (len(ALL),)
     three = {k: np.broadcast_to(v, (2,) + v.shape) for k, v in two.items()}
@@ -51,8 +40,8 @@ def test_shapes_level_n_and_nm():
     np.testing.assert_allclose(d3.lwc[1], d2.lwc, rtol=1e-12, equal_nan=True)
 
 
-def test_levels_in_either_order_outputs_in_input_order():
-    col = supercooled_stratiform_deck()
+def test_levels_in_either_order_outputs_in_input_order(columns):
+    col = columns.supercooled_stratiform_deck()
     up = diagnose_columns(**col)
     down = diagnose_columns(**{k: v[::-1] for k, v in col.items()})
     np.testing.assert_allclose(down.lwc[::-1], up.lwc, rtol=1e-12, equal_nan=True)
@@ -60,15 +49,15 @@ def test_levels_in_either_order_outputs_in_input_order():
     np.testing.assert_array_equal(down.pressure, col["pressure"][::-1])
 
 
-def test_nan_column_is_invalid_not_clear():
-    d = diagnose_columns(**all_nan_column())
+def test_nan_column_is_invalid_not_clear(columns):
+    d = diagnose_columns(**columns.all_nan_column())
     assert not d.valid.any()
     assert np.isnan(d.lwc).all()  # unknown, never 0 ("no icing")
     assert np.isnan(d.freezing_level)
 
 
-def test_nan_level_invalid_others_kept():
-    col = supercooled_stratiform_deck()
+def test_nan_level_invalid_others_kept(columns):
+    col = columns.supercooled_stratiform_deck()
     col["temperature"] = col["temperature"].copy()
     col["temperature"][20] = np.nan
     d = diagnose_columns(**col)
@@ -77,36 +66,36 @@ def test_nan_level_invalid_others_kept():
     assert np.isfinite(d.height).all()  # heights bridge the gap
 
 
-def test_cold_dry_column_is_clear():
-    d = diagnose_columns(**cold_dry_column())
+def test_cold_dry_column_is_clear(columns):
+    d = diagnose_columns(**columns.cold_dry_column())
     assert d.valid.all() and not d.cloud.any()
     assert np.nanmax(d.lwc) == 0.0
 
 
-def test_options_describe_is_json_and_in_output():
-    d = diagnose_columns(**supercooled_stratiform_deck())
+def test_options_describe_is_json_and_in_output(columns):
+    d = diagnose_columns(**columns.supercooled_stratiform_deck())
     text = json.dumps(d.assumptions)
     assert "maritime" in text and d.assumptions == ColumnOptions().describe()
 
 
-def test_no_humidity_is_a_clear_error():
-    col = supercooled_stratiform_deck()
+def test_no_humidity_is_a_clear_error(columns):
+    col = columns.supercooled_stratiform_deck()
     with pytest.raises(InputError, match="humidity"):
         diagnose_columns(col["pressure"], col["temperature"])
 
 
-def test_basis_codes_are_known():
-    d = diagnose_columns(**stack(*(f() for f in ALL)))
+def test_basis_codes_are_known(columns):
+    d = diagnose_columns(**columns.stack(*(getattr(columns, f)() for f in ALL)))
     assert set(np.unique(d.basis)) <= {codes.BASIS_NONE, codes.BASIS_MODEL, codes.BASIS_DIAGNOSED}
 
 
 # --- liquid: bounds, limits, basis ---------------------------------------------------------
 
 
-def test_lwc_nonnegative_and_none_below_homogeneous_freezing():
+def test_lwc_nonnegative_and_none_below_homogeneous_freezing(columns):
     # physical laws: LWC >= 0; no liquid below homogeneous freezing (about -38 C, textbook
     # -40 C; Rogers & Yau 1989 ch. 8) -- model liquid there is discarded too
-    cols = stack(*(f() for f in ALL))
+    cols = columns.stack(*(getattr(columns, f)() for f in ALL))
     d = diagnose_columns(**cols)
     assert np.all(d.lwc[np.isfinite(d.lwc)] >= 0.0)
     t = np.linspace(250.0, 225.0, 40)
@@ -118,10 +107,10 @@ def test_lwc_nonnegative_and_none_below_homogeneous_freezing():
     assert np.any(cold.lwc[t > 240.0] > 0.0)
 
 
-def test_model_liquid_larger_wins_and_is_never_added():
+def test_model_liquid_larger_wins_and_is_never_added(columns):
     # DESIGN.md rule (conservative screening): the larger of model and diagnosed liquid,
     # never their sum, with its basis
-    col = supercooled_stratiform_deck()
+    col = columns.supercooled_stratiform_deck()
     lots = dict(col, cloud_liquid=np.where(col["cloud_liquid"] > 0, 1.5e-3, 0.0))
     d = diagnose_columns(**lots)
     inside = d.cloud & (d.lwc_model > 0)
@@ -149,9 +138,9 @@ def test_deep_column_lwc_bounded():
     assert np.nanmax(d.lwc) < 1.5e-3
 
 
-def test_below_ground_levels_masked():
+def test_below_ground_levels_masked(columns):
     # DEVELOPERS.md contract: levels under the ground are flagged and carry no liquid
-    col = supercooled_stratiform_deck()
+    col = columns.supercooled_stratiform_deck()
     d = diagnose_columns(**col, surface_pressure=92000.0)
     assert np.array_equal(d.below_ground, col["pressure"] > 92000.0)
     assert not d.cloud[d.below_ground].any() and np.isnan(d.lwc[d.below_ground]).all()
@@ -160,32 +149,32 @@ def test_below_ground_levels_masked():
     np.testing.assert_array_equal(dh.below_ground, d.below_ground)
 
 
-def test_heights_anchored_at_the_surface():
+def test_heights_anchored_at_the_surface(columns):
     # regression of the hypsometric anchor: with surface pressure and height both given,
     # the surface pressure sits at the surface height
-    col = supercooled_stratiform_deck()
+    col = columns.supercooled_stratiform_deck()
     d = diagnose_columns(**col, surface_pressure=100000.0, surface_height=250.0)
     assert d.height[0] == pytest.approx(250.0, abs=0.01)
 
 
-def test_freezing_level():
+def test_freezing_level(columns):
     # physical definition: lowest 0 C crossing; the stratiform deck crosses between
     # 1000 hPa (+1 C) and 900 hPa (-4 C)
-    d = diagnose_columns(**supercooled_stratiform_deck())
+    d = diagnose_columns(**columns.supercooled_stratiform_deck())
     z0 = float(d.freezing_level)
     i = np.argmax(d.temperature <= T0)
     assert d.height[i - 1] < z0 <= d.height[i]
-    assert np.isnan(diagnose_columns(**cold_dry_column()).freezing_level)
+    assert np.isnan(diagnose_columns(**columns.cold_dry_column()).freezing_level)
 
 
 # --- droplets ------------------------------------------------------------------------------
 
 
-def test_droplet_number_maritime_vs_continental_climatology():
+def test_droplet_number_maritime_vs_continental_climatology(columns):
     # from memory: stratiform droplet number ~75 /cm3 marine, ~290 /cm3 continental
     # (Miles et al. 2000, J. Atmos. Sci. 57, 295). Factor 2: their means come with
     # standard deviations near the mean, and the updraft here is an assumed 0.25 m/s.
-    col = supercooled_stratiform_deck()
+    col = columns.supercooled_stratiform_deck()
     mar = diagnose_columns(**col, options=ColumnOptions(air_mass="maritime"))
     con = diagnose_columns(**col, options=ColumnOptions(air_mass="continental"))
     n_mar = np.nanmax(mar.droplet_number) / 1e6
@@ -199,10 +188,10 @@ def test_droplet_number_maritime_vs_continental_climatology():
     assert np.ptp(mar.droplet_number[inside]) == 0.0
 
 
-def test_updraft_floor_by_cloud_type():
+def test_updraft_floor_by_cloud_type(columns):
     # stated defaults (ColumnOptions): stratiform floor 0.1 m/s, convective 1.0 m/s; a
     # layer with |w| >= 1 m/s is convective and activates more droplets
-    col = supercooled_stratiform_deck()
+    col = columns.supercooled_stratiform_deck()
     calm = diagnose_columns(
         **dict(col, vertical_velocity=np.zeros(40)), options=ColumnOptions(subgrid_updraft_m_s=0.0)
     )
@@ -225,26 +214,26 @@ def test_default_air_mass_is_the_conservative_maritime():
 # --- glaciation ------------------------------------------------------------------------------
 
 
-def test_glaciation_deep_frontal_deck_with_ice_above_is_high():
+def test_glaciation_deep_frontal_deck_with_ice_above_is_high(columns):
     # physical reasoning (seeder-feeder; Korolev & Mazin 2003): a deep -25 C deck with snow
     # falling into it
-    d = diagnose_columns(**deep_frontal_deck_with_ice())
+    d = diagnose_columns(**columns.deep_frontal_deck_with_ice())
     deck = d.cloud & (d.temperature < T0 - 20)
     assert deck.any() and np.nanmin(d.glaciation[deck]) > 0.8
     assert np.all(d.lwc[deck] == np.maximum(d.lwc_model, d.lwc_diagnosed)[deck])  # not thinned
 
 
-def test_glaciation_thin_minus8_deck_is_low():
+def test_glaciation_thin_minus8_deck_is_low(columns):
     # physical reasoning: few ice nuclei at -8 C (Meyers et al. 1992), no ice above
-    d = diagnose_columns(**thin_minus8_deck())
+    d = diagnose_columns(**columns.thin_minus8_deck())
     assert d.cloud.any() and np.nanmax(d.glaciation[d.cloud]) < 0.2
     assert np.isnan(d.glaciation[~d.cloud]).all()
 
 
-def test_appendix_c_warning_in_the_output():
+def test_appendix_c_warning_in_the_output(columns):
     # 14 CFR 25 Appendix C continuous maximum (values from memory): 1.5 g/kg of model
     # liquid in a -8 C stratiform deck passes it
-    col = supercooled_stratiform_deck()
+    col = columns.supercooled_stratiform_deck()
     d = diagnose_columns(**dict(col, cloud_liquid=np.where(col["cloud_liquid"] > 0, 1.5e-3, 0.0)))
     assert any("Appendix C continuous maximum" in w for w in d.warnings)
     assert all(isinstance(w, str) for w in d.warnings)
@@ -253,29 +242,29 @@ def test_appendix_c_warning_in_the_output():
 # --- SLD through the column ------------------------------------------------------------------
 
 
-def test_warm_nose_column_gives_freezing_rain_below_the_nose():
+def test_warm_nose_column_gives_freezing_rain_below_the_nose(columns):
     # Bourgouin (2000) via icing.sld: rain melted in the warm nose falls into a shallow
     # sub-freezing surface layer as freezing rain -- also below cloud base (not gated by
     # the cloud mask)
-    d = diagnose_columns(**warm_nose_column())
+    d = diagnose_columns(**columns.warm_nose_column())
     assert codes.PRECIP_TYPES[int(d.precip_type)] == "freezing-rain"
     cold_below = (d.temperature <= T0) & (d.height < d.freezing_level + 1.0)
     assert np.all(d.sld_class[cold_below] == codes.SLD_RAIN)
     assert np.all(d.sld_lwc[d.sld_class == codes.SLD_RAIN] > 0)
 
 
-def test_drizzle_deck_through_the_column():
+def test_drizzle_deck_through_the_column(columns):
     # warm-rain freezing drizzle (Huffman & Norman 1988; Khairoutdinov & Kogan 2000 via
     # icing.sld): warm-topped deck, maritime droplet numbers, 0.8 g/m3 of model liquid
-    d = diagnose_columns(**sld_drizzle_deck_column())
+    d = diagnose_columns(**columns.sld_drizzle_deck_column())
     assert np.any(d.sld_class == codes.SLD_DRIZZLE)
     drizzle = d.sld_class == codes.SLD_DRIZZLE
     assert np.all(np.isfinite(d.sld_mvd[drizzle]) & (d.sld_mvd[drizzle] > 0))
 
 
-def test_nan_column_sld_is_a_gap():
+def test_nan_column_sld_is_a_gap(columns):
     # a column without data is a coverage gap, never "no SLD"
-    d = diagnose_columns(**all_nan_column())
+    d = diagnose_columns(**columns.all_nan_column())
     assert np.all(d.sld_class == codes.GAP) and int(d.precip_type) == codes.GAP
 
 
@@ -285,33 +274,33 @@ def test_nan_column_sld_is_a_gap():
 @pytest.mark.parametrize(
     ("change", "where"),
     [
-        ({"pressure": supercooled_stratiform_deck()["pressure"] / 100.0}, "pressure"),
-        ({"temperature": supercooled_stratiform_deck()["temperature"] - 273.15}, "temperature"),
-        (
-            {"relative_humidity": supercooled_stratiform_deck()["relative_humidity"] * 100.0},
-            "relative_humidity",
-        ),
-        ({"cloud_liquid": supercooled_stratiform_deck()["cloud_liquid"] * 1000.0}, "cloud_liquid"),
+        (("pressure", 1 / 100.0, 0.0), "pressure"),
+        (("temperature", 1.0, -273.15), "temperature"),
+        (("relative_humidity", 100.0, 0.0), "relative_humidity"),
+        (("cloud_liquid", 1000.0, 0.0), "cloud_liquid"),
     ],
 )
-def test_unit_mistakes_give_one_line_errors(change, where):
-    col = dict(supercooled_stratiform_deck(), **change)
+def test_unit_mistakes_give_one_line_errors(change, where, columns):
+    # a unit slip: the deck's own field scaled and shifted as a wrong unit would
+    col = columns.supercooled_stratiform_deck()
+    name, scale, shift = change
+    col[name] = col[name] * scale + shift
     with pytest.raises(InputError) as err:
         diagnose_columns(**col)
     assert err.value.where == where and err.value.fix
     assert "\n" not in err.value.one_line()
 
 
-def test_shape_mismatch_is_a_clear_error():
-    col = supercooled_stratiform_deck()
+def test_shape_mismatch_is_a_clear_error(columns):
+    col = columns.supercooled_stratiform_deck()
     with pytest.raises(InputError, match="broadcast"):
         diagnose_columns(**dict(col, relative_humidity=col["relative_humidity"][:30]))
     with pytest.raises(InputError, match="one value per column"):
         diagnose_columns(**dict(col, surface_pressure=[1.0, 2.0]))
 
 
-def test_supersaturated_input_is_a_plausibility_note():
-    col = supercooled_stratiform_deck()
+def test_supersaturated_input_is_a_plausibility_note(columns):
+    col = columns.supercooled_stratiform_deck()
     d = diagnose_columns(**dict(col, relative_humidity=np.full(40, 1.3)))
     assert any("120 %" in w for w in d.warnings)
 
@@ -379,9 +368,9 @@ def test_options_refuse_non_positive_values(field):
         ColumnOptions(**{field: 0})
 
 
-def test_chunking_does_not_change_results():
+def test_chunking_does_not_change_results(columns):
     # regression: diagnosing in chunks of 2 columns equals one chunk
-    cols = stack(*(f() for f in ALL))
+    cols = columns.stack(*(getattr(columns, f)() for f in ALL))
     one = diagnose_columns(**cols)
     many = diagnose_columns(**cols, options=ColumnOptions(chunk_columns=2))
     np.testing.assert_array_equal(one.lwc, many.lwc)
@@ -389,17 +378,17 @@ def test_chunking_does_not_change_results():
     assert one.warnings == many.warnings
 
 
-def test_freezing_level_under_a_warm_nose_is_the_nose_base():
+def test_freezing_level_under_a_warm_nose_is_the_nose_base(columns):
     # definition (lowest 0 C crossing): a -3 C surface under a +3 C nose crosses 0 C first
     # at the nose's base, between 930 hPa (-1 C) and 850 hPa (+3 C)
-    d = diagnose_columns(**warm_nose_column())
+    d = diagnose_columns(**columns.warm_nose_column())
     p_at = float(np.interp(d.freezing_level, d.height, d.pressure))
     assert 85000.0 < p_at < 93000.0
 
 
-def test_cloud_fraction_turns_grid_mean_water_into_in_cloud_water():
+def test_cloud_fraction_turns_grid_mean_water_into_in_cloud_water(columns):
     # definition: model cloud water is a grid mean; the cloudy fraction holds all of it
-    col = supercooled_stratiform_deck()
+    col = columns.supercooled_stratiform_deck()
     full = diagnose_columns(**col)
     half = diagnose_columns(**col, cloud_fraction=np.full(40, 0.5))
     tiny = diagnose_columns(**col, cloud_fraction=np.full(40, 0.01))
@@ -408,8 +397,8 @@ def test_cloud_fraction_turns_grid_mean_water_into_in_cloud_water():
     assert "cloud_fraction_floor" in half.assumptions
 
 
-def test_diagnosis_does_not_alias_the_inputs():
-    col = supercooled_stratiform_deck()
+def test_diagnosis_does_not_alias_the_inputs(columns):
+    col = columns.supercooled_stratiform_deck()
     d = diagnose_columns(**col)
     d.pressure[0] = -1.0
     d.temperature[0] = -1.0
@@ -417,17 +406,19 @@ def test_diagnosis_does_not_alias_the_inputs():
 
 
 @pytest.mark.parametrize("model", ["meyers92", "fletcher62", "demott10"])
-def test_ice_nuclei_models_through_the_column(model):
+def test_ice_nuclei_models_through_the_column(model, columns):
     # the stated choice reaches the glaciation budget and the assumptions
-    d = diagnose_columns(**thin_minus8_deck(), options=ColumnOptions(ice_nuclei_model=model))
+    d = diagnose_columns(
+        **columns.thin_minus8_deck(), options=ColumnOptions(ice_nuclei_model=model)
+    )
     g = d.glaciation[d.cloud]
     assert np.all((g >= 0) & (g <= 1)) and model in json.dumps(d.assumptions)
 
 
-def test_one_level_humidity_dip_does_not_split_a_deck():
+def test_one_level_humidity_dip_does_not_split_a_deck(columns):
     # stated choice (ColumnOptions.bridge_single_level_gaps): a one-level dip to ice
     # saturation inside a saturated deck keeps one layer, so the liquid keeps growing
-    col = {k: v for k, v in supercooled_stratiform_deck().items() if k != "cloud_liquid"}
+    col = {k: v for k, v in columns.supercooled_stratiform_deck().items() if k != "cloud_liquid"}
     dip = col["relative_humidity"].copy()
     inside = np.flatnonzero(dip >= 1.0)
     k = inside[len(inside) // 2]

@@ -15,7 +15,6 @@ import pathlib
 
 import numpy as np
 import pytest
-from common_columns import sld_drizzle_deck_column, sld_warm_nose_column, stack
 
 from icing.calc import clouds, column, sld, thermo
 from icing.calc.column import ColumnOptions, diagnose_columns
@@ -163,9 +162,10 @@ def test_all_usable_shortcuts_equal_the_masked_path():
         np.testing.assert_array_equal(getattr(masked, f)[:-1], getattr(alone, f), err_msg=f)
 
 
-@pytest.mark.parametrize("make", [sld_warm_nose_column, sld_drizzle_deck_column])
-def test_sld_presorted_levels_equal_the_sorted_path(make):
-    cols = stack(make(), make(), make())
+@pytest.mark.parametrize("make_name", ["sld_warm_nose_column", "sld_drizzle_deck_column"])
+def test_sld_presorted_levels_equal_the_sorted_path(make_name, columns):
+    make = getattr(columns, make_name)
+    cols = columns.stack(make(), make(), make())
     cols["precipitation_rate_mm_h"] = np.array([1.0, 0.0, 1.0])
     d = diagnose_columns(**cols)
     args = dict(

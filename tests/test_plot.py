@@ -7,7 +7,6 @@ import xml.etree.ElementTree as ET
 import matplotlib.image
 import numpy as np
 import pytest
-from common_results import make_screening
 
 from icing import codes
 from icing.caution import CAUTION_SHORT
@@ -27,7 +26,7 @@ SVG = "{http://www.w3.org/2000/svg}"
 
 
 @pytest.fixture(scope="module")
-def screening():
+def screening(make_screening):
     scr = make_screening()
     annotate_segments(scr)
     return scr
@@ -83,7 +82,7 @@ def test_cross_section_svg_has_caution_legend_and_gap_label(tmp_path, screening)
     assert "9000 ft" in all_text and "4000 ft" in all_text  # nearest candidates marked
 
 
-def test_cross_section_pressure_and_warm_nose(tmp_path):
+def test_cross_section_pressure_and_warm_nose(tmp_path, make_screening):
     scr = make_screening(warm_nose=True, altitude_reference="pressure")
     annotate_segments(scr)
     root = ET.parse(plot_cross_section(scr, tmp_path / "w.svg", **SMALL)).getroot()
@@ -92,14 +91,14 @@ def test_cross_section_pressure_and_warm_nose(tmp_path):
     assert "SLD: freezing rain" in text
 
 
-def test_cross_section_without_segments_or_provenance(tmp_path):
+def test_cross_section_without_segments_or_provenance(tmp_path, make_screening):
     scr = make_screening(gap=False)
     scr.segments, scr.provenance, scr.waypoints = [], {}, []
     out = plot_cross_section(scr, tmp_path / "bare.png", title="bare", **SMALL)
     assert out.stat().st_size > 10_000
 
 
-def test_route_map_png_and_svg(tmp_path, screening):
+def test_route_map_png_and_svg(tmp_path, screening, make_screening):
     other = make_screening(warm_nose=True)
     png = plot_route_map([screening, other], tmp_path / "map.png", **SMALL)
     img = matplotlib.image.imread(png)
@@ -114,7 +113,7 @@ def test_route_map_png_and_svg(tmp_path, screening):
     assert "VANNOCH" in text and "\u00b0W" in text and "\u00b0N" in text
 
 
-def test_route_map_across_the_antimeridian(tmp_path):
+def test_route_map_across_the_antimeridian(tmp_path, make_screening):
     scr = make_screening(antimeridian=True)
     root = ET.parse(plot_route_map(scr, tmp_path / "am.svg", **SMALL)).getroot()
     text = " ".join(_texts(root))

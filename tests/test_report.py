@@ -8,7 +8,6 @@ from html.parser import HTMLParser
 
 import matplotlib.image
 import pytest
-from common_results import make_screening
 
 from icing.caution import CAUTION
 from icing.errors import InputError
@@ -74,7 +73,7 @@ def _parse(path):
 
 
 @pytest.fixture(scope="module")
-def routes():
+def routes(make_screening):
     a = make_screening()
     b = make_screening(warm_nose=True, altitude_reference="pressure")
     for s in (a, b):
@@ -148,7 +147,7 @@ def test_segment_list_candidates_assumptions_and_provenance(page, routes):
     assert "2027-01-14T12:00:00Z" in p.text_by_id["provenance"]
 
 
-def test_text_is_escaped(tmp_path):
+def test_text_is_escaped(tmp_path, make_screening):
     scr = make_screening(route_name="<script>alert(1)</script> & co", gap=False)
     out = write_report(
         scr, tmp_path / "esc.html", pictures=False, assumptions={"<b>key</b>": "a < b"}, **FAST

@@ -11,7 +11,6 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from common import write_text
 from pyproj import Geod
 
 from icing.constants import FT
@@ -43,7 +42,9 @@ def point_feature(lon, lat, *alt, **props):
 
 
 def dump(tmp_path, obj, name="r.geojson"):
-    return write_text(tmp_path, name, json.dumps(obj))
+    path = tmp_path / name
+    path.write_text(json.dumps(obj), encoding="utf-8")
+    return path
 
 
 def gpx(body):
@@ -261,7 +262,7 @@ def test_geojson_feet_as_metres_warns_at_the_caller(tmp_path):
 # --------------------------------------------------------------------------- CSV
 
 
-def test_csv_tolerates_bom_whitespace_and_comments(tmp_path):
+def test_csv_tolerates_bom_whitespace_and_comments(tmp_path, write_text):
     text = (
         "\ufeff# Skerrow test plan\n\n NAME , Lat , Lon , Altitude_ft , Time \n"
         "# a comment between rows\n"
@@ -274,7 +275,7 @@ def test_csv_tolerates_bom_whitespace_and_comments(tmp_path):
     assert r.waypoints[1].time is None and r.waypoints[2].altitude_m == pytest.approx(2438.4)
 
 
-def test_csv_optional_columns(tmp_path):
+def test_csv_optional_columns(tmp_path, write_text):
     text = (
         "name,lat,lon,altitude_ft,flight_level,altitude_reference,tas_kt,hold_min\n"
         "KARVO,57.0,-25.0,,90,pressure,150,\n"
@@ -290,7 +291,7 @@ def test_csv_optional_columns(tmp_path):
     assert load_route(write_text(tmp_path, "agl.csv", agl)).altitude_reference == "agl"
 
 
-def test_csv_route_column_gives_several_routes(tmp_path):
+def test_csv_route_column_gives_several_routes(tmp_path, write_text):
     text = (
         "route,name,lat,lon,altitude_ft\nnorth,A,58,-25,5000\nnorth,B,58,-24,5000\n"
         "south,C,55,-25,5000\nsouth,D,55,-24,5000\n"
@@ -301,19 +302,19 @@ def test_csv_route_column_gives_several_routes(tmp_path):
     ]
 
 
-def test_csv_in_utf16_as_spreadsheets_write_it(tmp_path):
+def test_csv_in_utf16_as_spreadsheets_write_it(tmp_path, write_text):
     text = "name,lat,lon,altitude_ft\nA,57,-25,5000\nB,57,-24,5000\n"
     path = write_text(tmp_path, "excel.csv", text, encoding="utf-16")
     assert [w.name for w in load_route(path).waypoints] == ["A", "B"]
 
 
-def test_csv_with_semicolons_gets_a_hint(tmp_path):
+def test_csv_with_semicolons_gets_a_hint(tmp_path, write_text):
     text = "name;lat;lon;altitude_ft\nA;57;-25;5000\nB;57;-24;5000\n"
     with pytest.raises(RouteError, match="commas, not semicolons"):
         load_routes(write_text(tmp_path, "semi.csv", text))
 
 
-def test_csv_content_without_known_extension(tmp_path):
+def test_csv_content_without_known_extension(tmp_path, write_text):
     text = "name,lat,lon,altitude_ft\nA,57,-25,5000\nB,57,-24,5000\n"
     assert len(load_route(write_text(tmp_path, "plan.route", text)).waypoints) == 2
 
@@ -321,7 +322,7 @@ def test_csv_content_without_known_extension(tmp_path):
 # --------------------------------------------------------------------------- GPX
 
 
-def test_gpx_route_with_extensions(tmp_path):
+def test_gpx_route_with_extensions(tmp_path, write_text):
     body = (
         "<rte><name>Skerrow drone</name><extensions>"
         "<icing:altitude_reference>agl</icing:altitude_reference>"
@@ -346,7 +347,7 @@ def test_gpx_route_with_extensions(tmp_path):
     assert r.waypoints[2].name == "WP3" and r.waypoints[0].time.hour == 10
 
 
-def test_gpx_track_segments_join_and_several_routes(tmp_path):
+def test_gpx_track_segments_join_and_several_routes(tmp_path, write_text):
     seg = (
         '<trkseg><trkpt lat="57.0" lon="-25.0"><ele>900</ele></trkpt>'
         '<trkpt lat="57.0" lon="-24.9"><ele>950</ele></trkpt></trkseg>'
@@ -366,7 +367,7 @@ def test_gpx_track_segments_join_and_several_routes(tmp_path):
     assert routes[0].name == "two-1" and routes[1].name == "track"
 
 
-def test_gpx_1_0_and_no_namespace_are_read(tmp_path):
+def test_gpx_1_0_and_no_namespace_are_read(tmp_path, write_text):
     body = "<rte>" + rtept(56, -25) + rtept(56, -24) + "</rte>"
     v10 = gpx(body).replace("GPX/1/1", "GPX/1/0")
     assert len(load_route(write_text(tmp_path, "v10.gpx", v10)).waypoints) == 2
@@ -374,7 +375,7 @@ def test_gpx_1_0_and_no_namespace_are_read(tmp_path):
     assert len(load_route(write_text(tmp_path, "bare.gpx", bare)).waypoints) == 2
 
 
-def test_gpx_ele_is_metres_with_the_feet_check(tmp_path):
+def test_gpx_ele_is_metres_with_the_feet_check(tmp_path, write_text):
     body = "<rte>" + rtept(56, -25, "30000") + rtept(56, -24, "30000") + "</rte>"
     with pytest.warns(PlausibilityWarning, match="looks like feet"):
         load_route(write_text(tmp_path, "feet.gpx", gpx(body)))
@@ -543,7 +544,7 @@ CASES = [(fmt, case) for fmt in BAD for case in BAD[fmt]]
 
 
 @pytest.mark.parametrize(("fmt", "case"), CASES, ids=[f"{f}-{c}" for f, c in CASES])
-def test_bad_input_gives_one_line_naming_file_place_and_fix(tmp_path, fmt, case):
+def test_bad_input_gives_one_line_naming_file_place_and_fix(tmp_path, fmt, case, write_text):
     text, message, place = BAD[fmt][case]
     path = write_text(tmp_path, "bad" + SUFFIX[fmt], text)
     with pytest.raises(RouteError) as info:
@@ -562,7 +563,7 @@ def test_missing_file(tmp_path, suffix):
         load_routes(tmp_path / f"nowhere{suffix}")
 
 
-def test_unknown_extension_with_unrecognisable_content(tmp_path):
+def test_unknown_extension_with_unrecognisable_content(tmp_path, write_text):
     with pytest.raises(RouteError, match="unknown extension '.route'"):
         load_routes(write_text(tmp_path, "x.route", "just some words\n"))
     with pytest.raises(RouteError, match="not a UTF-8"):
@@ -573,7 +574,7 @@ def test_unknown_extension_with_unrecognisable_content(tmp_path):
         load_routes(tmp_path)
 
 
-def test_content_wins_over_a_wrong_extension(tmp_path):
+def test_content_wins_over_a_wrong_extension(tmp_path, write_text):
     text = json.dumps(line_feature([[-25, 57, 1000], [-24, 57, 1000]]))
     assert len(load_route(write_text(tmp_path, "mislabelled.csv", text)).waypoints) == 2
 
@@ -642,7 +643,7 @@ def test_more_geojson_mistakes(tmp_path, obj, message):
         ("name,lat,lon,lat,altitude_ft\nA,57,-25,57,100\n", "unique column names"),
     ],
 )
-def test_more_csv_mistakes(tmp_path, text, message):
+def test_more_csv_mistakes(tmp_path, text, message, write_text):
     with pytest.raises(RouteError, match=message) as info:
         load_routes(write_text(tmp_path, "bad.csv", text))
     assert "\n" not in str(info.value)
@@ -677,7 +678,7 @@ def test_more_csv_mistakes(tmp_path, text, message):
         ),
     ],
 )
-def test_more_gpx_mistakes(tmp_path, text, message):
+def test_more_gpx_mistakes(tmp_path, text, message, write_text):
     with pytest.raises(RouteError, match=message) as info:
         load_routes(write_text(tmp_path, "bad.gpx", text))
     assert "\n" not in str(info.value)

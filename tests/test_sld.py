@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from common_columns import sld_drizzle_deck_column, sld_warm_nose_column
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -109,11 +108,11 @@ def test_khairoutdinov_kogan_exponents():
 # --------------------------------------------------------------------------------------
 # Freezing rain
 # --------------------------------------------------------------------------------------
-def test_warm_nose_over_shallow_cold_layer_gives_freezing_rain():
+def test_warm_nose_over_shallow_cold_layer_gives_freezing_rain(columns):
     # Bourgouin (2000), thresholds from memory: the warm nose's PA (~80 J/kg, regression)
     # exceeds the 13.2 J/kg of complete melting and the shallow layer's NA (~44 J/kg)
     # stays below 46 + 0.66 PA: the drops reach the ground liquid.
-    col = sld_warm_nose_column(cold_layer="shallow")
+    col = columns.sld_warm_nose_column(cold_layer="shallow")
     d = run(col)
     cold_below = (col["temperature"] <= T0) & (col["height"] <= 500.0)
     assert np.all(d.sld_class[cold_below] == codes.SLD_RAIN)
@@ -130,11 +129,11 @@ def test_warm_nose_over_shallow_cold_layer_gives_freezing_rain():
     assert np.all(d.sld_dmax[cold_below] >= d0)
 
 
-def test_warm_nose_over_deep_cold_layer_gives_ice_pellets():
+def test_warm_nose_over_deep_cold_layer_gives_ice_pellets(columns):
     # Bourgouin (2000), from memory: NA > 66 + 0.66 PA -> ice pellets at the ground.
     # Near the warm layer's base the drops have not yet refrozen (NA so far below the
     # line): supercooled rain there is what ice pellets at the ground imply aloft.
-    col = sld_warm_nose_column(cold_layer="deep")
+    col = columns.sld_warm_nose_column(cold_layer="deep")
     d = run(col)
     assert d.precip_type == PT["ice-pellets"]
     assert d.refreezing_area > 66.0 + 0.66 * d.melting_area
@@ -149,26 +148,26 @@ def test_warm_nose_over_deep_cold_layer_gives_ice_pellets():
     assert np.all(col["temperature"][flagged] <= T0)
 
 
-def test_warm_nose_without_precipitation_gives_none():
-    col = sld_warm_nose_column(precipitation_rate_mm_h=0.0)
+def test_warm_nose_without_precipitation_gives_none(columns):
+    col = columns.sld_warm_nose_column(precipitation_rate_mm_h=0.0)
     d = run(col)
     assert np.all(d.sld_class == codes.SLD_NONE)
     assert d.precip_type == PT["none"]
 
 
-def test_precipitation_inferred_from_cloud_only_without_precipitation_fields():
+def test_precipitation_inferred_from_cloud_only_without_precipitation_fields(columns):
     # with neither a rate nor rain/snow fields, cloud above the warm nose counts as
     # precipitating (conservative), at the stated nominal 1 mm/h
-    col = sld_warm_nose_column()
+    col = columns.sld_warm_nose_column()
     d = run(col, precipitation_rate_mm_h=None)
     assert np.any(d.sld_class == codes.SLD_RAIN)
     no_cloud = run(col, precipitation_rate_mm_h=None, cloud=np.zeros(col["height"].shape, bool))
     assert np.all(no_cloud.sld_class == codes.SLD_NONE)
 
 
-def test_freezing_rain_below_cloud_base_in_clear_air():
+def test_freezing_rain_below_cloud_base_in_clear_air(columns):
     # SLD is not gated by the cloud mask: rain falls through clear air below cloud base
-    col = sld_warm_nose_column()
+    col = columns.sld_warm_nose_column()
     args, kw = sld_inputs(col)
     assert not kw["cloud"][col["height"] <= 2000.0].any()  # clear below 2 km
     d = diagnose_sld(*args, **kw)
@@ -176,10 +175,10 @@ def test_freezing_rain_below_cloud_base_in_clear_air():
     assert clear_cold.any() and np.all(d.sld_class[clear_cold] == codes.SLD_RAIN)
 
 
-def test_model_rain_content_wins_over_the_rate():
+def test_model_rain_content_wins_over_the_rate(columns):
     # the model's rain content sets the drop sizes where present (Marshall-Palmer
     # inverted for Lambda); the rate fills only levels without model rain
-    col = sld_warm_nose_column(precipitation_rate_mm_h=5.0)
+    col = columns.sld_warm_nose_column(precipitation_rate_mm_h=5.0)
     z = col["height"]
     rain = np.where(z <= 250.0, 2e-4, 0.0)  # 0.2 g/kg in the lowest two levels only
     d = run(col, rain=rain)
@@ -194,11 +193,11 @@ def test_model_rain_content_wins_over_the_rate():
 # --------------------------------------------------------------------------------------
 # Freezing drizzle
 # --------------------------------------------------------------------------------------
-def test_warm_topped_low_number_deck_gives_freezing_drizzle():
+def test_warm_topped_low_number_deck_gives_freezing_drizzle(columns):
     # Huffman & Norman (1988): warm top (-6 C), no ice aloft; Rasmussen et al. (2002):
     # low droplet number; Khairoutdinov & Kogan (2000) autoconversion over 30 min
     # gives ~0.04 g/m3 of drizzle at 50 cm-3 (regression), above the 0.01 g/m3 threshold.
-    col = sld_drizzle_deck_column(top_c=-6.0)
+    col = columns.sld_drizzle_deck_column(top_c=-6.0)
     d = run(col, number_cm3=50.0)
     z = col["height"]
     in_and_below = z <= 1000.0
@@ -213,31 +212,31 @@ def test_warm_topped_low_number_deck_gives_freezing_drizzle():
     assert np.all(d.sld_lwc[in_and_below] <= 0.29e-3)
 
 
-def test_many_droplets_suppress_drizzle():
+def test_many_droplets_suppress_drizzle(columns):
     # Rasmussen et al. (2002): drizzle needs low droplet numbers; at 300 cm-3 the
     # autoconversion is (300/50)^1.79 = 25 times slower (K&K exponent, derived)
-    col = sld_drizzle_deck_column(top_c=-6.0)
+    col = columns.sld_drizzle_deck_column(top_c=-6.0)
     d = run(col, number_cm3=300.0)
     assert np.all(d.sld_class == codes.SLD_NONE)
     assert float(d.drizzle_content.max()) < DRIZZLE_LWC_MIN
 
 
-def test_cold_topped_deck_gives_no_drizzle():
+def test_cold_topped_deck_gives_no_drizzle(columns):
     # Huffman & Norman (1988): tops colder than about -10 to -12 C glaciate; no warm rain
-    col = sld_drizzle_deck_column(top_c=-25.0)
+    col = columns.sld_drizzle_deck_column(top_c=-25.0)
     d = run(col, number_cm3=50.0)
     assert np.all(d.sld_class == codes.SLD_NONE)
 
 
-def test_ice_falling_into_the_deck_gives_no_drizzle():
+def test_ice_falling_into_the_deck_gives_no_drizzle(columns):
     # Huffman & Norman (1988): no ice cloud aloft seeding the deck
-    col = sld_drizzle_deck_column(top_c=-6.0, ice_above_g_kg=0.05)
+    col = columns.sld_drizzle_deck_column(top_c=-6.0, ice_above_g_kg=0.05)
     d = run(col, number_cm3=50.0)
     assert np.all(d.sld_class == codes.SLD_NONE)
 
 
-def test_drizzle_time_scale_scales_content():
-    col = sld_drizzle_deck_column()
+def test_drizzle_time_scale_scales_content(columns):
+    col = columns.sld_drizzle_deck_column()
     a = run(col, drizzle_time_scale_s=900.0).drizzle_content.max()
     b = run(col, drizzle_time_scale_s=1800.0).drizzle_content.max()
     assert float(b / a) == pytest.approx(2.0)  # linear in the time scale, by construction
@@ -246,11 +245,11 @@ def test_drizzle_time_scale_scales_content():
 # --------------------------------------------------------------------------------------
 # Vectorisation, level order, gaps
 # --------------------------------------------------------------------------------------
-def _stacked():
+def _stacked(columns):
     cols = [
-        sld_warm_nose_column(cold_layer="shallow"),
-        sld_warm_nose_column(cold_layer="deep"),
-        sld_warm_nose_column(precipitation_rate_mm_h=0.0),
+        columns.sld_warm_nose_column(cold_layer="shallow"),
+        columns.sld_warm_nose_column(cold_layer="deep"),
+        columns.sld_warm_nose_column(precipitation_rate_mm_h=0.0),
     ]
     singles = [run(c) for c in cols]
     parts = [sld_inputs(c) for c in cols]
@@ -259,8 +258,8 @@ def _stacked():
     return singles, args, kw
 
 
-def test_vectorised_over_columns_matches_single_columns():
-    singles, args, kw = _stacked()
+def test_vectorised_over_columns_matches_single_columns(columns):
+    singles, args, kw = _stacked(columns)
     d = diagnose_sld(*args, **kw)
     assert d.sld_class.shape == (3, 21) and d.precip_type.shape == (3,)
     for i, s in enumerate(singles):
@@ -278,8 +277,8 @@ def test_vectorised_over_columns_matches_single_columns():
     assert d2.precip_type.shape == (2, 3)
 
 
-def test_levels_in_either_order():
-    col = sld_warm_nose_column()
+def test_levels_in_either_order(columns):
+    col = columns.sld_warm_nose_column()
     args, kw = sld_inputs(col)
     d = diagnose_sld(*args, **kw)
     rev = {k: (v[::-1] if np.ndim(v) == 1 else v) for k, v in kw.items()}
@@ -289,8 +288,8 @@ def test_levels_in_either_order():
     assert r.precip_type == d.precip_type
 
 
-def test_nan_level_is_a_gap_and_all_nan_column_is_a_gap():
-    col = sld_warm_nose_column()
+def test_nan_level_is_a_gap_and_all_nan_column_is_a_gap(columns):
+    col = columns.sld_warm_nose_column()
     args, kw = sld_inputs(col)
     t = args[1].copy()
     t[10] = np.nan
@@ -304,8 +303,8 @@ def test_nan_level_is_a_gap_and_all_nan_column_is_a_gap():
     assert np.isnan(g.melting_area)
 
 
-def test_below_ground_levels_are_excluded():
-    col = sld_warm_nose_column()
+def test_below_ground_levels_are_excluded(columns):
+    col = columns.sld_warm_nose_column()
     args, kw = sld_inputs(col)
     below = col["height"] < 250.0  # ground at 250 m: the lowest level is underground
     d = diagnose_sld(*args, **kw, below_ground=below)
@@ -360,11 +359,11 @@ def test_appendix_o_class_words():
     ]
 
 
-def test_blocks_of_columns_give_the_same_answer(monkeypatch):
+def test_blocks_of_columns_give_the_same_answer(monkeypatch, columns):
     # the column blocks that bound memory must not change any result
     import icing.calc.sld as sld_module
 
-    _, args, kw = _stacked()
+    _, args, kw = _stacked(columns)
     whole = diagnose_sld(*args, **kw)
     monkeypatch.setattr(sld_module, "_BLOCK_LEVELS", 25)  # one column per block
     blocked = diagnose_sld(*args, **kw)
@@ -372,21 +371,21 @@ def test_blocks_of_columns_give_the_same_answer(monkeypatch):
         np.testing.assert_array_equal(getattr(blocked, name), getattr(whole, name))
 
 
-def test_cloud_alone_is_not_snow_or_rain_at_the_ground():
+def test_cloud_alone_is_not_snow_or_rain_at_the_ground(columns):
     # without a rate or model precipitation a stratus deck is not a snowfall: the
     # cloud-only inference serves the melting-layer (freezing rain) case alone
-    col = sld_drizzle_deck_column(top_c=-6.0)
+    col = columns.sld_drizzle_deck_column(top_c=-6.0)
     d = run(col, number_cm3=300.0, precipitation_rate_mm_h=None)
     assert d.precip_type == PT["none"]
     d = run(col, number_cm3=300.0, precipitation_rate_mm_h=0.5)
     assert d.precip_type == PT["snow"]
 
 
-def test_ice_aloft_behind_a_dry_gap_does_not_seed():
+def test_ice_aloft_behind_a_dry_gap_does_not_seed(columns):
     # crystals falling through clear air subsaturated over ice sublimate (Huffman &
     # Norman 1988: freezing drizzle under a dry layer); through ice-saturated air
     # they reach the deck and glaciate it
-    col = sld_drizzle_deck_column(top_c=-6.0)
+    col = columns.sld_drizzle_deck_column(top_c=-6.0)
     z = col["height"]
     ice = np.where((z >= 1500.0) & (z <= 2000.0), 5e-5, 0.0)
     assert np.all(col["relative_humidity"][(z > 1000.0) & (z < 1500.0)] == 0.4)
@@ -397,10 +396,10 @@ def test_ice_aloft_behind_a_dry_gap_does_not_seed():
     assert np.all(d.sld_class == codes.SLD_NONE)
 
 
-def test_model_rain_below_freezing_is_taken_at_its_word():
+def test_model_rain_below_freezing_is_taken_at_its_word(columns):
     # no melting layer: the model's sub-freezing rain is warm-rain drizzle, with the
     # model's content (here 0.05 g/kg in the deck, where 300 cm-3 gives no diagnosed drizzle)
-    col = sld_drizzle_deck_column(top_c=-6.0)
+    col = columns.sld_drizzle_deck_column(top_c=-6.0)
     z = col["height"]
     rain = np.where((z >= 400.0) & (z <= 1000.0), 5e-5, 0.0)
     d = run(col, number_cm3=300.0, rain=rain)
@@ -409,15 +408,15 @@ def test_model_rain_below_freezing_is_taken_at_its_word():
     assert np.all(d.sld_class[deck] == codes.SLD_DRIZZLE)
     np.testing.assert_allclose(d.sld_lwc[deck], rain[deck] * rho[deck])
     # beneath a melting layer: supercooled rain even where Bourgouin's NA says refrozen
-    col = sld_warm_nose_column(cold_layer="deep")
+    col = columns.sld_warm_nose_column(cold_layer="deep")
     low = col["height"] <= 250.0
     d = run(col, rain=np.where(low, 1e-4, 0.0))
     assert np.all(d.sld_class[low] == codes.SLD_RAIN)
     assert d.precip_type == PT["freezing-rain"]
 
 
-def test_degenerate_shapes():
-    col = sld_warm_nose_column()
+def test_degenerate_shapes(columns):
+    col = columns.sld_warm_nose_column()
     args, kw = sld_inputs(col)
     # no columns: empty results of the right shape
     d = diagnose_sld(
@@ -439,9 +438,9 @@ def test_degenerate_shapes():
 
 @settings(max_examples=25, deadline=None)
 @given(seed=st.integers(0, 2**31 - 1), deep=st.booleans())
-def test_any_level_order_gives_the_same_diagnosis(seed, deep):
+def test_any_level_order_gives_the_same_diagnosis(seed, deep, columns):
     # levels may come in any order: results follow their levels
-    col = sld_warm_nose_column(cold_layer="deep" if deep else "shallow")
+    col = columns.sld_warm_nose_column(cold_layer="deep" if deep else "shallow")
     args, kw = sld_inputs(col)
     d = diagnose_sld(*args, **kw)
     perm = np.random.default_rng(seed).permutation(args[0].size)
@@ -455,9 +454,9 @@ def test_any_level_order_gives_the_same_diagnosis(seed, deep):
 
 @settings(max_examples=25, deadline=None)
 @given(n1=st.floats(10.0, 500.0), f=st.floats(1.1, 5.0), top=st.floats(-12.0, -1.0))
-def test_fewer_droplets_never_less_drizzle(n1, f, top):
+def test_fewer_droplets_never_less_drizzle(n1, f, top, columns):
     # Khairoutdinov & Kogan (2000): autoconversion falls with droplet number (N^-1.79)
-    col = sld_drizzle_deck_column(top_c=top)
+    col = columns.sld_drizzle_deck_column(top_c=top)
     many = run(col, number_cm3=n1 * f)
     few = run(col, number_cm3=n1)
     assert np.all(few.drizzle_content >= many.drizzle_content)
@@ -466,11 +465,11 @@ def test_fewer_droplets_never_less_drizzle(n1, f, top):
 
 @settings(max_examples=25, deadline=None)
 @given(r1=st.floats(0.05, 20.0), f=st.floats(1.1, 4.0))
-def test_more_rain_bigger_drops(r1, f):
+def test_more_rain_bigger_drops(r1, f, columns):
     # Marshall & Palmer (1948): LWC and D0 grow with the rate; the class does not change
-    col = sld_warm_nose_column(precipitation_rate_mm_h=r1)
+    col = columns.sld_warm_nose_column(precipitation_rate_mm_h=r1)
     a = run(col)
-    b = run(sld_warm_nose_column(precipitation_rate_mm_h=r1 * f))
+    b = run(columns.sld_warm_nose_column(precipitation_rate_mm_h=r1 * f))
     rain = a.sld_class == codes.SLD_RAIN
     np.testing.assert_array_equal(a.sld_class, b.sld_class)
     assert np.all(b.sld_lwc[rain] > a.sld_lwc[rain]) and np.all(b.sld_mvd[rain] > a.sld_mvd[rain])
@@ -492,9 +491,9 @@ def test_appendix_o_class_over_the_whole_distribution():
     assert alone.tolist() == "freezing-drizzle MVD>40um"
 
 
-def test_very_heavy_rate_still_sized():
+def test_very_heavy_rate_still_sized(columns):
     # beyond the Marshall-Palmer range (100 mm/h here) the drops are sized at the limit
-    d = run(sld_warm_nose_column(precipitation_rate_mm_h=250.0))
+    d = run(columns.sld_warm_nose_column(precipitation_rate_mm_h=250.0))
     rain = d.sld_class == codes.SLD_RAIN
     assert rain.any()
     np.testing.assert_allclose(d.sld_lwc[rain], marshall_palmer(100.0)[0])
