@@ -68,8 +68,8 @@ def _warm_up():
 
     p = np.array([[100000.0, 85000.0, 70000.0]])
     t = np.array([[275.0, 268.0, 258.0]])
-    d = icing.diagnose_columns(p, t, relative_humidity=np.ones_like(p))
-    icing.airframe_icing(
+    d = icing.calc.diagnose_columns(p, t, relative_humidity=np.ones_like(p))
+    icing.calc.airframe_icing(
         icing.load_airframe("twin-turboprop"), lwc=d.lwc, mvd=d.mvd, temperature=t, pressure=p
     )
 

@@ -10,12 +10,17 @@ see :data:`icing.caution.CAUTION`.
 Examples
 --------
 >>> import icing
->>> round(float(icing.air_viscosity(273.15)) * 1e5, 3)
+>>> round(float(icing.calc.air_viscosity(273.15)) * 1e5, 3)
 1.716
+
+The physics lives in :mod:`icing.calc`. Its functions were also reachable from
+the top level before 0.2; those names still work for one release and warn with
+a :class:`DeprecationWarning` that names their new home.
 """
 
 from __future__ import annotations
 
+import warnings
 from importlib import import_module
 
 from icing._version import SCHEMA_VERSION, __version__
@@ -24,6 +29,7 @@ __all__ = [
     "__version__",
     "SCHEMA_VERSION",
     "CAUTION",
+    "calc",
     # errors
     "IcingError",
     "InputError",
@@ -31,7 +37,7 @@ __all__ = [
     "ForecastError",
     "AirframeError",
     "PlausibilityWarning",
-    # pipeline and I/O
+    # routes, forecasts, airframes
     "load_route",
     "load_routes",
     "sample_route",
@@ -47,42 +53,21 @@ __all__ = [
     "demo_forecast_path",
     "load_airframe",
     "list_airframes",
+    "Airframe",
+    "Collector",
+    # runs and results
     "screen_route",
     "screen_routes",
+    "diagnose_point",
     "feature_collection",
     "RouteScreening",
     "Curtain",
     "candidate_altitudes",
     "annotate_segments",
+    # outputs
     "plot_cross_section",
     "plot_route_map",
     "write_report",
-    # column physics
-    "diagnose_columns",
-    "ColumnOptions",
-    "ColumnDiagnosis",
-    "moist_adiabat_temperature",
-    "terminal_velocity",
-    "air_viscosity",
-    "kohler_critical",
-    "twomey_activation",
-    "median_volume_diameter",
-    "marshall_palmer",
-    "spectrum_bins",
-    "AIR_MASSES",
-    "air_mass",
-    "diagnose_sld",
-    "appendix_o_class",
-    # collector physics
-    "cylinder_collision_efficiency",
-    "recovery_temperature",
-    "freezing_fraction",
-    "airframe_icing",
-    "AirframeIcing",
-    "stagnation_efficiency",
-    "spectrum_collection",
-    "Airframe",
-    "Collector",
 ]
 
 _WHERE = {
@@ -108,8 +93,11 @@ _WHERE = {
     "demo_forecast_path": "forecast",
     "load_airframe": "airframes",
     "list_airframes": "airframes",
+    "Airframe": "calc",
+    "Collector": "calc",
     "screen_route": "runs",
     "screen_routes": "runs",
+    "diagnose_point": "runs",
     "feature_collection": "hazards",
     "RouteScreening": "hazards",
     "Curtain": "hazards",
@@ -118,34 +106,48 @@ _WHERE = {
     "plot_cross_section": "outputs.plot",
     "plot_route_map": "outputs.plot",
     "write_report": "outputs.report",
-    "diagnose_columns": "calc",
-    "ColumnOptions": "calc",
-    "ColumnDiagnosis": "calc",
-    "moist_adiabat_temperature": "calc",
-    "terminal_velocity": "calc",
-    "air_viscosity": "calc",
-    "kohler_critical": "calc",
-    "twomey_activation": "calc",
-    "median_volume_diameter": "calc",
-    "marshall_palmer": "calc",
-    "spectrum_bins": "calc",
-    "AIR_MASSES": "calc",
-    "air_mass": "calc",
-    "diagnose_sld": "calc",
-    "appendix_o_class": "calc",
-    "cylinder_collision_efficiency": "calc",
-    "recovery_temperature": "calc",
-    "freezing_fraction": "calc",
-    "airframe_icing": "calc",
-    "AirframeIcing": "calc",
-    "stagnation_efficiency": "calc",
-    "spectrum_collection": "calc",
-    "Airframe": "calc",
-    "Collector": "calc",
 }
+
+#: Physics names reachable from the top level before 0.2: they now live in
+#: :mod:`icing.calc` and warn when reached from here (to be removed in 0.3).
+_MOVED_TO_CALC = frozenset(
+    {
+        "diagnose_columns",
+        "ColumnOptions",
+        "ColumnDiagnosis",
+        "moist_adiabat_temperature",
+        "terminal_velocity",
+        "air_viscosity",
+        "kohler_critical",
+        "twomey_activation",
+        "median_volume_diameter",
+        "marshall_palmer",
+        "spectrum_bins",
+        "AIR_MASSES",
+        "air_mass",
+        "diagnose_sld",
+        "appendix_o_class",
+        "cylinder_collision_efficiency",
+        "recovery_temperature",
+        "freezing_fraction",
+        "airframe_icing",
+        "AirframeIcing",
+        "stagnation_efficiency",
+        "spectrum_collection",
+    }
+)
 
 
 def __getattr__(name: str):
+    if name == "calc":
+        return import_module(".calc", __name__)
+    if name in _MOVED_TO_CALC:
+        warnings.warn(
+            f"icing.{name} moved to icing.calc.{name}; the top-level name will be removed in 0.3",
+            DeprecationWarning,
+            stacklevel=2,
+        )
+        return getattr(import_module(".calc", __name__), name)
     module = _WHERE.get(name)
     if module is None:
         raise AttributeError(f"module 'icing' has no attribute {name!r}")
