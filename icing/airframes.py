@@ -233,6 +233,26 @@ def airframe_from_dict(table: dict, *, path=None, source=None) -> Airframe:
     tol = _number(table, "ice_tolerance_mm", path, where)
     ceiling = _number(table, "ceiling_ft", path, where, required=False)
     prot = _protection(table.get("ice_protection", "none"), path, where, "ice_protection")
+    collectors, ref = _collectors_and_reference(table, path, where)
+    return Airframe(
+        name=name,
+        description=str(table.get("description", "")),
+        true_airspeed_kt=tas,
+        ceiling_ft=ceiling,
+        ice_protection=prot,
+        ice_tolerance_mm=tol,
+        collectors=collectors,
+        reference=ref,
+        min_altitude_ft=_number(
+            table, "min_altitude_ft", path, where, positive=False, required=False
+        ),
+        max_altitude_agl_ft=_number(table, "max_altitude_agl_ft", path, where, required=False),
+        source=source or "preset",
+    )
+
+
+def _collectors_and_reference(table, path, where):
+    """Check the airframe's collectors one by one; return them and the reference's name."""
     cols = table.get("collectors")
     if not cols:
         raise AirframeError(
@@ -282,21 +302,7 @@ def airframe_from_dict(table: dict, *, path=None, source=None) -> Airframe:
             where=where,
             fix="name a critical collector as reference",
         )
-    return Airframe(
-        name=name,
-        description=str(table.get("description", "")),
-        true_airspeed_kt=tas,
-        ceiling_ft=ceiling,
-        ice_protection=prot,
-        ice_tolerance_mm=tol,
-        collectors=collectors,
-        reference=ref,
-        min_altitude_ft=_number(
-            table, "min_altitude_ft", path, where, positive=False, required=False
-        ),
-        max_altitude_agl_ft=_number(table, "max_altitude_agl_ft", path, where, required=False),
-        source=source or "preset",
-    )
+    return collectors, ref
 
 
 def _read_toml(path):

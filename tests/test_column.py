@@ -455,3 +455,24 @@ def test_nan_surface_anchor_leaves_levels_invalid():
         p, t, relative_humidity=np.ones(3), surface_pressure=np.nan, surface_height=0.0
     )
     assert not d.valid.any()
+
+
+def test_results_are_frozen_with_a_docstring_per_field(columns):
+    # project convention: frozen result objects, a docstring per field (no physics)
+    import dataclasses
+
+    from icing.calc.clouds import CloudLayers
+    from icing.calc.column import ColumnDiagnosis
+    from icing.calc.sld import SLDDiagnosis
+
+    d = diagnose_columns(**columns.supercooled_stratiform_deck())
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        d.lwc = None
+    for cls in (ColumnDiagnosis, CloudLayers, SLDDiagnosis):
+        assert dataclasses.is_dataclass(cls) and cls.__dataclass_params__.frozen
+        doc = cls.__doc__ or ""
+        src = __import__("inspect").getsource(cls)
+        for f in dataclasses.fields(cls):
+            assert f"{f.name}:" in src and (
+                f"{f.name} :" in doc or '"""' in src.split(f"    {f.name}:", 1)[1].splitlines()[1]
+            ), (cls.__name__, f.name)

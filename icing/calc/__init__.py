@@ -6,10 +6,12 @@ the modelling chain:
 
 ``thermo`` (saturation, density, hypsometry, moist adiabat) ->
 ``clouds`` (cloud layers, adiabatic liquid, glaciation) ->
-``droplets`` (activation, spectra, fall speed) -> ``sld`` (freezing rain and
-drizzle) -> ``column`` (the whole column diagnosis) -> ``collection``
-(collision efficiency) -> ``accretion`` (heat balance, ice type and density) ->
-``severity`` (the words) -> ``airframe`` (every collector of an airframe).
+``droplets`` (activation, spectra, fall speed) -> ``warm_rain`` (drizzle rates)
+-> ``sld`` (freezing rain and drizzle) -> ``column`` (the whole column
+diagnosis; its choices in ``column_options``) -> ``collection`` (collision
+efficiency) -> ``accretion`` (heat balance, ice type and density) ->
+``severity`` (the words) -> ``airframe`` (every collector of an airframe; the
+airframes themselves in ``collector``).
 
 Examples
 --------
@@ -23,21 +25,27 @@ from icing.calc import (
     airframe,
     clouds,
     collection,
+    collector,
     column,
+    column_options,
     droplets,
     severity,
     sld,
     thermo,
+    warm_rain,
 )
 from icing.calc.accretion import *  # noqa: F403
 from icing.calc.airframe import *  # noqa: F403
 from icing.calc.clouds import *  # noqa: F403
 from icing.calc.collection import *  # noqa: F403
+from icing.calc.collector import *  # noqa: F403
 from icing.calc.column import *  # noqa: F403
+from icing.calc.column_options import *  # noqa: F403
 from icing.calc.droplets import *  # noqa: F403
 from icing.calc.severity import *  # noqa: F403
 from icing.calc.sld import *  # noqa: F403
 from icing.calc.thermo import *  # noqa: F403
+from icing.calc.warm_rain import *  # noqa: F403
 
 __all__ = sorted(
     {
@@ -48,10 +56,13 @@ __all__ = sorted(
             droplets,
             sld,
             column,
+            column_options,
+            collector,
             collection,
             accretion,
             severity,
             airframe,
+            warm_rain,
         )
         for name in module.__all__
     }

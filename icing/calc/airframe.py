@@ -78,8 +78,7 @@ References
 
 from __future__ import annotations
 
-import math
-from dataclasses import asdict, dataclass, field
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -103,6 +102,13 @@ from icing.calc.collection import (
     range_parameter,
     spectrum_quadrature,
 )
+from icing.calc.collector import (
+    LEADING_EDGE_RADIUS_FACTOR,
+    PROTECTIONS,
+    SHAPES,
+    Airframe,
+    Collector,
+)
 from icing.calc.severity import (
     AIM_RATES_MM_H,
     IN_CLOUD_LWC,
@@ -117,8 +123,6 @@ from icing.calc.thermo import (
     saturation_vapor_pressure,
 )
 from icing.constants import (
-    FT,
-    KT,
     PRANDTL_AIR,
     RHO_ICE,
     RHO_WATER,
@@ -136,162 +140,6 @@ __all__ = [
     "fit_range_flags",
     "assumptions",
 ]
-
-#: Collector shapes and the keys each requires.
-SHAPES = {
-    "cylinder": ("diameter_m",),
-    "airfoil": ("chord_m", "thickness_ratio"),
-    "rotor": ("chord_m", "thickness_ratio", "section_radius_m", "rpm"),
-}
-#: Ice-protection kinds (their effect on severity: :mod:`icing.accretion`).
-PROTECTIONS = ("none", "de-ice", "anti-ice")
-#: NACA 4-digit leading-edge radius ``r_LE = 1.1019 t^2 c`` (Abbott & von Doenhoff
-#: 1959, Theory of Wing Sections, sec. 6.4).
-LEADING_EDGE_RADIUS_FACTOR = 1.1019
-
-
-@dataclass(frozen=True)
-class Collector:
-    """One part of an airframe that catches water, as an equivalent cylinder.
-
-    Attributes
-    ----------
-    name : str
-    shape : {"cylinder", "airfoil", "rotor"}
-    diameter_m : float or None
-        Cylinder diameter (``cylinder``). [m]
-    chord_m, thickness_ratio : float or None
-        Section chord [m] and thickness-to-chord ratio [1] (``airfoil``, ``rotor``).
-    section_radius_m, rpm : float or None
-        Radius of the blade section [m] and rotation rate [1/min] (``rotor``).
-    protection : str or None
-        ``"none"``, ``"de-ice"``, ``"anti-ice"``; None: the airframe's.
-    critical : bool
-        Whether its ice sets the airframe's severity.
-    ice_tolerance_mm : float or None
-        Its own ice tolerance (None: the airframe's). [mm]
-    catch_factor : float
-        Multiplies the total catch (1: the equivalent cylinder's). [1]
-    description : str
-    """
-
-    name: str
-    shape: str
-    diameter_m: float | None = None
-    chord_m: float | None = None
-    thickness_ratio: float | None = None
-    section_radius_m: float | None = None
-    rpm: float | None = None
-    protection: str | None = None
-    critical: bool = True
-    ice_tolerance_mm: float | None = None
-    catch_factor: float = 1.0
-    description: str = ""
-
-    @property
-    def diameter(self) -> float:
-        """Equivalent cylinder diameter, ``diameter_m`` or ``2 * 1.1019 t^2 c`` [m]."""
-        if self.shape == "cylinder":
-            return float(self.diameter_m)
-        return 2.0 * LEADING_EDGE_RADIUS_FACTOR * self.thickness_ratio**2 * self.chord_m
-
-    @property
-    def rotation_speed(self) -> float:
-        """Speed of the section from rotation, ``omega r`` (0 unless a rotor) [m/s]."""
-        if self.shape != "rotor":
-            return 0.0
-        return 2.0 * math.pi * self.rpm / 60.0 * self.section_radius_m
-
-    def speed(self, airspeed):
-        """Return the air speed relative to the collector, ``sqrt((omega r)^2 + V^2)`` [m/s]."""
-        v = np.asarray(airspeed, dtype=float)
-        w = self.rotation_speed
-        return np.sqrt(w * w + v * v) if w else v
-
-    def describe(self) -> dict:
-        """JSON-able dict of the collector and its equivalent cylinder."""
-        d = {k: v for k, v in asdict(self).items() if v is not None and v != ""}
-        d["equivalent_diameter_m"] = round(self.diameter, 6)
-        if self.shape == "rotor":
-            d["rotation_speed_m_s"] = round(self.rotation_speed, 2)
-        return d
-
-
-@dataclass(frozen=True)
-class Airframe:
-    """An airframe: cruise speed, limits, ice protection, tolerance, collectors.
-
-    Attributes
-    ----------
-    name, description : str
-    true_airspeed_kt : float
-        Cruise true airspeed. [kt]
-    ceiling_ft : float or None
-        Service ceiling. [ft]
-    ice_protection : {"none", "de-ice", "anti-ice"}
-        Default protection of its collectors.
-    ice_tolerance_mm : float
-        Ice thickness the airframe tolerates on an unprotected critical
-        collector before flight is impaired (a planning figure). [mm]
-    collectors : tuple of Collector
-    reference : str
-        Name of the collector reported where nothing ices and named in summaries
-        as the airframe's main surface.
-    min_altitude_ft, max_altitude_agl_ft : float or None
-        Operating limits (drones: maximum height above ground). [ft]
-    source : str
-        ``"preset"`` or the file it was read from.
-    """
-
-    name: str
-    description: str
-    true_airspeed_kt: float
-    ceiling_ft: float | None
-    ice_protection: str
-    ice_tolerance_mm: float
-    collectors: tuple
-    reference: str
-    min_altitude_ft: float | None = None
-    max_altitude_agl_ft: float | None = None
-    source: str = "preset"
-
-    @property
-    def cruise_tas(self) -> float:
-        """Cruise true airspeed [m/s]."""
-        return self.true_airspeed_kt * KT
-
-    @property
-    def ceiling_m(self) -> float:
-        """Service ceiling (NaN if unknown) [m]."""
-        return math.nan if self.ceiling_ft is None else self.ceiling_ft * FT
-
-    def collector(self, name: str) -> Collector:
-        """Return the collector called ``name``."""
-        for c in self.collectors:
-            if c.name == name:
-                return c
-        raise KeyError(name)
-
-    def describe(self) -> dict:
-        """JSON-able dict of the airframe and its collectors."""
-        d = {
-            "name": self.name,
-            "description": self.description,
-            "true_airspeed_kt": self.true_airspeed_kt,
-            "cruise_tas_m_s": round(self.cruise_tas, 2),
-            "ceiling_ft": self.ceiling_ft,
-            "ice_protection": self.ice_protection,
-            "ice_tolerance_mm": self.ice_tolerance_mm,
-            "reference": self.reference,
-            "collectors": [c.describe() for c in self.collectors],
-            "source": self.source,
-        }
-        if self.min_altitude_ft is not None:
-            d["min_altitude_ft"] = self.min_altitude_ft
-        if self.max_altitude_agl_ft is not None:
-            d["max_altitude_agl_ft"] = self.max_altitude_agl_ft
-        return d
-
 
 _FIELDS = (
     "severity",
@@ -363,68 +211,28 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
     v = c.speed(st["v"])
     lwc, sld_lwc = st["lwc"], st["sld_lwc"]
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        if st["method"] == "table":
-            lv = np.log10(np.maximum(v, 1e-6))
-            ld = np.log10(d)
-            e, b0 = _spectrum_fast(
-                st["lk0"] + lv - ld, st["lp0"] + lv + ld, st["shape"], st["n_bins"], st["model"]
-            )
-        else:
-            phi = range_parameter(d, v, st["rho"], st["mu"])
-            e, b0 = _spectrum_kernel(
-                inertia_parameter(st["mvd"], d, v, st["mu"]),
-                phi,
-                st["ratios"],
-                st["fractions"],
-                st["model_fn"],
-            )
-        e = np.where(lwc > 0.0, e * c.catch_factor, 0.0)
-        b0 = np.where(lwc > 0.0, b0, 0.0)
-        has_sld = sld_lwc > 0.0
-        if np.any(has_sld):
-            sel = has_sld
-            es = np.zeros_like(e)
-            bs = np.zeros_like(e)
-            vs = v[sel] if np.ndim(v) else np.broadcast_to(v, e.shape)[sel]
-            phi_s = range_parameter(d, vs, st["rho"][sel], st["mu"][sel])
-            k_s = inertia_parameter(st["sld_mvd"][sel], d, vs, st["mu"][sel])
-            es[sel], bs[sel] = _spectrum_kernel(
-                k_s, phi_s, st["sld_ratios"], st["sld_fractions"], st["model_fn"]
-            )
-            es *= c.catch_factor
-        else:
-            es = bs = np.zeros_like(e)
-        t, coef, e_a = st["t"], st["coef"], st["e_a"]
+        e, b0 = _cloud_catch(c, st, v, d)
+        es, bs, has_sld = _sld_catch(c, st, v, d, e.shape)
         flux_total = (e * lwc + es * sld_lwc) * v  # total catch per frontal area [kg m-2 s-1]
         m_imp = (b0 * lwc + bs * sld_lwc) * v  # stagnation impinging flux [kg m-2 s-1]
-        h_c = st["h_c"](d, v)
-        n0 = _glaze_fraction(t, v, m_imp, h_c, coef, e_a, recovery_factor)
-        n_aft = _glaze_fraction(t, v, m_imp, h_c, coef, e_a, recovery_factor * AFT_RECOVERY_FACTOR)
-        stag = (m_imp > 0.0) & (n0 > 0.0)  # ice at the stagnation line
-        # fraction of the catch that freezes somewhere on the collector (module doc)
-        counted = np.clip(np.fmax(n0, n_aft) / MIXED_MIN_FRACTION, 0.0, 1.0)
-        counted = np.where(m_imp > 0.0, counted, 0.0)
-        freezes = counted > 0.0
-        dry = stag & (n0 >= 1.0)
-        ts = np.full_like(t, T0)
-        if np.any(dry):
-            vd = np.broadcast_to(v, t.shape)[dry]
-            ts[dry] = _dry_surface_temperature(
-                t[dry], vd, m_imp[dry], h_c[dry], coef[dry], e_a[dry], recovery_factor
-            )
-        mvd_eff = np.where(lwc > 0.0, st["mvd"], st["sld_mvd"])
-        rho_i = np.where(freezes, ice_density(mvd_eff, v, ts, glaze=~dry), np.nan)
+        bal = _heat_balance(st, v, d, m_imp, recovery_factor)
+        freezes, stag, n0 = bal["freezes"], bal["stag"], bal["n0"]
+        rho_i = np.where(
+            freezes, ice_density(bal["mvd_eff"], v, bal["ts"], glaze=~bal["dry"]), np.nan
+        )
         per_rho = np.where(freezes, 3.6e6 / rho_i, 0.0)  # kg m-2 s-1 -> mm/h of this ice
         stag_rate = np.where(stag, m_imp * np.minimum(n0, 1.0) * per_rho, 0.0)
-        catch_rate = m_imp * counted * per_rho  # caught at the stagnation line, frozen anywhere
+        catch_rate = (
+            m_imp * bal["counted"] * per_rho
+        )  # caught at the stagnation line, frozen anywhere
         # equivalent outer-wing rate: counted mass as solid ice over the frontal height
-        outer_wing = flux_total * counted * (3.6e6 / RHO_ICE * PROTECTION_RESIDUAL[prot])
+        outer_wing = flux_total * bal["counted"] * (3.6e6 / RHO_ICE * PROTECTION_RESIDUAL[prot])
         ttt = np.where(freezes, 60.0 * tol_mm / catch_rate, np.inf)
     # Large drops strike and run back aft of the leading edge, where kinetic heating is
     # smaller and local static temperatures fall below ambient: in sub-freezing air the
     # SLD floors hold whatever the stagnation balance says (common practice, no source;
     # a screening tool must not let ram heating hide freezing rain).
-    sld_cold = has_sld & ((bs > 0.0) | (es > 0.0)) & (t <= T0)
+    sld_cold = has_sld & ((bs > 0.0) | (es > 0.0)) & (st["t"] <= T0)
     sld_ice = (freezes & has_sld & (bs > 0.0)) | sld_cold
     sev = collector_severity(
         outer_wing,
@@ -453,6 +261,83 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
         "runback": (freezes & (n0 < 1.0)) | sld_cold,
         "time_to_tolerance_min": ttt,
         "_tie": catch_rate / tol_mm,
+    }
+
+
+def _cloud_catch(c, st, v, d):
+    """Total and stagnation efficiency of the cloud-drop spectrum on one collector."""
+    lwc = st["lwc"]
+    if st["method"] == "table":
+        lv = np.log10(np.maximum(v, 1e-6))
+        ld = np.log10(d)
+        e, b0 = _spectrum_fast(
+            st["lk0"] + lv - ld, st["lp0"] + lv + ld, st["shape"], st["n_bins"], st["model"]
+        )
+    else:
+        phi = range_parameter(d, v, st["rho"], st["mu"])
+        e, b0 = _spectrum_kernel(
+            inertia_parameter(st["mvd"], d, v, st["mu"]),
+            phi,
+            st["ratios"],
+            st["fractions"],
+            st["model_fn"],
+        )
+    e = np.where(lwc > 0.0, e * c.catch_factor, 0.0)
+    b0 = np.where(lwc > 0.0, b0, 0.0)
+    return e, b0
+
+
+def _sld_catch(c, st, v, d, shape):
+    """Total and stagnation efficiency of the SLD population (exponential spectrum)."""
+    has_sld = st["sld_lwc"] > 0.0
+    if not np.any(has_sld):
+        zero = np.zeros(shape)
+        return zero, zero, has_sld
+    sel = has_sld
+    es = np.zeros(shape)
+    bs = np.zeros(shape)
+    vs = v[sel] if np.ndim(v) else np.broadcast_to(v, shape)[sel]
+    phi_s = range_parameter(d, vs, st["rho"][sel], st["mu"][sel])
+    k_s = inertia_parameter(st["sld_mvd"][sel], d, vs, st["mu"][sel])
+    es[sel], bs[sel] = _spectrum_kernel(
+        k_s, phi_s, st["sld_ratios"], st["sld_fractions"], st["model_fn"]
+    )
+    es *= c.catch_factor
+    return es, bs, has_sld
+
+
+def _heat_balance(st, v, d, m_imp, recovery_factor):
+    """Messinger balance at the stagnation line and aft: what freezes, and where.
+
+    Returns the stagnation and aft freezing fractions, the counted fraction of the
+    catch (module docstring), the dry-growth surface temperature and the MVD that
+    sets the rime density.
+    """
+    t, coef, e_a = st["t"], st["coef"], st["e_a"]
+    h_c = st["h_c"](d, v)
+    n0 = _glaze_fraction(t, v, m_imp, h_c, coef, e_a, recovery_factor)
+    n_aft = _glaze_fraction(t, v, m_imp, h_c, coef, e_a, recovery_factor * AFT_RECOVERY_FACTOR)
+    stag = (m_imp > 0.0) & (n0 > 0.0)  # ice at the stagnation line
+    # fraction of the catch that freezes somewhere on the collector (module doc)
+    counted = np.clip(np.fmax(n0, n_aft) / MIXED_MIN_FRACTION, 0.0, 1.0)
+    counted = np.where(m_imp > 0.0, counted, 0.0)
+    freezes = counted > 0.0
+    dry = stag & (n0 >= 1.0)
+    ts = np.full_like(t, T0)
+    if np.any(dry):
+        vd = np.broadcast_to(v, t.shape)[dry]
+        ts[dry] = _dry_surface_temperature(
+            t[dry], vd, m_imp[dry], h_c[dry], coef[dry], e_a[dry], recovery_factor
+        )
+    return {
+        "n0": n0,
+        "n_aft": n_aft,
+        "stag": stag,
+        "counted": counted,
+        "freezes": freezes,
+        "dry": dry,
+        "ts": ts,
+        "mvd_eff": np.where(st["lwc"] > 0.0, st["mvd"], st["sld_mvd"]),
     }
 
 
@@ -574,10 +459,10 @@ def airframe_icing(
     >>> SEVERITY[int(res.severity)] in ("light", "moderate")
     True
     """
-    fn = _model(model)
+    _model(model)
     if airspeed is None:
         airspeed = airframe.cruise_tas
-    shape, (lwc, mvd, t, p, mu_shape, sld_lwc, sld_mvd, sld_cls, v_air, rh) = _broadcast_inputs(
+    shape, flat = _broadcast_inputs(
         lwc,
         mvd,
         temperature,
@@ -589,7 +474,19 @@ def airframe_icing(
         airspeed,
         relative_humidity,
     )
-    n = lwc.size
+    gap = _input_gaps(*flat)
+    st = _working_state(flat, gap, model=model, n_bins=n_bins, spectrum_method=spectrum_method)
+    per = {}
+    for c in airframe.collectors:
+        prot = c.protection or airframe.ice_protection
+        tol = c.ice_tolerance_mm if c.ice_tolerance_mm is not None else airframe.ice_tolerance_mm
+        per[c.name] = _collector_icing(c, prot, float(tol), st, recovery_factor)
+    worst = _worst_collector(airframe, per, gap.size)
+    return _assemble(airframe, per, worst, gap, shape)
+
+
+def _input_gaps(lwc, mvd, t, p, mu_shape, sld_lwc, sld_mvd, sld_cls, v_air, rh):
+    """Points whose inputs are missing where they matter: a coverage gap."""
     gap = (
         np.isnan(t)
         | np.isnan(p)
@@ -603,17 +500,19 @@ def airframe_icing(
     gap |= cloud & (np.isnan(mvd) | np.isnan(mu_shape) | (mvd <= 0.0))
     sld = np.where(gap, False, sld_lwc >= IN_CLOUD_LWC)
     gap |= sld & (np.isnan(sld_mvd) | (sld_mvd <= 0.0))
-    # working arrays with safe values in gaps (results masked afterwards)
+    return gap
+
+
+def _working_state(flat, gap, *, model, n_bins, spectrum_method):
+    """Build the air state shared by every collector (safe values in gaps, masked later)."""
+    lwc, mvd, t, p, mu_shape, sld_lwc, sld_mvd, sld_cls, v_air, rh = flat
+    ok = ~gap
+    cloud = ok & (lwc >= IN_CLOUD_LWC)
+    sld = ok & (sld_lwc >= IN_CLOUD_LWC)
     t_w = np.where(gap, 263.15, t)
     p_w = np.where(gap, 7.0e4, p)
-    v_w = np.where(gap, 50.0, np.maximum(v_air, 0.0))
-    rh_w = np.where(gap, 1.0, np.clip(rh, 0.0, 1.2))
-    lwc_w = np.where(cloud & ~gap, lwc, 0.0)
-    mvd_w = np.where(cloud & ~gap, mvd, 20e-6)
-    sld_w = np.where(sld & ~gap, sld_lwc, 0.0)
-    sld_mvd_w = np.where(sld & ~gap, sld_mvd, 1e-3)
-    cls_w = np.where(sld & ~gap, np.nan_to_num(sld_cls), 0.0)
-    shape_w = np.where(cloud & ~gap & np.isfinite(mu_shape), mu_shape, 2.0)
+    mvd_w = np.where(cloud, mvd, 20e-6)
+    shape_w = np.where(cloud & np.isfinite(mu_shape), mu_shape, 2.0)
     rho = air_density(p_w, t_w)
     mu = air_viscosity(t_w)
     kcond = air_conductivity(t_w)
@@ -622,19 +521,20 @@ def airframe_icing(
     def h_c(d, v):
         return 1.14 * np.sqrt(rho * v * d / mu) * pr04 * kcond / d  # Nu = 1.14 Re^0.5 Pr^0.4
 
+    rh_w = np.where(gap, 1.0, np.clip(rh, 0.0, 1.2))
     st = {
-        "v": v_w,
+        "v": np.where(gap, 50.0, np.maximum(v_air, 0.0)),
         "t": t_w,
         "rho": rho,
         "mu": mu,
-        "lwc": lwc_w,
+        "lwc": np.where(cloud, lwc, 0.0),
         "mvd": mvd_w,
-        "sld_lwc": sld_w,
-        "sld_mvd": sld_mvd_w,
-        "sld_class": cls_w,
+        "sld_lwc": np.where(sld, sld_lwc, 0.0),
+        "sld_mvd": np.where(sld, sld_mvd, 1e-3),
+        "sld_class": np.where(sld, np.nan_to_num(sld_cls), 0.0),
         "h_c": h_c,
         "model": model,
-        "model_fn": fn,
+        "model_fn": _model(model),
         "n_bins": n_bins,
         "method": spectrum_method,
         "shape": shape_w,
@@ -648,19 +548,19 @@ def airframe_icing(
             st["lk0"] = 2.0 * np.log10(mvd_w) - np.log10(9.0 * mu / RHO_WATER)
             st["lp0"] = np.log10(9.0 * rho * rho / (mu * RHO_WATER))
     elif spectrum_method == "direct":
-        st["ratios"], st["fractions"] = _ratios_per_point(shape_w, n_bins, n)
+        st["ratios"], st["fractions"] = _ratios_per_point(shape_w, n_bins, lwc.size)
     else:
         raise ValueError(f"unknown spectrum_method {spectrum_method!r}; expected table, direct")
+    return st
 
-    per = {}
-    for c in airframe.collectors:
-        prot = c.protection or airframe.ice_protection
-        tol = c.ice_tolerance_mm if c.ice_tolerance_mm is not None else airframe.ice_tolerance_mm
-        per[c.name] = _collector_icing(c, prot, float(tol), st, recovery_factor)
-    names = [c.name for c in airframe.collectors]
-    ref = names.index(airframe.reference)
-    # worst critical collector: highest severity, ties to the one reaching its
-    # tolerance first; the reference collector where nothing ices
+
+def _worst_collector(airframe, per, n):
+    """Index of the worst critical collector per point (``_tie`` entries removed).
+
+    Highest severity, ties to the one reaching its tolerance first; the reference
+    collector where nothing ices.
+    """
+    ref = [c.name for c in airframe.collectors].index(airframe.reference)
     worst = np.full(n, ref, dtype=np.intp)
     best = np.zeros(n)
     for i, c in enumerate(airframe.collectors):  # collectors, not points
@@ -673,6 +573,13 @@ def airframe_icing(
         best = np.maximum(best, score)
     for c in airframe.collectors:
         per[c.name].pop("_tie", None)
+    return worst
+
+
+def _assemble(airframe, per, worst, gap, shape):
+    """Pick the worst collector's fields, mask the gaps, reshape: the AirframeIcing."""
+    names = [c.name for c in airframe.collectors]
+    ref = names.index(airframe.reference)
     out = {}
     for f in _FIELDS:
         pick = per[names[ref]][f]

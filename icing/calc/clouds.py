@@ -23,6 +23,8 @@ The chain is:
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 from icing.calc import thermo
@@ -239,34 +241,28 @@ def bridge_single_level_gaps(
     return out
 
 
+@dataclass(frozen=True)
 class CloudLayers:
     """Per-level description of the cloud layer that holds each level.
 
-    Attributes (shape (..., level); NaN or -1 outside cloud)
-    ----------------------------------------------------------
-    base_index, top_index : int
-        Lowest and highest cloudy level of the layer.
-    base_height, top_height : float
-        Half-level heights below the base level and above the top level. [m]
-    base_pressure, base_temperature : float
-        Pressure [Pa] and temperature [K] at the base half level.
-    top_temperature : float
-        Temperature of the highest cloudy level of the layer. [K]
+    Every field is shaped (..., level) like the cloud mask; -1 (indices) or NaN
+    (values) outside cloud. Built by :func:`cloud_layers`, never changed afterwards.
     """
 
-    __slots__ = (
-        "base_index",
-        "top_index",
-        "base_height",
-        "top_height",
-        "base_pressure",
-        "base_temperature",
-        "top_temperature",
-    )
-
-    def __init__(self, **fields):
-        for name in self.__slots__:
-            setattr(self, name, fields[name])
+    base_index: np.ndarray
+    """int: lowest cloudy level of the layer."""
+    top_index: np.ndarray
+    """int: highest cloudy level of the layer."""
+    base_height: np.ndarray
+    """Height of the half level below the base level. [m]"""
+    top_height: np.ndarray
+    """Height of the half level above the top level. [m]"""
+    base_pressure: np.ndarray
+    """Pressure at the base half level (log-pressure mid-point). [Pa]"""
+    base_temperature: np.ndarray
+    """Temperature at the base half level. [K]"""
+    top_temperature: np.ndarray
+    """Temperature of the highest cloudy level of the layer. [K]"""
 
 
 def _half_levels(values, *, log=False, above=True):

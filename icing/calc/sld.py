@@ -66,6 +66,7 @@ from icing.calc.droplets import (
     marshall_palmer_from_lwc,
 )
 from icing.calc.thermo import air_density, ice_saturation_relative_humidity
+from icing.calc.warm_rain import khairoutdinov_kogan_autoconversion
 from icing.constants import CP_AIR, RD, T0
 from icing.constants import IN_CLOUD_LWC as _IN_CLOUD_LWC
 
@@ -281,48 +282,6 @@ def bourgouin_layer_areas(pressure_bottom, temperature_bottom, pressure_top, tem
     return CP_AIR * pos_mean * dlnth, CP_AIR * (0.0 - neg_mean) * dlnth + 0.0
 
 
-def khairoutdinov_kogan_autoconversion(cloud_water, droplet_number):
-    """Autoconversion rate of cloud water to drizzle, Khairoutdinov & Kogan (2000).
-
-    ``dq_r / dt = 1350 q_c^2.47 N_c^-1.79`` (their eq. 29), ``q_c`` in kg/kg and
-    ``N_c`` in cm-3.
-
-    Parameters
-    ----------
-    cloud_water : array_like
-        Cloud liquid mixing ratio q_c. [kg kg-1]
-    droplet_number : array_like
-        Cloud droplet number. [m-3]
-
-    Returns
-    -------
-    numpy.ndarray
-        Drizzle production rate [kg kg-1 s-1]; 0 where ``q_c <= 0``, NaN where the
-        number is non-positive or NaN.
-
-    Notes
-    -----
-    Fitted to large-eddy simulations of marine stratocumulus with bin microphysics;
-    outside such clouds (deep or strongly sheared cloud, N_c far above ~300 cm-3)
-    it is an extrapolation that this package accepts for screening.
-
-    References
-    ----------
-    Khairoutdinov, M. & Kogan, Y. (2000), A new cloud physics parameterization in a
-    large-eddy simulation model of marine stratocumulus, Mon. Wea. Rev. 128, 229-243.
-
-    Examples
-    --------
-    >>> round(float(khairoutdinov_kogan_autoconversion(5e-4, 50e6)) * 1e9, 2)
-    8.62
-    """
-    qc = np.asarray(cloud_water, dtype=float)
-    nc = np.asarray(droplet_number, dtype=float) * 1e-6  # m-3 -> cm-3
-    with np.errstate(invalid="ignore", divide="ignore"):
-        rate = 1350.0 * np.maximum(qc, 0.0) ** 2.47 * np.where(nc > 0.0, nc, np.nan) ** -1.79
-    return np.where(qc > 0.0, rate, np.where(np.isnan(qc) | ~(nc > 0.0), np.nan, 0.0))
-
-
 def _rev_cummin(a):
     """Minimum over this and every higher level (last axis)."""
     return np.minimum.accumulate(a[..., ::-1], axis=-1)[..., ::-1]
@@ -536,20 +495,42 @@ def diagnose_sld(
 
 def _diagnose_block(a, drizzle_time_scale_s):
     """Diagnose one block of columns (``a``: broadcast arrays or None, see diagnose_sld)."""
+    b = _sorted_block(a)
+    p, t = b["p"], b["t"]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        rho = air_density(p, t)
+        areas = _warm_layer_areas(b)
+        precip, hydro = _precipitation(a, b, areas)
+        fzra, melted, model_rain, q_rain = _freezing_rain(a, b, areas, precip, rho)
+        ra_lwc, ra_mvd, ra_dmax = _rain_sizes(a, b, model_rain, q_rain)
+        drizzle = _drizzle_content(b, rho, drizzle_time_scale_s)
+        # model rain at a sub-freezing level without a melting layer above: warm-rain
+        # drizzle by the model's own microphysics, taken at its word with its content
+        model_drizzle = areas["cold"] & model_rain & ~areas["warm_above"]
+        fzdz = areas["cold"] & ((drizzle >= DRIZZLE_LWC_MIN) | model_drizzle) & ~fzra
+        s_lwc = _sld_content(t, fzra, fzdz, ra_lwc, drizzle, model_drizzle, q_rain)
+    # ---- per-level results (sorted order)
+    cls = np.where(fzra, codes.SLD_RAIN, np.where(fzdz, codes.SLD_DRIZZLE, codes.SLD_NONE))
+    s_mvd = np.where(fzra, ra_mvd, np.where(fzdz, _FZDZ_MVD, np.nan))
+    s_dmax = np.where(fzra, ra_dmax, np.where(fzdz, FZDZ_DMAX, np.nan))
+    ptype, melting, refreezing = _surface_type(
+        b, areas, precip, hydro, melted, fzra, fzdz, drizzle
+    )
+    return _unsorted_result(b, cls, s_lwc, s_mvd, s_dmax, drizzle, ptype, melting, refreezing)
+
+
+def _sorted_block(a):
+    """Usable levels first, by height (unusable ones after them), and the sorted inputs.
+
+    Levels that already come in that order (the usual case) skip the sort: a stable
+    sort of non-decreasing keys is the identity.
+    """
     p_in, t_in, z_in = a["pressure"], a["temperature"], a["height"]
     shape = p_in.shape
-    nlev = shape[-1]
-    rain, snow = a["rain"], a["snow"]
-    precipitation_rate_mm_h = a["precipitation_rate_mm_h"]
     valid_in = _level_array(a["valid"], shape, True, bool)
     below_in = _level_array(a["below_ground"], shape, False, bool)
     finite = np.isfinite(p_in) & np.isfinite(t_in) & np.isfinite(z_in) & (p_in > 0)
     usable_in = valid_in & finite & ~below_in
-    gap_in = ~usable_in & ~below_in
-
-    # sort: usable levels first, by height; unusable ones after them. Levels that
-    # already come in that order (the usual case) skip the sort: a stable sort of
-    # non-decreasing keys is the identity.
     key = np.where(usable_in, z_in, np.inf)
     if np.all(key[..., 1:] >= key[..., :-1]):
         order = inverse = None
@@ -566,139 +547,196 @@ def _diagnose_block(a, drizzle_time_scale_s):
     p, t = _take_or_view(p_in, order), _take_or_view(t_in, order)
     if not all_usable:
         p, t = np.where(u, p, np.nan), np.where(u, t, np.nan)
-    cld = srt("cloud", False, bool) & u
-    qliq = srt("lwc")
-    ndrop = srt("droplet_number")
-    ctt = srt("cloud_top_temperature")
-    cth = srt("cloud_top_height")
-    cbh = srt("cloud_base_height")
-    rain_s = srt("rain", 0.0)
-    snow_s = srt("snow", 0.0)
-    ice_s = srt("cloud_ice", 0.0)
-    idx = np.broadcast_to(np.arange(nlev), shape)
-    n_use = u.sum(axis=-1)
+    return {
+        "shape": shape,
+        "nlev": shape[-1],
+        "order": order,
+        "inverse": inverse,
+        "all_usable": all_usable,
+        "usable_in": usable_in,
+        "below_in": below_in,
+        "gap_in": ~usable_in & ~below_in,
+        "usable": u,
+        "p": p,
+        "t": t,
+        "cloud": srt("cloud", False, bool) & u,
+        "lwc": srt("lwc"),
+        "droplet_number": srt("droplet_number"),
+        "cloud_top_temperature": srt("cloud_top_temperature"),
+        "cloud_top_height": srt("cloud_top_height"),
+        "cloud_base_height": srt("cloud_base_height"),
+        "rain": srt("rain", 0.0),
+        "snow": srt("snow", 0.0),
+        "cloud_ice": srt("cloud_ice", 0.0),
+        "relative_humidity": srt("relative_humidity"),
+        "idx": np.broadcast_to(np.arange(shape[-1]), shape),
+        "n_use": u.sum(axis=-1),
+        "rate": _column_rate(a, shape),
+    }
 
-    with np.errstate(invalid="ignore", divide="ignore"):
-        rho = air_density(p, t)
-        warm = u & (t > T0)
-        cold = u & (t <= T0)
 
-        # ---- Bourgouin areas, cumulated upward from the lowest usable level
-        pos, neg = bourgouin_layer_areas(p[..., :-1], t[..., :-1], p[..., 1:], t[..., 1:])
-        layer_ok = u[..., :-1] & u[..., 1:]
-        zeros = np.zeros(shape[:-1] + (1,))
-        cpos = np.concatenate([zeros, np.cumsum(np.where(layer_ok, pos, 0.0), -1)], -1)
-        cneg = np.concatenate([zeros, np.cumsum(np.where(layer_ok, neg, 0.0), -1)], -1)
+def _warm_layer_areas(b):
+    """Bourgouin areas, cumulated upward from the lowest usable level, per level.
 
-        first_warm = _rev_cummin(np.where(warm, idx, nlev))  # lowest warm level >= j
-        first_cold = _rev_cummin(np.where(cold, idx, nlev))  # lowest cold level >= j
-        kw = np.concatenate([first_warm[..., 1:], np.full(shape[:-1] + (1,), nlev)], -1)
-        warm_above = kw < nlev  # a warm layer lies strictly above level j
-        kw_c = np.clip(kw, 1, nlev - 1) if nlev > 1 else np.zeros_like(kw)
-        kc = np.where(warm_above, _take(first_cold, kw_c), nlev)  # top of that warm layer
-        pa = np.where(
-            warm_above, _take(cpos, np.clip(kc, 0, nlev - 1)) - _take(cpos, kw_c - 1), 0.0
-        )
-        na = np.where(warm_above, _take(cneg, kw_c) - cneg, 0.0)
+    ``pa``/``na``: positive area of the nearest warm layer above each level and the
+    negative area between that layer's base and the level; ``cpos``: cumulated
+    positive area; ``first_cold``: lowest cold level at or above; ``kw_c``: index
+    of the warm layer's base (clipped); ``warm_above``: a warm layer lies above.
+    """
+    u, p, t, shape, nlev = b["usable"], b["p"], b["t"], b["shape"], b["nlev"]
+    idx = b["idx"]
+    warm = u & (t > T0)
+    cold = u & (t <= T0)
+    pos, neg = bourgouin_layer_areas(p[..., :-1], t[..., :-1], p[..., 1:], t[..., 1:])
+    layer_ok = u[..., :-1] & u[..., 1:]
+    zeros = np.zeros(shape[:-1] + (1,))
+    cpos = np.concatenate([zeros, np.cumsum(np.where(layer_ok, pos, 0.0), -1)], -1)
+    cneg = np.concatenate([zeros, np.cumsum(np.where(layer_ok, neg, 0.0), -1)], -1)
+    first_warm = _rev_cummin(np.where(warm, idx, nlev))  # lowest warm level >= j
+    first_cold = _rev_cummin(np.where(cold, idx, nlev))  # lowest cold level >= j
+    kw = np.concatenate([first_warm[..., 1:], np.full(shape[:-1] + (1,), nlev)], -1)
+    warm_above = kw < nlev  # a warm layer lies strictly above level j
+    kw_c = np.clip(kw, 1, nlev - 1) if nlev > 1 else np.zeros_like(kw)
+    kc = np.where(warm_above, _take(first_cold, kw_c), nlev)  # top of that warm layer
+    pa = np.where(warm_above, _take(cpos, np.clip(kc, 0, nlev - 1)) - _take(cpos, kw_c - 1), 0.0)
+    na = np.where(warm_above, _take(cneg, kw_c) - cneg, 0.0)
+    return {
+        "warm": warm,
+        "cold": cold,
+        "cpos": cpos,
+        "first_cold": first_cold,
+        "kw_c": kw_c,
+        "warm_above": warm_above,
+        "pa": pa,
+        "na": na,
+    }
 
-        # ---- is precipitation falling?
-        if precipitation_rate_mm_h is None:
-            rate = np.full(shape[:-1], np.nan)
-        else:
-            rate = np.broadcast_to(np.asarray(precipitation_rate_mm_h, dtype=float), shape[:-1])
-        rate_flag = (rate > PRECIP_RATE_MIN)[..., None]
-        hydro = np.zeros(shape, dtype=bool)
-        if rain is not None:
-            hydro |= rain_s > HYDROMETEOR_MIN
-        if snow is not None:
-            hydro |= snow_s > HYDROMETEOR_MIN
-        hydro &= u
-        hydro_above = _rev_cummax(hydro.astype(np.int8)).astype(bool)
-        no_info = (~np.isfinite(rate) & (rain is None) & (snow is None))[..., None]
-        cloud_above = _rev_cummax(cld.astype(np.int8)).astype(bool)
-        cloud_above_warm = warm_above & _take(cloud_above, kw_c)
-        precip = rate_flag | hydro_above | (no_info & cloud_above_warm)
 
-        # ---- freezing rain
-        na_limit = NA_PELLETS_OFFSET + NA_SLOPE * pa
-        melted = warm_above & (pa >= PA_SNOW)
-        q_rain = rain_s * rho
-        model_rain = (rain_s > HYDROMETEOR_MIN) & u if rain is not None else np.zeros(shape, bool)
-        # Bourgouin's verdict, or the model's own supercooled rain beneath a melting layer
-        fzra = cold & ((melted & precip & (na <= na_limit)) | (model_rain & warm_above))
+def _precipitation(a, b, areas):
+    """Is precipitation falling at each level? And model hydrometeors per level."""
+    shape, u, rate = b["shape"], b["usable"], b["rate"]
+    rate_flag = (rate > PRECIP_RATE_MIN)[..., None]
+    hydro = np.zeros(shape, dtype=bool)
+    if a["rain"] is not None:
+        hydro |= b["rain"] > HYDROMETEOR_MIN
+    if a["snow"] is not None:
+        hydro |= b["snow"] > HYDROMETEOR_MIN
+    hydro &= u
+    hydro_above = _rev_cummax(hydro.astype(np.int8)).astype(bool)
+    no_info = (~np.isfinite(rate) & (a["rain"] is None) & (a["snow"] is None))[..., None]
+    cloud_above = _rev_cummax(b["cloud"].astype(np.int8)).astype(bool)
+    cloud_above_warm = areas["warm_above"] & _take(cloud_above, areas["kw_c"])
+    return rate_flag | hydro_above | (no_info & cloud_above_warm), hydro
 
-        # Marshall-Palmer holds to 100 mm/h (droplets.marshall_palmer); heavier rates
-        # are sized at that limit rather than left without a size
-        rate_eff = np.where(rate > PRECIP_RATE_MIN, np.minimum(rate, 100.0), NOMINAL_RAIN_RATE)
-        # one spectrum per column (the rate is per column), spread over its levels
-        lwc_mp, d0_mp = (np.broadcast_to(v[..., None], shape) for v in marshall_palmer(rate_eff))
-        if rain is None:  # no model rain anywhere: the rate's spectrum everywhere
-            ra_lwc, ra_mvd = lwc_mp, d0_mp
-        else:
-            d0_model = marshall_palmer_from_lwc(np.where(model_rain, q_rain, np.nan))[0]
-            ra_lwc = np.where(model_rain, q_rain, lwc_mp)
-            ra_mvd = np.where(model_rain, d0_model, d0_mp)
-        ra_dmax = np.maximum(np.minimum(_DMAX_OVER_D0 * ra_mvd, FZRA_DMAX), ra_mvd)
 
-        # ---- freezing drizzle
-        ice_flag = (
-            (ice_s > HYDROMETEOR_MIN) | (snow_s > HYDROMETEOR_MIN) | (cld & (t < ICE_ALOFT_T))
-        )
-        ice_flag &= u
-        # crystals fall until air subsaturated over ice (not cloud, no ice) sublimates them
-        rh_s = srt("relative_humidity")
-        first_ice = _rev_cummin(np.where(ice_flag, idx, nlev))
-        # dry air matters only below some ice: judge the humidity at those levels alone
-        dry = u & ~cld & ~ice_flag & (first_ice < nlev)
-        at = np.nonzero(dry)
-        # NaN humidity counts as dry
-        dry[at] = ~(rh_s[at] >= ice_saturation_relative_humidity(t[at]))
-        first_dry = _rev_cummin(np.where(dry, idx, nlev))
-        seeded = first_ice < first_dry  # ice at or above, with no dry gap between
-        source = (
-            cld
-            & (ctt >= DRIZZLE_TOP_T_MIN)
-            & ((cth - cbh) >= DRIZZLE_MIN_DEPTH)
-            & ~seeded
-            & (qliq > 0.0)
-            & (ndrop > 0.0)
-        )
-        # the autoconversion only where it counts (its powers are the costly part)
-        produced = np.zeros(shape)
-        at = np.nonzero(source)
-        if at[0].size:
-            made = rho[at] * khairoutdinov_kogan_autoconversion(qliq[at] / rho[at], ndrop[at])
-            made = made * float(drizzle_time_scale_s)
-            produced[at] = np.where(np.isfinite(made), made, 0.0)
-        drizzle = _rev_cummax(produced)  # drizzle falls: the largest content from above
-        # model rain at a sub-freezing level without a melting layer above: warm-rain
-        # drizzle by the model's own microphysics, taken at its word with its content
-        model_drizzle = cold & model_rain & ~warm_above
-        fzdz = cold & ((drizzle >= DRIZZLE_LWC_MIN) | model_drizzle) & ~fzra
-        # drizzle content, capped by the envelope, at the freezing-drizzle levels only
-        (t_lo, q_lo), (t_hi, q_hi) = _FZDZ_LWC_ENVELOPE
-        s_lwc = np.where(fzra, ra_lwc, 0.0)
-        at = np.nonzero(fzdz)  # fzdz levels are cold, so usable, and never fzra
-        if at[0].size:
-            capped = np.minimum(drizzle[at], np.interp(t[at], [t_lo, t_hi], [q_lo, q_hi]))
-            md = model_drizzle[at]
-            s_lwc[at] = np.where(md, np.maximum(q_rain[at], capped), capped)
+def _column_rate(a, shape):
+    """Per-column precipitation rate [mm/h] (NaN where none was given)."""
+    rate = a["precipitation_rate_mm_h"]
+    if rate is None:
+        return np.full(shape[:-1], np.nan)
+    return np.broadcast_to(np.asarray(rate, dtype=float), shape[:-1])
 
-    # ---- per-level results (sorted order)
-    cls = np.where(fzra, codes.SLD_RAIN, np.where(fzdz, codes.SLD_DRIZZLE, codes.SLD_NONE))
-    s_mvd = np.where(fzra, ra_mvd, np.where(fzdz, _FZDZ_MVD, np.nan))
-    s_dmax = np.where(fzra, ra_dmax, np.where(fzdz, FZDZ_DMAX, np.nan))
 
-    # ---- surface type (lowest usable level, index 0 after sorting)
-    has = n_use > 0
+def _freezing_rain(a, b, areas, precip, rho):
+    """Freezing-rain levels (Bourgouin's verdict, or model rain under a melting layer)."""
+    u, shape = b["usable"], b["shape"]
+    pa, na, warm_above = areas["pa"], areas["na"], areas["warm_above"]
+    na_limit = NA_PELLETS_OFFSET + NA_SLOPE * pa
+    melted = warm_above & (pa >= PA_SNOW)
+    q_rain = b["rain"] * rho
+    model_rain = (
+        (b["rain"] > HYDROMETEOR_MIN) & u if a["rain"] is not None else np.zeros(shape, bool)
+    )
+    # Bourgouin's verdict, or the model's own supercooled rain beneath a melting layer
+    fzra = areas["cold"] & ((melted & precip & (na <= na_limit)) | (model_rain & warm_above))
+    return fzra, melted, model_rain, q_rain
+
+
+def _rain_sizes(a, b, model_rain, q_rain):
+    """Rain LWC, MVD and Dmax per level: the model's content where it has rain, else MP."""
+    shape, rate = b["shape"], b["rate"]
+    # Marshall-Palmer holds to 100 mm/h (droplets.marshall_palmer); heavier rates
+    # are sized at that limit rather than left without a size
+    rate_eff = np.where(rate > PRECIP_RATE_MIN, np.minimum(rate, 100.0), NOMINAL_RAIN_RATE)
+    # one spectrum per column (the rate is per column), spread over its levels
+    lwc_mp, d0_mp = (np.broadcast_to(v[..., None], shape) for v in marshall_palmer(rate_eff))
+    if a["rain"] is None:  # no model rain anywhere: the rate's spectrum everywhere
+        ra_lwc, ra_mvd = lwc_mp, d0_mp
+    else:
+        d0_model = marshall_palmer_from_lwc(np.where(model_rain, q_rain, np.nan))[0]
+        ra_lwc = np.where(model_rain, q_rain, lwc_mp)
+        ra_mvd = np.where(model_rain, d0_model, d0_mp)
+    ra_dmax = np.maximum(np.minimum(_DMAX_OVER_D0 * ra_mvd, FZRA_DMAX), ra_mvd)
+    return ra_lwc, ra_mvd, ra_dmax
+
+
+def _seeded(b):
+    """Levels with ice at or above and no ice-subsaturated clear air in between."""
+    u, t, cld, nlev, idx = b["usable"], b["t"], b["cloud"], b["nlev"], b["idx"]
+    ice_flag = (
+        (b["cloud_ice"] > HYDROMETEOR_MIN)
+        | (b["snow"] > HYDROMETEOR_MIN)
+        | (cld & (t < ICE_ALOFT_T))
+    )
+    ice_flag &= u
+    # crystals fall until air subsaturated over ice (not cloud, no ice) sublimates them
+    rh_s = b["relative_humidity"]
+    first_ice = _rev_cummin(np.where(ice_flag, idx, nlev))
+    # dry air matters only below some ice: judge the humidity at those levels alone
+    dry = u & ~cld & ~ice_flag & (first_ice < nlev)
+    at = np.nonzero(dry)
+    # NaN humidity counts as dry
+    dry[at] = ~(rh_s[at] >= ice_saturation_relative_humidity(t[at]))
+    first_dry = _rev_cummin(np.where(dry, idx, nlev))
+    return first_ice < first_dry  # ice at or above, with no dry gap between
+
+
+def _drizzle_content(b, rho, drizzle_time_scale_s):
+    """Warm-rain drizzle content reaching each level [kg m-3] (largest from above)."""
+    source = (
+        b["cloud"]
+        & (b["cloud_top_temperature"] >= DRIZZLE_TOP_T_MIN)
+        & ((b["cloud_top_height"] - b["cloud_base_height"]) >= DRIZZLE_MIN_DEPTH)
+        & ~_seeded(b)
+        & (b["lwc"] > 0.0)
+        & (b["droplet_number"] > 0.0)
+    )
+    qliq, ndrop = b["lwc"], b["droplet_number"]
+    # the autoconversion only where it counts (its powers are the costly part)
+    produced = np.zeros(b["shape"])
+    at = np.nonzero(source)
+    if at[0].size:
+        made = rho[at] * khairoutdinov_kogan_autoconversion(qliq[at] / rho[at], ndrop[at])
+        made = made * float(drizzle_time_scale_s)
+        produced[at] = np.where(np.isfinite(made), made, 0.0)
+    return _rev_cummax(produced)  # drizzle falls: the largest content from above
+
+
+def _sld_content(t, fzra, fzdz, ra_lwc, drizzle, model_drizzle, q_rain):
+    """SLD liquid per level: rain content, or drizzle capped by the Appendix O envelope."""
+    (t_lo, q_lo), (t_hi, q_hi) = _FZDZ_LWC_ENVELOPE
+    s_lwc = np.where(fzra, ra_lwc, 0.0)
+    at = np.nonzero(fzdz)  # fzdz levels are cold, so usable, and never fzra
+    if at[0].size:
+        capped = np.minimum(drizzle[at], np.interp(t[at], [t_lo, t_hi], [q_lo, q_hi]))
+        md = model_drizzle[at]
+        s_lwc[at] = np.where(md, np.maximum(q_rain[at], capped), capped)
+    return s_lwc
+
+
+def _surface_type(b, areas, precip, hydro, melted, fzra, fzdz, drizzle):
+    """Surface precipitation type and the Bourgouin areas that decided it, per column."""
+    shape, nlev, t = b["shape"], b["nlev"], b["t"]
+    rate = b["rate"]
+    has = b["n_use"] > 0
     t0 = t[..., 0]
     cold_sfc = has & (t0 <= T0)
     warm_sfc = has & (t0 > T0)
     # precipitation evidence at the ground: a rate or model hydrometeors; cloud alone
     # only through the melting-layer inference (``precip``), never as snow or rain
     evidence = (rate > PRECIP_RATE_MIN) | hydro.any(-1)
-    kc0 = first_cold[..., 0]
-    pa_sfc = _take(cpos, np.clip(kc0, 0, nlev - 1)[..., None])[..., 0]
+    kc0 = areas["first_cold"][..., 0]
+    pa_sfc = _take(areas["cpos"], np.clip(kc0, 0, nlev - 1)[..., None])[..., 0]
     cold_aloft = kc0 < nlev
     liquid_drizzle_0 = drizzle[..., 0] >= DRIZZLE_LWC_MIN
     ptype = np.full(shape[:-1], _PT["none"], dtype=int)
@@ -710,14 +748,20 @@ def _diagnose_block(a, drizzle_time_scale_s):
     warm_type = np.where(cold_aloft & (pa_sfc < PA_SURFACE_SNOW), _PT["snow"], _PT["rain"])
     ptype = np.where(warm_sfc & (evidence | liquid_drizzle_0), warm_type, ptype)
     ptype = np.where(has, ptype, codes.GAP).astype(np.int8)
+    pa, na = areas["pa"], areas["na"]
     melting = np.where(cold_sfc, pa[..., 0], np.where(warm_sfc, pa_sfc, np.nan))
     refreezing = np.where(cold_sfc, na[..., 0], np.where(warm_sfc, 0.0, np.nan))
+    return ptype, melting, refreezing
 
-    # ---- back to the input order; gaps and below-ground levels
+
+def _unsorted_result(b, cls, s_lwc, s_mvd, s_dmax, drizzle, ptype, melting, refreezing):
+    """Back to the input order, gaps and below-ground levels marked: the SLDDiagnosis."""
+    inverse, usable_in, below_in, gap_in = b["inverse"], b["usable_in"], b["below_in"], b["gap_in"]
+
     def back(x):
         return _take_or_view(x, inverse)
 
-    if all_usable:  # no gaps, nothing below ground
+    if b["all_usable"]:  # no gaps, nothing below ground
         cls_in, lwc_in, mvd_in, dmax_in = back(cls), back(s_lwc), back(s_mvd), back(s_dmax)
         drz_in = np.ascontiguousarray(back(drizzle))
     else:
@@ -727,10 +771,8 @@ def _diagnose_block(a, drizzle_time_scale_s):
         dmax_in = np.where(usable_in, back(s_dmax), np.nan)
         drz_in = np.where(usable_in, back(drizzle), np.where(below_in, 0.0, np.nan))
         cls_in = np.where(below_in, codes.SLD_NONE, cls_in)
-    cls_in = cls_in.astype(np.int8)
-    complete = ~gap_in.any(axis=-1)
     return SLDDiagnosis(
-        sld_class=cls_in,
+        sld_class=cls_in.astype(np.int8),
         sld_lwc=lwc_in,
         sld_mvd=mvd_in,
         sld_dmax=dmax_in,
@@ -738,5 +780,5 @@ def _diagnose_block(a, drizzle_time_scale_s):
         melting_area=melting,
         refreezing_area=refreezing,
         drizzle_content=drz_in,
-        complete=complete,
+        complete=~gap_in.any(axis=-1),
     )

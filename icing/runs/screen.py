@@ -131,25 +131,67 @@ def screen_route(
         Samples, per-sample values at the flight altitude, the altitude curtain,
         GeoJSON segments (each with the caution) and the summary.
     """
-    from icing.airframes import load_airframe
     from icing.calc.column import ColumnOptions, diagnose_columns
-    from icing.calc.thermo import standard_atmosphere_pressure
-    from icing.forecast.core import load_forecast
-    from icing.hazards.avoidance import CANDIDATE_WORDING, annotate_segments
-    from icing.hazards.segments import build_segments, route_summary
-    from icing.route import load_route, sample_route
 
     options = options or ScreenOptions()
     if step_km is not None:
         options = replace(options, step_km=step_km)
     column_options = column_options or ColumnOptions()
+    route, forecast, airframe = _loaded(route, forecast, airframe)
+    samples = _sample(route, forecast, airframe, options, tas_kt, departure)
+    colset = forecast.columns_at(samples.lat, samples.lon, samples.time)
+    diag = diagnose_columns(**colset.columns, options=column_options)
+    ground = _ground_height(route, samples, forecast, colset)
+    grid = _read_off_targets(samples, colset, diag, ground, airframe, options)
+    state, ci, alts_m, vref = grid["state"], grid["ci"], grid["alts_m"], grid["vref"]
+    tas_ms = np.broadcast_to(np.asarray(samples.tas, float)[:, None, None], ci.shape)
+    result, sev = icing_at(airframe, state, tas_ms)
+    kbest = worst_over_candidates(sev, result.accretion_rate_mm_h)  # (n, a+1)
+
+    def best(a):
+        """Return the worst candidate's value, (n, a+1)."""
+        return take_last(np.broadcast_to(a, sev.shape), kbest)
+
+    at = _at_flight(samples, colset, diag, state, result, best(sev), best, airframe, ci)
+    at["altitude_msl_m"] = best(state["height"])[:, -1] if vref == "pressure" else grid["flight"]
+    curtain = Curtain(
+        distance_km=at["distance_km"],
+        altitudes_m=alts_m,
+        altitude_reference=vref,
+        severity=best(sev)[:, :-1],
+        below_ground=best(state["below_ground"])[:, :-1],
+        temperature_c=best(state["temperature"])[:, :-1] - T0,
+        cloud=best(state["cloud"])[:, :-1],
+        sld_class=best(state["sld_class"])[:, :-1],
+        ice_type=best(result.ice_type)[:, :-1],
+        accretion_rate_mm_h=best(result.accretion_rate_mm_h)[:, :-1],
+        ground_m=ground,
+    )
+    return _screening(
+        route, forecast, airframe, samples, at, curtain, column_options, options, segment_prefix
+    )
+
+
+def _loaded(route, forecast, airframe):
+    """Return route, forecast and airframe objects from objects, files or preset names."""
+    from icing.airframes import load_airframe
+    from icing.forecast.core import load_forecast
+    from icing.route import load_route
+
     if not hasattr(route, "waypoints"):
         route = load_route(route)
     if not hasattr(forecast, "columns_at"):
         forecast = load_forecast(forecast)
     if not hasattr(airframe, "collectors"):
         airframe = load_airframe(airframe)
-    samples = sample_route(
+    return route, forecast, airframe
+
+
+def _sample(route, forecast, airframe, options, tas_kt, departure):
+    """Sample the route (timed with the forecast's winds where it has them)."""
+    from icing.route import sample_route
+
+    return sample_route(
         route,
         step_km=options.step_km,
         tas_kt=tas_kt,
@@ -157,14 +199,20 @@ def screen_route(
         departure=departure,
         wind=forecast.wind_at if forecast.has_wind else None,
     )
+
+
+def _read_off_targets(samples, colset, diag, ground, airframe, options):
+    """Read the diagnosed columns off on the curtain rows and at the flight altitude.
+
+    Returns a dict: ``state`` (fields shaped (n, a + 1, k): a curtain rows, then
+    the flight altitude, k candidate columns), ``ci`` (the column of each), the
+    curtain ``alts_m``, the vertical reference ``vref`` and the ``flight`` targets.
+    """
+    from icing.calc.thermo import standard_atmosphere_pressure
+
     n = len(samples.lat)
-    colset = forecast.columns_at(samples.lat, samples.lon, samples.time)
-    diag = diagnose_columns(**colset.columns, options=column_options)
     covered = np.asarray(colset.covered, bool)
     cand = np.where(covered[:, None], np.asarray(colset.candidates), -1)  # (n, k)
-    ground = _ground_height(route, samples, forecast, colset)
-
-    # --- vertical targets: the curtain rows, then the flight altitude (last column) ---
     target_flight, vref = _flight_targets(samples, ground)
     top_ft = options.curtain_top_ft or (airframe.ceiling_ft or 25000.0) + 2000.0
     alts_m = np.arange(0.0, top_ft + 1, options.curtain_step_ft) * FT
@@ -179,29 +227,16 @@ def screen_route(
         )
     state["below_ground"] = state["below_ground"] | under
     state["valid"] = state["valid"] & ~under
-    tas_ms = np.broadcast_to(np.asarray(samples.tas, float)[:, None, None], tgt.shape)
-    result, sev = icing_at(airframe, state, tas_ms)
-    kbest = worst_over_candidates(sev, result.accretion_rate_mm_h)  # (n, a+1)
+    return {"state": state, "ci": ci, "alts_m": alts_m, "vref": vref, "flight": target_flight}
 
-    def best(a):
-        """Return the worst candidate's value, (n, a+1)."""
-        return take_last(np.broadcast_to(a, sev.shape), kbest)
 
-    at = _at_flight(samples, colset, diag, state, result, best(sev), best, airframe, ci)
-    at["altitude_msl_m"] = best(state["height"])[:, -1] if vref == "pressure" else target_flight
-    curtain = Curtain(
-        distance_km=at["distance_km"],
-        altitudes_m=alts_m,
-        altitude_reference=vref,
-        severity=best(sev)[:, :-1],
-        below_ground=best(state["below_ground"])[:, :-1],
-        temperature_c=best(state["temperature"])[:, :-1] - T0,
-        cloud=best(state["cloud"])[:, :-1],
-        sld_class=best(state["sld_class"])[:, :-1],
-        ice_type=best(result.ice_type)[:, :-1],
-        accretion_rate_mm_h=best(result.accretion_rate_mm_h)[:, :-1],
-        ground_m=ground,
-    )
+def _screening(
+    route, forecast, airframe, samples, at, curtain, column_options, options, segment_prefix
+):
+    """Build segments, candidate altitudes and the summary around the read-off results."""
+    from icing.hazards.avoidance import CANDIDATE_WORDING, annotate_segments
+    from icing.hazards.segments import build_segments, route_summary
+
     limits = _altitude_limits(airframe, options)
     screening = RouteScreening(
         route_name=route.name,
