@@ -229,8 +229,12 @@ def test_flight_levels_on_pressure_altitude(make_screening):
 
 
 def test_annotate_segments_fills_properties_and_summary(make_screening, screening_scenario):
-    scr = make_screening()
-    results = annotate_segments(scr)
+    before = make_screening()
+    scr = annotate_segments(before)
+    results = list(scr.candidates)
+    # the screening given is left as it was: a new one is returned
+    assert all("vertical_options" not in f["properties"] for f in before.segments)
+    assert "candidate_altitudes" not in before.summary
     json.dumps(results, allow_nan=False)  # goes into GeoJSON and the sibling JSON as is
     assert results[0]["text"].startswith(results[0]["segment_id"])
     assert "above: 9000 ft" in results[0]["text"] and "not advice to fly" in results[0]["text"]

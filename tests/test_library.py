@@ -71,3 +71,46 @@ def test_bad_airframe_raises_input_error():
     forecast = icing.load_forecast(ROOT / "fixtures" / "skerrow-profiles.json")
     with pytest.raises(icing.AirframeError):
         icing.screen_route(route, forecast, airframe="no-such-airframe")
+
+
+def _arrays(obj, seen=None):
+    """Every numpy array reachable from a screening (fields, dicts, namespaces)."""
+    seen = set() if seen is None else seen
+    if id(obj) in seen:
+        return []
+    seen.add(id(obj))
+    if isinstance(obj, np.ndarray):
+        return [obj]
+    if isinstance(obj, dict):
+        return [a for v in obj.values() for a in _arrays(v, seen)]
+    if isinstance(obj, (list, tuple)):
+        return [a for v in obj for a in _arrays(v, seen)]
+    if hasattr(obj, "__dict__") or hasattr(obj, "__dataclass_fields__"):
+        names = getattr(obj, "__dataclass_fields__", None) or vars(obj)
+        return [a for k in names for a in _arrays(getattr(obj, k), seen)]
+    return []
+
+
+def test_screening_is_frozen_and_built_once(result):
+    import dataclasses
+
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        result.summary = {}
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        result.curtain.severity = None
+    # the summary holds the candidate altitudes and the caution from the start
+    assert "candidate_altitudes_ft" in result.summary and result.summary["caution"] == CAUTION
+    # no private key is slipped into the GeoJSON features
+    assert all(not k.startswith("_") for f in result.segments for k in f)
+
+
+def test_screening_keeps_copies_not_views_of_working_arrays(result):
+    arrays = _arrays(result)
+    assert arrays
+    # a view would keep the pipeline's (sample, row, candidate) arrays alive
+    assert all(a.base is None for a in arrays), [a.shape for a in arrays if a.base is not None]
+    kept = sum(a.nbytes for a in arrays)
+    n, rows = result.curtain.severity.shape
+    # the curtain's eight (n, a) fields plus about forty per-sample arrays, 8 bytes each;
+    # the factor 2 leaves room for object arrays of names (pointers) and small extras
+    assert kept < 2 * 8 * (8 * n * rows + 40 * n), kept

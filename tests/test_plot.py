@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import xml.etree.ElementTree as ET
 
 import matplotlib.image
@@ -16,10 +17,10 @@ from icing.outputs.atomic import replace_atomically
 from icing.outputs.plot import (
     GAP_LABEL,
     SEVERITY_COLOURS,
-    _near,
     plot_cross_section,
     plot_route_map,
 )
+from icing.outputs.plot.routemap import _near
 
 SMALL = {"figsize": (8.0, 5.0), "dpi": 80}
 SVG = "{http://www.w3.org/2000/svg}"
@@ -27,9 +28,7 @@ SVG = "{http://www.w3.org/2000/svg}"
 
 @pytest.fixture(scope="module")
 def screening(make_screening):
-    scr = make_screening()
-    annotate_segments(scr)
-    return scr
+    return annotate_segments(make_screening())
 
 
 def _texts(elem):
@@ -83,8 +82,7 @@ def test_cross_section_svg_has_caution_legend_and_gap_label(tmp_path, screening)
 
 
 def test_cross_section_pressure_and_warm_nose(tmp_path, make_screening):
-    scr = make_screening(warm_nose=True, altitude_reference="pressure")
-    annotate_segments(scr)
+    scr = annotate_segments(make_screening(warm_nose=True, altitude_reference="pressure"))
     root = ET.parse(plot_cross_section(scr, tmp_path / "w.svg", **SMALL)).getroot()
     text = " ".join(_texts(root))
     assert "flight level" in text and "FL040" in text
@@ -92,8 +90,7 @@ def test_cross_section_pressure_and_warm_nose(tmp_path, make_screening):
 
 
 def test_cross_section_without_segments_or_provenance(tmp_path, make_screening):
-    scr = make_screening(gap=False)
-    scr.segments, scr.provenance, scr.waypoints = [], {}, []
+    scr = dataclasses.replace(make_screening(gap=False), segments=[], provenance={}, waypoints=[])
     out = plot_cross_section(scr, tmp_path / "bare.png", title="bare", **SMALL)
     assert out.stat().st_size > 10_000
 
@@ -144,7 +141,7 @@ def test_nothing_half_written(tmp_path):
 
 
 def test_low_flights_get_a_closer_altitude_range():
-    from icing.outputs.plot import _altitude_top_ft
+    from icing.outputs.plot.section import _altitude_top_ft
 
     rows = np.arange(0.0, 12001.0, 500.0)
     # A drone at 400 ft: three times its height, at least 3,000 ft above it.

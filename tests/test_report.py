@@ -76,9 +76,7 @@ def _parse(path):
 def routes(make_screening):
     a = make_screening()
     b = make_screening(warm_nose=True, altitude_reference="pressure")
-    for s in (a, b):
-        annotate_segments(s)
-    return [a, b]
+    return [annotate_segments(a), annotate_segments(b)]
 
 
 @pytest.fixture(scope="module")

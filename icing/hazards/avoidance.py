@@ -40,6 +40,8 @@ from icing.errors import InputError
 __all__ = [
     "CANDIDATE_WORDING",
     "candidate_altitudes",
+    "candidates_summary",
+    "segment_candidates",
     "annotate_segments",
 ]
 
@@ -251,20 +253,84 @@ def candidate_altitudes(
                 where="candidate_altitudes",
                 fix=f"pass a positive {name}",
             )
-    alt = np.asarray(curtain.altitudes_m, dtype=float)
     dist = np.asarray(curtain.distance_km, dtype=float)
     idx = _stretch_indices(dist.size, samples)
-    sev = np.asarray(curtain.severity)[idx]  # (m, a)
+    st = _stretch(curtain, idx)
+    h0 = float(flight_altitude_m)
+    grid = _candidate_grid(
+        st, floor_m, terrain_margin_ft, ceiling_m, max_agl_m, step_ft, curtain.altitudes_m
+    )
+    ev = _evaluate(st, grid["cand_m"])
+    if not st["terrain_known"]:
+        # unknown terrain under the stretch: nothing lower than planned is proposed
+        ev["eligible"] &= grid["cand_m"] >= h0 - 1e-6
+    start_km, end_km = float(dist[idx[0]]), float(dist[idx[-1]])
+    ev["transit"] = _transit(
+        curtain,
+        start_km,
+        end_km,
+        h0,
+        grid["cand_m"],
+        climb_m_s=climb_rate_fpm * _FPM,
+        descent_m_s=descent_rate_fpm * _FPM,
+        tas=float(tas_m_s),
+    )
+    pressure = getattr(curtain, "altitude_reference", "msl") == "pressure"
+    cand_ft, clear = grid["cand_ft"], ev["clear"]
+    above = _pick(ev, grid, h0, step_ft, pressure, "above")
+    below = _pick(ev, grid, h0, step_ft, pressure, "below")
+    rules = {
+        "step_ft": step_ft,
+        "terrain_margin_ft": terrain_margin_ft,
+        "floor_m": floor_m,
+        "max_agl_m": max_agl_m,
+        "climb_rate_fpm": climb_rate_fpm,
+        "descent_rate_fpm": descent_rate_fpm,
+        "tas_m_s": tas_m_s,
+    }
+    return {
+        "above": above,
+        "below": below,
+        "text": _one_line(start_km, end_km, above, below),
+        "ice_free_altitudes_ft": [_ft_value(v, step_ft) for v in cand_ft[clear]],
+        "ice_free_flight_levels": (
+            [int(round(v / 100.0)) for v in cand_ft[clear]] if pressure else None
+        ),
+        "gap_altitudes_ft": [_ft_value(v, step_ft) for v in cand_ft[ev["gap"]]],
+        "planned_altitude_ft": _ft_value(h0 / FT, 1.0),
+        "floor_ft": _ft_value(grid["k_lo"] * step_ft, step_ft) if cand_ft.size else None,
+        "ceiling_ft": _ft_value(grid["k_hi"] * step_ft, step_ft) if cand_ft.size else None,
+        "stretch_km": [round(start_km, 3), round(end_km, 3)],
+        "altitude_reference": getattr(curtain, "altitude_reference", "msl"),
+        "terrain_known": st["terrain_known"],
+        "basis": _basis_text(start_km, end_km, st["terrain_known"], **rules),
+    }
+
+
+def _stretch(curtain, idx):
+    """Return the curtain columns of a stretch, and the ground under it."""
+    alt = np.asarray(curtain.altitudes_m, dtype=float)
     below = np.asarray(curtain.below_ground, dtype=bool)[idx]
-    temp = np.asarray(curtain.temperature_c, dtype=float)[idx]
-    sld = np.asarray(curtain.sld_class)[idx]
     ground = np.asarray(curtain.ground_m, dtype=float)[idx]
     # Ground under the stretch: the given surface, else the top of the below-ground rows.
     rows_below = np.where(below, alt[None, :], -np.inf).max(axis=1)
     ground = np.where(np.isfinite(ground), ground, rows_below)
     terrain_known = bool(np.isfinite(ground).all())
-    ground = np.where(np.isfinite(ground), ground, alt[0])
+    return {
+        "alt": alt,
+        "sev": np.asarray(curtain.severity)[idx],  # (m, a)
+        "below": below,
+        "temp": np.asarray(curtain.temperature_c, dtype=float)[idx],
+        "sld": np.asarray(curtain.sld_class)[idx],
+        "ground": np.where(np.isfinite(ground), ground, alt[0]),
+        "terrain_known": terrain_known,
+    }
 
+
+def _candidate_grid(st, floor_m, terrain_margin_ft, ceiling_m, max_agl_m, step_ft, altitudes_m):
+    """Candidate altitudes: multiples of the step between the floor and the ceiling."""
+    alt = np.asarray(altitudes_m, dtype=float)
+    ground = st["ground"]
     lo_m = ground.max() + terrain_margin_ft * FT
     if floor_m is not None:
         lo_m = max(lo_m, float(floor_m))
@@ -275,8 +341,13 @@ def candidate_altitudes(
     k_lo = np.ceil(lo_m / FT / step_ft - 1e-9)
     k_hi = np.floor(hi_m / FT / step_ft + 1e-9)
     cand_ft = np.arange(k_lo, k_hi + 1) * step_ft if k_hi >= k_lo else np.zeros(0)
-    cand_m = cand_ft * FT
+    return {"k_lo": k_lo, "k_hi": k_hi, "cand_ft": cand_ft, "cand_m": cand_ft * FT}
 
+
+def _evaluate(st, cand_m):
+    """Severity, gaps, warm layers and SLD at each candidate over the whole stretch."""
+    alt, sev, below, ground = st["alt"], st["sev"], st["below"], st["ground"]
+    temp, sld = st["temp"], st["sld"]
     r_lo, r_hi, inside = _bracket_rows(alt, cand_m)
     sev_c = _worst_pair(sev[:, r_lo], sev[:, r_hi])  # (m, c)
     below_c = below[:, r_lo] | below[:, r_hi] | (cand_m[None, :] < ground[:, None])
@@ -293,116 +364,116 @@ def candidate_altitudes(
         )
     worst_c = np.where(sev_c == codes.GAP, codes.SEV_NONE, sev_c).max(axis=0)
     eligible = ~gap_c & ~ground_c
-    clear = eligible & (worst_c == codes.SEV_NONE) & ~sld_freezing
-
-    h0 = float(flight_altitude_m)
-    if not terrain_known:
-        # unknown terrain under the stretch: nothing lower than planned is proposed
-        eligible &= cand_m >= h0 - 1e-6
-    start_km, end_km = float(dist[idx[0]]), float(dist[idx[-1]])
-    tr = _transit(
-        curtain,
-        start_km,
-        end_km,
-        h0,
-        cand_m,
-        climb_m_s=climb_rate_fpm * _FPM,
-        descent_m_s=descent_rate_fpm * _FPM,
-        tas=float(tas_m_s),
-    )
-    tr_sev, tr_icing_min, tr_gap, tr_min = tr["worst"], tr["icing_min"], tr["gap"], tr["minutes"]
-    pressure = getattr(curtain, "altitude_reference", "msl") == "pressure"
-
-    def option(j, direction):
-        ft = _ft_value(cand_ft[j], step_ft)
-        notes = []
-        if clear[j]:
-            notes.append(f"no icing diagnosed along the whole stretch at {ft} ft")
-        else:
-            notes.append(
-                f"no clear altitude {direction}; least severe along the stretch: "
-                f"{codes.SEVERITY[worst_c[j]]} at {ft} ft"
-            )
-        if warm_c[j]:
-            notes.append("warm layer (above 0 C along the stretch)")
-        if fzra_below[j]:
-            notes.append("freezing rain beneath this altitude: met again on descent")
-        if sld_freezing[j]:
-            notes.append("supercooled large drops at this altitude")
-        if tr_sev[j] > codes.SEV_NONE:
-            notes.append(
-                f"icing while changing level: {codes.SEVERITY[tr['entry'][j]]} on the way "
-                f"there, {codes.SEVERITY[tr['return'][j]]} on the way back "
-                f"(about {tr_icing_min[j]:.1f} min of {tr_min[j]:.1f} min)"
-            )
-        if tr_gap[j]:
-            notes.append("coverage gap crossed while changing level: icing unknown there")
-        notes.append(CANDIDATE_WORDING)
-        return {
-            "altitude_ft": ft,
-            "altitude_m": round(float(cand_m[j]), 1),
-            "flight_level": int(round(cand_ft[j] / 100.0)) if pressure else None,
-            "change_ft": _ft_value(cand_ft[j] - h0 / FT, 1.0),
-            "clear": bool(clear[j]),
-            "worst_severity": codes.SEVERITY[int(worst_c[j])],
-            "sld": codes.SLD_CLASSES[int(sld_c[:, j].max())],
-            "warm_layer": bool(warm_c[j]),
-            "freezing_rain_below": bool(fzra_below[j]),
-            "transit_severity": codes.SEVERITY[int(tr_sev[j])],
-            "entry_severity": codes.SEVERITY[int(tr["entry"][j])],
-            "return_severity": codes.SEVERITY[int(tr["return"][j])],
-            "transit_icing_min": round(float(tr_icing_min[j]), 2),
-            "transit_min": round(float(tr_min[j]), 2),
-            "transit_gap": bool(tr_gap[j]),
-            "note": "; ".join(notes),
-        }
-
-    def pick(side):
-        sel = eligible & ((cand_m > h0 + 1e-6) if side == "above" else (cand_m < h0 - 1e-6))
-        if not sel.any():
-            return None
-        j_all = np.flatnonzero(sel)
-        dist_ft = np.abs(cand_m[j_all] - h0)
-        # Clear first, then least severe, then nearest (transit icing is reported, not ranked).
-        order = np.lexsort((dist_ft, worst_c[j_all], ~clear[j_all]))
-        return option(j_all[order[0]], side)
-
-    ice_free = [_ft_value(v, step_ft) for v in cand_ft[clear]]
-    above, below = pick("above"), pick("below")
     return {
-        "above": above,
-        "below": below,
-        "text": _one_line(start_km, end_km, above, below),
-        "ice_free_altitudes_ft": ice_free,
-        "ice_free_flight_levels": (
-            [int(round(v / 100.0)) for v in cand_ft[clear]] if pressure else None
-        ),
-        "gap_altitudes_ft": [_ft_value(v, step_ft) for v in cand_ft[gap_c]],
-        "planned_altitude_ft": _ft_value(h0 / FT, 1.0),
-        "floor_ft": _ft_value(k_lo * step_ft, step_ft) if cand_ft.size else None,
-        "ceiling_ft": _ft_value(k_hi * step_ft, step_ft) if cand_ft.size else None,
-        "stretch_km": [round(start_km, 3), round(end_km, 3)],
-        "altitude_reference": getattr(curtain, "altitude_reference", "msl"),
-        "terrain_known": terrain_known,
-        "basis": (
-            f"{CANDIDATE_WORDING}. Whole stretch {start_km:.1f}-{end_km:.1f} km evaluated "
-            f"every {step_ft:g} ft from {terrain_margin_ft:g} ft above the highest terrain"
-            + ("" if floor_m is None else " (or the stated floor)")
-            + " to the ceiling"
-            + ("" if max_agl_m is None else " (within the stated height above ground)")
-            + "; the worse curtain row around each altitude is used; altitudes with any "
-            "coverage gap or below the terrain margin are never proposed; level change at "
-            f"{climb_rate_fpm:g} ft/min up, {descent_rate_fpm:g} ft/min down, "
-            f"{float(tas_m_s):.0f} m/s true airspeed, made before the stretch and undone "
-            "after it, its icing counted"
-            + (
-                ""
-                if terrain_known
-                else "; the terrain under this stretch is unknown, so no altitude below the "
-                "planned one is proposed"
-            )
-        ),
+        "worst": worst_c,
+        "gap": gap_c,
+        "eligible": eligible,
+        "clear": eligible & (worst_c == codes.SEV_NONE) & ~sld_freezing,
+        "warm": warm_c,
+        "sld": sld_c,
+        "sld_freezing": sld_freezing,
+        "fzra_below": fzra_below,
     }
+
+
+def _option_notes(ev, j, ft, direction):
+    """Return the plain-language notes of one candidate altitude."""
+    tr = ev["transit"]
+    notes = []
+    if ev["clear"][j]:
+        notes.append(f"no icing diagnosed along the whole stretch at {ft} ft")
+    else:
+        notes.append(
+            f"no clear altitude {direction}; least severe along the stretch: "
+            f"{codes.SEVERITY[ev['worst'][j]]} at {ft} ft"
+        )
+    if ev["warm"][j]:
+        notes.append("warm layer (above 0 C along the stretch)")
+    if ev["fzra_below"][j]:
+        notes.append("freezing rain beneath this altitude: met again on descent")
+    if ev["sld_freezing"][j]:
+        notes.append("supercooled large drops at this altitude")
+    if tr["worst"][j] > codes.SEV_NONE:
+        notes.append(
+            f"icing while changing level: {codes.SEVERITY[tr['entry'][j]]} on the way "
+            f"there, {codes.SEVERITY[tr['return'][j]]} on the way back "
+            f"(about {tr['icing_min'][j]:.1f} min of {tr['minutes'][j]:.1f} min)"
+        )
+    if tr["gap"][j]:
+        notes.append("coverage gap crossed while changing level: icing unknown there")
+    notes.append(CANDIDATE_WORDING)
+    return notes
+
+
+def _option(ev, grid, h0, step_ft, pressure, j, direction):
+    """One candidate altitude as a JSON-ready dict."""
+    cand_ft, cand_m, tr = grid["cand_ft"], grid["cand_m"], ev["transit"]
+    ft = _ft_value(cand_ft[j], step_ft)
+    return {
+        "altitude_ft": ft,
+        "altitude_m": round(float(cand_m[j]), 1),
+        "flight_level": int(round(cand_ft[j] / 100.0)) if pressure else None,
+        "change_ft": _ft_value(cand_ft[j] - h0 / FT, 1.0),
+        "clear": bool(ev["clear"][j]),
+        "worst_severity": codes.SEVERITY[int(ev["worst"][j])],
+        "sld": codes.SLD_CLASSES[int(ev["sld"][:, j].max())],
+        "warm_layer": bool(ev["warm"][j]),
+        "freezing_rain_below": bool(ev["fzra_below"][j]),
+        "transit_severity": codes.SEVERITY[int(tr["worst"][j])],
+        "entry_severity": codes.SEVERITY[int(tr["entry"][j])],
+        "return_severity": codes.SEVERITY[int(tr["return"][j])],
+        "transit_icing_min": round(float(tr["icing_min"][j]), 2),
+        "transit_min": round(float(tr["minutes"][j]), 2),
+        "transit_gap": bool(tr["gap"][j]),
+        "note": "; ".join(_option_notes(ev, j, ft, direction)),
+    }
+
+
+def _pick(ev, grid, h0, step_ft, pressure, side):
+    """Return the best candidate on one side: clear first, then least severe, then nearest."""
+    cand_m = grid["cand_m"]
+    sel = ev["eligible"] & ((cand_m > h0 + 1e-6) if side == "above" else (cand_m < h0 - 1e-6))
+    if not sel.any():
+        return None
+    j_all = np.flatnonzero(sel)
+    dist_ft = np.abs(cand_m[j_all] - h0)
+    # Clear first, then least severe, then nearest (transit icing is reported, not ranked).
+    order = np.lexsort((dist_ft, ev["worst"][j_all], ~ev["clear"][j_all]))
+    return _option(ev, grid, h0, step_ft, pressure, j_all[order[0]], side)
+
+
+def _basis_text(
+    start_km,
+    end_km,
+    terrain_known,
+    *,
+    step_ft,
+    terrain_margin_ft,
+    floor_m,
+    max_agl_m,
+    climb_rate_fpm,
+    descent_rate_fpm,
+    tas_m_s,
+):
+    """Return the rules of the search, in words, for the output."""
+    return (
+        f"{CANDIDATE_WORDING}. Whole stretch {start_km:.1f}-{end_km:.1f} km evaluated "
+        f"every {step_ft:g} ft from {terrain_margin_ft:g} ft above the highest terrain"
+        + ("" if floor_m is None else " (or the stated floor)")
+        + " to the ceiling"
+        + ("" if max_agl_m is None else " (within the stated height above ground)")
+        + "; the worse curtain row around each altitude is used; altitudes with any "
+        "coverage gap or below the terrain margin are never proposed; level change at "
+        f"{climb_rate_fpm:g} ft/min up, {descent_rate_fpm:g} ft/min down, "
+        f"{float(tas_m_s):.0f} m/s true airspeed, made before the stretch and undone "
+        "after it, its icing counted"
+        + (
+            ""
+            if terrain_known
+            else "; the terrain under this stretch is unknown, so no altitude below the "
+            "planned one is proposed"
+        )
+    )
 
 
 def _one_line(start_km, end_km, above, below):
@@ -436,9 +507,12 @@ def _segment_mask(distance_km, props):
     return mask
 
 
-def annotate_segments(
-    screening,
+def segment_candidates(
+    segments,
+    curtain,
     *,
+    samples=None,
+    at_flight=None,
     ceiling_m=None,
     floor_m=None,
     terrain_margin_ft=1000.0,
@@ -447,63 +521,44 @@ def annotate_segments(
     climb_rate_fpm=500.0,
     descent_rate_fpm=500.0,
     tas_m_s=None,
-    summary=True,
 ):
-    """Fill ``ice_free_altitudes_ft`` and ``vertical_options`` in each icing segment.
+    """Candidate altitudes of every icing segment; new features carrying them.
 
     Parameters
     ----------
-    screening : icing.results.RouteScreening
-        Its ``segments`` (GeoJSON Feature dicts, ``kind == "icing"`` ones are
-        annotated) are changed in place.
+    segments : sequence of dict
+        GeoJSON Feature dicts; ``kind == "icing"`` ones are searched. They are
+        not changed: the features returned are new dicts.
+    curtain : icing.hazards.results.Curtain
+    samples : RouteSamples, optional
+        For the true airspeed of each stretch (``tas`` [m/s]).
+    at_flight : dict, optional
+        For the planned altitude of each stretch (``altitude_ft``).
     ceiling_m, floor_m, terrain_margin_ft, max_agl_m, step_ft, climb_rate_fpm, descent_rate_fpm
-        As for :func:`candidate_altitudes`. ``ceiling_m`` defaults to
-        ``screening.ceiling_m`` (or ``screening.assumptions["ceiling_m"]``) when
-        present, else the top of the curtain; ``max_agl_m`` likewise.
+        As for :func:`candidate_altitudes`.
     tas_m_s : float, optional
-        True airspeed [m/s]; default the mean of ``screening.samples.tas`` over the
-        stretch, else ``screening.at_flight["tas_m_s"]``.
-    summary : bool
-        Also put the list of options into ``screening.summary["candidate_altitudes"]``.
+        True airspeed [m/s]; default the mean of ``samples.tas`` over the
+        stretch, else ``at_flight["tas_m_s"]``.
 
     Returns
     -------
-    list of dict
-        One :func:`candidate_altitudes` result per icing segment, with its
-        ``segment_id``.
+    (list of dict, list of dict)
+        The features (icing ones with ``ice_free_altitudes_ft`` and
+        ``vertical_options`` filled in), and one :func:`candidate_altitudes`
+        result per icing segment with its ``segment_id``.
     """
-    cur = screening.curtain
-    assumptions = getattr(screening, "assumptions", None) or {}
-    if ceiling_m is None:
-        ceiling_m = getattr(screening, "ceiling_m", None) or assumptions.get("ceiling_m")
-    if max_agl_m is None:
-        max_agl_m = getattr(screening, "max_agl_m", None) or assumptions.get("max_agl_m")
-    samples = getattr(screening, "samples", None)
-    at = getattr(screening, "at_flight", None) or {}
-    results = []
-    for feature in screening.segments:
+    at = at_flight or {}
+    features, results = [], []
+    for feature in segments:
         props = feature.get("properties", feature)
         if props.get("kind") != "icing":
+            features.append(feature)
             continue
-        mask = _segment_mask(cur.distance_km, props)
-        h0 = _planned_altitude_m(screening, mask, props)
-        tas = tas_m_s
-        if tas is None:
-            tas_arr = getattr(samples, "tas", None)
-            if tas_arr is None:
-                tas_arr = at.get("tas_m_s")
-            if tas_arr is not None and np.size(tas_arr) == mask.size:
-                tas = float(np.nanmean(np.asarray(tas_arr, dtype=float)[mask]))
-        if tas is None or not np.isfinite(tas):
-            raise InputError(
-                "no true airspeed for the level-change exposure",
-                where=f"segment {props.get('segment_id')!r}",
-                fix="pass tas_m_s= or give the samples a tas array",
-            )
+        mask = _segment_mask(curtain.distance_km, props)
         res = candidate_altitudes(
-            cur,
+            curtain,
             mask,
-            flight_altitude_m=h0,
+            flight_altitude_m=_planned_altitude_m(samples, at, mask, props),
             ceiling_m=ceiling_m,
             floor_m=floor_m,
             terrain_margin_ft=terrain_margin_ft,
@@ -511,13 +566,15 @@ def annotate_segments(
             step_ft=step_ft,
             climb_rate_fpm=climb_rate_fpm,
             descent_rate_fpm=descent_rate_fpm,
-            tas_m_s=tas,
+            tas_m_s=_stretch_tas(tas_m_s, samples, at, mask, props),
         )
         res["segment_id"] = props.get("segment_id")
         if res["segment_id"] is not None:
             res["text"] = f"{res['segment_id']} {res['text']}"
-        props["ice_free_altitudes_ft"] = list(res["ice_free_altitudes_ft"])
-        props["vertical_options"] = {
+        results.append(res)
+        new_props = dict(props)
+        new_props["ice_free_altitudes_ft"] = list(res["ice_free_altitudes_ft"])
+        new_props["vertical_options"] = {
             k: res[k]
             for k in (
                 "above",
@@ -528,28 +585,87 @@ def annotate_segments(
                 "basis",
             )
         }
-        results.append(res)
-    if summary and isinstance(getattr(screening, "summary", None), dict):
-        screening.summary["candidate_altitudes"] = [
-            {
-                "segment_id": r["segment_id"],
-                "stretch_km": r["stretch_km"],
-                "above_ft": None if r["above"] is None else r["above"]["altitude_ft"],
-                "above_severity": None if r["above"] is None else r["above"]["worst_severity"],
-                "below_ft": None if r["below"] is None else r["below"]["altitude_ft"],
-                "below_severity": None if r["below"] is None else r["below"]["worst_severity"],
-                "ice_free_altitudes_ft": r["ice_free_altitudes_ft"],
-            }
-            for r in results
-        ]
-        screening.summary["candidate_altitudes_wording"] = CANDIDATE_WORDING
-    return results
+        features.append(
+            {**feature, "properties": new_props} if "properties" in feature else new_props
+        )
+    return features, results
 
 
-def _planned_altitude_m(screening, mask, props):
+def candidates_summary(results):
+    """Compact, JSON-ready candidate altitudes per icing segment (for summaries)."""
+    return [
+        {
+            "segment_id": r["segment_id"],
+            "stretch_km": r["stretch_km"],
+            "above_ft": None if r["above"] is None else r["above"]["altitude_ft"],
+            "above_severity": None if r["above"] is None else r["above"]["worst_severity"],
+            "below_ft": None if r["below"] is None else r["below"]["altitude_ft"],
+            "below_severity": None if r["below"] is None else r["below"]["worst_severity"],
+            "ice_free_altitudes_ft": r["ice_free_altitudes_ft"],
+        }
+        for r in results
+    ]
+
+
+def annotate_segments(screening, *, summary=True, **kwargs):
+    """Return a new screening whose icing segments carry their candidate altitudes.
+
+    Parameters
+    ----------
+    screening : icing.hazards.results.RouteScreening
+        Not changed.
+    summary : bool
+        Also put the list of options into the new summary's
+        ``candidate_altitudes`` (with ``candidate_altitudes_wording``).
+    **kwargs
+        As for :func:`segment_candidates`; ``ceiling_m`` and ``max_agl_m``
+        default to the screening's (or its ``assumptions``).
+
+    Returns
+    -------
+    RouteScreening
+        A copy with the new segments, ``candidates`` and (optionally) summary.
+    """
+    from dataclasses import replace
+
+    assumptions = getattr(screening, "assumptions", None) or {}
+    for key in ("ceiling_m", "max_agl_m"):
+        if kwargs.get(key) is None:
+            kwargs[key] = getattr(screening, key, None) or assumptions.get(key)
+    features, results = segment_candidates(
+        screening.segments,
+        screening.curtain,
+        samples=getattr(screening, "samples", None),
+        at_flight=getattr(screening, "at_flight", None),
+        **kwargs,
+    )
+    new_summary = dict(getattr(screening, "summary", None) or {})
+    if summary:
+        new_summary["candidate_altitudes"] = candidates_summary(results)
+        new_summary["candidate_altitudes_wording"] = CANDIDATE_WORDING
+    return replace(screening, segments=features, candidates=results, summary=new_summary)
+
+
+def _stretch_tas(tas_m_s, samples, at, mask, props):
+    """Return the true airspeed over a stretch [m/s]: given, else the samples' mean."""
+    tas = tas_m_s
+    if tas is None:
+        tas_arr = getattr(samples, "tas", None)
+        if tas_arr is None:
+            tas_arr = at.get("tas_m_s")
+        if tas_arr is not None and np.size(tas_arr) == mask.size:
+            tas = float(np.nanmean(np.asarray(tas_arr, dtype=float)[mask]))
+    if tas is None or not np.isfinite(tas):
+        raise InputError(
+            "no true airspeed for the level-change exposure",
+            where=f"segment {props.get('segment_id')!r}",
+            fix="pass tas_m_s= or give the samples a tas array",
+        )
+    return tas
+
+
+def _planned_altitude_m(samples, at, mask, props):
     """Mean planned altitude over the stretch [m], from the samples or the segment."""
-    at = getattr(screening, "at_flight", None) or {}
-    samples = getattr(screening, "samples", None)
     ft = at.get("altitude_ft")
     if ft is not None and np.size(ft) == mask.size:
         return float(np.nanmean(np.asarray(ft, dtype=float)[mask])) * FT

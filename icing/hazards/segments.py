@@ -154,11 +154,7 @@ def build_segments(
     """
     features = []
     n = len(samples.lat)
-    sev_all = np.asarray(at_flight["severity"])
-    kind_all = _kind(sev_all, np.asarray(at_flight["covered"], bool))
-    per_col = at_flight.get("per_collector", {})
-    dist_km = np.asarray(samples.distance_m) / 1000.0
-    dt = np.asarray(samples.dt_s, float)
+    kind_all = _kind(np.asarray(at_flight["severity"]), np.asarray(at_flight["covered"], bool))
     alt_msl = np.asarray(at_flight["altitude_msl_m"], float)
     for k, (a, b) in enumerate(segment_samples(at_flight)):
         kind = kind_all[a]
@@ -166,81 +162,15 @@ def build_segments(
             continue
         end = min(b, n - 1)  # the segment reaches the next segment's first sample
         idx = slice(a, end + 1)
-        geom = _geometry(samples.lon[idx], samples.lat[idx], alt_msl[idx])
-        sl = slice(a, b)
-        props = {
-            "route": route_name,
-            "segment_id": f"{id_prefix}{k + 1:03d}",
-            "from_waypoint": str(samples.from_waypoint[a]),
-            "to_waypoint": str(samples.to_waypoint[b - 1]),
-            "kind": kind,
-            "severity": None,
-            "ice_type": None,
-            "sld": None,
-            "basis": None,
-            "start_km": _round(dist_km[a], 3),
-            "end_km": _round(dist_km[end], 3),
-            "start_time": _iso(samples.time[a]),
-            "end_time": _iso(samples.time[end]),
-            "duration_min": _round(dt[sl].sum() / 60.0, 2),
-            "altitude_ft_min": _round(np.nanmin(alt_msl[sl]) / FT, 0),
-            "altitude_ft_max": _round(np.nanmax(alt_msl[sl]) / FT, 0),
-            "altitude_reference": samples.altitude_reference,
-            "temperature_c_min": None,
-            "temperature_c_max": None,
-            "lwc_g_m3_max": None,
-            "mvd_um_max": None,
-            "sld_lwc_g_m3_max": None,
-            "sld_mvd_um_max": None,
-            "glaciation_likelihood_max": None,
-            "collector": None,
-            "collection_efficiency_max": None,
-            "accretion_rate_mm_h_max": None,
-            "accretion_mm": None,
-            "ice_free_altitudes_ft": [],
-            "airframe": airframe_name,
-            "caution": CAUTION,
-        }
+        props = _common_properties(
+            route_name, airframe_name, samples, alt_msl, a, b, end, kind, f"{id_prefix}{k + 1:03d}"
+        )
         if kind == KIND_GAP:
-            reasons = sorted({str(r) for r in np.asarray(at_flight["gap_reason"])[sl] if r})
-            props["gap_reason"] = ", ".join(reasons) or "missing-values"
-            props["note"] = GAP_NOTE
-        if kind != KIND_GAP:
-            props["temperature_c_min"] = _round(_stat(at_flight["temperature_c"][sl], np.min), 2)
-            props["temperature_c_max"] = _round(_stat(at_flight["temperature_c"][sl], np.max), 2)
+            props.update(_gap_properties(at_flight, slice(a, b)))
+        else:
+            props.update(_temperature_properties(at_flight, slice(a, b)))
         if kind == KIND_ICING:
-            sld = int(at_flight["sld_class"][a])
-            basis = np.asarray(at_flight["basis"])[sl]
-            basis_words = sorted({codes.BASIS[int(c)] for c in basis if c > 0})
-            # the collector that caught the most ice on this stretch
-            best, best_mm = None, -1.0
-            for name, arrs in per_col.items():
-                mm = float(np.nansum(np.asarray(arrs["accretion_rate_mm_h"])[sl] * dt[sl]) / 3600)
-                if mm > best_mm:
-                    best, best_mm = name, mm
-            col = per_col.get(best, at_flight)
-            props.update(
-                severity=codes.SEVERITY[int(sev_all[a])],
-                ice_type=codes.ICE_TYPES[int(at_flight["ice_type"][a])]
-                if at_flight["ice_type"][a] > 0
-                else None,
-                sld=codes.SLD_CLASSES[sld],
-                basis=" + ".join(basis_words) if basis_words else "diagnosed",
-                lwc_g_m3_max=_round(_stat(at_flight["lwc_g_m3"][sl], np.max), 4),
-                mvd_um_max=_round(_stat(at_flight["mvd_um"][sl], np.max), 2),
-                glaciation_likelihood_max=_round(_stat(at_flight["glaciation"][sl], np.max), 3),
-                collector=best,
-                collection_efficiency_max=_round(
-                    _stat(np.asarray(col["collection_efficiency"])[sl], np.max), 4
-                ),
-                accretion_rate_mm_h_max=_round(
-                    _stat(np.asarray(col["accretion_rate_mm_h"])[sl], np.max), 3
-                ),
-                accretion_mm=_round(max(best_mm, 0.0), 3),
-            )
-            if sld != codes.SLD_NONE:
-                props["sld_lwc_g_m3_max"] = _round(_stat(at_flight["sld_lwc_g_m3"][sl], np.max), 4)
-                props["sld_mvd_um_max"] = _round(_stat(at_flight["sld_mvd_um"][sl], np.max), 1)
+            props.update(_icing_properties(at_flight, samples, a, b))
         elif kind == KIND_CLEAR:
             props["severity"] = None
             props["sld"] = "none"
@@ -248,12 +178,104 @@ def build_segments(
             {
                 "type": "Feature",
                 "id": f"{route_name}:{props['segment_id']}",
-                "geometry": geom,
+                "geometry": _geometry(samples.lon[idx], samples.lat[idx], alt_msl[idx]),
                 "properties": props,
-                "_slice": (a, b),
             }
         )
     return features
+
+
+def _common_properties(route_name, airframe_name, samples, alt_msl, a, b, end, kind, seg_id):
+    """Properties every segment carries, physics left null (filled by kind)."""
+    dist_km = np.asarray(samples.distance_m) / 1000.0
+    sl = slice(a, b)
+    return {
+        "route": route_name,
+        "segment_id": seg_id,
+        "from_waypoint": str(samples.from_waypoint[a]),
+        "to_waypoint": str(samples.to_waypoint[b - 1]),
+        "kind": kind,
+        "severity": None,
+        "ice_type": None,
+        "sld": None,
+        "basis": None,
+        "start_km": _round(dist_km[a], 3),
+        "end_km": _round(dist_km[end], 3),
+        "start_time": _iso(samples.time[a]),
+        "end_time": _iso(samples.time[end]),
+        "duration_min": _round(np.asarray(samples.dt_s, float)[sl].sum() / 60.0, 2),
+        "altitude_ft_min": _round(np.nanmin(alt_msl[sl]) / FT, 0),
+        "altitude_ft_max": _round(np.nanmax(alt_msl[sl]) / FT, 0),
+        "altitude_reference": samples.altitude_reference,
+        "temperature_c_min": None,
+        "temperature_c_max": None,
+        "lwc_g_m3_max": None,
+        "mvd_um_max": None,
+        "sld_lwc_g_m3_max": None,
+        "sld_mvd_um_max": None,
+        "glaciation_likelihood_max": None,
+        "collector": None,
+        "collection_efficiency_max": None,
+        "accretion_rate_mm_h_max": None,
+        "accretion_mm": None,
+        "ice_free_altitudes_ft": [],
+        "airframe": airframe_name,
+        "caution": CAUTION,
+    }
+
+
+def _gap_properties(at_flight, sl):
+    """Why a coverage-gap segment is one, and the note that it is no "no icing"."""
+    reasons = sorted({str(r) for r in np.asarray(at_flight["gap_reason"])[sl] if r})
+    return {"gap_reason": ", ".join(reasons) or "missing-values", "note": GAP_NOTE}
+
+
+def _temperature_properties(at_flight, sl):
+    """Temperature range of a screened (icing or no-icing) segment."""
+    t = at_flight["temperature_c"][sl]
+    return {
+        "temperature_c_min": _round(_stat(t, np.min), 2),
+        "temperature_c_max": _round(_stat(t, np.max), 2),
+    }
+
+
+def _icing_properties(at_flight, samples, a, b):
+    """Physics of an icing segment: severity, ice type, SLD, liquid, the worst collector."""
+    sl = slice(a, b)
+    dt = np.asarray(samples.dt_s, float)
+    sld = int(at_flight["sld_class"][a])
+    basis = np.asarray(at_flight["basis"])[sl]
+    basis_words = sorted({codes.BASIS[int(c)] for c in basis if c > 0})
+    per_col = at_flight.get("per_collector", {})
+    # the collector that caught the most ice on this stretch
+    best, best_mm = None, -1.0
+    for name, arrs in per_col.items():
+        mm = float(np.nansum(np.asarray(arrs["accretion_rate_mm_h"])[sl] * dt[sl]) / 3600)
+        if mm > best_mm:
+            best, best_mm = name, mm
+    col = per_col.get(best, at_flight)
+    ice = int(at_flight["ice_type"][a])
+    props = {
+        "severity": codes.SEVERITY[int(np.asarray(at_flight["severity"])[a])],
+        "ice_type": codes.ICE_TYPES[ice] if ice > 0 else None,
+        "sld": codes.SLD_CLASSES[sld],
+        "basis": " + ".join(basis_words) if basis_words else "diagnosed",
+        "lwc_g_m3_max": _round(_stat(at_flight["lwc_g_m3"][sl], np.max), 4),
+        "mvd_um_max": _round(_stat(at_flight["mvd_um"][sl], np.max), 2),
+        "glaciation_likelihood_max": _round(_stat(at_flight["glaciation"][sl], np.max), 3),
+        "collector": best,
+        "collection_efficiency_max": _round(
+            _stat(np.asarray(col["collection_efficiency"])[sl], np.max), 4
+        ),
+        "accretion_rate_mm_h_max": _round(
+            _stat(np.asarray(col["accretion_rate_mm_h"])[sl], np.max), 3
+        ),
+        "accretion_mm": _round(max(best_mm, 0.0), 3),
+    }
+    if sld != codes.SLD_NONE:
+        props["sld_lwc_g_m3_max"] = _round(_stat(at_flight["sld_lwc_g_m3"][sl], np.max), 4)
+        props["sld_mvd_um_max"] = _round(_stat(at_flight["sld_mvd_um"][sl], np.max), 1)
+    return props
 
 
 def _minutes(mask, dt):
@@ -333,10 +355,6 @@ def route_summary(screening_like, *, airframe=None) -> dict:
     }
 
 
-def _clean(feature: dict) -> dict:
-    return {k: v for k, v in feature.items() if not k.startswith("_")}
-
-
 def feature_collection(screenings, *, provenance=None, assumptions=None) -> dict:
     """Return one RFC 7946 FeatureCollection dict for the screened routes.
 
@@ -345,7 +363,7 @@ def feature_collection(screenings, *, provenance=None, assumptions=None) -> dict
     into a sibling JSON file.
     """
     screenings = list(screenings)
-    feats = [_clean(f) for s in screenings for f in s.segments]
+    feats = [f for s in screenings for f in s.segments]
     prov = dict(provenance or (screenings[0].provenance if screenings else {}))
     prov.setdefault("tool", "icing")
     prov.setdefault("tool_version", __version__)

@@ -23,7 +23,7 @@ from icing.errors import InputError
 from icing.outputs.atomic import replace_atomically
 from icing.outputs.plot import (
     GAP_LABEL,
-    _check_output_path,
+    check_output_path,
     plot_cross_section,
     plot_route_map,
 )
@@ -274,7 +274,7 @@ def write_report(
         When the suffix is not ``.html``, the folder does not exist or the picture
         format is unknown.
     """
-    path, _ = _check_output_path(path, ("html", "htm"), what="report")
+    path, _ = check_output_path(path, ("html", "htm"), what="report")
     if picture_format not in ("png", "svg"):
         raise InputError(
             f"picture format {picture_format!r} not supported",

@@ -203,13 +203,19 @@ def sample_route(
     step_m = _check_step(step_km, "step_km") * 1000.0
     step_s = _check_step(max_step_s, "max_step_s")
     step_z = _check_step(max_step_ft, "max_step_ft") * FT
+    wp = _waypoint_arrays(route, departure)
+    tas_wp = _waypoint_tas(route, tas_kt, default_tas_kt)
+    legs = _legs(wp)
+    legs.update(_leg_durations(route, wp, legs, tas_wp))
+    grid = _subdivide(route, wp, legs, step_m, step_z, step_s)
+    pos = _positions(wp, legs, grid)
+    clock = _timeline(route, wp, legs, grid, wind)
+    return _assemble(route, wp, legs, grid, pos, clock, tas_wp)
+
+
+def _waypoint_arrays(route, departure):
+    """Per-waypoint arrays: names, position, altitude, hold [s] and time anchors [s]."""
     wps = route.waypoints
-    nw = len(wps)
-    name = np.array([w.name for w in wps], dtype=object)
-    lat = np.array([w.lat for w in wps], dtype=float)
-    lon = np.array([w.lon for w in wps], dtype=float)
-    alt = np.array([w.altitude_m for w in wps], dtype=float)
-    hold = np.array([w.hold_min for w in wps], dtype=float) * 60.0
     anchor = np.array([np.nan if w.time is None else _epoch_s(parse_time(w.time)) for w in wps])
     if np.isnan(anchor[0]) and route.departure_time is not None:
         anchor[0] = _epoch_s(parse_time(route.departure_time))
@@ -226,6 +232,20 @@ def sample_route(
                 fix="give departure_time in the route or --depart",
             )
         anchor[0] = dep_override
+    return {
+        "nw": len(wps),
+        "name": np.array([w.name for w in wps], dtype=object),
+        "lat": np.array([w.lat for w in wps], dtype=float),
+        "lon": np.array([w.lon for w in wps], dtype=float),
+        "alt": np.array([w.altitude_m for w in wps], dtype=float),
+        "hold": np.array([w.hold_min for w in wps], dtype=float) * 60.0,
+        "anchor": anchor,
+        "dep_override": dep_override,
+    }
+
+
+def _waypoint_tas(route, tas_kt, default_tas_kt):
+    """Return the true airspeed leaving each waypoint [m/s], NaN where unknown."""
 
     def speed_kt(value, what):
         return (
@@ -234,7 +254,7 @@ def sample_route(
 
     tas_arg = speed_kt(tas_kt, "tas_kt")
     tas_default = speed_kt(default_tas_kt, "default_tas_kt")
-    tas_wp = np.array([np.nan if w.tas_kt is None else w.tas_kt for w in wps], dtype=float)
+    tas_wp = np.array([np.nan if w.tas_kt is None else w.tas_kt for w in route.waypoints])
     tas_route = route.true_airspeed_kt
     if tas_arg is not None:
         tas_wp[:] = tas_arg
@@ -242,10 +262,13 @@ def sample_route(
         fallback = tas_route if tas_route is not None else tas_default
         if fallback is not None:
             tas_wp[np.isnan(tas_wp)] = fallback
-    tas_wp = tas_wp * KT  # [m/s], NaN where unknown
+    return tas_wp * KT
 
-    # legs ------------------------------------------------------------------
-    nl = nw - 1
+
+def _legs(wp):
+    """Geodesic legs: azimuth, length, climb, 3-D path and the running sums."""
+    lat, lon, alt, hold = wp["lat"], wp["lon"], wp["alt"], wp["hold"]
+    nl = wp["nw"] - 1
     if nl > 0:
         az12, _, dist = _GEOD.inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
         az12, dist = np.atleast_1d(az12).astype(float), np.atleast_1d(dist).astype(float)
@@ -253,11 +276,22 @@ def sample_route(
         az12 = dist = np.zeros(0)
     dz = np.diff(alt)
     path3 = np.hypot(dist, dz)
-    cum_h = np.concatenate([[0.0], np.cumsum(dist)])
-    cum_3 = np.concatenate([[0.0], np.cumsum(path3)])
-    cum_hold = np.concatenate([[0.0], np.cumsum(hold)])  # hold time before waypoint i
+    return {
+        "nl": nl,
+        "az12": az12,
+        "dist": dist,
+        "dz": dz,
+        "path3": path3,
+        "cum_h": np.concatenate([[0.0], np.cumsum(dist)]),
+        "cum_3": np.concatenate([[0.0], np.cumsum(path3)]),
+        "cum_hold": np.concatenate([[0.0], np.cumsum(hold)]),  # hold time before waypoint i
+    }
 
-    # leg durations: anchored spans from the times, else path length / TAS
+
+def _leg_durations(route, wp, legs, tas_wp):
+    """Leg durations: anchored spans from the times, else path length / TAS."""
+    nl, path3, name, anchor = legs["nl"], legs["path3"], wp["name"], wp["anchor"]
+    cum_3, cum_hold = legs["cum_3"], legs["cum_hold"]
     duration = np.full(nl, np.nan)
     anchored = np.zeros(nl, dtype=bool)
     a_idx = np.flatnonzero(~np.isnan(anchor))
@@ -294,24 +328,29 @@ def sample_route(
             f"{implied[i] / KT:.0f} kt over the ground from {name[i]} to "
             f"{name[i + 1]}; check the times"
         )
+    return {"duration": duration, "anchored": anchored, "tas_leg": tas_leg, "a_idx": a_idx}
 
-    # subdivisions ------------------------------------------------------------
-    def parts(x):
-        return np.ceil(np.maximum(x, 0.0) * (1.0 - 1e-12))
 
+def _parts(x):
+    return np.ceil(np.maximum(x, 0.0) * (1.0 - 1e-12))
+
+
+def _subdivide(route, wp, legs, step_m, step_z, step_s):
+    """How many parts each leg and hold is cut into, and which sample belongs where."""
+    nl, hold = legs["nl"], wp["hold"]
     n = (
         np.maximum.reduce(
             [
                 np.ones(nl),
-                parts(dist / step_m),
-                parts(np.abs(dz) / step_z),
-                parts(duration / step_s),
+                _parts(legs["dist"] / step_m),
+                _parts(np.abs(legs["dz"]) / step_z),
+                _parts(legs["duration"] / step_s),
             ]
         ).astype(np.int64)
         if nl
         else np.zeros(0, dtype=np.int64)
     )
-    m = np.where(hold > 0, np.maximum(2, parts(hold / step_s)), 0).astype(np.int64)
+    m = np.where(hold > 0, np.maximum(2, _parts(hold / step_s)), 0).astype(np.int64)
     block = np.where(hold > 0, m + 1, 1)
     total = int(block.sum() + (n - 1).sum())
     if total > _MAX_SAMPLES:
@@ -320,7 +359,6 @@ def sample_route(
             path=route.source,
             fix="use a larger step_km / max_step_s / max_step_ft",
         )
-
     # samples: block 0, interior of leg 0, block 1, ..., block nw-1
     counts = _interleave(block, n - 1)
     seg = np.repeat(np.arange(counts.size), counts)
@@ -332,18 +370,39 @@ def sample_route(
         0.0,
         (local + 1) / np.where(is_block, 1, n[np.minimum(owner, max(nl - 1, 0))] if nl else 1),
     )
+    return {
+        "n": n,
+        "m": m,
+        "block": block,
+        "total": total,
+        "is_block": is_block,
+        "owner": owner,
+        "frac": frac,
+    }
+
+
+def _positions(wp, legs, grid):
+    """Sample positions, altitudes and distances along the geodesic legs."""
+    owner, is_block, frac = grid["owner"], grid["is_block"], grid["frac"]
+    lat, lon, alt = wp["lat"], wp["lon"], wp["alt"]
     s_lat, s_lon = lat[owner].copy(), lon[owner].copy()
     s_alt = alt[owner].copy()
-    s_dist = cum_h[owner].copy()
+    s_dist = legs["cum_h"][owner].copy()
     inner = ~is_block
     if np.any(inner):
         kk = owner[inner]
         f = frac[inner]
-        lo, la, _ = _GEOD.fwd(lon[kk], lat[kk], az12[kk], f * dist[kk])
+        lo, la, _ = _GEOD.fwd(lon[kk], lat[kk], legs["az12"][kk], f * legs["dist"][kk])
         s_lon[inner], s_lat[inner] = lo, la
-        s_alt[inner] = alt[kk] + f * dz[kk]
-        s_dist[inner] = cum_h[kk] + f * dist[kk]
+        s_alt[inner] = alt[kk] + f * legs["dz"][kk]
+        s_dist[inner] = legs["cum_h"][kk] + f * legs["dist"][kk]
+    return {"lat": s_lat, "lon": s_lon, "alt": s_alt, "dist": s_dist}
 
+
+def _timeline(route, wp, legs, grid, wind):
+    """Time of every sample (relative and start), with the wind on untimed legs."""
+    nl, n, m, block = legs["nl"], grid["n"], grid["m"], grid["block"]
+    hold, a_idx = wp["hold"], legs["a_idx"]
     # intervals between samples: hold parts inside blocks, leg parts between them
     hold_part = np.where(m > 0, hold / np.maximum(m, 1), 0.0)
     i_counts = _interleave(block - 1, n)
@@ -351,66 +410,80 @@ def sample_route(
     i_owner = i_seg // 2
     i_leg = i_seg % 2 == 1
     leg_sub = np.repeat(np.arange(nl), n)  # leg of each leg part, in order
-    sub_path = (path3 / np.maximum(n, 1))[leg_sub]
-    sub_dur = (duration / np.maximum(n, 1))[leg_sub]
+    sub_path = (legs["path3"] / np.maximum(n, 1))[leg_sub]
+    sub_dur = (legs["duration"] / np.maximum(n, 1))[leg_sub]
 
     def timeline(sub_dur):
         dur = np.where(i_leg, 0.0, hold_part[i_owner])
         dur[i_leg] = sub_dur
         rel = np.concatenate([[0.0], np.cumsum(dur)])
         first = np.concatenate([[0], np.cumsum(block + np.append(n - 1, 0))[:-1]])
-        start = anchor[a_idx[0]] - rel[first[a_idx[0]]]
+        start = wp["anchor"][a_idx[0]] - rel[first[a_idx[0]]]
         return rel, start
 
     rel, start = timeline(sub_dur)
     gs_sub = np.where(sub_dur > 0, sub_path / np.where(sub_dur > 0, sub_dur, 1.0), 0.0)
-    windy = ~anchored[leg_sub] & (sub_path > 0)
+    windy = ~legs["anchored"][leg_sub] & (sub_path > 0)
     if wind is not None and np.any(windy):
-        kk = leg_sub[windy]
-        j = (np.arange(leg_sub.size) - np.repeat(np.cumsum(n) - n, n))[windy]
-        f = (j + 0.5) / n[kk]
-        lo, la, back = _GEOD.fwd(lon[kk], lat[kk], az12[kk], f * dist[kk])
-        lo = (np.asarray(lo) + 180.0) % 360.0 - 180.0
-        track = np.radians(np.asarray(back) + 180.0)
-        interval_start = rel[:-1][i_leg][windy]
-        t_mid = start + interval_start + 0.5 * sub_dur[windy]
-        t_mid64 = np.round(t_mid * 1000.0).astype(np.int64).astype("datetime64[ms]")
-        z_mid = alt[kk] + f * dz[kk]
-        if route.altitude_reference == "agl":  # the wind is read by height above sea level
-            z_mid = z_mid + (route.ground_elevation_m or 0.0)
-        u, v = wind(np.asarray(la), lo, z_mid, t_mid64)
-        u = np.nan_to_num(np.broadcast_to(np.asarray(u, dtype=float), kk.shape), nan=0.0)
-        v = np.nan_to_num(np.broadcast_to(np.asarray(v, dtype=float), kk.shape), nan=0.0)
-        tas_here = tas_leg[kk]
-        gs = tas_here + u * np.sin(track) + v * np.cos(track)
-        floor = GROUND_SPEED_FLOOR * tas_here
-        if np.any(gs < floor):
-            warn_plausibility(
-                f"route {route.name!r}: the wind exceeds "
-                f"{1 - GROUND_SPEED_FLOOR:.0%} of the true airspeed on "
-                f"{int(np.sum(gs < floor))} of {gs.size} parts; ground speed "
-                f"floored at {GROUND_SPEED_FLOOR:.0%} of it"
-            )
-        gs = np.maximum(gs, floor)
+        gs = _wind_ground_speed(
+            route, wp, legs, n, leg_sub, windy, rel, start, i_leg, sub_dur, wind
+        )
         sub_dur = sub_dur.copy()
         sub_dur[windy] = sub_path[windy] / gs
         gs_sub[windy] = gs
         rel, start = timeline(sub_dur)
-    if dep_override is not None:
-        start = dep_override
+    if wp["dep_override"] is not None:
+        start = wp["dep_override"]
+    return {"rel": rel, "start": start, "gs_sub": gs_sub, "leg_sub": leg_sub}
+
+
+def _wind_ground_speed(route, wp, legs, n, leg_sub, windy, rel, start, i_leg, sub_dur, wind):
+    """Ground speed of the windy leg parts: TAS plus the along-track wind, floored."""
+    lon, lat, alt = wp["lon"], wp["lat"], wp["alt"]
+    kk = leg_sub[windy]
+    j = (np.arange(leg_sub.size) - np.repeat(np.cumsum(n) - n, n))[windy]
+    f = (j + 0.5) / n[kk]
+    lo, la, back = _GEOD.fwd(lon[kk], lat[kk], legs["az12"][kk], f * legs["dist"][kk])
+    lo = (np.asarray(lo) + 180.0) % 360.0 - 180.0
+    track = np.radians(np.asarray(back) + 180.0)
+    interval_start = rel[:-1][i_leg][windy]
+    t_mid = start + interval_start + 0.5 * sub_dur[windy]
+    t_mid64 = np.round(t_mid * 1000.0).astype(np.int64).astype("datetime64[ms]")
+    z_mid = alt[kk] + f * legs["dz"][kk]
+    if route.altitude_reference == "agl":  # the wind is read by height above sea level
+        z_mid = z_mid + (route.ground_elevation_m or 0.0)
+    u, v = wind(np.asarray(la), lo, z_mid, t_mid64)
+    u = np.nan_to_num(np.broadcast_to(np.asarray(u, dtype=float), kk.shape), nan=0.0)
+    v = np.nan_to_num(np.broadcast_to(np.asarray(v, dtype=float), kk.shape), nan=0.0)
+    tas_here = legs["tas_leg"][kk]
+    gs = tas_here + u * np.sin(track) + v * np.cos(track)
+    floor = GROUND_SPEED_FLOOR * tas_here
+    if np.any(gs < floor):
+        warn_plausibility(
+            f"route {route.name!r}: the wind exceeds "
+            f"{1 - GROUND_SPEED_FLOOR:.0%} of the true airspeed on "
+            f"{int(np.sum(gs < floor))} of {gs.size} parts; ground speed "
+            f"floored at {GROUND_SPEED_FLOOR:.0%} of it"
+        )
+    return np.maximum(gs, floor)
+
+
+def _assemble(route, wp, legs, grid, pos, clock, tas_wp):
+    """Per-sample attributes (leg, waypoints, hold, airspeeds) and the RouteSamples."""
+    nl, n, name = legs["nl"], grid["n"], wp["name"]
+    owner, is_block, total = grid["owner"], grid["is_block"], grid["total"]
+    rel, start = clock["rel"], clock["start"]
     t_ms = np.round((start + rel) * 1000.0).astype(np.int64)
     times = t_ms.astype("datetime64[ms]")
     dt = 0.5 * (np.diff(rel, prepend=rel[0]) + np.diff(rel, append=rel[-1]))
-
-    # per-sample attributes
     last_leg = max(nl - 1, 0)
     s_leg = np.where(is_block, np.minimum(owner, last_leg), owner)
-    s_hold = is_block & (hold[owner] > 0)
+    s_hold = is_block & (wp["hold"][owner] > 0)
     if nl:
         wp_of_leg_from, wp_of_leg_to = name[s_leg], name[s_leg + 1]
-        tas_s = tas_leg[s_leg]
+        tas_s = legs["tas_leg"][s_leg]
         gs_leg = np.zeros(nl)
-        np.add.at(gs_leg, leg_sub, gs_sub)
+        np.add.at(gs_leg, clock["leg_sub"], clock["gs_sub"])
         gs_s = (gs_leg / np.maximum(n, 1))[s_leg]
     else:
         wp_of_leg_from = wp_of_leg_to = name[owner]
@@ -423,10 +496,10 @@ def sample_route(
     tas_s = np.nan_to_num(tas_s, nan=0.0)
     gs_s = np.where(s_hold, 0.0, gs_s)
     return RouteSamples(
-        lat=s_lat,
-        lon=(s_lon + 180.0) % 360.0 - 180.0,
-        altitude_m=s_alt,
-        distance_m=s_dist,
+        lat=pos["lat"],
+        lon=(pos["lon"] + 180.0) % 360.0 - 180.0,
+        altitude_m=pos["alt"],
+        distance_m=pos["dist"],
         time=times,
         tas=tas_s.astype(float),
         leg=s_leg.astype(np.int64),
@@ -436,7 +509,7 @@ def sample_route(
         dt_s=dt,
         altitude_reference=route.altitude_reference,
         route_name=route.name,
-        waypoint_distance_m=cum_h,
+        waypoint_distance_m=legs["cum_h"],
         waypoint_names=list(name),
         ground_elevation_m=route.ground_elevation_m,
         ground_speed=gs_s,

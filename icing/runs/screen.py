@@ -12,6 +12,7 @@ and a dry sounding are never blended.
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from types import SimpleNamespace
 
 import numpy as np
 
@@ -167,8 +168,8 @@ def screen_route(
         accretion_rate_mm_h=best(result.accretion_rate_mm_h)[:, :-1],
         ground_m=ground,
     )
-    return _screening(
-        route, forecast, airframe, samples, at, curtain, column_options, options, segment_prefix
+    return _assemble(
+        route, airframe, samples, at, curtain, forecast, column_options, options, segment_prefix
     )
 
 
@@ -230,29 +231,46 @@ def _read_off_targets(samples, colset, diag, ground, airframe, options):
     return {"state": state, "ci": ci, "alts_m": alts_m, "vref": vref, "flight": target_flight}
 
 
-def _screening(
-    route, forecast, airframe, samples, at, curtain, column_options, options, segment_prefix
+def _assemble(
+    route, airframe, samples, at, curtain, forecast, column_options, options, segment_prefix
 ):
-    """Build segments, candidate altitudes and the summary around the read-off results."""
-    from icing.hazards.avoidance import CANDIDATE_WORDING, annotate_segments
+    """Build the screening once: segments with their candidate altitudes, then the summary."""
+    from icing.hazards.avoidance import CANDIDATE_WORDING, segment_candidates
     from icing.hazards.segments import build_segments, route_summary
 
     limits = _altitude_limits(airframe, options)
-    screening = RouteScreening(
+    segments = build_segments(
+        route.name,
+        airframe.name,
+        samples,
+        at,
+        all_segments=options.all_segments,
+        id_prefix=segment_prefix,
+    )
+    segments, candidates = segment_candidates(
+        segments, curtain, samples=samples, at_flight=at, **limits
+    )
+    summary = route_summary(
+        SimpleNamespace(
+            route_name=route.name,
+            airframe_name=airframe.name,
+            samples=samples,
+            at_flight=at,
+            segments=segments,
+        ),
+        airframe=airframe,
+    )
+    summary["candidate_altitudes_ft"] = _summary_candidates(candidates, segments)
+    summary["candidate_altitudes_wording"] = CANDIDATE_WORDING
+    summary["caution"] = CAUTION
+    return RouteScreening(
         route_name=route.name,
         airframe_name=airframe.name,
         samples=samples,
         at_flight=at,
         curtain=curtain,
-        segments=build_segments(
-            route.name,
-            airframe.name,
-            samples,
-            at,
-            all_segments=options.all_segments,
-            id_prefix=segment_prefix,
-        ),
-        summary={},
+        segments=segments,
+        summary=summary,
         waypoints=[
             (str(name), float(d) / 1000.0)
             for name, d in zip(samples.waypoint_names, samples.waypoint_distance_m, strict=True)
@@ -261,15 +279,8 @@ def _screening(
         assumptions=_assumptions(column_options, options, forecast, airframe),
         ceiling_m=limits["ceiling_m"],
         max_agl_m=limits["max_agl_m"],
+        candidates=candidates,
     )
-    candidates = annotate_segments(screening, **limits, summary=False)
-    screening.summary = route_summary(screening, airframe=airframe)
-    screening.summary["candidate_altitudes_ft"] = _summary_candidates(
-        candidates, screening.segments
-    )
-    screening.summary["candidate_altitudes_wording"] = CANDIDATE_WORDING
-    screening.summary["caution"] = CAUTION
-    return screening
 
 
 def _at_flight(samples, colset, diag, state, result, sev_b, best, airframe, column_index):

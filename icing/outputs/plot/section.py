@@ -1,0 +1,559 @@
+"""The vertical cross-section of a screened route: one function per layer drawn.
+
+Distance along the route (waypoint names on the top axis) against altitude in
+feet: severity for the airframe (colour ramp plus hatch), coverage gaps, SLD,
+cloud outline, isotherms, the ground, the planned flight path with its icing
+stretches, the candidate altitudes, the axes and titles, the legend and the
+caution. Drawn with matplotlib's object API (no pyplot, no global state).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from matplotlib import patheffects
+from matplotlib.colors import BoundaryNorm, ListedColormap
+from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
+from matplotlib.patches import Patch
+
+from icing import codes
+from icing.constants import FT
+from icing.outputs.plot.style import (
+    CANDIDATE_COLOUR,
+    CLOUD_COLOUR,
+    GAP_FILL,
+    GAP_HATCH,
+    GAP_HATCH_COLOUR,
+    GAP_LABEL,
+    GROUND,
+    HATCH_COLOURS,
+    ISOTHERMS,
+    MARKERS,
+    SEVERITY_COLOURS,
+    SEVERITY_HATCHES,
+    SLD_COLOUR,
+    SLD_HATCH,
+    TEXT_BOX,
+    check_picture_path,
+    draw_caution,
+    props_of,
+    save,
+    severity_handles,
+    valid_times_text,
+)
+
+__all__ = ["plot_cross_section"]
+
+
+def _ground_ft(cur):
+    alt = np.asarray(cur.altitudes_m, dtype=float)
+    below = np.asarray(cur.below_ground, dtype=bool)
+    top_below = np.where(below, alt[None, :], -np.inf).max(axis=1)
+    g = np.asarray(cur.ground_m, dtype=float)
+    g = np.where(np.isfinite(g), g, top_below)
+    return np.where(np.isfinite(g), g, np.nan) / FT
+
+
+def _mask_fill(ax, x, y, mask, *, hatch, hatch_colour, zorder):
+    """Hatch the cells where ``mask`` is true (contour of the 0/1 field at 0.5)."""
+    if not mask.any():
+        return None
+    cs = ax.contourf(
+        x,
+        y,
+        mask.T.astype(float),
+        levels=[0.5, 1.5],
+        colors="none",
+        hatches=[hatch],
+        zorder=zorder,
+    )
+    if hasattr(cs, "set_hatchcolor"):
+        cs.set_hatchcolor(hatch_colour)
+    else:  # older matplotlib: the hatch takes the edge colour
+        cs.set_edgecolor(hatch_colour)
+    cs.set_linewidth(0.0)
+    cs.set_rasterized(True)  # fields as an image, lines and text stay vector (small SVG)
+    return cs
+
+
+def _runs(flags):
+    """(start, stop) index pairs of the runs of True in a 1-D bool array."""
+    f = np.r_[False, np.asarray(flags, dtype=bool), False]
+    edges = np.flatnonzero(np.diff(f.astype(int)))
+    return list(zip(edges[::2], edges[1::2], strict=True))
+
+
+def _flight_path(screening):
+    at = getattr(screening, "at_flight", None) or {}
+    samples = getattr(screening, "samples", None)
+    x = at.get("distance_km")
+    if x is None and samples is not None and getattr(samples, "distance_m", None) is not None:
+        x = np.asarray(samples.distance_m, dtype=float) / 1000.0
+    y = at.get("altitude_ft")
+    if y is None and samples is not None and getattr(samples, "altitude_m", None) is not None:
+        y = np.asarray(samples.altitude_m, dtype=float) / FT
+    if x is None or y is None:
+        return None, None
+    return np.asarray(x, dtype=float), np.asarray(y, dtype=float)
+
+
+def _candidate_runs(seg_props, join_km):
+    """Nearest clear candidates as runs: adjacent stretches with the same one are merged.
+
+    Returns a list of ``(side, altitude_ft, flight_level, start_km, end_km)``.
+    """
+    items = []
+    for p in seg_props:
+        opts = p.get("vertical_options") or {}
+        if p.get("kind") != "icing":
+            continue
+        for side in ("above", "below"):
+            o = opts.get(side)
+            if o and o.get("clear"):
+                items.append(
+                    (
+                        side,
+                        float(o["altitude_ft"]),
+                        o.get("flight_level"),
+                        float(p["start_km"]),
+                        float(p["end_km"]),
+                    )
+                )
+    items.sort(key=lambda t: (t[0], t[1], t[3]))
+    runs = []
+    for it in items:
+        last = runs[-1] if runs else None
+        if last and last[:2] == it[:2] and it[3] <= last[4] + join_km:
+            runs[-1] = (*last[:4], max(last[4], it[4]))
+        else:
+            runs.append(it)
+    return runs
+
+
+def _draw_candidates(ax, seg_props, x):
+    """Mark candidate ice-free altitudes; return True when any was drawn.
+
+    Every clear altitude of a stretch is a short tick at its middle; the nearest
+    clear altitudes above and below are a dashed line across the stretch (one per
+    run of adjacent stretches sharing it) with a triangle and a label.
+    """
+    drawn = False
+    for p in seg_props:
+        alts = p.get("ice_free_altitudes_ft") or []
+        if p.get("kind") != "icing" or not alts:
+            continue
+        mid = 0.5 * (float(p["start_km"]) + float(p["end_km"]))
+        ax.plot(
+            np.full(len(alts), mid),
+            alts,
+            linestyle="none",
+            marker="_",
+            markersize=9,
+            markeredgewidth=1.6,
+            color=CANDIDATE_COLOUR,
+            zorder=9,
+        )
+        drawn = True
+    spacing = float(np.median(np.diff(x))) if x.size > 1 else 0.0
+    for side, h, fl, a, b in _candidate_runs(seg_props, join_km=2.5 * spacing):
+        mid = 0.5 * (a + b)
+        up = side == "above"
+        ax.hlines(
+            [h],
+            a,
+            max(b, a + 1e-3),
+            colors=CANDIDATE_COLOUR,
+            linewidths=1.2,
+            linestyles=[(0, (2, 2))],
+            zorder=6,
+        )
+        ax.plot(
+            [mid],
+            [h],
+            marker="^" if up else "v",
+            markersize=7,
+            color=CANDIDATE_COLOUR,
+            markeredgecolor="black",
+            zorder=9,
+        )
+        ax.annotate(
+            f"{h:.0f} ft" if fl is None else f"FL{int(fl):03d}",
+            (mid, h),
+            xytext=(0, 5 if up else -5),
+            textcoords="offset points",
+            ha="center",
+            va="bottom" if up else "top",
+            fontsize=6,
+            color="black",
+            zorder=9,
+            bbox=TEXT_BOX,
+        )
+        drawn = True
+    return drawn
+
+
+def _altitude_top_ft(y, fy, seg_props):
+    """Top of the picture [ft]: enough above the path and the candidates, within the curtain."""
+    top = float(y[-1])
+    if fy is None or not np.isfinite(fy).any():
+        return top
+    high = float(np.nanmax(fy))
+    want = max(3.0 * high, high + 3000.0)
+    for p in seg_props:
+        for o in (p.get("vertical_options") or {}).values():
+            if isinstance(o, dict) and o.get("altitude_ft") is not None:
+                want = max(want, float(o["altitude_ft"]) + 1000.0)
+    return max(min(top, want), high + 500.0)  # the path is always inside
+
+
+def _label_gaps(ax, x, y, gap, y_bottom, y_top):
+    """Label each stretch of coverage gap once, on its tallest visible band."""
+    span = x[-1] - x[0] if x.size > 1 else 1.0
+    runs = _runs(gap.any(axis=1))
+    if not runs:
+        return
+    widest = max(runs, key=lambda r: x[r[1] - 1] - x[r[0]])
+    visible = (y >= y_bottom) & (y <= y_top)
+    for a, b in runs:
+        width = x[b - 1] - x[a]
+        if width < 0.015 * span and (a, b) != widest:
+            continue  # too narrow to carry a label; the legend names the pattern
+        bands = _runs(gap[a:b].any(axis=0) & visible)
+        if not bands:
+            continue
+        lo, hi = max(bands, key=lambda r: r[1] - r[0])
+        ax.text(
+            0.5 * (x[a] + x[b - 1]),
+            0.5 * (y[lo] + y[hi - 1]),
+            GAP_LABEL,
+            rotation=90 if width < 0.25 * span and (hi - lo) > 3 else 0,
+            ha="center",
+            va="center",
+            fontsize=7,
+            zorder=6,
+            gid="gap-label",
+            clip_on=True,
+            bbox={
+                "facecolor": "white",
+                "edgecolor": "#444444",
+                "alpha": 0.9,
+                "boxstyle": "round,pad=0.25",
+                "linewidth": 0.6,
+            },
+        )
+
+
+def plot_cross_section(
+    screening, path, *, title=None, figsize=(11.0, 6.5), dpi=150, candidates=True, ylim_ft=None
+):
+    """Draw the route's vertical cross-section and write it as PNG or SVG.
+
+    Distance along the route (waypoint names on the top axis) against altitude
+    in feet: the severity for the airframe's reference collector at every
+    altitude (``curtain.severity``; colour ramp plus hatch per severity), the
+    0, -10 and -20 degC isotherms (labelled), the cloud outline (bases and
+    tops), SLD areas (circle hatches), coverage gaps (grey, hatched, labelled),
+    the ground, the planned flight path with its icing stretches highlighted
+    (thick line and a marker shape per severity), the candidate ice-free
+    altitudes of each icing segment (``ice_free_altitudes_ft``), a title with
+    route, airframe and forecast valid times, and the caution.
+
+    Parameters
+    ----------
+    screening : icing.results.RouteScreening
+    path : str or pathlib.Path
+        Output file; ``.png`` or ``.svg``.
+    title : str, optional
+        Replaces the first title line (route and airframe).
+    figsize : (float, float)
+        Figure size. [in]
+    dpi : float
+        Resolution of PNG output. [1/in]
+    candidates : bool
+        Draw the candidate ice-free altitudes from the segment properties.
+    ylim_ft : (float, float), optional
+        Altitude range shown. [ft] Default: the curtain's bottom to its top, or
+        for low flights (drones) to three times the highest planned altitude,
+        at least 3,000 ft above it and above the nearest candidates.
+
+    Returns
+    -------
+    pathlib.Path
+        The file written (written to a temporary file and renamed).
+
+    Raises
+    ------
+    InputError
+        When the suffix is not ``.png``/``.svg`` or the folder does not exist.
+    """
+    path, fmt = check_picture_path(path)
+    cur = screening.curtain
+    x = np.asarray(cur.distance_km, dtype=float)
+    y = np.asarray(cur.altitudes_m, dtype=float) / FT
+    sev = np.asarray(cur.severity)
+    below = np.asarray(cur.below_ground, dtype=bool)
+    gap = (sev == codes.GAP) & ~below
+
+    fig = Figure(figsize=figsize)
+    pressure = getattr(cur, "altitude_reference", "msl") == "pressure"
+    ax = fig.add_axes([0.075, 0.2, 0.62 if pressure else 0.66, 0.62])
+    _draw_severity(ax, x, y, sev)
+    _draw_gaps(ax, x, y, gap)
+    _draw_sld(ax, x, y, np.asarray(cur.sld_class), below)
+    _draw_cloud(ax, x, y, np.asarray(cur.cloud, dtype=bool) & ~below)
+    _draw_isotherms(ax, x, y, np.where(below, np.nan, np.asarray(cur.temperature_c, float)))
+    _draw_ground(ax, x, y, _ground_ft(cur))
+    fx, fy = _flight_path(screening)
+    seg_props = [props_of(f) for f in (getattr(screening, "segments", None) or [])]
+    if fx is not None:
+        _draw_flight_path(ax, fx, fy, seg_props)
+    have_candidates = _draw_candidates(ax, seg_props, x) if candidates else False
+    ax.set_xlim(x[0], x[-1])
+    y_top = _altitude_top_ft(y, fy, seg_props) if ylim_ft is None else float(ylim_ft[1])
+    y_bottom = y[0] if ylim_ft is None else float(ylim_ft[0])
+    ax.set_ylim(y_bottom, y_top)
+    _label_gaps(ax, x, y, gap, y_bottom, y_top)
+    _draw_axes(ax, pressure, list(getattr(screening, "waypoints", None) or []))
+    _draw_titles(fig, screening, title)
+    _draw_legend(ax, pressure, have_candidates)
+    draw_caution(fig, figsize[0])
+    return save(fig, path, fmt, dpi)
+
+
+def _draw_severity(ax, x, y, sev):
+    """Severity fill (cells as they are: nearest shading) and its hatches."""
+    shown = np.ma.masked_where(sev < codes.SEV_TRACE, sev)
+    cmap = ListedColormap([SEVERITY_COLOURS[k] for k in (1, 2, 3, 4)])
+    norm = BoundaryNorm([0.5, 1.5, 2.5, 3.5, 4.5], cmap.N)
+    ax.pcolormesh(
+        x, y, shown.T, cmap=cmap, norm=norm, shading="nearest", zorder=1, rasterized=True
+    )
+    for k in (codes.SEV_LIGHT, codes.SEV_MODERATE, codes.SEV_SEVERE):
+        _mask_fill(
+            ax, x, y, sev == k, hatch=SEVERITY_HATCHES[k], hatch_colour=HATCH_COLOURS[k], zorder=2
+        )
+
+
+def _draw_gaps(ax, x, y, gap):
+    """Coverage gaps: grey, hatched (labelled later, once the limits are known)."""
+    if not gap.any():
+        return
+    ax.pcolormesh(
+        x,
+        y,
+        np.ma.masked_where(~gap, np.ones(gap.shape)).T,
+        cmap=ListedColormap([GAP_FILL]),
+        vmin=0,
+        vmax=2,
+        shading="nearest",
+        zorder=1,
+        rasterized=True,
+    )
+    _mask_fill(ax, x, y, gap, hatch=GAP_HATCH, hatch_colour=GAP_HATCH_COLOUR, zorder=2)
+
+
+def _draw_sld(ax, x, y, sld, below):
+    """SLD areas: circle hatches with a dashed outline."""
+    for cls, hatch in SLD_HATCH.items():
+        m = (sld == cls) & ~below
+        if _mask_fill(ax, x, y, m, hatch=hatch, hatch_colour=SLD_COLOUR, zorder=3):
+            ax.contour(
+                x,
+                y,
+                m.T.astype(float),
+                levels=[0.5],
+                colors=SLD_COLOUR,
+                linewidths=1.0,
+                linestyles=[(0, (3, 1.5))],
+                zorder=3,
+            )
+
+
+def _draw_cloud(ax, x, y, cloud):
+    """Cloud outline (bases and tops)."""
+    if cloud.any() and not cloud.all():
+        ax.contour(
+            x,
+            y,
+            cloud.T.astype(float),
+            levels=[0.5],
+            colors=CLOUD_COLOUR,
+            linewidths=1.3,
+            linestyles=[(0, (6, 2, 1, 2))],
+            zorder=4,
+        )
+
+
+def _draw_isotherms(ax, x, y, temp):
+    """Isotherms 0, -10, -20 degC, labelled (none where the temperature is unknown)."""
+    finite = np.isfinite(temp)
+    if not finite.any():
+        return
+    tmin, tmax = temp[finite].min(), temp[finite].max()
+    levels = sorted(lv for lv in ISOTHERMS if tmin < lv < tmax)
+    if not levels:
+        return
+    cs = ax.contour(
+        x,
+        y,
+        temp.T,
+        levels=levels,
+        colors="#151515",
+        linestyles=[ISOTHERMS[lv][0] for lv in levels],
+        linewidths=[ISOTHERMS[lv][1] for lv in levels],
+        zorder=4,
+    )
+    ax.clabel(cs, fmt={lv: f"{lv:d} \u00b0C" for lv in levels}, fontsize=7, inline=True)
+
+
+def _draw_ground(ax, x, y, g):
+    """Draw the ground under the route (filled, with its outline)."""
+    if np.isfinite(g).any():
+        ax.fill_between(
+            x, y[0], np.where(np.isfinite(g), g, y[0]), color=GROUND, zorder=5, linewidth=0
+        )
+        ax.plot(x, g, color="black", linewidth=1.2, zorder=5)
+
+
+def _draw_flight_path(ax, fx, fy, seg_props):
+    """Draw the planned flight path, its coverage gaps dashed, its icing stretches marked."""
+    halo = [patheffects.withStroke(linewidth=4.0, foreground="white")]
+    ax.plot(fx, fy, color="black", linewidth=1.5, zorder=7, path_effects=halo)
+    for p in seg_props:
+        inside = (fx >= float(p.get("start_km", np.inf)) - 1e-9) & (
+            fx <= float(p.get("end_km", -np.inf)) + 1e-9
+        )
+        if not inside.any():
+            continue
+        if p.get("kind") == "coverage-gap":
+            ax.plot(
+                fx[inside],
+                fy[inside],
+                color=GAP_HATCH_COLOUR,
+                linewidth=3.0,
+                linestyle=(0, (3, 2)),
+                zorder=8,
+            )
+        elif p.get("kind") == "icing" and p.get("severity") in codes.SEVERITY[1:]:
+            k = codes.severity_code(p["severity"])
+            ax.plot(
+                fx[inside],
+                fy[inside],
+                color="black",
+                linewidth=4.0,
+                zorder=8,
+                marker=MARKERS[k],
+                markersize=6,
+                markerfacecolor=SEVERITY_COLOURS[k],
+                markeredgecolor="black",
+                markeredgewidth=0.8,
+                markevery=max(1, int(inside.sum()) // 4),
+                path_effects=[patheffects.withStroke(linewidth=6.0, foreground="white")],
+            )
+
+
+def _draw_axes(ax, pressure, wps):
+    """Axis labels, the flight-level axis and the waypoints on the top axis."""
+    ax.set_xlabel("distance along the route [km]")
+    ax.set_ylabel("pressure altitude [ft]" if pressure else "altitude [ft MSL]")
+    if pressure:
+        sec = ax.secondary_yaxis("right", functions=(lambda v: v / 100.0, lambda v: v * 100.0))
+        sec.set_ylabel("flight level")
+    if wps:
+        top = ax.secondary_xaxis("top")
+        top.set_xticks(
+            [float(d) for _, d in wps],
+            labels=[str(n) for n, _ in wps],
+            fontsize=7,
+            rotation=30,
+            ha="left",
+        )
+        for _, d in wps:
+            ax.axvline(float(d), color="#777777", linewidth=0.5, linestyle=":", zorder=4)
+
+
+def _draw_titles(fig, screening, title):
+    """Title (route and airframe) and the subtitle with the forecast valid times."""
+    head = title or f"{screening.route_name} \u2014 {screening.airframe_name}"
+    vt = valid_times_text(getattr(screening, "provenance", None))
+    sub = "icing severity cross-section (reference collector)"
+    if vt:
+        sub += f"; forecast valid {vt}"
+    fig.text(0.075, 0.965, head, fontsize=11, weight="bold", va="top", gid="title")
+    fig.text(0.075, 0.925, sub, fontsize=8, va="top")
+
+
+def _draw_legend(ax, pressure, have_candidates):
+    """Draw the legend: severities, gaps, SLD, ground, cloud, isotherms, path, candidates."""
+    handles = (
+        severity_handles()
+        + [
+            Patch(
+                facecolor=GAP_FILL, edgecolor=GAP_HATCH_COLOUR, hatch=GAP_HATCH, label=GAP_LABEL
+            ),
+            Patch(
+                facecolor="white",
+                edgecolor=SLD_COLOUR,
+                hatch=SLD_HATCH[codes.SLD_DRIZZLE],
+                label="SLD: freezing drizzle",
+            ),
+            Patch(
+                facecolor="white",
+                edgecolor=SLD_COLOUR,
+                hatch=SLD_HATCH[codes.SLD_RAIN],
+                label="SLD: freezing rain",
+            ),
+            Patch(facecolor=GROUND, edgecolor="black", label="ground"),
+            Line2D(
+                [], [], color=CLOUD_COLOUR, linestyle=(0, (6, 2, 1, 2)), label="cloud base / top"
+            ),
+        ]
+        + [
+            Line2D([], [], color="#151515", linestyle=ls, linewidth=lw, label=f"{lv} \u00b0C")
+            for lv, (ls, lw) in ISOTHERMS.items()
+        ]
+        + [
+            Line2D([], [], color="black", linewidth=1.5, label="planned flight path"),
+            Line2D(
+                [],
+                [],
+                color="black",
+                linewidth=4.0,
+                marker="s",
+                markerfacecolor=SEVERITY_COLOURS[2],
+                label="icing on the path (marker = severity)",
+            ),
+        ]
+    )
+    if have_candidates:
+        handles += [
+            Line2D(
+                [],
+                [],
+                color=CANDIDATE_COLOUR,
+                linestyle="none",
+                marker="_",
+                markersize=9,
+                markeredgewidth=1.6,
+                label="candidate ice-free altitude\n(check against official advisories)",
+            ),
+            Line2D(
+                [],
+                [],
+                color=CANDIDATE_COLOUR,
+                linestyle=(0, (2, 2)),
+                marker="^",
+                markeredgecolor="black",
+                label="nearest candidate above / below",
+            ),
+        ]
+    leg = ax.legend(
+        handles=handles,
+        loc="upper left",
+        bbox_to_anchor=(1.09 if pressure else 1.015, 1.0),
+        fontsize=6.5,
+        frameon=True,
+        borderaxespad=0.0,
+        handlelength=2.4,
+    )
+    leg.set_gid("legend")
