@@ -37,6 +37,7 @@ __all__ = [
     "parse_station",
     "sounding_format",
     "read_sounding",
+    "read_sounding_text",
     "check_site_used",
 ]
 
@@ -83,9 +84,7 @@ def _head(path):
         return fh.read(_HEAD_BYTES).decode("latin-1")
 
 
-def sounding_format(path):
-    """Return the sounding format of a file by its content (:data:`SOUNDING_FORMATS`) or None."""
-    head = _head(path)
+def _format_of(head):
     if looks_like_igra2(head):
         return "igra2"
     if looks_like_csv(head):
@@ -93,6 +92,11 @@ def sounding_format(path):
     if looks_like_text(head):
         return "wyoming-text"
     return None
+
+
+def sounding_format(path):
+    """Return the sounding format of a file by its content (:data:`SOUNDING_FORMATS`) or None."""
+    return _format_of(_head(path))
 
 
 def read_sounding(path, *, site=None):
@@ -111,18 +115,22 @@ def read_sounding(path, *, site=None):
     ------
     ForecastError
         One line naming the file, the line and the fix: an unknown format, a field
-        that is not a number, a repeated header, pressure not decreasing with
+        that is not a number, repeats that disagree, pressure not decreasing with
         height, no position or time, no level above the station.
     """
     path = Path(path)
-    kind = sounding_format(path)
-    if kind is None:
+    return read_sounding_text(path.read_bytes().decode("latin-1"), path=path, site=site)
+
+
+def read_sounding_text(text, *, path="<text>", site=None, kind=None):
+    """Read a sounding given as text (see :func:`read_sounding`); ``kind`` as sniffed."""
+    kind = kind or _format_of(text[:_HEAD_BYTES])
+    if kind not in SOUNDING_FORMATS:
         raise ForecastError(
             "not a sounding file",
             path=path,
             fix="give a University of Wyoming text list or CSV, or an IGRA2 data file",
         )
-    text = path.read_bytes().decode("latin-1")
     notes = []
     if kind == "igra2":
         raws, notes = parse_igra2(text, path)

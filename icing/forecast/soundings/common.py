@@ -65,6 +65,7 @@ __all__ = [
     "GROUND_ALLOWANCE_M",
     "POSITION_TOLERANCE_KM",
     "MAX_SOUNDINGS",
+    "REPEAT_TOLERANCE",
     "number",
     "wind_components",
 ]
@@ -75,6 +76,10 @@ KNOT = 1852.0 / 3600.0
 GROUND_ALLOWANCE_M = 50.0
 #: how far the --station position may lie from the position the file gives [km]
 POSITION_TOLERANCE_KM = 10.0
+#: repeats of one pressure farther apart than this are refused, not merged: 1 C is ten
+#: times the reporting step of temperature, 50 m several times the difference of the
+#: archive's height-indexed wind levels from the pressure level they round to
+REPEAT_TOLERANCE = {"temperature_c": 1.0, "height_m": 50.0}
 #: the most soundings one file may bring (each is a candidate column in memory)
 MAX_SOUNDINGS = 2000
 HUMIDITY_NOTE = (
@@ -136,6 +141,8 @@ def number(text, *, path, where, missing=(), fix="give a number or leave the fie
     if not _NUMBER.match(s):
         raise ForecastError(f"{s!r} is not a number", path=path, where=where, fix=fix)
     v = float(s)
+    if not np.isfinite(v):  # e.g. hundreds of digits
+        raise ForecastError(f"{s[:20]!r}... is out of range", path=path, where=where, fix=fix)
     return np.nan if v in missing else v
 
 
@@ -161,7 +168,7 @@ class RawSounding:
     where: str
     """Place of the ascent in the file, for messages (``line 1``, ``lines 5-139``)."""
     lines: np.ndarray
-    """File line of every level (int)."""
+    """File line of every level (int); for files without lines, the level's index."""
     pressure_hpa: np.ndarray
     """Pressure of every level [hPa]; NaN only where the reader keeps such a level."""
     height_m: np.ndarray
@@ -192,6 +199,8 @@ class RawSounding:
     """Humidity to take where a level reports both: "dewpoint" or "relative_humidity"."""
     notes: tuple = field(default_factory=tuple)
     """What the reader did that the user should know."""
+    place: str = "line"
+    """What ``lines`` count, for messages (``"line"``, ``"profile 3, level"``)."""
 
 
 # ------------------------------------------------------------------ position and time
@@ -204,9 +213,9 @@ def _geodesic_km(lat1, lon1, lat2, lon2):
 
 
 def _place_and_time(raw, site, path):
-    """Position, elevation and time of one ascent: the file's, else the options'."""
+    """Position, elevation and time of one ascent (the file's, else the options'), notes."""
     site = site or SoundingSite()
-    lat, lon = raw.lat, raw.lon
+    lat, lon, notes = raw.lat, raw.lon, []
     if lat is None or lon is None:
         if not site.has_position:
             raise ForecastError(
@@ -216,6 +225,7 @@ def _place_and_time(raw, site, path):
                 fix="give --station LAT,LON,ELEV_M (e.g. --station=43.56,-116.21,874)",
             )
         lat, lon = site.lat, site.lon
+        notes.append("position from --station")
     elif site.has_position:
         d = _geodesic_km(lat, lon, site.lat, site.lon)
         if d > POSITION_TOLERANCE_KM:
@@ -226,6 +236,7 @@ def _place_and_time(raw, site, path):
                 where=raw.where,
                 fix="drop --station (the file's position is used) or check the file",
             )
+        notes.append("position from the file (--station agrees within 10 km)")
     elev = raw.elevation_m if raw.elevation_m is not None else site.elevation_m
     t = raw.time if raw.time is not None else site.time
     if t is None:
@@ -235,7 +246,11 @@ def _place_and_time(raw, site, path):
             where=raw.where,
             fix="give --time ISO8601 (e.g. --time 2010-12-09T12:00Z)",
         )
-    return float(lat), float(lon), elev, np.datetime64(t, "ms")
+    if raw.time is None:
+        notes.append("observation time from --time")
+    elif site.time is not None and site.time != raw.time:
+        notes.append("observation time from the file (--time not used for it)")
+    return float(lat), float(lon), elev, np.datetime64(t, "ms"), notes
 
 
 # ------------------------------------------------------------------ levels
@@ -254,24 +269,41 @@ def _level_arrays(raw):
 
 
 def _drop_repeats(raw, arrays, lines, path):
-    """Keep one of consecutive levels at the same pressure (most values, then first)."""
+    """Keep one of consecutive levels at the same pressure (most values, then the first).
+
+    Repeats that disagree (temperature or height apart by more than
+    :data:`REPEAT_TOLERANCE`) are refused: which one is right cannot be told.
+    """
     p = arrays["pressure_hpa"]
-    filled = np.sum([np.isfinite(a) for a in arrays.values()], axis=0)
+    same = np.concatenate([[False], p[1:] == p[:-1]])  # level at the pressure of the one before
     keep = np.ones(p.size, bool)
+    if not same.any():
+        return keep, []
+    group = np.cumsum(~same) - 1
+    filled = np.sum([np.isfinite(a) for a in arrays.values()], axis=0)
     notes = []
-    k = 0
-    while k < p.size:
-        j = k
-        while j + 1 < p.size and p[j + 1] == p[k]:
-            j += 1
-        if j > k:
-            group = np.arange(k, j + 1)
-            best = group[np.argmax(filled[group])]  # argmax: the first of equals
-            keep[group] = False
-            keep[best] = True
-            others = ", ".join(str(int(lines[g])) for g in group if g != best)
-            notes.append(f"{p[k]:g} hPa repeated: line {int(lines[best])} kept, {others} left out")
-        k = j + 1
+    for g in np.unique(group[same]):  # only the few pressures given more than once
+        idx = np.flatnonzero(group == g)
+        for name, tol in REPEAT_TOLERANCE.items():
+            v = arrays[name][idx]
+            v = v[np.isfinite(v)]
+            if v.size > 1 and v.max() - v.min() > tol:
+                what = name.split("_")[0]
+                raise ForecastError(
+                    f"{p[idx[0]]:g} hPa given {idx.size} times with different {what}s "
+                    f"({', '.join(f'{x:g}' for x in v)})",
+                    path=path,
+                    where=f"{raw.place}s {', '.join(str(int(lines[i])) for i in idx)}, "
+                    f"{raw.columns[name]}",
+                    fix="remove the wrong line",
+                )
+        best = idx[np.argmax(filled[idx])]  # argmax: the first of equals
+        keep[idx] = False
+        keep[best] = True
+        others = ", ".join(str(int(lines[i])) for i in idx if i != best)
+        notes.append(
+            f"{p[best]:g} hPa repeated: {raw.place} {int(lines[best])} kept, {others} left out"
+        )
     return keep, notes
 
 
@@ -284,7 +316,7 @@ def _check_decreasing(raw, p, z, lines, path):
             f"pressure {p[k]:g} hPa is not below the {p[k - 1]:g} hPa of the level before: "
             "pressure must decrease with height",
             path=path,
-            where=f"line {int(lines[k])}, {raw.columns['pressure_hpa']}",
+            where=f"{raw.place} {int(lines[k])}, {raw.columns['pressure_hpa']}",
             fix="list the levels from the surface up, each once",
         )
     known = np.flatnonzero(np.isfinite(z))
@@ -295,7 +327,7 @@ def _check_decreasing(raw, p, z, lines, path):
             f"height {z[k]:g} m at {p[k]:g} hPa is below a lower-pressure level's: "
             "pressure must decrease with height",
             path=path,
-            where=f"line {int(lines[k])}, {raw.columns['height_m']}",
+            where=f"{raw.place} {int(lines[k])}, {raw.columns['height_m']}",
             fix="check the heights and pressures of these levels",
         )
 
@@ -340,27 +372,25 @@ def _fill_heights(p_hpa, t_c, rh_pct, z):
     if not missing.any() or known.size == 0:
         return z, 0
     tk = fill_along_levels(t_c) + T0
-    with np.errstate(invalid="ignore"):
+    with np.errstate(all="ignore"):  # implausible values are refused by the table checks
         q = specific_humidity_from_relative_humidity(p_hpa * 100.0, tk, rh_pct / 100.0)
-    zh = height_from_pressure_hypsometric(p_hpa * 100.0, tk, specific_humidity=np.nan_to_num(q))
+        zh = height_from_pressure_hypsometric(
+            p_hpa * 100.0, tk, specific_humidity=np.nan_to_num(q)
+        )
     idx = np.arange(z.size)
     below = np.maximum.accumulate(np.where(~missing, idx, -1))  # last reported at or below
     above = np.minimum.accumulate(np.where(~missing, idx, z.size)[::-1])[::-1]
     has_b, has_a = below >= 0, above < z.size
     b, a = np.clip(below, 0, z.size - 1), np.clip(above, 0, z.size - 1)
-    with np.errstate(invalid="ignore", divide="ignore"):
+    with np.errstate(all="ignore"):
         scale = np.where(has_b & has_a & (a > b), (z[a] - z[b]) / (zh[a] - zh[b]), 1.0)
-    out = np.where(
-        has_b,
-        z[b] + (zh - zh[b]) * scale,
-        z[a] - (zh[a] - zh),
-    )
+        out = np.where(has_b, z[b] + (zh - zh[b]) * scale, z[a] - (zh[a] - zh))
     return np.where(missing, out, z), int(missing.sum())
 
 
 def _humidity_pct(raw, t, td, rh):
     """Relative humidity over water [%] per level from what the level reports."""
-    with np.errstate(invalid="ignore"):
+    with np.errstate(all="ignore"):  # implausible values are refused by the table checks
         from_td = 100.0 * relative_humidity_from_dewpoint(t + T0, td + T0)
     if raw.prefer == "dewpoint":
         return np.where(np.isfinite(from_td), from_td, rh)
@@ -369,10 +399,10 @@ def _humidity_pct(raw, t, td, rh):
 
 def _clean(raw, site, path):
     """One ascent -> (profile dict for the table, file line per level, notes)."""
-    lat, lon, elev, t = _place_and_time(raw, site, path)
+    lat, lon, elev, t, notes = _place_and_time(raw, site, path)
     arrays = _level_arrays(raw)
     lines = np.asarray(raw.lines)
-    notes = list(raw.notes)
+    notes += list(raw.notes)
     keep, rep = _drop_repeats(raw, arrays, lines, path)
     notes += rep
     arrays = {k: v[keep] for k, v in arrays.items()}
@@ -436,7 +466,7 @@ def _none_for_nan(a):
     return [None if not np.isfinite(v) else float(v) for v in a]
 
 
-def to_table(raws, site, path, *, kind, sources, notes=()):
+def to_table(raws, site, path, *, kind, sources, notes=(), humidity_note=HUMIDITY_NOTE):
     """Clean every ascent and build one :class:`~icing.forecast.readers.ProfileTable`.
 
     Parameters
@@ -454,6 +484,8 @@ def to_table(raws, site, path, *, kind, sources, notes=()):
         ``"TEMP [C]"``).
     notes : sequence of str
         Notes about the whole file.
+    humidity_note : str
+        The humidity convention, for the provenance (radiosondes: over water).
     """
     if not raws:
         raise ForecastError(
@@ -477,7 +509,7 @@ def to_table(raws, site, path, *, kind, sources, notes=()):
         label = columns[i].get(_FIELD_OF.get(name, name), name)
         if k is None:
             return f"{raws[i].where}, {label}"
-        return f"line {int(lines[i][k])}, {label}"
+        return f"{raws[i].place} {int(lines[i][k])}, {label}"
 
     table = _build_table(profiles, path, locate, None)
     src = {
@@ -486,7 +518,7 @@ def to_table(raws, site, path, *, kind, sources, notes=()):
     src["relative_humidity"] = sources.get("relative_humidity", "relative humidity over water")
     src["surface_height"] = "the ascent's surface level (else the station elevation)"
     src["surface_pressure"] = "the ascent's surface level"
-    return replace(table, notes=all_notes + table.notes + [HUMIDITY_NOTE], sources=src)
+    return replace(table, notes=all_notes + table.notes + [humidity_note], sources=src)
 
 
 #: table field of the checks -> RawSounding column key used for messages
