@@ -9,7 +9,11 @@ Real data (tests/data/real/README.md gives origin and licence of each file):
 - ``OUN_2013-01-20T12Z_wyoming_text.txt``: Norman, 2013-01-20 12 UTC, MetPy's
   ``staticdata/jan20_sounding.txt``;
 - ``IGRA2_USM00070026-data_2010-06.txt``: Utqiagvik (Barrow), 2010-06-01 00 and
-  12 UTC, NOAA IGRA2, from siphon 0.11.0 (``tests/fixtures/igra2_sounding``).
+  12 UTC, NOAA IGRA2, from siphon 0.11.0 (``tests/fixtures/igra2_sounding``);
+- ``GFS_2015-06-12T15Z_40N105W_ncss_profile.nc`` (and ``_nc4``): a THREDDS NetCDF
+  Subset Service point request on GFS 0.5 degree, 40 N 105 W, 2015-06-12 15 UTC,
+  CF featureType timeSeriesProfile, from siphon 0.11.0
+  (``tests/fixtures/ncss_gfs_netcdf_point``, ``ncss_gfs_netcdf4_point``).
 
 Every expected number below is read off the raw file (named beside it) or derived
 from it; pages and files built here around the real tables (a title, a station
@@ -47,6 +51,8 @@ BOI_TEXT = REAL / "BOI_2010-12-09T12Z_wyoming_text.txt"
 BOI_CSV = REAL / "BOI_2010-12-09T12Z_wyoming.csv"
 OUN_TEXT = REAL / "OUN_2013-01-20T12Z_wyoming_text.txt"
 IGRA = REAL / "IGRA2_USM00070026-data_2010-06.txt"
+NCSS = REAL / "GFS_2015-06-12T15Z_40N105W_ncss_profile.nc"
+NCSS4 = REAL / "GFS_2015-06-12T15Z_40N105W_ncss_profile_nc4.nc"
 #: Boise station: 43.56 N 116.21 W from the archive's CSV of this ascent (every row),
 #: 874 m the height of the ascent's surface level (919 hPa) in both files
 BOI_OPTIONS = ["--station=43.56,-116.21,874", "--time", "2010-12-09T12:00Z"]
@@ -115,6 +121,10 @@ def test_formats_told_apart_by_content(tmp_path):
     assert sounding_format(OUN_TEXT) == "wyoming-text"
     assert sounding_format(BOI_CSV) == "wyoming-csv"
     assert sounding_format(IGRA) == "igra2"
+    assert sounding_format(NCSS) == "cf-profile"  # NetCDF classic
+    assert sounding_format(NCSS4) == "cf-profile"  # NetCDF-4 / HDF5
+    demo = Path(__file__).parents[1] / "icing" / "data" / "demo" / "skerrow-demo.nc"
+    assert sounding_format(demo) is None  # a grid stays a grid
     # the extension does not matter
     moved = tmp_path / "sounding.dat"
     moved.write_bytes(IGRA.read_bytes())
@@ -486,6 +496,89 @@ def test_load_forecast_reads_soundings_beside_profile_files():
     fc = load_forecast([IGRA, BOI_CSV])
     assert fc.table.size == 3
     assert fc.describe()["kind"] == "profiles"
+
+
+# ------------------------------------------------------------------ CF profiles (NCSS)
+
+
+def test_ncss_profile_without_a_surface_is_refused(capsys, tmp_path):
+    """The NCSS file has no surface: its lowest levels are the model's extrapolation.
+
+    Raw file: relative humidity is 73.6 % on each of the six levels 1000-850 hPa
+    (the model's values carried below the ground at 40 N 105 W); with no surface
+    pressure and no heights they cannot be told from air, so the read is refused.
+    """
+    import netCDF4
+
+    with netCDF4.Dataset(NCSS) as nc:
+        p = nc["isobaric3"][0, 0, :]
+        rh = nc["Relative_humidity_isobaric"][0, 0, :]
+    assert np.all(rh[p >= 85000.0] == np.float32(73.6))
+    route = _near(tmp_path, 40.0, -105.0, "2015-06-12T15:00:00Z")
+    err = _refused(capsys, tmp_path, ["screen", route, "--forecast", NCSS])
+    assert "levels below the ground cannot be told apart" in err and "Pressure_surface" in err
+
+
+def _ncss_with_surface(tmp_path, pressure_pa):
+    """The real NCSS file plus a surface pressure (an invented value of this test)."""
+    import xarray as xr
+
+    with xr.open_dataset(NCSS) as ds:
+        ds = ds.load()
+    ds["Pressure_surface"] = (("station", "profile"), np.array([[pressure_pa]], "f4"))
+    ds["Pressure_surface"].attrs["units"] = "Pa"
+    path = tmp_path / "ncss-with-surface.nc"
+    ds.to_netcdf(path)
+    return path
+
+
+def test_ncss_profile_read_with_a_surface_pressure(tmp_path):
+    """Values of the raw NCSS file; the 835 hPa surface is the test's own, not the file's."""
+    tab = read_sounding(_ncss_with_surface(tmp_path, 83500.0))
+    assert (tab.lat[0], tab.lon[0]) == (40.0, -105.0)
+    assert tab.time[0] == np.datetime64("2015-06-12T15:00")  # 3 "Hour since" 12 UTC
+    p = _hpa(tab)
+    assert p[0] == 800.0 and p[-1] == 10.0 and p.size == 20  # 1000-850 hPa dropped
+    assert tab.scalars["surface_pressure"][0] == 83500.0
+    # 700 hPa: Temperature_isobaric 278.4 K, Relative_humidity_isobaric 72.5 %
+    assert _level(tab, 700.0, "temperature") == pytest.approx(278.4, abs=1e-4)
+    assert _level(tab, 700.0, "relative_humidity") == pytest.approx(0.725, abs=1e-6)
+    assert "netCDF-Java GRIB name" in tab.sources["temperature"]
+    assert any("does not state over which phase" in n for n in tab.notes)
+    assert any("6 level(s) below the model surface" in n for n in tab.notes)
+
+
+def test_ncss_profile_screened(tmp_path):
+    route = _route(
+        tmp_path,
+        "front-range.csv",
+        [
+            ("A", 40.0, -105.0, 12000, "2015-06-12T15:00:00Z"),
+            ("B", 40.2, -104.8, 12000, "2015-06-12T15:10:00Z"),
+        ],
+    )
+    summary, _, doc = _screen(tmp_path, route, _ncss_with_surface(tmp_path, 83500.0))
+    # 12,000 ft lies between 700 hPa (72.5 %) and 600 hPa (45.6 %): no cloud, no gap
+    assert summary["worst_severity"] == "none" and summary["gap_km"] == 0.0
+    assert doc["provenance"]["variables"]["temperature"]["name"].startswith("Temperature_")
+
+
+def test_ragged_profiles_are_refused(tmp_path):
+    """An invented contiguous ragged-array file (CF appendix H.3.4 layout)."""
+    import xarray as xr
+
+    ds = xr.Dataset(
+        {
+            "row_size": (("profile",), np.array([2], "i4"), {"sample_dimension": "obs"}),
+            "pressure": (("obs",), np.array([900.0, 800.0]), {"units": "hPa", "axis": "Z"}),
+            "t": (("obs",), np.array([1.0, -3.0]), {"units": "degC"}),
+        },
+        attrs={"featureType": "profile"},
+    )
+    path = tmp_path / "ragged.nc"
+    ds.to_netcdf(path)
+    with pytest.raises(ForecastError, match="ragged-array profiles are not read"):
+        read_sounding(path)
 
 
 # ------------------------------------------------------------------ refusals (CLI)

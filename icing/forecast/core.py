@@ -912,7 +912,7 @@ def _sniff(path: Path):
     with open(path, "rb") as fh:
         head = fh.read(8)
     if head[:4] in (b"CDF\x01", b"CDF\x02", b"CDF\x05") or head == b"\x89HDF\r\n\x1a\n":
-        return "netcdf"
+        return "sounding" if sounding_format(path) else "netcdf"  # soundings hook: CF profiles
     if head[:4] == b"GRIB":
         return "grib"
     text = head.lstrip()

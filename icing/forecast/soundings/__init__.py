@@ -8,7 +8,9 @@ diagnosis treat a sounding like any other profile. Formats, told apart by conten
 - University of Wyoming text list (``TEXT:LIST``), the whole page or only its
   table: :mod:`.wyoming`;
 - University of Wyoming CSV (``TEXT:CSV``): :mod:`.wyoming`;
-- IGRA2 sounding data files (``USM00070026-data.txt``): :mod:`.igra2`.
+- IGRA2 sounding data files (``USM00070026-data.txt``): :mod:`.igra2`;
+- CF profile NetCDF (``featureType`` profile or timeSeriesProfile) as data
+  services write it: :mod:`.cfprofile`.
 
 What all share (repeated levels, missing markers, levels below the station,
 pressure decreasing with height, the humidity convention) is in :mod:`.common`.
@@ -21,6 +23,11 @@ from __future__ import annotations
 from pathlib import Path
 
 from icing.errors import ForecastError
+from icing.forecast.soundings.cfprofile import (
+    CF_HUMIDITY_NOTE,
+    looks_like_cf_profile,
+    parse_cf_profiles,
+)
 from icing.forecast.soundings.common import MAX_SOUNDINGS, SoundingSite, parse_station, to_table
 from icing.forecast.soundings.igra2 import looks_like_igra2, parse_igra2
 from icing.forecast.soundings.wyoming import (
@@ -46,6 +53,7 @@ SOUNDING_FORMATS = {
     "wyoming-text": "University of Wyoming text list",
     "wyoming-csv": "University of Wyoming CSV",
     "igra2": "IGRA2 sounding data file",
+    "cf-profile": "CF profile NetCDF (discrete sampling geometry)",
 }
 _HEAD_BYTES = 16384
 
@@ -96,7 +104,10 @@ def _format_of(head):
 
 def sounding_format(path):
     """Return the sounding format of a file by its content (:data:`SOUNDING_FORMATS`) or None."""
-    return _format_of(_head(path))
+    head = _head(path)
+    if looks_like_cf_profile(path, head):
+        return "cf-profile"
+    return _format_of(head)
 
 
 def read_sounding(path, *, site=None):
@@ -119,7 +130,24 @@ def read_sounding(path, *, site=None):
         height, no position or time, no level above the station.
     """
     path = Path(path)
+    if sounding_format(path) == "cf-profile":
+        return _read_cf_profiles(path, site)
     return read_sounding_text(path.read_bytes().decode("latin-1"), path=path, site=site)
+
+
+def _read_cf_profiles(path, site):
+    raws, found = parse_cf_profiles(path, None if site is None else site.elevation_m)
+    sources = {k: v for k, v in found.items() if k != "dewpoint"}
+    if "relative_humidity" not in sources:
+        sources["relative_humidity"] = "from " + found["dewpoint"]
+    return to_table(
+        raws,
+        site,
+        path,
+        kind=SOUNDING_FORMATS["cf-profile"],
+        sources=sources,
+        humidity_note=CF_HUMIDITY_NOTE,
+    )
 
 
 def read_sounding_text(text, *, path="<text>", site=None, kind=None):

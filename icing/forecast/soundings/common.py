@@ -201,6 +201,9 @@ class RawSounding:
     """What the reader did that the user should know."""
     place: str = "line"
     """What ``lines`` count, for messages (``"line"``, ``"profile 3, level"``)."""
+    ground: tuple | None = None
+    """(pressure [hPa] or None, height [m] or None) of the ground where the reader
+    knows it exactly (a model's surface) and has dropped the levels below it."""
 
 
 # ------------------------------------------------------------------ position and time
@@ -409,6 +412,8 @@ def _clean(raw, site, path):
     lines = lines[keep]
     surface_p = None if raw.surface is None else raw.pressure_hpa[raw.surface]
     g, ground_z = _ground(surface_p, arrays, elev)
+    if raw.ground is not None and arrays["pressure_hpa"].size:
+        g, ground_z = 0, raw.ground[1]
     if g is None:
         raise ForecastError(
             "no level with a temperature above the station",
@@ -437,7 +442,12 @@ def _clean(raw, site, path):
     z, nfill = _fill_heights(p, arrays["temperature_c"], rh, z)
     if nfill:
         notes.append(f"heights of {nfill} level(s) filled hypsometrically between reported ones")
-    if elev is not None and ground_z is not None and abs(ground_z - elev) > 10.0:
+    if (
+        raw.ground is None
+        and elev is not None
+        and ground_z is not None
+        and abs(ground_z - elev) > 10
+    ):
         notes.append(
             f"station elevation {elev:g} m, the ascent's surface level at {ground_z:g} m: "
             "the surface level is the ground"
@@ -457,6 +467,10 @@ def _clean(raw, site, path):
         },
         "surface_pressure_hpa": float(p[0]),
     }
+    if raw.ground is not None:
+        prof.pop("surface_pressure_hpa")
+        if raw.ground[0] is not None:
+            prof["surface_pressure_hpa"] = float(raw.ground[0])
     if ground_z is not None and np.isfinite(ground_z):
         prof["surface_elevation_m"] = float(ground_z)
     return prof, lines, notes
@@ -516,8 +530,14 @@ def to_table(raws, site, path, *, kind, sources, notes=(), humidity_note=HUMIDIT
         key: name for key, name in sources.items() if key in table.levels or key in table.scalars
     }
     src["relative_humidity"] = sources.get("relative_humidity", "relative humidity over water")
-    src["surface_height"] = "the ascent's surface level (else the station elevation)"
-    src["surface_pressure"] = "the ascent's surface level"
+    for key, what in (
+        ("surface_height", "the ascent's surface level (else the station elevation)"),
+        ("surface_pressure", "the ascent's surface level"),
+    ):
+        if np.isfinite(table.scalars[key]).any():
+            src.setdefault(key, what)
+        else:
+            src.pop(key, None)
     return replace(table, notes=all_notes + table.notes + [humidity_note], sources=src)
 
 
