@@ -86,6 +86,18 @@ def _near(tmp_path, lat, lon, time):
     return _route(tmp_path, "r.csv", rows)
 
 
+def _diagnose(tab, i=None, **surface):
+    """The column diagnosis of the table's profiles (all, or profile ``i`` only)."""
+    sel = slice(None) if i is None else slice(i, i + 1)
+    cols = {k: v[sel] for k, v in tab.levels.items() if k not in ("wind_u", "wind_v")}
+    return diagnose_columns(**cols, **{k: v[sel] for k, v in surface.items()})
+
+
+def _leg(tmp_path, start, end):
+    """A two-waypoint route from ``(lat, lon, ft, time)`` to ``(lat, lon, ft, time)``."""
+    return _route(tmp_path, "leg.csv", [("START", *start), ("END", *end)])
+
+
 def _route(tmp_path, name, rows):
     path = tmp_path / name
     lines = ["name,lat,lon,altitude_ft,time"] + [",".join(str(c) for c in r) for r in rows]
@@ -172,12 +184,7 @@ def test_boise_text_read_from_the_raw_table():
 def test_boise_levels_without_humidity_are_invalid_not_dry():
     """Above 606 hPa the file has no dew point: the diagnosis marks the levels invalid."""
     tab = read_sounding(BOI_TEXT, site=BOI_SITE)
-    cols = {k: v for k, v in tab.levels.items() if k not in ("wind_u", "wind_v")}
-    diag = diagnose_columns(
-        **cols,
-        surface_height=tab.scalars["surface_height"],
-        surface_pressure=tab.scalars["surface_pressure"],
-    )
+    diag = _diagnose(tab, **tab.scalars)
     p = tab.levels["pressure"][0] / 100.0
     assert not np.any(diag.valid[0][p < 606.0])
     assert np.all(diag.valid[0][p >= 606.0])
@@ -194,13 +201,10 @@ def test_boise_text_screened_freezing_rain_at_the_surface(tmp_path):
     at or above the warm layer (icing.calc.sld.diagnose_sld, stated rule), so a
     departure from the ground meets freezing rain.
     """
-    route = _route(
+    route = _leg(
         tmp_path,
-        "boise.csv",
-        [
-            ("BOISE", 43.56, -116.21, round(874 / FT), "2010-12-09T12:00:00Z"),
-            ("EAST", 43.62, -115.85, 9000, "2010-12-09T12:10:00Z"),
-        ],
+        (43.56, -116.21, round(874 / FT), "2010-12-09T12:00:00Z"),
+        (43.62, -115.85, 9000, "2010-12-09T12:10:00Z"),
     )
     summary, segments, doc = _screen(tmp_path, route, BOI_TEXT, *BOI_OPTIONS)
     assert "freezing-rain" in summary["sld"]
@@ -220,13 +224,10 @@ def test_boise_text_screened_freezing_rain_at_the_surface(tmp_path):
 
 def test_boise_high_route_is_a_gap_where_the_sounding_has_no_humidity(tmp_path):
     """16,000 ft (4877 m) lies above 606 hPa (4161 m), where the file has no dew point."""
-    route = _route(
+    route = _leg(
         tmp_path,
-        "high.csv",
-        [
-            ("BOISE", 43.56, -116.21, 16000, "2010-12-09T12:00:00Z"),
-            ("EAST", 43.62, -115.85, 16000, "2010-12-09T12:10:00Z"),
-        ],
+        (43.56, -116.21, 16000, "2010-12-09T12:00:00Z"),
+        (43.62, -115.85, 16000, "2010-12-09T12:10:00Z"),
     )
     summary, _, _ = _screen(tmp_path, route, BOI_TEXT, *BOI_OPTIONS)
     assert summary["worst_severity"] is None  # unknown, never "none"
@@ -309,18 +310,14 @@ def test_norman_below_ground_level_dropped_not_a_gap(tmp_path):
     tab = read_sounding(OUN_TEXT, site=OUN_SITE)
     p = _hpa(tab)
     assert p[0] == 978.0 and 1000.0 not in p
-    cols = {k: v for k, v in tab.levels.items() if k not in ("wind_u", "wind_v")}
-    diag = diagnose_columns(**cols, surface_height=tab.scalars["surface_height"])
+    diag = _diagnose(tab, surface_height=tab.scalars["surface_height"])
     n = p.size
     assert np.all(diag.valid[0][:n]) and not np.any(diag.below_ground[0][:n])
     assert not np.any(diag.cloud[0][:n])
-    route = _route(
+    route = _leg(
         tmp_path,
-        "norman.csv",
-        [
-            ("NORMAN", 35.18, -97.44, 2000, "2013-01-20T12:00:00Z"),
-            ("NORTH", 35.45, -97.44, 9000, "2013-01-20T12:10:00Z"),
-        ],
+        (35.18, -97.44, 2000, "2013-01-20T12:00:00Z"),
+        (35.45, -97.44, 9000, "2013-01-20T12:10:00Z"),
     )
     summary, _, _ = _screen(tmp_path, route, OUN_TEXT, *OUN_OPTIONS)
     assert summary["worst_severity"] == "none"
@@ -381,19 +378,15 @@ def test_igra2_arctic_stratus_supercooled_liquid(tmp_path):
     diagnosis finds supercooled liquid there, and a route through it ices.
     """
     tab = read_sounding(IGRA)
-    cols = {k: v[1:] for k, v in tab.levels.items() if k not in ("wind_u", "wind_v")}
-    diag = diagnose_columns(**cols, surface_height=tab.scalars["surface_height"][1:])
+    diag = _diagnose(tab, 1, surface_height=tab.scalars["surface_height"])
     t = diag.temperature[0] - T0
     layer = (diag.pressure[0] <= 100000.0) & (diag.pressure[0] >= 78380.0)
     assert np.all(t[layer] < 0.0) and np.all(diag.cloud[0][layer])
     assert np.all(diag.lwc[0][layer & (diag.height[0] > 300.0)] > 1e-5)  # > 0.01 g/m3
-    route = _route(
+    route = _leg(
         tmp_path,
-        "barrow.csv",
-        [
-            ("BARROW", 71.29, -156.78, 3000, "2010-06-01T12:00:00Z"),
-            ("WEST", 71.25, -157.50, 4000, "2010-06-01T12:15:00Z"),
-        ],
+        (71.29, -156.78, 3000, "2010-06-01T12:00:00Z"),
+        (71.25, -157.50, 4000, "2010-06-01T12:15:00Z"),
     )
     summary, segments, _ = _screen(tmp_path, route, IGRA)
     assert summary["worst_severity"] in ("light", "moderate", "severe")
@@ -549,13 +542,10 @@ def test_ncss_profile_read_with_a_surface_pressure(tmp_path):
 
 
 def test_ncss_profile_screened(tmp_path):
-    route = _route(
+    route = _leg(
         tmp_path,
-        "front-range.csv",
-        [
-            ("A", 40.0, -105.0, 12000, "2015-06-12T15:00:00Z"),
-            ("B", 40.2, -104.8, 12000, "2015-06-12T15:10:00Z"),
-        ],
+        (40.0, -105.0, 12000, "2015-06-12T15:00:00Z"),
+        (40.2, -104.8, 12000, "2015-06-12T15:10:00Z"),
     )
     summary, _, doc = _screen(tmp_path, route, _ncss_with_surface(tmp_path, 83500.0))
     # 12,000 ft lies between 700 hPa (72.5 %) and 600 hPa (45.6 %): no cloud, no gap
@@ -588,6 +578,14 @@ def _wyoming_lines():
     return BOI_TEXT.read_text().splitlines()
 
 
+def _refused_boise(capsys, tmp_path, lines):
+    """Screen a route against the edited Boise lines; expect a one-line refusal."""
+    bad = tmp_path / "edited.txt"
+    bad.write_text("\n".join(lines))
+    route = _near(tmp_path, 43.56, -116.21, "2010-12-09T12:00:00Z")
+    return _refused(capsys, tmp_path, ["screen", route, "--forecast", bad, *BOI_OPTIONS])
+
+
 def test_no_position_names_the_station_option(capsys, tmp_path):
     route = _near(tmp_path, 43.56, -116.21, "2010-12-09T12:00:00Z")
     err = _refused(capsys, tmp_path, ["screen", route, "--forecast", BOI_TEXT])
@@ -605,20 +603,14 @@ def test_repeats_that_disagree_are_refused(capsys, tmp_path):
     lines = _wyoming_lines()
     assert lines[73].startswith("  115.0  15240  -57.9")  # file line 74
     lines[74] = lines[74].replace("-57.9", "-50.0")  # line 75, same pressure
-    bad = tmp_path / "repeat.txt"
-    bad.write_text("\n".join(lines))
-    route = _near(tmp_path, 43.56, -116.21, "2010-12-09T12:00:00Z")
-    err = _refused(capsys, tmp_path, ["screen", route, "--forecast", bad, *BOI_OPTIONS])
+    err = _refused_boise(capsys, tmp_path, lines)
     assert "lines 74, 75" in err and "115 hPa given 2 times" in err
 
 
 def test_missing_pressure_marker_is_refused(capsys, tmp_path):
     lines = _wyoming_lines()
     lines[20] = "-9999.0" + lines[20][7:]  # file line 21 (700 hPa)
-    bad = tmp_path / "nopres.txt"
-    bad.write_text("\n".join(lines))
-    route = _near(tmp_path, 43.56, -116.21, "2010-12-09T12:00:00Z")
-    err = _refused(capsys, tmp_path, ["screen", route, "--forecast", bad, *BOI_OPTIONS])
+    err = _refused_boise(capsys, tmp_path, lines)
     assert "line 21" in err and "missing pressure" in err
 
 
@@ -638,10 +630,7 @@ def test_every_level_below_the_station_is_refused(capsys, tmp_path):
 def test_pressure_rising_with_height_is_refused(capsys, tmp_path):
     lines = _wyoming_lines()
     lines[12], lines[13] = lines[13], lines[12]  # swap 862 and 850 hPa (lines 13, 14)
-    bad = tmp_path / "order.txt"
-    bad.write_text("\n".join(lines))
-    route = _near(tmp_path, 43.56, -116.21, "2010-12-09T12:00:00Z")
-    err = _refused(capsys, tmp_path, ["screen", route, "--forecast", bad, *BOI_OPTIONS])
+    err = _refused_boise(capsys, tmp_path, lines)
     assert "pressure must decrease with height" in err and "line 14" in err
 
 

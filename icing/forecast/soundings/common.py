@@ -400,6 +400,32 @@ def _humidity_pct(raw, t, td, rh):
     return np.where(np.isfinite(rh), rh, from_td)
 
 
+def _cut_below_ground(raw, arrays, lines, elev, path):
+    """Drop the levels under the ground; return arrays, lines, ground height, notes."""
+    surface_p = None if raw.surface is None else raw.pressure_hpa[raw.surface]
+    g, ground_z = _ground(surface_p, arrays, elev)
+    if raw.ground is not None and arrays["pressure_hpa"].size:
+        g, ground_z = 0, raw.ground[1]  # the reader cut at the model's surface already
+    if g is None:
+        raise ForecastError(
+            "no level with a temperature above the station",
+            path=path,
+            where=raw.where,
+            fix="check the file: it holds no usable level",
+        )
+    notes = []
+    if g > 0:
+        p_g = arrays["pressure_hpa"][g]
+        notes.append(f"{g} level(s) below the station left out (ground {p_g:g} hPa)")
+    if raw.ground is None and elev is not None and ground_z is not None:
+        if abs(ground_z - elev) > 10.0:
+            notes.append(
+                f"station elevation {elev:g} m, the ascent's surface level at {ground_z:g} m: "
+                "the surface level is the ground"
+            )
+    return {k: v[g:] for k, v in arrays.items()}, lines[g:], ground_z, notes
+
+
 def _clean(raw, site, path):
     """One ascent -> (profile dict for the table, file line per level, notes)."""
     lat, lon, elev, t, notes = _place_and_time(raw, site, path)
@@ -408,25 +434,10 @@ def _clean(raw, site, path):
     notes += list(raw.notes)
     keep, rep = _drop_repeats(raw, arrays, lines, path)
     notes += rep
-    arrays = {k: v[keep] for k, v in arrays.items()}
-    lines = lines[keep]
-    surface_p = None if raw.surface is None else raw.pressure_hpa[raw.surface]
-    g, ground_z = _ground(surface_p, arrays, elev)
-    if raw.ground is not None and arrays["pressure_hpa"].size:
-        g, ground_z = 0, raw.ground[1]
-    if g is None:
-        raise ForecastError(
-            "no level with a temperature above the station",
-            path=path,
-            where=raw.where,
-            fix="check the file: it holds no usable level",
-        )
-    if g > 0:
-        notes.append(
-            f"{g} level(s) below the station left out (ground {arrays['pressure_hpa'][g]:g} hPa)"
-        )
-    arrays = {k: v[g:] for k, v in arrays.items()}
-    lines = lines[g:]
+    arrays, lines, ground_z, cut = _cut_below_ground(
+        raw, {k: v[keep] for k, v in arrays.items()}, lines[keep], elev, path
+    )
+    notes += cut
     p, z = arrays["pressure_hpa"], arrays["height_m"]
     _check_decreasing(raw, p, z, lines, path)
     if p.size < 2:
@@ -436,22 +447,11 @@ def _clean(raw, site, path):
             where=raw.where,
             fix="give a sounding with at least two levels",
         )
-    rh = _humidity_pct(
-        raw, arrays["temperature_c"], arrays["dewpoint_c"], arrays["relative_humidity_pct"]
-    )
-    z, nfill = _fill_heights(p, arrays["temperature_c"], rh, z)
+    t_c = arrays["temperature_c"]
+    rh = _humidity_pct(raw, t_c, arrays["dewpoint_c"], arrays["relative_humidity_pct"])
+    z, nfill = _fill_heights(p, t_c, rh, z)
     if nfill:
         notes.append(f"heights of {nfill} level(s) filled hypsometrically between reported ones")
-    if (
-        raw.ground is None
-        and elev is not None
-        and ground_z is not None
-        and abs(ground_z - elev) > 10
-    ):
-        notes.append(
-            f"station elevation {elev:g} m, the ascent's surface level at {ground_z:g} m: "
-            "the surface level is the ground"
-        )
     prof = {
         "id": raw.label,
         "lat": lat,
@@ -460,17 +460,15 @@ def _clean(raw, site, path):
         "levels": {
             "pressure_hpa": p.tolist(),
             "height_m": _none_for_nan(z),
-            "temperature_c": _none_for_nan(arrays["temperature_c"]),
+            "temperature_c": _none_for_nan(t_c),
             "relative_humidity_pct": _none_for_nan(rh),
             "wind_u_m_s": _none_for_nan(arrays["wind_u"]),
             "wind_v_m_s": _none_for_nan(arrays["wind_v"]),
         },
-        "surface_pressure_hpa": float(p[0]),
     }
-    if raw.ground is not None:
-        prof.pop("surface_pressure_hpa")
-        if raw.ground[0] is not None:
-            prof["surface_pressure_hpa"] = float(raw.ground[0])
+    surface_p = float(p[0]) if raw.ground is None else raw.ground[0]
+    if surface_p is not None:
+        prof["surface_pressure_hpa"] = float(surface_p)
     if ground_z is not None and np.isfinite(ground_z):
         prof["surface_elevation_m"] = float(ground_z)
     return prof, lines, notes

@@ -307,23 +307,11 @@ def _text_block(block, path, stem):
             continue
         scale, offset = table[units.get(name) or _DEFAULT_UNITS[name]]
         cols[field] = np.array([r[name] for r in rows]) * scale + offset
-    return _raw_from_columns(block, cols, names, path, stem, rows)
+    return _raw_from_columns(block, cols, names, path, stem)
 
 
-def _raw_from_columns(block, cols, names, path, stem, rows):
-    n = len(rows)
-    nan = np.full(n, np.nan)
+def _raw_from_columns(block, cols, names, path, stem):
     lines = np.array([r for r, _ in block["rows"]])
-    p = cols["pressure_hpa"]
-    if not np.all(np.isfinite(p)):
-        k = int(np.flatnonzero(~np.isfinite(p))[0])
-        raise ForecastError(
-            "missing pressure",
-            path=path,
-            where=f"line {lines[k]}, column PRES",
-            fix="give every level its pressure",
-        )
-    u, v = _wind(cols.get("direction", nan), cols.get("speed", nan), lines, path, "DRCT")
     title = block["title"][0] if block["title"] else None
     num = _info_text(block, "Station number") or (title.group("num") if title else None)
     ident = _info_text(block, "Station identifier") or (title.group("id") if title else None)
@@ -332,9 +320,26 @@ def _raw_from_columns(block, cols, names, path, stem, rows):
     if t is not None:
         label += " " + str(np.datetime_as_string(t, unit="h")) + "Z"
     where = f"line {block['title'][1]}" if block["title"] else f"lines {lines[0]}-{lines[-1]}"
-    return RawSounding(
+    labels = {f: f"column {c}" for c, (f, _) in _TEXT_COLUMNS.items() if c in names}
+    return _raw(
+        cols,
+        lines,
+        path,
+        labels | {"wind_u": "columns DRCT/SKNT", "wind_v": "columns DRCT/SKNT"},
         label=label,
         where=where,
+        lat=_info_number(block, "Station latitude", path, -90.0, 90.0),
+        lon=_info_number(block, "Station longitude", path, -180.0, 360.0),
+        elevation_m=_info_number(block, "Station elevation", path, -500.0, 9000.0),
+        time=t,
+    )
+
+
+def _raw(cols, lines, path, labels, **meta):
+    """Build a RawSounding from parsed columns (absent ones NaN), dew point preferred."""
+    nan = np.full(lines.size, np.nan)
+    p, u, v = _pressure_and_wind(cols, lines, path, labels["pressure_hpa"], labels["wind_u"])
+    return RawSounding(
         lines=lines,
         pressure_hpa=p,
         height_m=cols.get("height_m", nan),
@@ -343,13 +348,9 @@ def _raw_from_columns(block, cols, names, path, stem, rows):
         relative_humidity_pct=cols.get("relative_humidity_pct", nan),
         wind_u=u,
         wind_v=v,
-        columns={f: f"column {c}" for c, (f, _) in _TEXT_COLUMNS.items() if c in names}
-        | {"wind_u": "columns DRCT/SKNT", "wind_v": "columns DRCT/SKNT"},
-        lat=_info_number(block, "Station latitude", path, -90.0, 90.0),
-        lon=_info_number(block, "Station longitude", path, -180.0, 360.0),
-        elevation_m=_info_number(block, "Station elevation", path, -500.0, 9000.0),
-        time=t,
+        columns=labels,
         prefer="dewpoint",
+        **meta,
     )
 
 
@@ -358,7 +359,19 @@ def _info_text(block, key):
     return value[0] if value and value[0] else None
 
 
-def _wind(direction, speed, lines, path, label):
+def _pressure_and_wind(cols, lines, path, p_label, wind_label):
+    """Pressure (every level must have one) and wind components of a parsed table."""
+    p = cols["pressure_hpa"]
+    if not np.all(np.isfinite(p)):
+        k = int(np.flatnonzero(~np.isfinite(p))[0])
+        raise ForecastError(
+            "missing pressure",
+            path=path,
+            where=f"line {lines[k]}, {p_label}",
+            fix="give every level its pressure",
+        )
+    nan = np.full(lines.size, np.nan)
+    direction, speed = cols.get("direction", nan), cols.get("speed", nan)
     with np.errstate(invalid="ignore"):
         bad = (direction < 0) | (direction > 360) | (speed < 0)
     if np.any(bad):
@@ -366,10 +379,10 @@ def _wind(direction, speed, lines, path, label):
         raise ForecastError(
             f"wind {direction[k]:g} deg {speed[k]:g} out of range",
             path=path,
-            where=f"line {lines[k]}, column {label}",
+            where=f"line {lines[k]}, {wind_label}",
             fix="give the direction 0-360 deg and a speed of 0 or more",
         )
-    return wind_components(direction, speed)
+    return (p, *wind_components(direction, speed))
 
 
 def parse_wyoming_text(text, path):
@@ -504,36 +517,18 @@ def _first(a, lo, hi):
 
 def _raw_from_csv(block, arr, fields, header, path, t, lat, lon):
     lines = np.array([n for n, _ in block["rows"]])
-    nan = np.full(lines.size, np.nan)
     name = {k: f"column {header[j].strip()}" for k, (j, _) in fields.items()}
-    p = arr["pressure_hpa"]
-    if not np.all(np.isfinite(p)):
-        k = int(np.flatnonzero(~np.isfinite(p))[0])
-        raise ForecastError(
-            "missing pressure",
-            path=path,
-            where=f"line {lines[k]}, {name['pressure_hpa']}",
-            fix="give every level its pressure",
-        )
-    u, v = _wind(arr.get("direction", nan), arr.get("speed", nan), lines, path, "wind direction")
     label = path.stem + ("" if t is None else " " + str(np.datetime_as_string(t, unit="m")) + "Z")
-    return RawSounding(
+    note = "valid time: the launch time of the first row (UTC, the archive's convention)"
+    return _raw(
+        arr,
+        lines,
+        path,
+        name | {"wind_u": "the wind columns", "wind_v": "the wind columns"},
         label=label,
         where=f"lines 2-{lines[-1]}",
-        lines=lines,
-        pressure_hpa=p,
-        height_m=arr.get("height_m", nan),
-        temperature_c=arr["temperature_c"],
-        dewpoint_c=arr.get("dewpoint_c", nan),
-        relative_humidity_pct=arr.get("relative_humidity_pct", nan),
-        wind_u=u,
-        wind_v=v,
-        columns=name | {"wind_u": "wind columns", "wind_v": "wind columns"},
         lat=lat,
         lon=lon,
         time=t,
-        prefer="dewpoint",
-        notes=("valid time: the launch time of the first row (UTC, the archive's convention)",)
-        if t is not None
-        else (),
+        notes=(note,) if t is not None else (),
     )
