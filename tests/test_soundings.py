@@ -758,3 +758,12 @@ def test_igra2_parser_raises_only_input_errors(data):
     if data.draw(st.booleans()):
         lines = _mangle(lines, data)
     _read_or_input_error("\n".join(lines) + "\n", "igra2", None)
+
+
+def test_too_many_soundings_in_one_file_are_refused(monkeypatch):
+    """The cap keeps every candidate column in memory bounded; lowered here to 1."""
+    import icing.forecast.soundings.common as common
+
+    monkeypatch.setattr(common, "MAX_SOUNDINGS", 1)
+    with pytest.raises(ForecastError, match="2 soundings in one file"):
+        read_sounding(IGRA)
