@@ -76,6 +76,9 @@ def _forecast(args):
     var_map = _var_map(getattr(args, "var", None))
     if var_map:
         kwargs["var_map"] = var_map
+    site = _sounding_site(args)
+    if site is not None:
+        kwargs["sounding_site"] = site
     paths = []
     for p in args.forecast:
         if any(ch in p for ch in "*?["):
@@ -90,6 +93,20 @@ def _forecast(args):
         else:
             paths.append(p)
     return load_forecast(paths, **kwargs)
+
+
+def _sounding_site(args):
+    """--station LAT,LON,ELEV_M and --time for sounding files that do not give them."""
+    from dataclasses import replace
+
+    from icing.forecast.readers import parse_time
+    from icing.forecast.soundings import SoundingSite, parse_station
+
+    station, time = getattr(args, "station", None), getattr(args, "time", None)
+    if station is None and time is None:
+        return None
+    site = parse_station(station) if station is not None else SoundingSite()
+    return replace(site, time=parse_time(time, where="--time")) if time else site
 
 
 def _column_options(args):
@@ -290,8 +307,8 @@ def build_parser() -> argparse.ArgumentParser:
             nargs="+",
             required=True,
             metavar="FILE",
-            help="forecast file(s): profile JSON/CSV or CF-NetCDF; several files "
-            "(lead times, or a glob) form one forecast",
+            help="forecast file(s): profile JSON/CSV, CF-NetCDF or radiosonde soundings "
+            "(Wyoming text/CSV, IGRA2); several files (lead times, or a glob) form one forecast",
         )
         sp.add_argument(
             "--radius-km",
@@ -312,6 +329,13 @@ def build_parser() -> argparse.ArgumentParser:
             metavar="KEY=NAME",
             help="map a quantity to a NetCDF variable name, e.g. "
             "--var temperature=TMP (repeatable)",
+        )
+        sp.add_argument(
+            "--station",
+            default=None,
+            metavar="LAT,LON,ELEV_M",
+            help="radiosonde files without a station block: position and elevation [m] "
+            "(use --station=-33.9,151.2,10 for negative values)",
         )
         sp.add_argument(
             "--air-mass",
@@ -338,6 +362,12 @@ def build_parser() -> argparse.ArgumentParser:
         default=None,
         metavar="ISO8601",
         help="departure time (with zone), overrides the route's",
+    )
+    s.add_argument(
+        "--time",
+        default=None,
+        metavar="ISO8601",
+        help="radiosonde files without an observation time: the launch time (with zone)",
     )
     s.add_argument("--tas-kt", type=float, default=None, help="true airspeed [kt]")
     s.add_argument("--step-km", type=float, default=1.0, help="largest sample spacing [km]")
@@ -375,7 +405,12 @@ def build_parser() -> argparse.ArgumentParser:
     )
     pr.add_argument("--lat", type=float, default=None)
     pr.add_argument("--lon", type=float, default=None)
-    pr.add_argument("--time", default=None, metavar="ISO8601", help="valid time (with zone)")
+    pr.add_argument(
+        "--time",
+        default=None,
+        metavar="ISO8601",
+        help="valid time (with zone); also the launch time of a radiosonde file without one",
+    )
     pr.add_argument("--airframe", "-a", default=None, help="airframe preset or TOML file")
     pr.add_argument("--json", action="store_true", help="print one JSON object")
     pr.set_defaults(func=cmd_profile)

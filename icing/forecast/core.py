@@ -49,6 +49,7 @@ from icing.forecast.readers import (
     read_profiles_json,
     specific_humidity_of,
 )
+from icing.forecast.soundings import check_site_used, read_sounding, sounding_format  # soundings
 
 __all__ = [
     "ColumnSet",
@@ -911,12 +912,14 @@ def _sniff(path: Path):
     with open(path, "rb") as fh:
         head = fh.read(8)
     if head[:4] in (b"CDF\x01", b"CDF\x02", b"CDF\x05") or head == b"\x89HDF\r\n\x1a\n":
-        return "netcdf"
+        return "sounding" if sounding_format(path) else "netcdf"  # soundings hook: CF profiles
     if head[:4] == b"GRIB":
         return "grib"
     text = head.lstrip()
     if text[:1] in (b"{", b"["):
         return "json"
+    if sounding_format(path) is not None:  # soundings hook: radiosonde files, by content
+        return "sounding"
     suffix = path.suffix.lower()
     return {
         ".json": "json",
@@ -930,13 +933,16 @@ def _sniff(path: Path):
     }.get(suffix, "csv" if b"," in head else "unknown")
 
 
-def load_forecast(paths, *, radius_km=50.0, time_tolerance_h=3.0, var_map=None) -> Forecast:
+def load_forecast(
+    paths, *, radius_km=50.0, time_tolerance_h=3.0, var_map=None, sounding_site=None
+) -> Forecast:
     """Read one or several forecast files into one :class:`Forecast`.
 
     Parameters
     ----------
     paths : path-like or list of path-like
-        Profile JSON (``"format": "icing-profiles"``), profile CSV or CF-NetCDF.
+        Profile JSON (``"format": "icing-profiles"``), profile CSV, CF-NetCDF or
+        radiosonde soundings (University of Wyoming text or CSV, IGRA2).
         Several files (lead times) form one forecast: grids must share one
         grid and levels, valid times must not repeat.
     radius_km : float
@@ -949,6 +955,9 @@ def load_forecast(paths, *, radius_km=50.0, time_tolerance_h=3.0, var_map=None) 
         Gridded files: ``{key: variable name}`` (keys: :data:`VAR_KEYS`). A
         mapped name is used first; unmapped keys are found by CF
         ``standard_name``, then by common model-output names.
+    sounding_site : icing.forecast.soundings.SoundingSite, optional
+        Radiosonde files: station position, elevation and launch time for files
+        that do not give them (``--station``, ``--time``).
 
     Returns
     -------
@@ -996,8 +1005,10 @@ def load_forecast(paths, *, radius_km=50.0, time_tolerance_h=3.0, var_map=None) 
             raise ForecastError(
                 "unknown forecast format",
                 path=p,
-                fix="give a profile JSON, profile CSV or CF-NetCDF file",
+                fix="give a profile JSON, profile CSV or CF-NetCDF file, or a radiosonde "
+                "sounding (University of Wyoming text or CSV, IGRA2)",
             )
+    check_site_used(sounding_site, kinds, paths)  # soundings hook: --station needs a sounding
     if "netcdf" in kinds and any(k != "netcdf" for k in kinds):
         raise ForecastError(
             "gridded and profile files mixed in one forecast",
@@ -1015,7 +1026,9 @@ def load_forecast(paths, *, radius_km=50.0, time_tolerance_h=3.0, var_map=None) 
             fix="drop --var for profile files",
         )
     tables = [
-        read_profiles_json(p) if k == "json" else read_profiles_csv(p)
+        read_sounding(p, site=sounding_site)  # soundings hook
+        if k == "sounding"
+        else (read_profiles_json(p) if k == "json" else read_profiles_csv(p))
         for p, k in zip(paths, kinds, strict=True)
     ]
     return ProfileForecast(
