@@ -97,9 +97,9 @@ def test_summary_table_has_one_row_per_route(page, routes):
     _, p = page
     rows = p.tables["summary"]
     header, body = rows[0], rows[1:]
-    assert header[:2] == ["route", "airframe"] and "worst severity" in header
+    assert header[:2] == ["route", "airframe"] and "worst icing" in header
     assert [r[0] for r in body] == [s.route_name for s in routes]
-    col = header.index("worst severity")
+    col = header.index("worst icing")
     assert [r[col] for r in body] == [s.summary["worst_severity"] for s in routes]
 
 

@@ -13,7 +13,7 @@ GeoJSON
     ellipsoid; it is taken as metres above mean sea level (the geoid differs by
     up to ~100 m) unless ``altitude_reference`` says ``"agl"`` or ``"pressure"``.
     Route properties: ``name``, ``departure_time``, ``true_airspeed_kt``,
-    ``altitude_reference``, ``ground_elevation_m``, and for LineStrings lists
+    ``altitude_reference``, ``ground_elevation_m``, ``airframe``, and for LineStrings lists
     parallel to the positions: ``times``, ``hold_min``, ``waypoint_names``;
     ``altitude_ft`` or ``flight_level`` (a number or a list) for 2-D positions.
     A FeatureCollection of Points takes the route properties from its
@@ -24,22 +24,27 @@ GeoJSON
 CSV
     Header ``name,lat,lon,altitude_ft[,time]``, optional columns
     ``altitude_reference``, ``flight_level`` (instead of ``altitude_ft``),
-    ``tas_kt``, ``hold_min`` and ``route`` (several routes in one file). Blank
-    lines and lines starting with ``#`` are skipped; whitespace and a byte-order
-    mark are tolerated. The route is named after the file.
+    ``tas_kt``, ``hold_min`` and ``route`` (several routes in one file). Comment
+    lines (``#``) may declare settings for the whole file (``# altitude_reference:
+    agl``, ``# airframe: small-multirotor``; see :data:`CSV_SETTINGS`): they are
+    honoured, and a comment that reads like an unknown setting is refused; other
+    comments and blank lines pass. Whitespace and a byte-order mark are tolerated.
+    The route is named after the file unless a ``# name:`` line names it.
 GPX 1.1
     ``rte``/``rtept`` and ``trk``/``trkseg``/``trkpt`` (segments of a track are
     joined), ``ele`` in metres, optional ``time`` and ``name``; each ``rte`` or
     ``trk`` is a route. Extensions in the namespace :data:`GPX_EXTENSION_NS`:
     on the ``rte``/``trk``: ``altitude_reference``, ``true_airspeed_kt``,
-    ``departure_time``, ``ground_elevation_m``; on a point: ``hold_min``,
+    ``departure_time``, ``ground_elevation_m``, ``airframe``; on a point: ``hold_min``,
     ``tas_kt``.
 """
 
 from __future__ import annotations
 
+import contextvars
 import csv
 import json
+import re
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
@@ -64,6 +69,7 @@ __all__ = [
     "read_geojson_routes",
     "read_csv_routes",
     "read_gpx_routes",
+    "CSV_SETTINGS",
 ]
 
 #: XML namespace of this project's GPX extension elements.
@@ -75,9 +81,42 @@ _CSV_EXT = (".csv", ".txt")
 _GPX_EXT = (".gpx", ".xml")
 _FORMAT_FIX = "give a GeoJSON (.geojson), CSV (.csv) or GPX (.gpx) route file"
 
+#: The altitude for waypoints a file gives none for (``--altitude-ft`` /
+#: ``--flight-level``): (metres, reference, the option's name), and the places that
+#: gave their own. Set by :func:`read_routes` for the duration of one read.
+_DEFAULT_ALTITUDE = contextvars.ContextVar("default_altitude", default=None)
 
-def read_routes(path):
-    """Read every route of a GeoJSON, CSV or GPX file (chosen by content and extension)."""
+
+def read_routes(path, *, altitude_ft=None, flight_level=None):
+    """Read every route of a GeoJSON, CSV or GPX file (chosen by content and extension).
+
+    ``altitude_ft`` (feet in the route's own reference: MSL unless the route says
+    ``agl``) or ``flight_level`` gives the altitude of routes drawn in two
+    dimensions; a file whose waypoints carry their own altitudes is refused with
+    either, so that no altitude is silently replaced.
+    """
+    if altitude_ft is not None and flight_level is not None:
+        raise RouteError(
+            "both an altitude in feet and a flight level are given",
+            path=path,
+            fix="give --altitude-ft or --flight-level, not both",
+        )
+    default = None
+    if altitude_ft is not None:
+        alt = check_number(altitude_ft, "altitude_ft", where="--altitude-ft", low=-3000.0)
+        default = (alt * FT, None, "--altitude-ft")
+    elif flight_level is not None:
+        alt = _flight_level_m(flight_level, path=None, where="--flight-level")
+        default = (alt, "pressure", "--flight-level")
+    token = _DEFAULT_ALTITUDE.set(default)
+    try:
+        routes = _read_routes(path)
+    finally:
+        _DEFAULT_ALTITUDE.reset(token)
+    return routes
+
+
+def _read_routes(path):
     p = Path(path)
     if not p.exists():
         raise RouteError("file not found", path=path, fix="check the path")
@@ -157,6 +196,16 @@ def _flight_level_m(value, *, path, where):
 
 def _altitude(*, path, where, reference, metres=None, feet=None, flight_level=None):
     """Altitude [m] and its reference from the ways a file may give it."""
+    state = _DEFAULT_ALTITUDE.get()
+    if state is not None and (metres, feet, flight_level) != (None, None, None):
+        option = state[2]
+        raise RouteError(
+            f"the route gives its own altitude here, and {option} is given too",
+            path=path,
+            where=where,
+            fix=f"{option} is for routes drawn without altitudes: drop it, or remove the "
+            "altitudes from the file",
+        )
     if feet is not None and flight_level is not None:
         raise RouteError(
             "both altitude_ft and flight_level are given",
@@ -188,11 +237,17 @@ def _altitude(*, path, where, reference, metres=None, feet=None, flight_level=No
         return check_altitude(
             alt, reference, path=path, where=where, given_in_metres=True
         ), reference
+    state = _DEFAULT_ALTITUDE.get()
+    if state is not None:
+        alt, ref, option = state
+        ref = ref or reference
+        return check_altitude(alt, ref, path=path, where=option), ref
     raise RouteError(
         "missing altitude",
         path=path,
         where=where,
-        fix="give [lon, lat, alt_m] positions, altitude_ft or flight_level",
+        fix="give [lon, lat, alt_m] positions, altitude_ft or flight_level, or "
+        "--altitude-ft / --flight-level for a route drawn in two dimensions",
     )
 
 
@@ -238,7 +293,22 @@ def _route_fields(props, *, path, where):
             low=-500.0,
             high=9000.0,
         ),
+        airframe=_optional_name(props.get("airframe"), path=path, where=p + "airframe"),
     )
+
+
+def _optional_name(value, *, path, where):
+    """Return the airframe name or file named by the route (None when absent)."""
+    if value is None or (isinstance(value, str) and not value.strip()):
+        return None
+    if not isinstance(value, str):
+        raise RouteError(
+            f"airframe {value!r} is not a name",
+            path=path,
+            where=where,
+            fix="give the airframe as a preset name or a TOML file name (see `icing airframes`)",
+        )
+    return value.strip()
 
 
 def _default_names(routes, path):
@@ -333,6 +403,7 @@ def _collection_properties(obj):
         "true_airspeed_kt",
         "altitude_reference",
         "ground_elevation_m",
+        "airframe",
     ):
         if key in obj and key not in props:
             props[key] = obj[key]
@@ -554,12 +625,53 @@ _CSV_COLUMNS = (
 )
 
 
-def read_csv_routes(text, *, path=None):
-    """Read the routes of a CSV text (see the module docstring)."""
-    rows = []  # (line number, fields)
+#: Settings a CSV route file may declare in comment lines (``# key: value``).
+CSV_SETTINGS = (
+    "name",
+    "airframe",
+    "altitude_reference",
+    "departure_time",
+    "true_airspeed_kt",
+    "ground_elevation_m",
+)
+_SETTING = re.compile(r"^#\s*([A-Za-z][A-Za-z0-9_ -]{0,40}?)\s*[:=]\s*(\S.*?)\s*$")
+
+
+def _csv_setting(line, lineno, path, settings):
+    """Honour a ``# key: value`` comment line, or refuse it; prose comments pass."""
+    m = _SETTING.match(line)
+    if not m:
+        return
+    key = re.sub(r"[\s-]+", "_", m.group(1).strip().lower())
+    where = f"line {lineno}"
+    if key not in CSV_SETTINGS:
+        raise RouteError(
+            f"comment {line[:60]!r} reads like a setting, but {key!r} is not one this "
+            "reader knows",
+            path=path,
+            where=where,
+            fix=f"use one of {', '.join(CSV_SETTINGS)} (e.g. '# altitude_reference: agl'), "
+            "or write the comment without ':' or '='",
+        )
+    if key in settings and settings[key] != m.group(2):
+        raise RouteError(
+            f"{key} is declared twice with different values",
+            path=path,
+            where=where,
+            fix=f"declare {key} once",
+        )
+    settings[key] = m.group(2)
+
+
+def _csv_rows(text, path):
+    """Split a CSV text into (line number, fields) rows and the comment settings."""
+    rows, settings = [], {}
     for lineno, line in enumerate(text.lstrip("\ufeff").splitlines(), start=1):
         s = line.strip()
-        if not s or s.startswith("#"):
+        if not s:
+            continue
+        if s.startswith("#"):
+            _csv_setting(s, lineno, path, settings)
             continue
         try:
             fields = next(csv.reader([s], skipinitialspace=True, strict=True))
@@ -574,6 +686,11 @@ def read_csv_routes(text, *, path=None):
             path=path,
             fix="start with the header name,lat,lon,altitude_ft[,time]",
         )
+    return rows, settings
+
+
+def _csv_header(rows, path):
+    """Check the header row; return it (lower case)."""
     head_line, header = rows[0]
     header = [h.lower() for h in header]
     if not {"lat", "lon"} <= set(header) or len(set(header)) != len(header):
@@ -585,12 +702,14 @@ def read_csv_routes(text, *, path=None):
             fix="start with the header name,lat,lon,altitude_ft[,time] "
             f"(unique column names{separator})",
         )
-    if "altitude_ft" not in header and "flight_level" not in header:
+    has_altitude = "altitude_ft" in header or "flight_level" in header
+    if not has_altitude and _DEFAULT_ALTITUDE.get() is None:
         raise RouteError(
             "header has no altitude_ft or flight_level column (missing altitude)",
             path=path,
             where=f"line {head_line}",
-            fix="add an altitude_ft (feet) or flight_level column",
+            fix="add an altitude_ft (feet) or flight_level column, or give --altitude-ft / "
+            "--flight-level",
         )
     if len(rows) == 1:
         raise RouteError(
@@ -599,6 +718,50 @@ def read_csv_routes(text, *, path=None):
             where=f"line {head_line}",
             fix="add at least two waypoints",
         )
+    return header
+
+
+def _csv_waypoint(row, i, where, path, default_ref):
+    """One waypoint from a CSV row (a dict of column -> text or None)."""
+    lat, lon = check_position(row["lat"], row["lon"], path=path, where=where)
+    ref = _reference(row.get("altitude_reference") or default_ref, path=path, where=where)
+    if row.get("altitude_reference") and default_ref and ref != default_ref.lower():
+        raise RouteError(
+            f"altitude_reference {ref!r} differs from the file's declared {default_ref!r}",
+            path=path,
+            where=where,
+            fix="declare one altitude reference per file",
+        )
+    alt, wref = _altitude(
+        path=path,
+        where=where,
+        reference=ref,
+        feet=row.get("altitude_ft"),
+        flight_level=row.get("flight_level"),
+    )
+    t = _optional_time(row.get("time"), path=path, where=where)
+    hold = (
+        _optional_number(
+            row.get("hold_min"), "hold_min", path=path, where=where, low=0.0, high=24 * 60.0
+        )
+        or 0.0
+    )
+    tas = _optional_number(
+        row.get("tas_kt"), "tas_kt", path=path, where=where, low=0.0, high=2000.0
+    )
+    return Waypoint(row.get("name") or f"WP{i + 1}", lat, lon, alt, wref, t, hold, tas)
+
+
+def read_csv_routes(text, *, path=None):
+    """Read the routes of a CSV text (see the module docstring).
+
+    Comment lines declaring a setting (``# altitude_reference: agl``; the keys in
+    :data:`CSV_SETTINGS`) are honoured for every route of the file; a comment that
+    reads like a setting with an unknown key is refused, so that no declaration is
+    silently ignored. Comments without ``:`` or ``=`` are prose and pass.
+    """
+    rows, settings = _csv_rows(text, path)
+    header = _csv_header(rows, path)
     groups = {}
     for lineno, fields in rows[1:]:
         if len(fields) > len(header):
@@ -611,40 +774,15 @@ def read_csv_routes(text, *, path=None):
         row = dict(zip(header, fields + [""] * (len(header) - len(fields)), strict=True))
         row = {k: (v if v != "" else None) for k, v in row.items()}
         groups.setdefault(row.get("route") or "", []).append((lineno, row))
+    declared = _route_fields(settings, path=path, where="")
     routes = []
     for key, items in groups.items():
-        wps, lines = [], []
-        for i, (lineno, row) in enumerate(items):
-            where = f"line {lineno}"
-            lat, lon = check_position(row["lat"], row["lon"], path=path, where=where)
-            ref = _reference(row.get("altitude_reference"), path=path, where=where)
-            alt, wref = _altitude(
-                path=path,
-                where=where,
-                reference=ref,
-                feet=row.get("altitude_ft"),
-                flight_level=row.get("flight_level"),
-            )
-            t = _optional_time(row.get("time"), path=path, where=where)
-            hold = (
-                _optional_number(
-                    row.get("hold_min"),
-                    "hold_min",
-                    path=path,
-                    where=where,
-                    low=0.0,
-                    high=24 * 60.0,
-                )
-                or 0.0
-            )
-            tas = _optional_number(
-                row.get("tas_kt"), "tas_kt", path=path, where=where, low=0.0, high=2000.0
-            )
-            wps.append(
-                Waypoint(row.get("name") or f"WP{i + 1}", lat, lon, alt, wref, t, hold, tas)
-            )
-            lines.append(lineno)
-        fields = {"name": key or None}
+        wps = [
+            _csv_waypoint(row, i, f"line {lineno}", path, settings.get("altitude_reference"))
+            for i, (lineno, row) in enumerate(items)
+        ]
+        lines = [lineno for lineno, _ in items]
+        fields = {**declared, "name": key or declared["name"]}
         routes.append((fields, wps, (lambda i, lines=lines: f"line {lines[i]}")))
     return _default_names(routes, path)
 
@@ -724,9 +862,12 @@ def _gpx_route(el, points, q, path, where, point_tag):
         wi = f"{where} {point_tag} {i + 1}"
         lat, lon = check_position(pt.get("lat"), pt.get("lon"), path=path, where=wi)
         ele = _text(pt, q("ele"))
-        if ele is None:
+        if ele is None and _DEFAULT_ALTITUDE.get() is None:
             raise RouteError(
-                "missing altitude (no <ele>)", path=path, where=wi, fix="give <ele> in metres"
+                "missing altitude (no <ele>)",
+                path=path,
+                where=wi,
+                fix="give <ele> in metres, or --altitude-ft / --flight-level",
             )
         pext = _extensions(pt, q)
         alt, wref = _altitude(path=path, where=wi, reference=ref, metres=ele)
@@ -745,7 +886,10 @@ def _gpx_route(el, points, q, path, where, point_tag):
         )
     props = {
         "name": _text(el, q("name")),
-        **{k: ext.get(k) for k in ("departure_time", "true_airspeed_kt", "ground_elevation_m")},
+        **{
+            k: ext.get(k)
+            for k in ("departure_time", "true_airspeed_kt", "ground_elevation_m", "airframe")
+        },
     }
     fields = _route_fields(props, path=path, where=f"{where} extensions")
     wheres = [f"{where} {point_tag} {i + 1}" for i in range(len(points))]
@@ -754,7 +898,7 @@ def _gpx_route(el, points, q, path, where, point_tag):
     return fields, wps, (lambda i: wheres[min(i, len(wheres) - 1)])
 
 
-def load_routes(path):
+def load_routes(path, *, altitude_ft=None, flight_level=None):
     """Read every route in a GeoJSON, CSV or GPX file.
 
     The format is chosen by content (``{`` JSON, ``<`` XML) and extension
@@ -765,6 +909,9 @@ def load_routes(path):
     ----------
     path : str or os.PathLike
         The route file.
+    altitude_ft, flight_level : float, optional
+        The altitude of a route drawn without altitudes (feet in the route's
+        reference, or a flight level); refused when the file gives altitudes.
 
     Returns
     -------
@@ -777,10 +924,10 @@ def load_routes(path):
         The file is missing, empty, malformed or holds an unusable route; the
         message names the file, the place and the fix.
     """
-    return read_routes(path)
+    return read_routes(path, altitude_ft=altitude_ft, flight_level=flight_level)
 
 
-def load_route(path):
+def load_route(path, **kwargs):
     """Read the single route of a file (see :func:`load_routes`).
 
     Raises
@@ -788,7 +935,7 @@ def load_route(path):
     RouteError
         Also when the file holds several routes (they are named).
     """
-    routes = load_routes(path)
+    routes = load_routes(path, **kwargs)
     if len(routes) != 1:
         names = ", ".join(repr(r.name) for r in routes)
         raise RouteError(

@@ -40,6 +40,8 @@ __all__ = [
     "GROUND",
     "CLOUD_COLOUR",
     "CANDIDATE_COLOUR",
+    "COAST_COLOUR",
+    "DOMAIN_COLOUR",
     "ISOTHERMS",
     "TEXT_BOX",
     "check_output_path",
@@ -89,6 +91,8 @@ SLD_COLOUR = "#0a8f9a"
 GROUND = "#5c5346"
 CLOUD_COLOUR = "#2b5fad"
 CANDIDATE_COLOUR = "#1b7f3b"
+COAST_COLOUR = "#8fa3b8"
+DOMAIN_COLOUR = "#3b5b7a"
 #: Isotherms drawn [degC] -> (line style, width).
 ISOTHERMS = {0: ("solid", 1.6), -10: ((0, (5, 2.5)), 1.1), -20: ((0, (1.2, 1.8)), 1.1)}
 # A light box behind labels (a path-effect halo would turn SVG text into paths).
@@ -124,10 +128,15 @@ def check_picture_path(path):
     return check_output_path(path, ("png", "svg"), what="picture")
 
 
-def save(fig, path, fmt, dpi):
-    """Write a figure atomically (temporary file, then renamed)."""
+def save(fig, path, fmt, dpi, *, tight=False):
+    """Write a figure atomically (temporary file, then renamed).
+
+    ``tight`` grows or trims the page to what is drawn, so that no label, legend or
+    title is cut off at the edge.
+    """
+    extra = {"bbox_inches": "tight", "pad_inches": 0.12} if tight else {}
     with matplotlib.rc_context(_SAVE_RC):
-        replace_atomically(path, lambda tmp: fig.savefig(tmp, format=fmt, dpi=dpi))
+        replace_atomically(path, lambda tmp: fig.savefig(tmp, format=fmt, dpi=dpi, **extra))
     return path
 
 
