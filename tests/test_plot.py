@@ -163,3 +163,54 @@ def test_low_flights_get_a_closer_altitude_range():
     assert _altitude_top_ft(rows, np.array([9000.0]), []) == 12000.0
     # A path above the curtain is always inside the picture.
     assert _altitude_top_ft(rows, np.array([13000.0]), []) == 13500.0
+
+
+def test_map_has_coastlines_forecast_area_route_names_and_holds(tmp_path, make_screening):
+    # the fixture route lies off the west coast of Scotland (about 56 N, 6-8 W)
+    scr = dataclasses.replace(
+        make_screening(), provenance={"bounds": [-9.0, 55.5, -4.0, 57.5], "issue_time": "x"}
+    )
+    root = ET.parse(plot_route_map(scr, tmp_path / "m.svg", **SMALL)).getroot()
+    assert _by_id(root, "coastlines") is not None  # the bundled Natural Earth coast
+    assert _by_id(root, "forecast-area") is not None
+    text = " ".join(_texts(root))
+    assert scr.route_name in text and "coast (Natural Earth)" in text
+
+
+def test_map_labels_never_overlap():
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    from icing.outputs.plot.routemap import _place_labels
+
+    fig = Figure(figsize=(6, 4))
+    FigureCanvasAgg(fig)
+    ax = fig.add_axes([0.1, 0.1, 0.8, 0.8])
+    ax.set_xlim(0, 10)
+    ax.set_ylim(0, 10)
+    # twenty labels crowded on three points, as waypoints shared by several routes are
+    labels = [(5.0 + (i % 3) * 0.05, 5.0, f"point-{i:02d}", {"fontsize": 7}) for i in range(20)]
+    _place_labels(fig, ax, labels)
+    renderer = fig.canvas.get_renderer()
+    boxes = [t.get_window_extent(renderer) for t in ax.texts]
+    assert 3 <= len(boxes) < 20  # some fit, the rest are left out rather than overlapped
+    for i, a in enumerate(boxes):
+        for b in boxes[i + 1 :]:
+            assert not a.overlaps(b)
+
+
+def test_isotherms_are_not_drawn_through_coverage_gaps(tmp_path, make_screening, monkeypatch):
+    from icing.outputs.plot import section
+
+    scr = make_screening()
+    temp = np.array(scr.curtain.temperature_c)
+    gap = (np.asarray(scr.curtain.severity) == codes.GAP) & ~scr.curtain.below_ground
+    temp[gap] = -5.0  # a temperature where the forecast gave nothing usable
+    scr = dataclasses.replace(scr, curtain=dataclasses.replace(scr.curtain, temperature_c=temp))
+    seen = {}
+    original = section._draw_isotherms
+    monkeypatch.setattr(
+        section, "_draw_isotherms", lambda ax, fr, t: (seen.update(t=t), original(ax, fr, t))
+    )
+    plot_cross_section(scr, tmp_path / "g.png", **SMALL)
+    assert gap.any() and np.isnan(seen["t"][gap]).all()

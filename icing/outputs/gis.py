@@ -115,6 +115,11 @@ def _store_styles(path, qml, sld):
             "owner) VALUES ('', '', 'hazards', 'geom', 'icing severity', ?, ?, 1, ?, 'icing')",
             (qml, sld, "icing severity by severity_rank; grey dashed = coverage gap"),
         )
+        # register the table as GeoPackage attributes (OGC 12-128r18, gpkg_contents)
+        db.execute(
+            "INSERT OR IGNORE INTO gpkg_contents (table_name, data_type, identifier) "
+            "VALUES ('layer_styles', 'attributes', 'layer_styles')"
+        )
 
 
 def write_geopackage(screenings, fc, path):
@@ -148,7 +153,7 @@ def write_geopackage(screenings, fc, path):
         _write_layer(tmp, "routes", routes, records, append=bool(feats))
         _store_styles(tmp, qml, sld)
 
-    replace_atomically(path, build)
+    replace_atomically(path, build, keep_suffix=True)
     qml_path, sld_path = path.with_suffix(".qml"), path.with_suffix(".sld")
     atomic_write(qml_path, qml)
     atomic_write(sld_path, sld)

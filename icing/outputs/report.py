@@ -436,8 +436,8 @@ def _route_section(s, i, pic, tmp, own):
         f'<section id="route-{i}"><h2>{_e(s.route_name)}</h2>',
         f'<p class="{cls}" id="outcome-{i}">{_e(plain_outcome(summ))}</p>',
         f"<p>Airframe: {_e(s.airframe_name)}"
-        + (f"; departs {_e(_fmt(summ.get('departure_time')))}" if summ else "")
-        + (f", arrives {_e(_fmt(summ.get('arrival_time')))}" if summ else "")
+        + (f"; departs {_e(_when(summ.get('departure_time')))}" if summ else "")
+        + (f", arrives {_e(_when(summ.get('arrival_time')))}" if summ else "")
         + "</p>",
         _holds(s),
     ]
@@ -474,6 +474,13 @@ def _route_section(s, i, pic, tmp, own):
         )
     parts.append("</section>")
     return "\n".join(p for p in parts if p)
+
+
+def _when(iso):
+    """Return an ISO 8601 UTC time as people read it ("2027-01-14 09:00 UTC")."""
+    if not isinstance(iso, str) or len(iso) < 16:
+        return "unknown"
+    return f"{iso[:10]} {iso[11:16]} UTC"
 
 
 def _unchecked(mapping, path=()):

@@ -106,7 +106,7 @@ def screen_route(
     route,
     forecast,
     *,
-    airframe,
+    airframe=None,
     step_km: float | None = None,
     tas_kt: float | None = None,
     departure=None,

@@ -174,7 +174,9 @@ def _draw_coastlines(ax, lon0):
             pieces += [p for p in _split_at_seam(lon, line[:, 1]) if len(p) > 1]
     if pieces:
         ax.add_collection(
-            LineCollection(pieces, colors=COAST_COLOUR, linewidths=0.8, zorder=1, label="coast"),
+            LineCollection(
+                pieces, colors=COAST_COLOUR, linewidths=0.8, zorder=1, gid="coastlines"
+            ),
             autolim=False,
         )
 

@@ -30,6 +30,7 @@ from icing.outputs.plot.style import (
     GAP_LABEL,
     GROUND,
     HATCH_COLOURS,
+    ISOTHERM_COLOUR,
     ISOTHERMS,
     MARKERS,
     SEVERITY_COLOURS,
@@ -483,7 +484,7 @@ def _draw_isotherms(ax, fr, temp):
         fr.Y,
         temp,
         levels=levels,
-        colors="#151515",
+        colors=ISOTHERM_COLOUR,
         linestyles=[ISOTHERMS[lv][0] for lv in levels],
         linewidths=[ISOTHERMS[lv][1] for lv in levels],
         zorder=4,
@@ -507,8 +508,8 @@ def _draw_flight_path(ax, fx, fy, seg_props):
     Markers stand at even spacing along the route (about forty over its length),
     shaped by the severity there, so that short segments never pile up into a smear.
     """
-    halo = [patheffects.withStroke(linewidth=4.0, foreground="white")]
-    ax.plot(fx, fy, color="black", linewidth=1.5, zorder=7, path_effects=halo)
+    halo = [patheffects.withStroke(linewidth=4.5, foreground="white")]
+    ax.plot(fx, fy, color="black", linewidth=2.2, zorder=7, path_effects=halo)
     span = float(fx[-1] - fx[0]) if fx.size > 1 else 0.0
     spots = np.linspace(fx[0], fx[-1], 41)[1:-1] if span > 0 else np.array([])
     for p in seg_props:
@@ -614,15 +615,14 @@ def _draw_time_axis(ax, screening):
     if samples is None or getattr(samples, "time", None) is None:
         return
     km = np.asarray(samples.distance_m, float) / 1000.0
-    t = np.asarray(samples.time).astype("datetime64[ms]").astype(np.int64)
+    t = np.asarray(samples.time).astype("datetime64[ms]").astype(np.int64) / 60000.0  # [min]
     if km.size < 2 or km[-1] <= km[0]:
         return
-    ticks = np.linspace(km[0], km[-1], 6)
-    first = np.searchsorted(km, ticks, side="left").clip(0, km.size - 1)  # arrival there
-    labels = [
-        np.datetime64(int(v), "ms").astype("datetime64[m]").item().strftime("%H:%M")
-        for v in t[first]
-    ]
+    span = t[-1] - t[0]
+    step = next((m for m in (5, 10, 15, 30, 60, 120, 180, 360) if span / m <= 8), 720)
+    marks = np.arange(np.ceil(t[0] / step) * step, t[-1] + 1e-9, step)
+    ticks = np.interp(marks, t, km)  # where the flight is at each round time
+    labels = [np.datetime64(int(round(v)), "m").item().strftime("%H:%M") for v in marks]
     sec = ax.secondary_xaxis(-0.2)
     sec.set_xticks(ticks, labels=labels, fontsize=7)
     sec.set_xlabel("planned time [UTC]", fontsize=8)
@@ -680,11 +680,13 @@ def _draw_legend(ax, pressure, have_candidates):
             ),
         ]
         + [
-            Line2D([], [], color="#151515", linestyle=ls, linewidth=lw, label=f"{lv} \u00b0C")
+            Line2D(
+                [], [], color=ISOTHERM_COLOUR, linestyle=ls, linewidth=lw, label=f"{lv} \u00b0C"
+            )
             for lv, (ls, lw) in ISOTHERMS.items()
         ]
         + [
-            Line2D([], [], color="black", linewidth=1.5, label="planned flight path"),
+            Line2D([], [], color="black", linewidth=2.2, label="planned flight path"),
             Line2D(
                 [],
                 [],

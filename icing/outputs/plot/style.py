@@ -43,6 +43,7 @@ __all__ = [
     "COAST_COLOUR",
     "DOMAIN_COLOUR",
     "ISOTHERMS",
+    "ISOTHERM_COLOUR",
     "TEXT_BOX",
     "check_output_path",
     "check_picture_path",
@@ -93,8 +94,9 @@ CLOUD_COLOUR = "#2b5fad"
 CANDIDATE_COLOUR = "#1b7f3b"
 COAST_COLOUR = "#8fa3b8"
 DOMAIN_COLOUR = "#3b5b7a"
-#: Isotherms drawn [degC] -> (line style, width).
-ISOTHERMS = {0: ("solid", 1.6), -10: ((0, (5, 2.5)), 1.1), -20: ((0, (1.2, 1.8)), 1.1)}
+#: Isotherms drawn [degC] -> (line style, width), in a grey that the black path stands out from.
+ISOTHERMS = {0: ((0, (8, 2, 2, 2)), 1.3), -10: ((0, (5, 2.5)), 1.0), -20: ((0, (1.2, 1.8)), 1.0)}
+ISOTHERM_COLOUR = "#4a4a4a"
 # A light box behind labels (a path-effect halo would turn SVG text into paths).
 TEXT_BOX = {"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": "none", "alpha": 0.8}
 _SAVE_RC = {"svg.fonttype": "none", "hatch.linewidth": 0.7, "svg.hashsalt": "icing"}
