@@ -214,3 +214,11 @@ def test_isotherms_are_not_drawn_through_coverage_gaps(tmp_path, make_screening,
     )
     plot_cross_section(scr, tmp_path / "g.png", **SMALL)
     assert gap.any() and np.isnan(seen["t"][gap]).all()
+
+
+def test_drones_get_a_close_view_of_their_band():
+    from icing.outputs.plot.section import _altitude_top_ft
+
+    rows = np.arange(0.0, 12001.0, 50.0)
+    # a drone at 300 ft in a 400 ft band: twice its height, 300 ft above the band's top
+    assert _altitude_top_ft(rows, np.array([30.0, 300.0]), [], band_top_ft=400.0) == 700.0

@@ -80,14 +80,14 @@ def _style():
     """Return the report's style sheet; the severity colours are the pictures' own."""
     sev = "".join(
         f".sev-{codes.SEVERITY[k]}{{background:{c};color:{'#fff' if k >= 3 else '#111'};"
-        "font-weight:600}"
+        "font-weight:600;white-space:nowrap}"
         for k, c in SEVERITY_COLOURS.items()
     )
     return (
         "*{box-sizing:border-box}"
         "body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:1.2em auto;"
         "max-width:1340px;color:#1a1a1a;line-height:1.4;padding:0 16px;"
-        "overflow-wrap:anywhere}"
+        "overflow-wrap:break-word}"
         ".caution{border:2px solid #222;background:#fff8d8;padding:.7em 1em;margin:1em 0;"
         "font-weight:600}"
         "table{border-collapse:collapse;margin:.6em 0 1.2em;font-size:.88em;max-width:100%}"
@@ -175,8 +175,10 @@ def _summary_value(summ, key, s):
     if key == "airframe":
         return s.airframe_name, None
     v = summ.get(key)
+    partly = (summ.get("gap_km") or 0) > 0 or (summ.get("gap_minutes") or 0) > 0
     if key == "worst_severity":
-        return v, _severity_class(v)
+        # over the screened part only when some of the route could not be screened
+        return (f"{v} + gaps" if partly and v is not None else v), _severity_class(v)
     if key == "outcome":
         return OUTCOME_WORDS.get(v, v), f"outcome-cell-{v}" if v else None
     if key == "sld" and v is not None:
@@ -383,9 +385,11 @@ def write_report(
         own = [getattr(s, attr, None) or {} for s in items]
         if given is not None:
             return dict(given), own
-        if own and all(o == own[0] for o in own):
-            return dict(own[0]), [{} for _ in own]
-        return {}, own
+        if not own:
+            return {}, own
+        # what every route shares is the run's; each route keeps what is its own
+        run = {k: v for k, v in own[0].items() if all(k in o and o[k] == v for o in own)}
+        return run, [{k: v for k, v in o.items() if k not in run} for o in own]
 
     run_assumptions, route_assumptions = shared("assumptions", assumptions)
     run_provenance, route_provenance = shared("provenance", provenance)
@@ -465,6 +469,7 @@ def _route_section(s, i, pic, tmp, own):
             "<details><summary>Route summary in full</summary>" + _kv(extra) + "</details>"
         )
     if own[0]:
+        parts.append(_assumptions_for_users(own[0], generic=False, gid=f"assumptions-plain-{i}"))
         parts.append(
             "<details><summary>Assumptions for this route</summary>" + _kv(own[0]) + "</details>"
         )
@@ -474,6 +479,13 @@ def _route_section(s, i, pic, tmp, own):
         )
     parts.append("</section>")
     return "\n".join(p for p in parts if p)
+
+
+def _num(value):
+    """Return a number as people write it (6 not 6.0; 1,000 not 1000.0); text as it is."""
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        return f"{value:,.0f}" if float(value).is_integer() else f"{value:,g}"
+    return "unknown" if value is None else str(value)
 
 
 def _when(iso):
@@ -494,10 +506,13 @@ def _unchecked(mapping, path=()):
     return out
 
 
-def _assumptions_for_users(a):
-    """Return the run's main assumptions, in sentences a pilot or dispatcher reads."""
+def _assumptions_for_users(a, *, generic=True, gid="assumptions-plain"):
+    """Return the main assumptions, in sentences a pilot or dispatcher reads.
+
+    ``generic`` adds the sentences that hold for every run (the method in brief).
+    """
     if not a:
-        return "<p>\u2014</p>"
+        return "" if not generic else "<p>\u2014</p>"
     col, af, cov = a.get("column") or {}, a.get("airframe") or {}, a.get("coverage") or {}
     scr = a.get("screening") or {}
     items = []
@@ -510,25 +525,28 @@ def _assumptions_for_users(a):
     if af:
         items.append(
             f"Airframe {af.get('name')}: {af.get('ice_protection')} ice protection; it is taken "
-            f"to carry {af.get('ice_tolerance_mm')} mm of ice on its {af.get('reference')}; "
-            f"cruise {af.get('true_airspeed_kt')} kt unless the route says otherwise."
+            f"to carry {_num(af.get('ice_tolerance_mm'))} mm of ice on its "
+            f"{af.get('reference')}; cruise {_num(af.get('true_airspeed_kt'))} kt unless the "
+            "route says otherwise."
         )
     if cov:
         items.append(
-            f"A point counts as covered by the forecast within {cov.get('radius_km')} km and "
-            f"{cov.get('time_tolerance_h')} h of forecast data; elsewhere it is a coverage gap "
-            "(icing unknown there, never 'no icing')."
+            f"A point counts as covered by the forecast within {_num(cov.get('radius_km'))} km "
+            f"and {_num(cov.get('time_tolerance_h'))} h of forecast data; elsewhere it is a "
+            "coverage gap (icing unknown there, never 'no icing')."
         )
     if scr:
         items.append(
-            f"The route is sampled every {scr.get('sample_step_km')} km; candidate altitudes "
-            f"every {scr.get('candidate_altitude_step_ft')} ft."
+            f"The route is sampled every {_num(scr.get('sample_step_km'))} km; candidate "
+            f"altitudes every {_num(scr.get('candidate_altitude_step_ft'))} ft."
         )
-    items.append(
-        "Cloud liquid is the larger of the forecast model's cloud water and an estimate from "
-        "the cloud base; severity comes from the catch rate on the airframe's most exposed "
-        "part, its ice protection and its ice tolerance, raised where large drops are found."
-    )
+    if generic:
+        items.append(
+            "Cloud liquid is the larger of the forecast model's cloud water and an estimate "
+            "from the cloud base; severity comes from the catch rate on the airframe's most "
+            "exposed part, its ice protection and its ice tolerance, raised where large drops "
+            "are found."
+        )
     unchecked = _unchecked(a)
     if unchecked:
         items.append(

@@ -67,6 +67,15 @@ def _summary_cell(s, key):
     value = s.get(key)
     if value is None:
         return "unknown"
+    partly = (s.get("gap_km") or 0) > 0 or (s.get("gap_minutes") or 0) > 0
+    if key in ("worst_severity", "minutes_in_icing", "accretion_mm") and partly:
+        # over the screened part only: the rest is unknown
+        text = (
+            value
+            if key == "worst_severity"
+            else format_number(value, 2 if key == "accretion_mm" else 1)
+        )
+        return f"{text} + gaps"
     return format_number(value, 2 if key == "accretion_mm" else 1)
 
 

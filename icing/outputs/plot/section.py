@@ -245,18 +245,25 @@ def _draw_candidates(ax, seg_props, fr):
     return drawn
 
 
-def _altitude_top_ft(y, fy, seg_props):
-    """Top of the picture [ft]: enough above the path and the candidates, within the curtain."""
+def _altitude_top_ft(y, fy, seg_props, band_top_ft=None):
+    """Top of the picture [ft]: enough above the path and the candidates, within the curtain.
+
+    Aircraft: three times the highest planned altitude, at least 3,000 ft above it.
+    Drones (``band_top_ft``, the top of their height band on the axis): a close view,
+    twice the highest planned height and 300 ft above the band's top.
+    """
     top = float(y[-1])
     if fy is None or not np.isfinite(fy).any():
         return top
     high = float(np.nanmax(fy))
-    want = max(3.0 * high, high + 3000.0)
+    drone = band_top_ft is not None and np.isfinite(band_top_ft)
+    want = max(2.0 * high, band_top_ft + 300.0) if drone else max(3.0 * high, high + 3000.0)
+    margin = 200.0 if drone else 1000.0
     for p in seg_props:
         for o in (p.get("vertical_options") or {}).values():
             if isinstance(o, dict) and o.get("altitude_ft") is not None:
-                want = max(want, float(o["altitude_ft"]) + 1000.0)
-    return max(min(top, want), high + 500.0)  # the path is always inside
+                want = max(want, float(o["altitude_ft"]) + margin)
+    return max(min(top, want), high + (100.0 if drone else 500.0))  # the path is inside
 
 
 def _label_gaps(ax, fr, gap, y_bottom, y_top):
@@ -378,7 +385,10 @@ def plot_cross_section(
     have_candidates = _draw_candidates(ax, seg_props, fr) if candidates else False
     ax.set_xlim(fr.x[0], fr.x[-1] if fr.x[-1] > fr.x[0] else fr.x[0] + 1.0)
     y_axis = fr.rows - (float(np.nanmin(fr.shift)) if fr.agl else 0.0)
-    y_top = _altitude_top_ft(y_axis, fy, seg_props) if ylim_ft is None else float(ylim_ft[1])
+    band = getattr(screening, "max_agl_m", None)
+    if band is not None:
+        band = band / FT + (0.0 if fr.agl else float(np.nanmax(_ground_ft(cur), initial=0.0)))
+    y_top = _altitude_top_ft(y_axis, fy, seg_props, band) if ylim_ft is None else float(ylim_ft[1])
     y_bottom = (0.0 if fr.agl else fr.rows[0]) if ylim_ft is None else float(ylim_ft[0])
     ax.set_ylim(y_bottom, y_top)
     _label_gaps(ax, fr, gap, y_bottom, y_top)
@@ -622,6 +632,11 @@ def _draw_time_axis(ax, screening):
     step = next((m for m in (5, 10, 15, 30, 60, 120, 180, 360) if span / m <= 8), 720)
     marks = np.arange(np.ceil(t[0] / step) * step, t[-1] + 1e-9, step)
     ticks = np.interp(marks, t, km)  # where the flight is at each round time
+    keep = []  # during a hold several times fall on one place: label the first only
+    for i, x in enumerate(ticks):
+        if not keep or x - ticks[keep[-1]] > 0.04 * (km[-1] - km[0]):
+            keep.append(i)
+    marks, ticks = marks[keep], ticks[keep]
     labels = [np.datetime64(int(round(v)), "m").item().strftime("%H:%M") for v in marks]
     sec = ax.secondary_xaxis(-0.2)
     sec.set_xticks(ticks, labels=labels, fontsize=7)
