@@ -9,7 +9,18 @@ its label as ``title`` (``tests/test_names.py`` keeps them in step).
 
 from __future__ import annotations
 
-__all__ = ["LABELS", "DEPRECATED", "label", "OUTCOME_WORDS"]
+__all__ = ["LABELS", "DEPRECATED", "label", "OUTCOME_WORDS", "SUMMARY_FIRST"]
+
+#: What a reader needs first about a route, in this order (terminal table and report).
+SUMMARY_FIRST = (
+    "route",
+    "airframe",
+    "outcome",
+    "worst_severity",
+    "minutes_in_icing",
+    "accretion_mm",
+    "sld",
+)
 
 #: key -> label (unit in brackets). Keys are what programs read; labels what people read.
 LABELS = {

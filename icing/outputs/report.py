@@ -23,11 +23,12 @@ from icing import codes
 from icing.caution import CAUTION
 from icing.errors import InputError
 from icing.outputs.atomic import replace_atomically
-from icing.outputs.names import OUTCOME_WORDS, label
+from icing.outputs.names import OUTCOME_WORDS, SUMMARY_FIRST, label
 from icing.outputs.plot import (
     GAP_LABEL,
     SEVERITY_COLOURS,
     check_output_path,
+    hold_runs,
     plot_cross_section,
     plot_route_map,
 )
@@ -57,18 +58,7 @@ SEGMENT_COLUMNS = (
 )
 
 #: Columns of the summary table: what a reader needs first, nothing wider than the page.
-SUMMARY_COLUMNS = (
-    "route",
-    "airframe",
-    "outcome",
-    "worst_severity",
-    "minutes_in_icing",
-    "accretion_mm",
-    "sld",
-    "gap_km",
-    "departure_time",
-    "arrival_time",
-)
+SUMMARY_COLUMNS = SUMMARY_FIRST + ("gap_km", "departure_time", "arrival_time")
 
 _CANDIDATES_HEAD = (
     "Candidate altitudes with less icing \u2014 to check against official advisories; "
@@ -296,21 +286,17 @@ def plain_outcome(summary) -> str:
 def _holds(screening):
     """Return the holds (hovers, loiters) of a route, in words."""
     samples = getattr(screening, "samples", None)
-    hold = getattr(samples, "hold", None)
-    if hold is None or not np.any(hold):
-        return ""
-    hold = np.asarray(hold, bool)
-    dt = np.asarray(samples.dt_s, float)
     items = []
-    edges = np.flatnonzero(np.diff(np.r_[0, hold.astype(int), 0]))
-    for a, b in zip(edges[::2], edges[1::2], strict=True):
+    for a, b, minutes in hold_runs(samples):
         t0 = np.datetime64(samples.time[a], "m").item().strftime("%H:%M")
         t1 = np.datetime64(samples.time[b - 1], "m").item().strftime("%H:%M")
-        where = samples.from_waypoint[a]
+        alt = screening.at_flight["altitude_ft"][a]
         items.append(
-            f"<li>hold {dt[a:b].sum() / 60:.0f} min at {_e(where)}, {t0}\u2013{t1} UTC"
-            f" ({_e(_fmt(screening.at_flight['altitude_ft'][a]))} ft MSL)</li>"
+            f"<li>hold {minutes:.0f} min at {_e(samples.from_waypoint[a])}, {t0}\u2013{t1} UTC "
+            f"({_e(_fmt(alt))} ft MSL)</li>"
         )
+    if not items:
+        return ""
     return '<p>Holds:</p><ul class="plain holds">' + "".join(items) + "</ul>"
 
 

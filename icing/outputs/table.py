@@ -16,7 +16,7 @@ from icing import codes
 from icing.caution import CAUTION
 from icing.constants import FT
 from icing.hazards.segments import KIND_GAP, _iso
-from icing.outputs.names import OUTCOME_WORDS, label
+from icing.outputs.names import OUTCOME_WORDS, SUMMARY_FIRST, label
 
 __all__ = [
     "format_number",
@@ -39,17 +39,7 @@ def format_number(x, nd=1, none="-"):
 
 
 #: Columns of the terminal summary table (keys; their labels come from ``names``).
-SUMMARY_COLUMNS = (
-    "route",
-    "airframe",
-    "outcome",
-    "worst_severity",
-    "minutes_in_icing",
-    "accretion_mm",
-    "sld",
-    "freezing_level_ft_min",
-    "gap_km",
-)
+SUMMARY_COLUMNS = SUMMARY_FIRST + ("freezing_level_ft_min", "gap_km")
 
 
 def _summary_cell(s, key):

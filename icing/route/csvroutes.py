@@ -18,10 +18,11 @@ from icing.route.fields import (
     _DEFAULT_ALTITUDE,
     _altitude,
     _default_names,
-    _optional_number,
+    _hold_min,
     _optional_time,
     _reference,
     _route_fields,
+    _tas_kt,
 )
 from icing.route.model import Waypoint, check_position
 
@@ -157,15 +158,8 @@ def _csv_waypoint(row, i, where, path, default_ref):
         flight_level=row.get("flight_level"),
     )
     t = _optional_time(row.get("time"), path=path, where=where)
-    hold = (
-        _optional_number(
-            row.get("hold_min"), "hold_min", path=path, where=where, low=0.0, high=24 * 60.0
-        )
-        or 0.0
-    )
-    tas = _optional_number(
-        row.get("tas_kt"), "tas_kt", path=path, where=where, low=0.0, high=2000.0
-    )
+    hold = _hold_min(row.get("hold_min"), path=path, where=where)
+    tas = _tas_kt(row.get("tas_kt"), path=path, where=where)
     return Waypoint(row.get("name") or f"WP{i + 1}", lat, lon, alt, wref, t, hold, tas)
 
 

@@ -26,6 +26,8 @@ __all__ = [
     "_altitude",
     "_default_names",
     "_flight_level_m",
+    "_hold_min",
+    "_tas_kt",
     "_optional_number",
     "_optional_time",
     "_reference",
@@ -53,6 +55,18 @@ def _optional_number(value, what, *, path, where, low, high):
     if value is None or (isinstance(value, str) and not value.strip()):
         return None
     return check_number(value, what, path=path, where=where, low=low, high=high)
+
+
+def _hold_min(value, *, path, where):
+    """Minutes of hold (hover, loiter) at a waypoint: 0 when not given, at most a day."""
+    return (
+        _optional_number(value, "hold_min", path=path, where=where, low=0.0, high=24 * 60.0) or 0.0
+    )
+
+
+def _tas_kt(value, *, path, where):
+    """Return the true airspeed of a waypoint's leg [kt], None when not given."""
+    return _optional_number(value, "tas_kt", path=path, where=where, low=0.0, high=2000.0)
 
 
 def _flight_level_m(value, *, path, where):

@@ -15,10 +15,11 @@ from icing.route.fields import (
     _DEFAULT_ALTITUDE,
     _altitude,
     _default_names,
-    _optional_number,
+    _hold_min,
     _optional_time,
     _reference,
     _route_fields,
+    _tas_kt,
 )
 from icing.route.model import Waypoint, check_position
 
@@ -112,15 +113,8 @@ def _gpx_route(el, points, q, path, where, point_tag):
         pext = _extensions(pt, q)
         alt, wref = _altitude(path=path, where=wi, reference=ref, metres=ele)
         t = _optional_time(_text(pt, q("time")), path=path, where=wi)
-        hold = (
-            _optional_number(
-                pext.get("hold_min"), "hold_min", path=path, where=wi, low=0.0, high=24 * 60.0
-            )
-            or 0.0
-        )
-        tas = _optional_number(
-            pext.get("tas_kt"), "tas_kt", path=path, where=wi, low=0.0, high=2000.0
-        )
+        hold = _hold_min(pext.get("hold_min"), path=path, where=wi)
+        tas = _tas_kt(pext.get("tas_kt"), path=path, where=wi)
         wps.append(
             Waypoint(_text(pt, q("name")) or f"WP{i + 1}", lat, lon, alt, wref, t, hold, tas)
         )

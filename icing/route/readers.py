@@ -52,10 +52,11 @@ from icing.route.fields import (
     _altitude,
     _default_names,
     _flight_level_m,
-    _optional_number,
+    _hold_min,
     _optional_time,
     _reference,
     _route_fields,
+    _tas_kt,
 )
 from icing.route.gpxroutes import GPX_EXTENSION_NS, read_gpx_routes
 from icing.route.model import Waypoint, check_number, check_position
@@ -370,17 +371,7 @@ def _line_route(f, defaults, path, where, bare=False):
             path=path, where=wi, reference=ref, metres=z, feet=feet[i], flight_level=levels[i]
         )
         t = _optional_time(times[i], path=path, where=f"{pp}times[{i}]")
-        hold = (
-            _optional_number(
-                holds[i],
-                "hold_min",
-                path=path,
-                where=f"{pp}hold_min[{i}]",
-                low=0.0,
-                high=24 * 60.0,
-            )
-            or 0.0
-        )
+        hold = _hold_min(holds[i], path=path, where=f"{pp}hold_min[{i}]")
         name = names[i] if names[i] is not None else f"WP{i + 1}"
         wps.append(Waypoint(str(name), lat, lon, alt, wref, t, hold, None))
     fields = _route_fields(props, path=path, where=(p + "properties") if not bare else "")
@@ -416,25 +407,8 @@ def _points_route(features, defaults, path):
             flight_level=props.get("flight_level"),
         )
         t = _optional_time(props.get("time"), path=path, where=where + ".properties.time")
-        hold = (
-            _optional_number(
-                props.get("hold_min"),
-                "hold_min",
-                path=path,
-                where=where + ".properties.hold_min",
-                low=0.0,
-                high=24 * 60.0,
-            )
-            or 0.0
-        )
-        tas = _optional_number(
-            props.get("tas_kt"),
-            "tas_kt",
-            path=path,
-            where=where + ".properties.tas_kt",
-            low=0.0,
-            high=2000.0,
-        )
+        hold = _hold_min(props.get("hold_min"), path=path, where=where + ".properties.hold_min")
+        tas = _tas_kt(props.get("tas_kt"), path=path, where=where + ".properties.tas_kt")
         name = props.get("name") or f"WP{i + 1}"
         wps.append(Waypoint(str(name), lat, lon, alt, wref, t, hold, tas))
     fields = _route_fields(defaults, path=path, where="properties")

@@ -36,6 +36,9 @@ from icing.outputs.plot.style import (
     TEXT_BOX,
     check_picture_path,
     draw_caution,
+    draw_hold_marker,
+    hold_handle,
+    hold_runs,
     props_of,
     save,
 )
@@ -315,29 +318,14 @@ def _draw_waypoints(ax, s, lon, lat):
 
 def _draw_holds(ax, s, lon, lat):
     """Circle each hold (hover, loiter) and return its label ("hold 10 min")."""
-    hold = getattr(s.samples, "hold", None)
-    if hold is None or not np.any(hold):
-        return []
-    hold = np.asarray(hold, bool)
-    dt = np.asarray(s.samples.dt_s, float)
-    edges = np.flatnonzero(np.diff(np.r_[0, hold.astype(int), 0]))
     out = []
-    for a, b in zip(edges[::2], edges[1::2], strict=True):
-        ax.plot(
-            [lon[a]],
-            [lat[a]],
-            marker="o",
-            markersize=12,
-            markerfacecolor="none",
-            markeredgecolor="black",
-            markeredgewidth=1.6,
-            zorder=12,
-        )
+    for a, _, minutes in hold_runs(s.samples):
+        draw_hold_marker(ax, lon[a], lat[a], zorder=12)
         out.append(
             (
                 float(lon[a]),
                 float(lat[a]),
-                f"hold {dt[a:b].sum() / 60:.0f} min",
+                f"hold {minutes:.0f} min",
                 {"fontsize": 7, "style": "italic"},
             )
         )
@@ -462,16 +450,7 @@ def _draw_legend(ax):
             linestyle=(0, (1, 2)),
             label="forecast area",
         ),
-        Line2D(
-            [],
-            [],
-            color="black",
-            linestyle="none",
-            marker="o",
-            markerfacecolor="none",
-            markersize=9,
-            label="hold",
-        ),
+        hold_handle("hold"),
         Line2D(
             [],
             [],

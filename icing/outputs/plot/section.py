@@ -40,6 +40,9 @@ from icing.outputs.plot.style import (
     TEXT_BOX,
     check_picture_path,
     draw_caution,
+    draw_hold_marker,
+    hold_handle,
+    hold_runs,
     props_of,
     save,
     severity_handles,
@@ -133,20 +136,6 @@ def _runs(flags):
     f = np.r_[False, np.asarray(flags, dtype=bool), False]
     edges = np.flatnonzero(np.diff(f.astype(int)))
     return list(zip(edges[::2], edges[1::2], strict=True))
-
-
-def _flight_path(screening):
-    at = getattr(screening, "at_flight", None) or {}
-    samples = getattr(screening, "samples", None)
-    x = at.get("distance_km")
-    if x is None and samples is not None and getattr(samples, "distance_m", None) is not None:
-        x = np.asarray(samples.distance_m, dtype=float) / 1000.0
-    y = at.get("altitude_ft")
-    if y is None and samples is not None and getattr(samples, "altitude_m", None) is not None:
-        y = np.asarray(samples.altitude_m, dtype=float) / FT
-    if x is None or y is None:
-        return None, None
-    return np.asarray(x, dtype=float), np.asarray(y, dtype=float)
 
 
 def _candidate_runs(seg_props, join_km):
@@ -453,31 +442,27 @@ def _draw_sld(ax, fr, sld, below):
     for cls, hatch in SLD_HATCH.items():
         m = (sld == cls) & ~below
         if _mask_fill(ax, fr, m, hatch=hatch, hatch_colour=SLD_COLOUR, zorder=3):
-            ax.contour(
-                fr.X,
-                fr.Y,
-                m.astype(float),
-                levels=[0.5],
-                colors=SLD_COLOUR,
-                linewidths=1.0,
-                linestyles=[(0, (3, 1.5))],
-                zorder=3,
-            )
+            _outline(ax, fr, m, SLD_COLOUR, 1.0, (0, (3, 1.5)), 3)
 
 
 def _draw_cloud(ax, fr, cloud):
     """Draw the cloud outline (bases and tops)."""
     if cloud.any() and not cloud.all():
-        ax.contour(
-            fr.X,
-            fr.Y,
-            cloud.astype(float),
-            levels=[0.5],
-            colors=CLOUD_COLOUR,
-            linewidths=1.3,
-            linestyles=[(0, (6, 2, 1, 2))],
-            zorder=4,
-        )
+        _outline(ax, fr, cloud, CLOUD_COLOUR, 1.3, (0, (6, 2, 1, 2)), 4)
+
+
+def _outline(ax, fr, mask, colour, width, style, zorder):
+    """Draw the edge of the cells where ``mask`` is true."""
+    ax.contour(
+        fr.X,
+        fr.Y,
+        mask.astype(float),
+        levels=[0.5],
+        colors=colour,
+        linewidths=width,
+        linestyles=[style],
+        zorder=zorder,
+    )
 
 
 def _draw_isotherms(ax, fr, temp):
@@ -565,25 +550,9 @@ def _draw_flight_path(ax, fx, fy, seg_props):
 
 def _draw_holds(ax, screening, fx, fy):
     """Mark each hold (hover or loiter): it takes time but no distance."""
-    samples = getattr(screening, "samples", None)
-    hold = getattr(samples, "hold", None)
-    if hold is None or not np.any(hold):
-        return
-    hold = np.asarray(hold, bool)
-    dt = np.asarray(samples.dt_s, float)
-    for a, b in _runs(hold):
+    for a, b, minutes in hold_runs(getattr(screening, "samples", None)):
         km, alt = float(fx[a]), float(np.nanmean(fy[a:b]))
-        minutes = dt[a:b].sum() / 60.0
-        ax.plot(
-            [km],
-            [alt],
-            marker="o",
-            markersize=11,
-            markerfacecolor="none",
-            markeredgecolor="black",
-            markeredgewidth=1.6,
-            zorder=10,
-        )
+        draw_hold_marker(ax, km, alt, zorder=10)
         ax.annotate(
             f"hold {minutes:.0f} min",
             (km, alt),
@@ -702,16 +671,7 @@ def _draw_legend(ax, pressure, have_candidates):
         ]
         + [
             Line2D([], [], color="black", linewidth=2.2, label="planned flight path"),
-            Line2D(
-                [],
-                [],
-                color="black",
-                linestyle="none",
-                marker="o",
-                markerfacecolor="none",
-                markersize=9,
-                label="hold (time at one place)",
-            ),
+            hold_handle("hold (time at one place)"),
             Line2D(
                 [],
                 [],

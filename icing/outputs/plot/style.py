@@ -50,6 +50,9 @@ __all__ = [
     "save",
     "draw_caution",
     "severity_handles",
+    "hold_handle",
+    "hold_runs",
+    "draw_hold_marker",
     "valid_times_text",
     "props_of",
 ]
@@ -177,6 +180,52 @@ def severity_handles():
         )
         for k in (codes.SEV_TRACE, codes.SEV_LIGHT, codes.SEV_MODERATE, codes.SEV_SEVERE)
     ]
+
+
+def hold_runs(samples):
+    """Each hold of a route as (first sample, stop, minutes held); empty without holds."""
+    import numpy as np
+
+    hold = getattr(samples, "hold", None)
+    if hold is None or not np.any(hold):
+        return []
+    hold = np.asarray(hold, bool)
+    dt = np.asarray(samples.dt_s, float)
+    edges = np.flatnonzero(np.diff(np.r_[0, hold.astype(int), 0]))
+    return [
+        (int(a), int(b), float(dt[a:b].sum()) / 60.0)
+        for a, b in zip(edges[::2], edges[1::2], strict=True)
+    ]
+
+
+def draw_hold_marker(ax, x, y, *, zorder):
+    """Draw a hold's open circle at one place."""
+    ax.plot(
+        [x],
+        [y],
+        marker="o",
+        markersize=12,
+        markerfacecolor="none",
+        markeredgecolor="black",
+        markeredgewidth=1.6,
+        zorder=zorder,
+    )
+
+
+def hold_handle(label):
+    """Legend entry of a hold (an open circle, on the map and the cross-section)."""
+    from matplotlib.lines import Line2D
+
+    return Line2D(
+        [],
+        [],
+        color="black",
+        linestyle="none",
+        marker="o",
+        markerfacecolor="none",
+        markersize=9,
+        label=label,
+    )
 
 
 def valid_times_text(provenance):
