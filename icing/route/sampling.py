@@ -57,9 +57,11 @@ _EPOCH = datetime(1970, 1, 1, tzinfo=UTC)
 _FASTEST_GROUND_SPEED = 800.0 * KT
 
 
-@dataclass
+@dataclass(frozen=True)
 class RouteSamples:
     """Points along a route at which the forecast is read; arrays shaped (n,).
+
+    Frozen: built once by :func:`sample_route`, never edited afterwards.
 
     Attributes
     ----------
