@@ -18,10 +18,10 @@ from icing import codes
 from icing._version import __version__
 from icing.caution import CAUTION
 from icing.errors import IcingError, InputError
-from icing.outputs.table import format_number, summary_table
+from icing.outputs.table import departure_table, format_number, summary_table
 from icing.outputs.write import write_outputs
 
-__all__ = ["main", "build_parser"]
+__all__ = ["main", "build_parser", "departure_window"]
 
 EXIT_OK, EXIT_INTERNAL, EXIT_INPUT, EXIT_FAIL_ON = 0, 1, 2, 3
 
@@ -126,18 +126,47 @@ def _check_suffix(path, allowed, flag):
         )
 
 
-def _fail_code(summaries, args) -> int:
-    if args.fail_on:
-        level = codes.severity_code(args.fail_on)
-        for s in summaries:
-            w = s.get("worst_severity")
-            if w is not None and codes.severity_code(w) >= level:
-                return EXIT_FAIL_ON
-    if args.fail_on_gap and any(
-        s.get("gap_km", 0) > 0 or s.get("worst_severity") is None for s in summaries
-    ):
-        return EXIT_FAIL_ON
-    return EXIT_OK
+def _condition(args):
+    from icing.hazards.outcome import Condition
+
+    if args.accept_gaps and not (args.fail_on or args.fail_on_tolerance):
+        raise InputError(
+            "--accept-gaps without a condition",
+            where="--accept-gaps",
+            fix="give --fail-on LEVEL or --fail-on-tolerance with it",
+        )
+    return Condition(
+        fail_on=args.fail_on,
+        fail_on_tolerance=args.fail_on_tolerance,
+        fail_on_gap=args.fail_on_gap,
+        accept_gaps=args.accept_gaps,
+    )
+
+
+def _fail_code(summaries, window=False) -> int:
+    """Exit 3 (and name the routes on stderr) when a route's outcome is "met".
+
+    With a departure window, a route fails when none of its departures is clear of
+    the condition ("not-met", or "incomplete" with gaps accepted).
+    """
+    if window:
+        ok = {s["route"] for s in summaries if s.get("outcome") in ("not-met", "incomplete")}
+        failed = [s for s in summaries if s.get("outcome") == "met" and s["route"] not in ok]
+        failed = list({s["route"]: s for s in failed}.values())
+        what = "no departure in the window is clear of the condition"
+    else:
+        failed = [s for s in summaries if s.get("outcome") == "met"]
+        what = "condition met"
+    if not failed:
+        return EXIT_OK
+    print(
+        f"icing: {what} for {len(failed)} of {len(set(s['route'] for s in summaries))} route(s):",
+        file=sys.stderr,
+    )
+    for s in failed:
+        reason = "" if window else f": {s.get('outcome_reason')}"
+        print(f"  {s['route']}{reason}", file=sys.stderr)
+    return EXIT_FAIL_ON
 
 
 def _progress(done, total, name):
@@ -146,55 +175,144 @@ def _progress(done, total, name):
     fill = int(width * done / total)
     end = "\n" if done == total else ""
     print(
-        f"\rscreening [{'#' * fill}{'.' * (width - fill)}] {done}/{total} {name[:30]:<30}",
+        f"\r{'screening'} [{'#' * fill}{'.' * (width - fill)}] {done}/{total} {name[:30]:<30}",
         end=end,
         file=sys.stderr,
         flush=True,
     )
 
 
+def _departures(args):
+    """Return the departures to screen: ``--depart``, each step of ``--depart-window``, or None."""
+    from icing.route import parse_time
+
+    if args.depart and args.depart_window:
+        raise InputError(
+            "--depart and --depart-window both given",
+            where="--depart-window",
+            fix="give one of them",
+        )
+    if args.depart:
+        return [parse_time(args.depart, where="--depart")]
+    if not args.depart_window:
+        return [None]
+    return departure_window(args.depart_window)
+
+
+def departure_window(text):
+    """Parse ``START/END/STEP`` (ISO 8601 times; step like 30m, 1h, 1h30m or PT30M).
+
+    >>> [t.strftime("%H:%M") for t in departure_window("2027-01-14T06:00Z/2027-01-14T08:00Z/1h")]
+    ['06:00', '07:00', '08:00']
+    """
+    import re
+    from datetime import timedelta
+
+    from icing.route import parse_time
+
+    fix = "write e.g. --depart-window 2027-01-14T06:00Z/2027-01-14T18:00Z/1h"
+    parts = text.split("/")
+    if len(parts) != 3:
+        raise InputError(
+            f"--depart-window {text!r} is not START/END/STEP", where="--depart-window", fix=fix
+        )
+    start = parse_time(parts[0], where="--depart-window start")
+    end = parse_time(parts[1], where="--depart-window end")
+    m = re.fullmatch(r"(?:PT)?(?:(\d+)\s*h)?\s*(?:(\d+)\s*m(?:in)?)?", parts[2].strip(), re.I)
+    step = timedelta(hours=int(m.group(1) or 0), minutes=int(m.group(2) or 0)) if m else None
+    if not step or end < start:
+        raise InputError(
+            f"--depart-window {text!r}: the step must be positive and END not before START",
+            where="--depart-window",
+            fix=fix,
+        )
+    count = int((end - start) / step) + 1
+    if count > 96:
+        raise InputError(
+            f"--depart-window gives {count} departures (at most 96)",
+            where="--depart-window",
+            fix="use a longer step or a shorter window",
+        )
+    return [start + i * step for i in range(count)]
+
+
 def cmd_screen(args) -> int:
-    from icing.airframes import load_airframe
     from icing.route import load_routes
     from icing.runs.screen import ScreenOptions, screen_routes
 
+    _check_suffix(args.output, {".geojson", ".json", ".gpkg", ".kml"}, "-o/--output")
     _check_suffix(args.plot, {".png", ".svg"}, "--plot")
     _check_suffix(args.map, {".png", ".svg"}, "--map")
     _check_suffix(args.report, {".html", ".htm"}, "--report")
-    from icing.route import parse_time
+    condition = _condition(args)
+    departures = _departures(args)
+    airframe = None
+    if args.airframe is not None:
+        from icing.airframes import load_airframe
 
-    depart = parse_time(args.depart, where="--depart") if args.depart else None
-    airframe = load_airframe(args.airframe)
-    routes = [r for path in args.routes for r in load_routes(path)]
+        airframe = load_airframe(args.airframe)
+    routes = [
+        r
+        for path in args.routes
+        for r in load_routes(path, altitude_ft=args.altitude_ft, flight_level=args.flight_level)
+    ]
+    if airframe is None:
+        _require_airframes(routes)
     forecast = _forecast(args)
-    opts = ScreenOptions(step_km=args.step_km, all_segments=args.all_segments)
-    screenings = screen_routes(
-        routes,
-        forecast,
-        airframe=airframe,
-        tas_kt=args.tas_kt,
-        departure=depart,
-        options=opts,
-        column_options=_column_options(args),
-        progress=_progress if len(routes) > 3 and sys.stderr.isatty() else None,
-    )
-    out = args.output
+    opts = ScreenOptions(step_km=args.step_km, all_segments=args.all_segments, condition=condition)
+    screenings = []
+    for t in departures:
+        screenings += screen_routes(
+            routes,
+            forecast,
+            airframe=airframe,
+            tas_kt=args.tas_kt,
+            departure=t,
+            options=opts,
+            column_options=_column_options(args),
+            id_tag="" if len(departures) == 1 else t.strftime("%Y%m%dT%H%MZ-"),
+            progress=_progress
+            if len(routes) * len(departures) > 3 and sys.stderr.isatty()
+            else None,
+        )
     fc, written = write_outputs(
         screenings,
-        out_geojson=out,
+        out_geojson=args.output,
         plot=args.plot,
         map_=args.map,
         report=args.report,
         samples=args.samples,
+        section_axis=args.section_axis,
     )
     summaries = fc["summaries"]
+    window = len(departures) > 1
     if args.json:
-        print(json.dumps({"summaries": summaries, "caution": CAUTION}, indent=1, allow_nan=False))
+        doc = {"summaries": summaries, "caution": CAUTION}
+        print(json.dumps(doc, indent=1, allow_nan=False))
     else:
-        print(summary_table(summaries))
+        print(
+            summary_table(summaries)
+            if not window
+            else departure_table(summaries) + "\n\n" + summary_table(summaries)
+        )
         for p in written:
             print(f"wrote {p}", file=sys.stderr)
-    return _fail_code(summaries, args)
+    return _fail_code(summaries, window=window)
+
+
+def _require_airframes(routes):
+    """Refuse routes that name no airframe when ``--airframe`` is not given (exit 2)."""
+    missing = [r.name for r in routes if not getattr(r, "airframe", None)]
+    if missing:
+        from icing.airframes import list_airframes
+
+        names = ", ".join(a.name for a in list_airframes())
+        raise InputError(
+            f"no airframe for route(s) {', '.join(repr(m) for m in missing)}",
+            where="--airframe",
+            fix=f"give --airframe NAME or FILE.toml (presets: {names}), or an 'airframe' "
+            "property in each route",
+        )
 
 
 def cmd_demo(args) -> int:
@@ -289,6 +407,115 @@ def cmd_airframes(args) -> int:
     return EXIT_OK
 
 
+def _screen_parser(sub, forecast_args):
+    """Add the ``screen`` subcommand and its options."""
+    s = sub.add_parser(
+        "screen",
+        help="screen route(s) against a forecast",
+        description="Screen routes against a forecast for a named airframe. Exit codes: 0 "
+        "screened, 3 when a route meets the --fail-on condition (the routes are named on "
+        "stderr), 2 bad input, 1 internal error.",
+    )
+    s.add_argument("routes", nargs="+", metavar="ROUTE", help="route file(s): GeoJSON, CSV or GPX")
+    forecast_args(s)
+    s.add_argument(
+        "--airframe",
+        "-a",
+        default=None,
+        help="airframe preset name or TOML file (see `icing airframes`); required unless "
+        "every route names its own 'airframe' (there is no default airframe)",
+    )
+    s.add_argument(
+        "--depart",
+        default=None,
+        metavar="ISO8601",
+        help="departure time (with zone), overrides the route's",
+    )
+    s.add_argument(
+        "--time",
+        default=None,
+        metavar="ISO8601",
+        help="radiosonde files without an observation time: the launch time (with zone)",
+    )
+    s.add_argument(
+        "--depart-window",
+        default=None,
+        metavar="START/END/STEP",
+        help="screen each departure from START to END every STEP (e.g. "
+        "2027-01-14T06:00Z/2027-01-14T18:00Z/1h) and tabulate the outcomes; with --fail-on, "
+        "exit 3 when a route has no departure clear of the condition",
+    )
+    s.add_argument("--tas-kt", type=float, default=None, help="true airspeed [kt]")
+    s.add_argument("--step-km", type=float, default=1.0, help="largest sample spacing [km]")
+    alt = s.add_mutually_exclusive_group()
+    alt.add_argument(
+        "--altitude-ft",
+        type=float,
+        default=None,
+        metavar="N",
+        help="altitude of routes drawn without altitudes [ft, MSL unless the route says agl]",
+    )
+    alt.add_argument(
+        "--flight-level",
+        type=float,
+        default=None,
+        metavar="N",
+        help="flight level of routes drawn without altitudes (FL100: 10,000 ft pressure altitude)",
+    )
+    _output_args(s)
+    _condition_args(s)
+    s.set_defaults(func=cmd_screen)
+
+
+def _output_args(s):
+    s.add_argument(
+        "-o",
+        "--output",
+        default=None,
+        metavar="OUT.geojson|OUT.gpkg|OUT.kml",
+        help="hazard segments: GeoJSON (and OUT.summary.json beside it), GeoPackage (layers "
+        "'hazards' and 'routes', with OUT.qml and OUT.sld styles beside it) or KML "
+        "(absolute altitudes)",
+    )
+    s.add_argument("--plot", default=None, metavar="OUT.png|svg", help="cross-section picture")
+    s.add_argument(
+        "--section-axis",
+        choices=("msl", "agl"),
+        default="msl",
+        help="vertical axis of the cross-section: feet MSL (default) or height above the ground "
+        "(drone work)",
+    )
+    s.add_argument("--map", default=None, metavar="OUT.png|svg", help="plan-view picture")
+    s.add_argument("--report", default=None, metavar="OUT.html", help="self-contained HTML report")
+    s.add_argument("--samples", default=None, metavar="OUT.csv", help="per-sample audit table")
+    s.add_argument("--all-segments", action="store_true", help="also write no-icing segments")
+    s.add_argument("--json", action="store_true", help="print the summaries as JSON")
+
+
+def _condition_args(s):
+    s.add_argument(
+        "--fail-on",
+        choices=codes.SEVERITY[1:],
+        default=None,
+        metavar="LEVEL",
+        help="exit 3 when a route reaches this severity (trace, light, moderate, severe); a "
+        "part of a route that could not be screened meets it too, unless --accept-gaps",
+    )
+    s.add_argument(
+        "--accept-gaps",
+        action="store_true",
+        help="coverage gaps do not meet the condition (the route's outcome is 'incomplete')",
+    )
+    s.add_argument(
+        "--fail-on-tolerance",
+        action="store_true",
+        help="exit 3 when the ice on a route reaches the airframe's ice tolerance",
+    )
+    s.add_argument(
+        "--fail-on-gap", action="store_true", help="exit 3 when a route has any coverage gap"
+    )
+
+
 def build_parser() -> argparse.ArgumentParser:
     """Return the argument parser of the ``icing`` command."""
     p = argparse.ArgumentParser(
@@ -348,52 +575,7 @@ def build_parser() -> argparse.ArgumentParser:
     d.add_argument("--out", default="icing-demo", help="output folder (default ./icing-demo)")
     d.set_defaults(func=cmd_demo)
 
-    s = sub.add_parser("screen", help="screen route(s) against a forecast")
-    s.add_argument("routes", nargs="+", metavar="ROUTE", help="route file(s): GeoJSON, CSV or GPX")
-    forecast_args(s)
-    s.add_argument(
-        "--airframe",
-        "-a",
-        default="light-piston",
-        help="airframe preset name or TOML file (see `icing airframes`)",
-    )
-    s.add_argument(
-        "--depart",
-        default=None,
-        metavar="ISO8601",
-        help="departure time (with zone), overrides the route's",
-    )
-    s.add_argument(
-        "--time",
-        default=None,
-        metavar="ISO8601",
-        help="radiosonde files without an observation time: the launch time (with zone)",
-    )
-    s.add_argument("--tas-kt", type=float, default=None, help="true airspeed [kt]")
-    s.add_argument("--step-km", type=float, default=1.0, help="largest sample spacing [km]")
-    s.add_argument(
-        "-o",
-        "--output",
-        default=None,
-        metavar="OUT.geojson",
-        help="GeoJSON output (and OUT.summary.json beside it)",
-    )
-    s.add_argument("--plot", default=None, metavar="OUT.png|svg", help="cross-section picture")
-    s.add_argument("--map", default=None, metavar="OUT.png|svg", help="plan-view picture")
-    s.add_argument("--report", default=None, metavar="OUT.html", help="self-contained HTML report")
-    s.add_argument("--samples", default=None, metavar="OUT.csv", help="per-sample audit table")
-    s.add_argument("--all-segments", action="store_true", help="also write no-icing segments")
-    s.add_argument("--json", action="store_true", help="print the summaries as JSON")
-    s.add_argument(
-        "--fail-on",
-        choices=codes.SEVERITY[1:],
-        default=None,
-        help="exit 3 when a route reaches this severity",
-    )
-    s.add_argument(
-        "--fail-on-gap", action="store_true", help="exit 3 when a route has any coverage gap"
-    )
-    s.set_defaults(func=cmd_screen)
+    _screen_parser(sub, forecast_args)
 
     pr = sub.add_parser("profile", help="the forecast column at one point, level by level")
     forecast_args(pr)

@@ -47,10 +47,10 @@ def run_demo(out) -> tuple[list[dict], list[Path]]:
     sc = demo_scenario()
     forecast = load_forecast(sc["forecast"])
     screenings = []
-    for i, r in enumerate(sc["routes"]):
+    for r in sc["routes"]:
         for route in load_routes(r["file"]):
             screenings.append(
-                screen_route(route, forecast, airframe=r["airframe"], segment_prefix=f"R{i + 1}-")
+                screen_route(route, forecast, airframe=route.airframe or r["airframe"])
             )
     fc, written = write_outputs(
         screenings,

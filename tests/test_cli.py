@@ -100,7 +100,9 @@ def test_route_outside_forecast_is_gap_and_fail_on_gap(tmp_path, capsys):
         "name,lat,lon,altitude_ft,time\nFARAA,10.0,100.0,5000,2027-01-14T09:00:00Z\n"
         "FARBB,10.2,100.3,5000,2027-01-14T09:10:00Z\n"
     )
-    code = run("screen", route, "--forecast", FORECAST, "--json", "--fail-on-gap")
+    code = run(
+        "screen", route, "--forecast", FORECAST, "-a", "light-piston", "--json", "--fail-on-gap"
+    )
     out = json.loads(capsys.readouterr().out)
     s = out["summaries"][0]
     assert s["worst_severity"] is None  # unknown, never "none"

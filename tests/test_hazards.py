@@ -136,7 +136,9 @@ def test_every_feature_carries_the_caution_and_validates():
 def test_all_gap_route_is_not_screened_and_has_no_worst():
     summ = route_summary(_screening([-1, -1, -1, -1]))
     assert summ["worst_severity"] is None  # unknown, not "none"
-    assert summ["minutes_in_icing"] == 0
+    # nothing was screened: time in icing, ice and SLD are unknown (None), never 0 or "none"
+    assert summ["minutes_in_icing"] is None
+    assert summ["accretion_mm"] is None and summ["sld"] is None
     assert summ["status"].startswith("not-screened")
 
 

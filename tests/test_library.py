@@ -98,6 +98,8 @@ def test_screening_is_frozen_and_built_once(result):
         result.summary = {}
     with pytest.raises(dataclasses.FrozenInstanceError):
         result.curtain.severity = None
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        result.samples.tas = None
     # the summary holds the candidate altitudes and the caution from the start
     assert "candidate_altitudes_ft" in result.summary and result.summary["caution"] == CAUTION
     # no private key is slipped into the GeoJSON features

@@ -97,10 +97,11 @@ def test_summary_table_has_one_row_per_route(page, routes):
     _, p = page
     rows = p.tables["summary"]
     header, body = rows[0], rows[1:]
-    assert header[:2] == ["route", "airframe"] and "worst severity" in header
+    assert header[:2] == ["route", "airframe"] and "worst icing" in header
     assert [r[0] for r in body] == [s.route_name for s in routes]
-    col = header.index("worst severity")
-    assert [r[col] for r in body] == [s.summary["worst_severity"] for s in routes]
+    col = header.index("worst icing")
+    # over the screened part: the fixture's routes have a coverage gap, and say so
+    assert [r[col] for r in body] == [s.summary["worst_severity"] + " + gaps" for s in routes]
 
 
 def test_pictures_are_embedded_and_decode(page, routes):
@@ -181,3 +182,49 @@ def test_bad_report_arguments(tmp_path, routes):
     with pytest.raises(InputError, match="'png' or 'svg'"):
         write_report(routes, tmp_path / "r.html", picture_format="gif")
     assert not list(tmp_path.iterdir())  # nothing written, nothing half-written
+
+
+def test_outcome_line_holds_and_collapsed_detail(page, routes):
+    _, p = page
+    for i, s in enumerate(routes, start=1):
+        line = " ".join(p.text_by_id[f"outcome-{i}"].split())
+        assert line.startswith("Worst icing on the route:") and line.endswith(".")
+        assert s.summary["worst_severity"] in line
+    # the segment tables sit inside <details> (collapsed until opened)
+    opened = []
+    for tag, a in p.tags:
+        if tag == "details":
+            opened.append(a)
+        if tag == "table" and str(a.get("id", "")).startswith("segments-"):
+            assert opened, "segment table outside a collapsed <details>"
+
+
+def test_assumptions_are_worded_for_users(page):
+    out, p = page
+    text = out.read_text(encoding="utf-8")
+    assert "What this estimate assumes" in text
+    plain = " ".join(p.text_by_id["assumptions-plain"].split())
+    assert "Cloud liquid is the larger" in plain and "most exposed part" in plain
+    # internal wording is translated for readers, everywhere in the report
+    assert "from memory" not in text
+
+
+def test_unchecked_values_are_said_so_plainly(tmp_path, make_screening):
+    scr = make_screening(gap=False)
+    out = write_report(
+        scr,
+        tmp_path / "u.html",
+        pictures=False,
+        assumptions={"column": {"appendix_c_envelopes": "maxima, values from memory"}},
+    )
+    plain = " ".join(_parse(out).text_by_id["assumptions-plain"].split())
+    assert "Not yet checked against their published source" in plain
+    assert "appendix_c_envelopes" in plain and "from memory" not in plain
+
+
+def test_plain_outcome_lines():
+    from icing.outputs.report import plain_outcome
+
+    assert plain_outcome({"outcome": "not-met", "outcome_reason": "x"}) == "Condition not met: x."
+    unknown = plain_outcome({"outcome": None, "worst_severity": None, "gap_km": 12.0})
+    assert "unknown" in unknown and "12 km could not be screened" in unknown

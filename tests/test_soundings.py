@@ -117,7 +117,8 @@ def _screen(tmp_path, route, forecast, *options, airframe="light-piston"):
 def _refused(capsys, tmp_path, args):
     """Run the CLI, expect exit 2, one line on stderr naming a fix, nothing written."""
     out = tmp_path / "refused.geojson"
-    code = main([str(a) for a in args] + ["-o", str(out)])
+    airframe = [] if "--airframe" in args else ["--airframe", "light-piston"]
+    code = main([str(a) for a in args] + airframe + ["-o", str(out)])
     err = capsys.readouterr().err.strip()
     assert code == 2
     assert len(err.splitlines()) == 1 and "fix:" in err

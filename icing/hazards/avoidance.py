@@ -573,7 +573,8 @@ def segment_candidates(
             res["text"] = f"{res['segment_id']} {res['text']}"
         results.append(res)
         new_props = dict(props)
-        new_props["ice_free_altitudes_ft"] = list(res["ice_free_altitudes_ft"])
+        new_props["candidate_altitudes_ft"] = list(res["ice_free_altitudes_ft"])
+        new_props["ice_free_altitudes_ft"] = list(res["ice_free_altitudes_ft"])  # deprecated
         new_props["vertical_options"] = {
             k: res[k]
             for k in (

@@ -24,6 +24,7 @@ from icing.caution import CAUTION, GAP_NOTE
 from icing.constants import FT
 
 __all__ = [
+    "segment_prefix_of",
     "segment_samples",
     "build_segments",
     "route_summary",
@@ -79,6 +80,18 @@ def segment_samples(at_flight: dict) -> list[tuple[int, int]]:
     starts = np.flatnonzero(change).tolist()
     bounds = [0] + starts + [n]
     return [(a, b) for a, b in zip(bounds[:-1], bounds[1:], strict=True) if b > a]
+
+
+def segment_prefix_of(route_name: str) -> str:
+    """Segment-id prefix made from a route's name: lower case, words joined by hyphens.
+
+    Ids made from the name stay the same whatever the order of the routes in a run.
+
+    >>> segment_prefix_of("Skerrow dispatch 1 (north)")
+    'skerrow-dispatch-1-north-'
+    """
+    words = "".join(ch.lower() if ch.isalnum() else " " for ch in str(route_name)).split()
+    return "-".join(words)[:60].rstrip("-") + "-" if words else "route-"
 
 
 def _round(x, nd=6):
@@ -163,7 +176,15 @@ def build_segments(
         end = min(b, n - 1)  # the segment reaches the next segment's first sample
         idx = slice(a, end + 1)
         props = _common_properties(
-            route_name, airframe_name, samples, alt_msl, a, b, end, kind, f"{id_prefix}{k + 1:03d}"
+            route_name,
+            airframe_name,
+            samples,
+            at_flight,
+            a,
+            b,
+            end,
+            kind,
+            f"{id_prefix}{k + 1:03d}",
         )
         if kind == KIND_GAP:
             props.update(_gap_properties(at_flight, slice(a, b)))
@@ -172,7 +193,8 @@ def build_segments(
         if kind == KIND_ICING:
             props.update(_icing_properties(at_flight, samples, a, b))
         elif kind == KIND_CLEAR:
-            props["severity"] = None
+            props["severity"] = codes.SEVERITY[codes.SEV_NONE]
+            props["severity_rank"] = codes.SEV_NONE
             props["sld"] = "none"
         features.append(
             {
@@ -185,17 +207,48 @@ def build_segments(
     return features
 
 
-def _common_properties(route_name, airframe_name, samples, alt_msl, a, b, end, kind, seg_id):
+def _range(values, scale=1.0, nd=0):
+    """Return the rounded (min, max) of the finite values, None where there is none."""
+    v = np.asarray(values, float) * scale
+    return _round(_stat(v, np.min), nd), _round(_stat(v, np.max), nd)
+
+
+def _altitude_properties(samples, at_flight, sl):
+    """Altitudes of a segment: feet and metres MSL, height above ground, the route's own."""
+    alt_all = np.asarray(at_flight["altitude_msl_m"], float)
+    alt_msl = alt_all[sl]
+    ground = np.asarray(at_flight.get("ground_m", np.full(alt_all.shape, np.nan)), float)[sl]
+    ref = samples.altitude_reference
+    props = {}
+    props["altitude_ft_min"], props["altitude_ft_max"] = _range(alt_msl, 1.0 / FT)
+    props["altitude_m_min"], props["altitude_m_max"] = _range(alt_msl, 1.0, 1)
+    props["altitude_reference"] = "msl"
+    props["route_altitude_reference"] = ref
+    props["altitude_agl_m_min"], props["altitude_agl_m_max"] = _range(alt_msl - ground, 1.0, 1)
+    props["ground_elevation_m_min"], props["ground_elevation_m_max"] = _range(ground, 1.0, 1)
+    if ref == "pressure":
+        fl = np.asarray(samples.altitude_m, float)[sl] / FT / 100.0
+        lo, hi = _range(fl)
+        props.update(flight_level=int(lo) if lo == hi else None)
+        props["flight_level_min"], props["flight_level_max"] = lo, hi
+    return props
+
+
+def _common_properties(route_name, airframe_name, samples, at_flight, a, b, end, kind, seg_id):
     """Properties every segment carries, physics left null (filled by kind)."""
     dist_km = np.asarray(samples.distance_m) / 1000.0
     sl = slice(a, b)
-    return {
+    dt = np.asarray(samples.dt_s, float)[sl]
+    hold = np.asarray(getattr(samples, "hold", np.zeros(len(samples.lat), bool)), bool)[sl]
+    tas = getattr(samples, "tas", None)
+    props = {
         "route": route_name,
         "segment_id": seg_id,
         "from_waypoint": str(samples.from_waypoint[a]),
         "to_waypoint": str(samples.to_waypoint[b - 1]),
         "kind": kind,
         "severity": None,
+        "severity_rank": None,
         "ice_type": None,
         "sld": None,
         "basis": None,
@@ -203,25 +256,31 @@ def _common_properties(route_name, airframe_name, samples, alt_msl, a, b, end, k
         "end_km": _round(dist_km[end], 3),
         "start_time": _iso(samples.time[a]),
         "end_time": _iso(samples.time[end]),
-        "duration_min": _round(np.asarray(samples.dt_s, float)[sl].sum() / 60.0, 2),
-        "altitude_ft_min": _round(np.nanmin(alt_msl[sl]) / FT, 0),
-        "altitude_ft_max": _round(np.nanmax(alt_msl[sl]) / FT, 0),
-        "altitude_reference": samples.altitude_reference,
-        "temperature_c_min": None,
-        "temperature_c_max": None,
-        "lwc_g_m3_max": None,
-        "mvd_um_max": None,
-        "sld_lwc_g_m3_max": None,
-        "sld_mvd_um_max": None,
-        "glaciation_likelihood_max": None,
-        "collector": None,
-        "collection_efficiency_max": None,
-        "accretion_rate_mm_h_max": None,
-        "accretion_mm": None,
-        "ice_free_altitudes_ft": [],
-        "airframe": airframe_name,
-        "caution": CAUTION,
+        "duration_min": _round(dt.sum() / 60.0, 2),
+        "hold_min": _round(dt[hold].sum() / 60.0, 2),
     }
+    props.update(_altitude_properties(samples, at_flight, sl))
+    props.update(
+        {
+            "tas_m_s": None if tas is None else _round(_stat(np.asarray(tas)[sl], np.mean), 1),
+            "temperature_c_min": None,
+            "temperature_c_max": None,
+            "lwc_g_m3_max": None,
+            "mvd_um_max": None,
+            "sld_lwc_g_m3_max": None,
+            "sld_mvd_um_max": None,
+            "glaciation_likelihood_max": None,
+            "collector": None,
+            "collection_efficiency_max": None,
+            "accretion_rate_mm_h_max": None,
+            "accretion_mm": None,
+            "candidate_altitudes_ft": [],
+            "ice_free_altitudes_ft": [],
+            "airframe": airframe_name,
+            "caution": CAUTION,
+        }
+    )
+    return props
 
 
 def _gap_properties(at_flight, sl):
@@ -255,8 +314,10 @@ def _icing_properties(at_flight, samples, a, b):
             best, best_mm = name, mm
     col = per_col.get(best, at_flight)
     ice = int(at_flight["ice_type"][a])
+    rank = int(np.asarray(at_flight["severity"])[a])
     props = {
-        "severity": codes.SEVERITY[int(np.asarray(at_flight["severity"])[a])],
+        "severity": codes.SEVERITY[rank],
+        "severity_rank": rank,
         "ice_type": codes.ICE_TYPES[ice] if ice > 0 else None,
         "sld": codes.SLD_CLASSES[sld],
         "basis": " + ".join(basis_words) if basis_words else "diagnosed",
@@ -288,14 +349,15 @@ def route_summary(screening_like, *, airframe=None) -> dict:
     Parameters
     ----------
     screening_like : RouteScreening
-        Needs ``route_name``, ``samples``, ``at_flight``, ``segments``.
+        Needs ``route_name``, ``airframe_name``, ``samples``, ``at_flight``, ``segments``.
     airframe : Airframe, optional
         For the time until the airframe's ice tolerance is reached.
 
     Returns
     -------
     dict
-        JSON-serialisable summary; gaps are counted apart from icing and from clear air.
+        JSON-serialisable summary; gaps are counted apart from icing and from clear air,
+        and what could not be computed is None (never 0 or "none").
     """
     s = screening_like.samples
     af = screening_like.at_flight
@@ -305,23 +367,15 @@ def route_summary(screening_like, *, airframe=None) -> dict:
     dist_km = np.asarray(s.distance_m) / 1000.0
     icing = covered & (sev >= codes.SEV_TRACE)
     worst = int(sev[covered].max()) if covered.any() else None
-    ref = af.get("reference_collector")
-    per_col = af.get("per_collector", {})
-    ref_rate = np.asarray(per_col[ref]["accretion_rate_mm_h"]) if ref in per_col else None
-    total_ref = float(np.nansum(ref_rate * dt) / 3600.0) if ref_rate is not None else None
+    ice = _ice_totals(af, dt, covered, airframe)
     step_km = np.diff(dist_km, append=dist_km[-1] if dist_km.size else 0.0)
-    gap_km = float(np.sum(step_km[~covered]))
     met = np.unique(np.asarray(af["sld_class"])[icing])
     sld_classes = [codes.SLD_CLASSES[int(c)] for c in met if c > codes.SLD_NONE]
-    gap_segments = [f for f in screening_like.segments if f["properties"]["kind"] == KIND_GAP]
+    segments = screening_like.segments
     fl = np.asarray(af.get("freezing_level_m", np.full(sev.shape, np.nan)), float)
     fl = fl[np.isfinite(fl)]
-    tolerance_min = None
-    if airframe is not None and total_ref is not None and ref_rate is not None:
-        cum = np.cumsum(np.nan_to_num(ref_rate) * dt / 3600.0)
-        reached = np.flatnonzero(cum >= airframe.ice_tolerance_mm)
-        if reached.size:
-            tolerance_min = round(float(np.sum(dt[: reached[0] + 1])) / 60.0, 1)
+    times = np.asarray(s.time)
+    hold = np.asarray(getattr(s, "hold", np.zeros(dt.shape, bool)), bool)
     if not covered.any():
         status = "not-screened: no forecast coverage"
     elif (~covered).any():
@@ -332,27 +386,53 @@ def route_summary(screening_like, *, airframe=None) -> dict:
         "route": screening_like.route_name,
         "airframe": screening_like.airframe_name,
         "status": status,
+        "departure_time": _iso(times.min()) if times.size else None,
+        "arrival_time": _iso(times.max()) if times.size else None,
         "distance_km": round(float(dist_km[-1]) if dist_km.size else 0.0, 2),
         "flight_time_min": _minutes(np.ones(dt.shape, bool), dt),
+        "hold_min": _minutes(hold, dt),
+        "route_altitude_reference": s.altitude_reference,
         "worst_severity": None if worst is None else codes.SEVERITY[worst],
-        "minutes_in_icing": _minutes(icing, dt),
+        "worst_severity_rank": worst,
+        "minutes_in_icing": _minutes(icing, dt) if covered.any() else None,
         "minutes_by_severity": {
             w: _minutes(covered & (sev == i), dt) for i, w in enumerate(codes.SEVERITY) if i
         },
-        "reference_collector": ref,
-        "accretion_mm_reference": None if total_ref is None else round(total_ref, 3),
-        "minutes_to_ice_tolerance": tolerance_min,
+        "reference_collector": af.get("reference_collector"),
+        "accretion_mm": ice["accretion_mm"],
+        "accretion_mm_reference": ice["accretion_mm"],
+        "minutes_to_ice_tolerance": ice["minutes_to_ice_tolerance"],
         "ice_tolerance_mm": None if airframe is None else airframe.ice_tolerance_mm,
-        "sld": sld_classes or ["none"],
+        "tolerance_reached": ice["tolerance_reached"],
+        "sld": (sld_classes or ["none"]) if covered.any() else None,
         "freezing_level_ft_min": None if not fl.size else round(float(fl.min()) / FT),
         "freezing_level_ft_max": None if not fl.size else round(float(fl.max()) / FT),
-        "gap_km": round(gap_km, 2),
+        "gap_km": round(float(np.sum(step_km[~covered])), 2),
         "gap_minutes": _minutes(~covered, dt),
-        "gap_count": len(gap_segments),
-        "icing_segments": sum(
-            f["properties"]["kind"] == KIND_ICING for f in screening_like.segments
-        ),
+        "gap_count": sum(f["properties"]["kind"] == KIND_GAP for f in segments),
+        "icing_segments": sum(f["properties"]["kind"] == KIND_ICING for f in segments),
     }
+
+
+def _ice_totals(af, dt, covered, airframe):
+    """Ice on the reference collector over the covered samples, and the tolerance time.
+
+    None where nothing was screened: an unknown amount is never written as 0 mm.
+    """
+    ref = af.get("reference_collector")
+    per_col = af.get("per_collector", {})
+    out = {"accretion_mm": None, "minutes_to_ice_tolerance": None, "tolerance_reached": None}
+    if ref not in per_col or not covered.any():
+        return out
+    rate = np.where(covered, np.nan_to_num(np.asarray(per_col[ref]["accretion_rate_mm_h"])), 0.0)
+    cum = np.cumsum(rate * dt / 3600.0)
+    out["accretion_mm"] = round(float(cum[-1]), 3)
+    if airframe is not None:
+        reached = np.flatnonzero(cum >= airframe.ice_tolerance_mm)
+        out["tolerance_reached"] = bool(reached.size)
+        if reached.size:
+            out["minutes_to_ice_tolerance"] = round(float(np.sum(dt[: reached[0] + 1])) / 60.0, 1)
+    return out
 
 
 def feature_collection(screenings, *, provenance=None, assumptions=None) -> dict:

@@ -9,14 +9,16 @@ from pathlib import Path
 __all__ = ["replace_atomically", "atomic_write"]
 
 
-def replace_atomically(path, write) -> Path:
+def replace_atomically(path, write, *, keep_suffix=False) -> Path:
     """Call ``write(tmp_path)`` on a temporary file next to ``path``, then rename it.
 
     Nothing half-written is ever left at ``path``: on any error the temporary
-    file is removed and ``path`` keeps its old content.
+    file is removed and ``path`` keeps its old content. ``keep_suffix`` ends the
+    temporary name with the target's own suffix (for writers that go by it).
     """
     path = Path(path)
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.{uuid.uuid4().hex[:8]}.part")
+    end = f".part{path.suffix}" if keep_suffix else ".part"
+    tmp = path.with_name(f".{path.name}.{os.getpid()}.{uuid.uuid4().hex[:8]}{end}")
     try:
         write(tmp)
         os.replace(tmp, path)

@@ -98,6 +98,9 @@ class Route:
         Surface height for AGL routes when the forecast has none. [m]
     altitude_reference : str or None
         The reference shared by all waypoints; derived from them when None.
+    airframe : str or None
+        The airframe the route is planned for (preset name or TOML file), when the
+        route file names one; screening takes it when no airframe is given.
     """
 
     name: str
@@ -107,6 +110,7 @@ class Route:
     source: str | None = None
     ground_elevation_m: float | None = None
     altitude_reference: str | None = None
+    airframe: str | None = None
 
     def __post_init__(self):
         object.__setattr__(self, "waypoints", tuple(self.waypoints))

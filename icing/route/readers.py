@@ -13,7 +13,7 @@ GeoJSON
     ellipsoid; it is taken as metres above mean sea level (the geoid differs by
     up to ~100 m) unless ``altitude_reference`` says ``"agl"`` or ``"pressure"``.
     Route properties: ``name``, ``departure_time``, ``true_airspeed_kt``,
-    ``altitude_reference``, ``ground_elevation_m``, and for LineStrings lists
+    ``altitude_reference``, ``ground_elevation_m``, ``airframe``, and for LineStrings lists
     parallel to the positions: ``times``, ``hold_min``, ``waypoint_names``;
     ``altitude_ft`` or ``flight_level`` (a number or a list) for 2-D positions.
     A FeatureCollection of Points takes the route properties from its
@@ -24,37 +24,42 @@ GeoJSON
 CSV
     Header ``name,lat,lon,altitude_ft[,time]``, optional columns
     ``altitude_reference``, ``flight_level`` (instead of ``altitude_ft``),
-    ``tas_kt``, ``hold_min`` and ``route`` (several routes in one file). Blank
-    lines and lines starting with ``#`` are skipped; whitespace and a byte-order
-    mark are tolerated. The route is named after the file.
+    ``tas_kt``, ``hold_min`` and ``route`` (several routes in one file). Comment
+    lines (``#``) may declare settings for the whole file (``# altitude_reference:
+    agl``, ``# airframe: small-multirotor``; see :data:`CSV_SETTINGS`): they are
+    honoured, and a comment that reads like an unknown setting is refused; other
+    comments and blank lines pass. Whitespace and a byte-order mark are tolerated.
+    The route is named after the file unless a ``# name:`` line names it.
 GPX 1.1
     ``rte``/``rtept`` and ``trk``/``trkseg``/``trkpt`` (segments of a track are
     joined), ``ele`` in metres, optional ``time`` and ``name``; each ``rte`` or
     ``trk`` is a route. Extensions in the namespace :data:`GPX_EXTENSION_NS`:
     on the ``rte``/``trk``: ``altitude_reference``, ``true_airspeed_kt``,
-    ``departure_time``, ``ground_elevation_m``; on a point: ``hold_min``,
+    ``departure_time``, ``ground_elevation_m``, ``airframe``; on a point: ``hold_min``,
     ``tas_kt``.
 """
 
 from __future__ import annotations
 
-import csv
 import json
-import xml.etree.ElementTree as ET
 from pathlib import Path
 
 from icing.constants import FT
 from icing.errors import RouteError
-from icing.route.model import (
-    ALTITUDE_REFERENCES,
-    Route,
-    Waypoint,
-    check_altitude,
-    check_number,
-    check_position,
-    check_waypoints,
-    parse_time,
+from icing.route.csvroutes import CSV_SETTINGS, read_csv_routes
+from icing.route.fields import (
+    _DEFAULT_ALTITUDE,
+    _altitude,
+    _default_names,
+    _flight_level_m,
+    _hold_min,
+    _optional_time,
+    _reference,
+    _route_fields,
+    _tas_kt,
 )
+from icing.route.gpxroutes import GPX_EXTENSION_NS, read_gpx_routes
+from icing.route.model import Waypoint, check_number, check_position
 
 __all__ = [
     "load_routes",
@@ -64,20 +69,45 @@ __all__ = [
     "read_geojson_routes",
     "read_csv_routes",
     "read_gpx_routes",
+    "CSV_SETTINGS",
 ]
 
-#: XML namespace of this project's GPX extension elements.
-GPX_EXTENSION_NS = "urn:icing:gpx:1"
-
-_GPX_NS = ("http://www.topografix.com/GPX/1/1", "http://www.topografix.com/GPX/1/0", "")
 _JSON_EXT = (".geojson", ".json")
 _CSV_EXT = (".csv", ".txt")
 _GPX_EXT = (".gpx", ".xml")
 _FORMAT_FIX = "give a GeoJSON (.geojson), CSV (.csv) or GPX (.gpx) route file"
 
 
-def read_routes(path):
-    """Read every route of a GeoJSON, CSV or GPX file (chosen by content and extension)."""
+def read_routes(path, *, altitude_ft=None, flight_level=None):
+    """Read every route of a GeoJSON, CSV or GPX file (chosen by content and extension).
+
+    ``altitude_ft`` (feet in the route's own reference: MSL unless the route says
+    ``agl``) or ``flight_level`` gives the altitude of routes drawn in two
+    dimensions; a file whose waypoints carry their own altitudes is refused with
+    either, so that no altitude is silently replaced.
+    """
+    if altitude_ft is not None and flight_level is not None:
+        raise RouteError(
+            "both an altitude in feet and a flight level are given",
+            path=path,
+            fix="give --altitude-ft or --flight-level, not both",
+        )
+    default = None
+    if altitude_ft is not None:
+        alt = check_number(altitude_ft, "altitude_ft", where="--altitude-ft", low=-3000.0)
+        default = (alt * FT, None, "--altitude-ft")
+    elif flight_level is not None:
+        alt = _flight_level_m(flight_level, path=None, where="--flight-level")
+        default = (alt, "pressure", "--flight-level")
+    token = _DEFAULT_ALTITUDE.set(default)
+    try:
+        routes = _read_routes(path)
+    finally:
+        _DEFAULT_ALTITUDE.reset(token)
+    return routes
+
+
+def _read_routes(path):
     p = Path(path)
     if not p.exists():
         raise RouteError("file not found", path=path, fix="check the path")
@@ -123,133 +153,6 @@ def _looks_like_csv(text):
             cols = {c.strip().lower() for c in s.split(",")}
             return {"lat", "lon"} <= cols
     return False
-
-
-def _finish(route, path, where_of):
-    check_waypoints(route, path=path, where_of=where_of)
-    return route
-
-
-def _optional_time(value, *, path, where, what="time"):
-    if value is None or (isinstance(value, str) and not value.strip()):
-        return None
-    return parse_time(value, path=path, where=where, what=what)
-
-
-def _optional_number(value, what, *, path, where, low, high):
-    if value is None or (isinstance(value, str) and not value.strip()):
-        return None
-    return check_number(value, what, path=path, where=where, low=low, high=high)
-
-
-def _flight_level_m(value, *, path, where):
-    fl = check_number(
-        value,
-        "flight_level",
-        path=path,
-        where=where,
-        low=-20.0,
-        high=999.0,
-        fix="flight_level is pressure altitude in hundreds of feet (FL100 = 10,000 ft)",
-    )
-    return fl * 100.0 * FT
-
-
-def _altitude(*, path, where, reference, metres=None, feet=None, flight_level=None):
-    """Altitude [m] and its reference from the ways a file may give it."""
-    if feet is not None and flight_level is not None:
-        raise RouteError(
-            "both altitude_ft and flight_level are given",
-            path=path,
-            where=where,
-            fix="give one of them",
-        )
-    if flight_level is not None:
-        if reference not in ("msl", "pressure"):
-            raise RouteError(
-                f"flight_level given with altitude_reference {reference!r}",
-                path=path,
-                where=where,
-                fix='flight levels are pressure altitudes: use "pressure"',
-            )
-        alt = _flight_level_m(flight_level, path=path, where=where)
-        return check_altitude(alt, "pressure", path=path, where=where), "pressure"
-    if feet is not None:
-        alt = check_number(feet, "altitude_ft", path=path, where=where) * FT
-        return check_altitude(alt, reference, path=path, where=where), reference
-    if metres is not None:
-        alt = check_number(
-            metres,
-            "altitude",
-            path=path,
-            where=where,
-            fix="the third coordinate is the altitude in metres",
-        )
-        return check_altitude(
-            alt, reference, path=path, where=where, given_in_metres=True
-        ), reference
-    raise RouteError(
-        "missing altitude",
-        path=path,
-        where=where,
-        fix="give [lon, lat, alt_m] positions, altitude_ft or flight_level",
-    )
-
-
-def _reference(value, *, path, where):
-    if value is None:
-        return "msl"
-    ref = str(value).strip().lower()
-    if ref not in ALTITUDE_REFERENCES:
-        raise RouteError(
-            f"altitude_reference {value!r} is not one of {', '.join(ALTITUDE_REFERENCES)}",
-            path=path,
-            where=where,
-            fix='use "msl", "agl" or "pressure"',
-        )
-    return ref
-
-
-def _route_fields(props, *, path, where):
-    """Route-level fields shared by the readers."""
-    p = "" if not where else where + "."
-    name = props.get("name")
-    return dict(
-        name=None if name is None else str(name),
-        departure_time=_optional_time(
-            props.get("departure_time"),
-            path=path,
-            where=p + "departure_time",
-            what="departure_time",
-        ),
-        true_airspeed_kt=_optional_number(
-            props.get("true_airspeed_kt"),
-            "true_airspeed_kt",
-            path=path,
-            where=p + "true_airspeed_kt",
-            low=0.0,
-            high=2000.0,
-        ),
-        ground_elevation_m=_optional_number(
-            props.get("ground_elevation_m"),
-            "ground_elevation_m",
-            path=path,
-            where=p + "ground_elevation_m",
-            low=-500.0,
-            high=9000.0,
-        ),
-    )
-
-
-def _default_names(routes, path):
-    stem = Path(path).stem if path else "route"
-    out = []
-    for j, (fields, wps, where_of) in enumerate(routes):
-        if not fields.get("name"):
-            fields["name"] = stem if len(routes) == 1 else f"{stem}-{j + 1}"
-        route = Route(waypoints=wps, source=None if path is None else str(path), **fields)
-        out.append(_finish(route, path, where_of))
-    return out
 
 
 # --------------------------------------------------------------------------- GeoJSON
@@ -333,6 +236,7 @@ def _collection_properties(obj):
         "true_airspeed_kt",
         "altitude_reference",
         "ground_elevation_m",
+        "airframe",
     ):
         if key in obj and key not in props:
             props[key] = obj[key]
@@ -467,17 +371,7 @@ def _line_route(f, defaults, path, where, bare=False):
             path=path, where=wi, reference=ref, metres=z, feet=feet[i], flight_level=levels[i]
         )
         t = _optional_time(times[i], path=path, where=f"{pp}times[{i}]")
-        hold = (
-            _optional_number(
-                holds[i],
-                "hold_min",
-                path=path,
-                where=f"{pp}hold_min[{i}]",
-                low=0.0,
-                high=24 * 60.0,
-            )
-            or 0.0
-        )
+        hold = _hold_min(holds[i], path=path, where=f"{pp}hold_min[{i}]")
         name = names[i] if names[i] is not None else f"WP{i + 1}"
         wps.append(Waypoint(str(name), lat, lon, alt, wref, t, hold, None))
     fields = _route_fields(props, path=path, where=(p + "properties") if not bare else "")
@@ -513,248 +407,15 @@ def _points_route(features, defaults, path):
             flight_level=props.get("flight_level"),
         )
         t = _optional_time(props.get("time"), path=path, where=where + ".properties.time")
-        hold = (
-            _optional_number(
-                props.get("hold_min"),
-                "hold_min",
-                path=path,
-                where=where + ".properties.hold_min",
-                low=0.0,
-                high=24 * 60.0,
-            )
-            or 0.0
-        )
-        tas = _optional_number(
-            props.get("tas_kt"),
-            "tas_kt",
-            path=path,
-            where=where + ".properties.tas_kt",
-            low=0.0,
-            high=2000.0,
-        )
+        hold = _hold_min(props.get("hold_min"), path=path, where=where + ".properties.hold_min")
+        tas = _tas_kt(props.get("tas_kt"), path=path, where=where + ".properties.tas_kt")
         name = props.get("name") or f"WP{i + 1}"
         wps.append(Waypoint(str(name), lat, lon, alt, wref, t, hold, tas))
     fields = _route_fields(defaults, path=path, where="properties")
     return fields, wps, (lambda i: f"features[{i}]")
 
 
-# --------------------------------------------------------------------------- CSV
-
-_CSV_COLUMNS = (
-    "name",
-    "lat",
-    "lon",
-    "altitude_ft",
-    "time",
-    "altitude_reference",
-    "flight_level",
-    "tas_kt",
-    "hold_min",
-    "route",
-)
-
-
-def read_csv_routes(text, *, path=None):
-    """Read the routes of a CSV text (see the module docstring)."""
-    rows = []  # (line number, fields)
-    for lineno, line in enumerate(text.lstrip("\ufeff").splitlines(), start=1):
-        s = line.strip()
-        if not s or s.startswith("#"):
-            continue
-        try:
-            fields = next(csv.reader([s], skipinitialspace=True, strict=True))
-        except csv.Error as err:
-            raise RouteError(
-                f"malformed CSV: {err}", path=path, where=f"line {lineno}", fix="check the quoting"
-            ) from None
-        rows.append((lineno, [x.strip() for x in fields]))
-    if not rows:
-        raise RouteError(
-            "no header and no rows (only comments or blank lines)",
-            path=path,
-            fix="start with the header name,lat,lon,altitude_ft[,time]",
-        )
-    head_line, header = rows[0]
-    header = [h.lower() for h in header]
-    if not {"lat", "lon"} <= set(header) or len(set(header)) != len(header):
-        separator = " separated by commas, not semicolons" if ";" in header[0] else ""
-        raise RouteError(
-            f"header {','.join(header)[:80]!r} is not a route header",
-            path=path,
-            where=f"line {head_line}",
-            fix="start with the header name,lat,lon,altitude_ft[,time] "
-            f"(unique column names{separator})",
-        )
-    if "altitude_ft" not in header and "flight_level" not in header:
-        raise RouteError(
-            "header has no altitude_ft or flight_level column (missing altitude)",
-            path=path,
-            where=f"line {head_line}",
-            fix="add an altitude_ft (feet) or flight_level column",
-        )
-    if len(rows) == 1:
-        raise RouteError(
-            "no waypoint rows after the header",
-            path=path,
-            where=f"line {head_line}",
-            fix="add at least two waypoints",
-        )
-    groups = {}
-    for lineno, fields in rows[1:]:
-        if len(fields) > len(header):
-            raise RouteError(
-                f"{len(fields)} fields for {len(header)} header columns",
-                path=path,
-                where=f"line {lineno}",
-                fix="check the commas in this line",
-            )
-        row = dict(zip(header, fields + [""] * (len(header) - len(fields)), strict=True))
-        row = {k: (v if v != "" else None) for k, v in row.items()}
-        groups.setdefault(row.get("route") or "", []).append((lineno, row))
-    routes = []
-    for key, items in groups.items():
-        wps, lines = [], []
-        for i, (lineno, row) in enumerate(items):
-            where = f"line {lineno}"
-            lat, lon = check_position(row["lat"], row["lon"], path=path, where=where)
-            ref = _reference(row.get("altitude_reference"), path=path, where=where)
-            alt, wref = _altitude(
-                path=path,
-                where=where,
-                reference=ref,
-                feet=row.get("altitude_ft"),
-                flight_level=row.get("flight_level"),
-            )
-            t = _optional_time(row.get("time"), path=path, where=where)
-            hold = (
-                _optional_number(
-                    row.get("hold_min"),
-                    "hold_min",
-                    path=path,
-                    where=where,
-                    low=0.0,
-                    high=24 * 60.0,
-                )
-                or 0.0
-            )
-            tas = _optional_number(
-                row.get("tas_kt"), "tas_kt", path=path, where=where, low=0.0, high=2000.0
-            )
-            wps.append(
-                Waypoint(row.get("name") or f"WP{i + 1}", lat, lon, alt, wref, t, hold, tas)
-            )
-            lines.append(lineno)
-        fields = {"name": key or None}
-        routes.append((fields, wps, (lambda i, lines=lines: f"line {lines[i]}")))
-    return _default_names(routes, path)
-
-
-# --------------------------------------------------------------------------- GPX
-
-
-def read_gpx_routes(text, *, path=None):
-    """Read the routes of a GPX 1.1 text (see the module docstring)."""
-    head = text[:4096].upper()
-    if "<!DOCTYPE" in head or "<!ENTITY" in head:
-        raise RouteError(
-            "GPX with a DOCTYPE or entity declarations is refused",
-            path=path,
-            fix="remove the <!DOCTYPE ...> declaration",
-        )
-    try:
-        root = ET.fromstring(text)
-    except ET.ParseError as err:
-        line, col = err.position
-        raise RouteError(
-            f"malformed XML: {str(err).split(':')[0]}",
-            path=path,
-            where=f"line {line} column {col + 1}",
-            fix="check the XML syntax",
-        ) from None
-    ns = root.tag[1:].split("}")[0] if root.tag.startswith("{") else ""
-    local = root.tag.split("}")[-1]
-    if local != "gpx" or ns not in _GPX_NS:
-        raise RouteError(
-            f"root element <{local}> is not GPX",
-            path=path,
-            where="line 1",
-            fix='give a GPX 1.1 file (<gpx xmlns="http://www.topografix.com/GPX/1/1">)',
-        )
-    q = (lambda tag: f"{{{ns}}}{tag}") if ns else (lambda tag: tag)
-    routes = []
-    for r, rte in enumerate(root.findall(q("rte"))):
-        routes.append(_gpx_route(rte, rte.findall(q("rtept")), q, path, f"rte {r + 1}", "rtept"))
-    for r, trk in enumerate(root.findall(q("trk"))):
-        points = [pt for seg in trk.findall(q("trkseg")) for pt in seg.findall(q("trkpt"))]
-        routes.append(_gpx_route(trk, points, q, path, f"trk {r + 1}", "trkpt"))
-    if not routes:
-        has_wpt = root.find(q("wpt")) is not None
-        raise RouteError(
-            "GPX has no rte or trk" + (" (only wpt waypoints)" if has_wpt else ""),
-            path=path,
-            fix="put the waypoints in order in a <rte> of <rtept>",
-        )
-    return _default_names(routes, path)
-
-
-def _text(el, tag):
-    child = el.find(tag)
-    if child is None or child.text is None or not child.text.strip():
-        return None
-    return child.text.strip()
-
-
-def _extensions(el, q):
-    ext = el.find(q("extensions"))
-    out = {}
-    if ext is not None:
-        for child in ext.iter():
-            if child.tag.startswith(f"{{{GPX_EXTENSION_NS}}}") and child.text:
-                out[child.tag.split("}")[-1]] = child.text.strip()
-    return out
-
-
-def _gpx_route(el, points, q, path, where, point_tag):
-    ext = _extensions(el, q)
-    ref = _reference(
-        ext.get("altitude_reference"), path=path, where=f"{where} extensions altitude_reference"
-    )
-    wps = []
-    for i, pt in enumerate(points):
-        wi = f"{where} {point_tag} {i + 1}"
-        lat, lon = check_position(pt.get("lat"), pt.get("lon"), path=path, where=wi)
-        ele = _text(pt, q("ele"))
-        if ele is None:
-            raise RouteError(
-                "missing altitude (no <ele>)", path=path, where=wi, fix="give <ele> in metres"
-            )
-        pext = _extensions(pt, q)
-        alt, wref = _altitude(path=path, where=wi, reference=ref, metres=ele)
-        t = _optional_time(_text(pt, q("time")), path=path, where=wi)
-        hold = (
-            _optional_number(
-                pext.get("hold_min"), "hold_min", path=path, where=wi, low=0.0, high=24 * 60.0
-            )
-            or 0.0
-        )
-        tas = _optional_number(
-            pext.get("tas_kt"), "tas_kt", path=path, where=wi, low=0.0, high=2000.0
-        )
-        wps.append(
-            Waypoint(_text(pt, q("name")) or f"WP{i + 1}", lat, lon, alt, wref, t, hold, tas)
-        )
-    props = {
-        "name": _text(el, q("name")),
-        **{k: ext.get(k) for k in ("departure_time", "true_airspeed_kt", "ground_elevation_m")},
-    }
-    fields = _route_fields(props, path=path, where=f"{where} extensions")
-    wheres = [f"{where} {point_tag} {i + 1}" for i in range(len(points))]
-    if not points:
-        wheres = [where]
-    return fields, wps, (lambda i: wheres[min(i, len(wheres) - 1)])
-
-
-def load_routes(path):
+def load_routes(path, *, altitude_ft=None, flight_level=None):
     """Read every route in a GeoJSON, CSV or GPX file.
 
     The format is chosen by content (``{`` JSON, ``<`` XML) and extension
@@ -765,6 +426,9 @@ def load_routes(path):
     ----------
     path : str or os.PathLike
         The route file.
+    altitude_ft, flight_level : float, optional
+        The altitude of a route drawn without altitudes (feet in the route's
+        reference, or a flight level); refused when the file gives altitudes.
 
     Returns
     -------
@@ -777,10 +441,10 @@ def load_routes(path):
         The file is missing, empty, malformed or holds an unusable route; the
         message names the file, the place and the fix.
     """
-    return read_routes(path)
+    return read_routes(path, altitude_ft=altitude_ft, flight_level=flight_level)
 
 
-def load_route(path):
+def load_route(path, **kwargs):
     """Read the single route of a file (see :func:`load_routes`).
 
     Raises
@@ -788,7 +452,7 @@ def load_route(path):
     RouteError
         Also when the file holds several routes (they are named).
     """
-    routes = load_routes(path)
+    routes = load_routes(path, **kwargs)
     if len(routes) != 1:
         names = ", ".join(repr(r.name) for r in routes)
         raise RouteError(

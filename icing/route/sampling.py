@@ -18,8 +18,8 @@ Examples
 >>> from datetime import datetime, timezone
 >>> from icing.route.model import Route, Waypoint
 >>> t0 = datetime(2027, 1, 14, 9, 0, tzinfo=timezone.utc)
->>> route = Route("demo", [Waypoint("ODRIX", 56.5, -26.0, 3000.0),
-...                        Waypoint("QELTA", 56.95, -24.9, 3000.0)],
+>>> route = Route("demo", [Waypoint("reg-01", 56.5, -26.0, 3000.0),
+...                        Waypoint("reg-02", 56.95, -24.9, 3000.0)],
 ...               departure_time=t0, true_airspeed_kt=250.0)
 >>> s = sample_route(route)
 >>> len(s), round(float(s.distance_m[-1]) / 1000, 1), round(float(s.dt_s.sum()))
@@ -57,9 +57,11 @@ _EPOCH = datetime(1970, 1, 1, tzinfo=UTC)
 _FASTEST_GROUND_SPEED = 800.0 * KT
 
 
-@dataclass
+@dataclass(frozen=True)
 class RouteSamples:
     """Points along a route at which the forecast is read; arrays shaped (n,).
+
+    Frozen: built once by :func:`sample_route`, never edited afterwards.
 
     Attributes
     ----------

@@ -19,6 +19,7 @@ import numpy as np
 from icing import codes
 from icing.caution import CAUTION
 from icing.constants import FT, T0
+from icing.hazards.outcome import Condition, route_outcome
 from icing.hazards.readoff import icing_at, read_off, take_last, worst_over_candidates
 from icing.hazards.results import Curtain, RouteScreening
 
@@ -41,6 +42,12 @@ class ScreenOptions:
         Clearance above the terrain for candidate altitudes (aircraft). [ft]
     all_segments : bool
         Also write the "no-icing" segments.
+    condition : Condition or None
+        The dispatcher's condition (``--fail-on`` ...); sets each route's ``outcome``.
+    candidate_step_ft : float or None
+        Step of the candidate-altitude search; default suited to the airframe's band
+        (1,000 ft for aircraft; for drones a step giving about eight altitudes inside
+        their height band, e.g. 50 ft within 400 ft). [ft]
     """
 
     step_km: float = 1.0
@@ -48,6 +55,8 @@ class ScreenOptions:
     curtain_top_ft: float | None = None
     terrain_margin_ft: float = 1000.0
     all_segments: bool = False
+    condition: Condition | None = None
+    candidate_step_ft: float | None = None
 
     def describe(self) -> dict:
         """Return the options as a JSON-serialisable dict."""
@@ -55,7 +64,8 @@ class ScreenOptions:
             "sample_step_km": self.step_km,
             "curtain_step_ft": self.curtain_step_ft,
             "terrain_margin_ft": self.terrain_margin_ft,
-            "candidate_altitude_step_ft": 1000.0,
+            "candidate_altitude_step_ft": self.candidate_step_ft or "suited to the band",
+            "condition": None if self.condition is None else self.condition.describe(),
             "worst_of_candidates": "profiles within the coverage radius and valid times around "
             "each sample are diagnosed one by one and the worst is kept (never blended)",
         }
@@ -96,13 +106,13 @@ def screen_route(
     route,
     forecast,
     *,
-    airframe,
+    airframe=None,
     step_km: float | None = None,
     tas_kt: float | None = None,
     departure=None,
     column_options=None,
     options: ScreenOptions | None = None,
-    segment_prefix: str = "",
+    segment_prefix: str | None = None,
 ) -> RouteScreening:
     """Screen one route against a forecast for one airframe.
 
@@ -112,8 +122,9 @@ def screen_route(
         The route (``icing.load_route``) or a route file.
     forecast : Forecast or str or path
         The forecast (``icing.load_forecast``) or a forecast file.
-    airframe : Airframe or str
-        Preset name, airframe TOML file or :class:`icing.airframes.Airframe`.
+    airframe : Airframe or str or None
+        Preset name, airframe TOML file or :class:`icing.airframes.Airframe`; None
+        takes the route's own ``airframe`` (an error when the route names none).
     step_km : float, optional
         Largest distance between samples along the track; overrides
         ``options.step_km`` (default 1 km). [km]
@@ -124,7 +135,10 @@ def screen_route(
     column_options : ColumnOptions, optional
         Column-physics choices (air mass, sub-adiabatic factor, ...).
     options : ScreenOptions, optional
-        Run choices (curtain, all segments, ...).
+        Run choices (curtain, all segments, condition, ...).
+    segment_prefix : str, optional
+        Prefix of the segment ids; default made from the route's name, so ids do not
+        change with the order of the routes.
 
     Returns
     -------
@@ -154,7 +168,9 @@ def screen_route(
         return take_last(np.broadcast_to(a, sev.shape), kbest)
 
     at = _at_flight(samples, colset, diag, state, result, best(sev), best, airframe, ci)
-    at["altitude_msl_m"] = best(state["height"])[:, -1] if vref == "pressure" else grid["flight"]
+    at.update(
+        _flight_altitudes(samples, vref, best(state["height"])[:, -1], grid["flight"], ground)
+    )
     curtain = Curtain(
         distance_km=at["distance_km"],
         altitudes_m=alts_m,
@@ -183,8 +199,7 @@ def _loaded(route, forecast, airframe):
         route = load_route(route)
     if not hasattr(forecast, "columns_at"):
         forecast = load_forecast(forecast)
-    if not hasattr(airframe, "collectors"):
-        airframe = load_airframe(airframe)
+    airframe = _route_airframe(route, airframe, load_airframe)
     return route, forecast, airframe
 
 
@@ -215,8 +230,7 @@ def _read_off_targets(samples, colset, diag, ground, airframe, options):
     covered = np.asarray(colset.covered, bool)
     cand = np.where(covered[:, None], np.asarray(colset.candidates), -1)  # (n, k)
     target_flight, vref = _flight_targets(samples, ground)
-    top_ft = options.curtain_top_ft or (airframe.ceiling_ft or 25000.0) + 2000.0
-    alts_m = np.arange(0.0, top_ft + 1, options.curtain_step_ft) * FT
+    alts_m = _curtain_rows(airframe, options, ground)
     rows = standard_atmosphere_pressure(alts_m) if vref == "pressure" else alts_m
     targets = np.concatenate([np.broadcast_to(rows, (n, alts_m.size)), target_flight[:, None]], 1)
     tgt = np.broadcast_to(targets[:, :, None], targets.shape + (cand.shape[1],))
@@ -236,7 +250,7 @@ def _assemble(
 ):
     """Build the screening once: segments with their candidate altitudes, then the summary."""
     from icing.hazards.avoidance import CANDIDATE_WORDING, segment_candidates
-    from icing.hazards.segments import build_segments, route_summary
+    from icing.hazards.segments import build_segments, route_summary, segment_prefix_of
 
     limits = _altitude_limits(airframe, options)
     segments = build_segments(
@@ -245,7 +259,7 @@ def _assemble(
         samples,
         at,
         all_segments=options.all_segments,
-        id_prefix=segment_prefix,
+        id_prefix=segment_prefix_of(route.name) if segment_prefix is None else segment_prefix,
     )
     segments, candidates = segment_candidates(
         segments, curtain, samples=samples, at_flight=at, **limits
@@ -260,7 +274,17 @@ def _assemble(
         ),
         airframe=airframe,
     )
-    summary["candidate_altitudes_ft"] = _summary_candidates(candidates, segments)
+    outcome, reason = route_outcome(summary, options.condition)
+    summary = {
+        **{k: summary[k] for k in ("route", "airframe")},
+        "outcome": outcome,
+        "outcome_reason": reason,
+        "condition": None if options.condition is None else options.condition.describe(),
+        **{k: v for k, v in summary.items() if k not in ("route", "airframe")},
+    }
+    stretches = _summary_candidates(candidates, segments)
+    summary["candidate_altitudes"] = stretches
+    summary["candidate_altitudes_ft"] = stretches  # deprecated name, kept one release
     summary["candidate_altitudes_wording"] = CANDIDATE_WORDING
     summary["caution"] = CAUTION
     return RouteScreening(
@@ -276,11 +300,94 @@ def _assemble(
             for name, d in zip(samples.waypoint_names, samples.waypoint_distance_m, strict=True)
         ],
         provenance=_provenance(forecast, samples),
-        assumptions=_assumptions(column_options, options, forecast, airframe),
+        assumptions=_assumptions(column_options, options, forecast, airframe, limits),
         ceiling_m=limits["ceiling_m"],
         max_agl_m=limits["max_agl_m"],
         candidates=candidates,
     )
+
+
+def _route_airframe(route, airframe, load_airframe):
+    """Return the airframe to screen with: the one given, else the route's own; no default."""
+    from icing.errors import AirframeError
+
+    if airframe is None:
+        airframe = getattr(route, "airframe", None)
+    if airframe is None:
+        from icing.airframes import list_airframes
+
+        names = ", ".join(a.name for a in list_airframes())
+        raise AirframeError(
+            f"no airframe named for route {route.name!r}",
+            path=getattr(route, "source", None),
+            fix=f"give --airframe NAME|FILE.toml or an 'airframe' property in the route "
+            f"(presets: {names})",
+        )
+    return airframe if hasattr(airframe, "collectors") else load_airframe(airframe)
+
+
+def _curtain_rows(airframe, options, ground):
+    """Curtain altitudes [m]: every ``curtain_step_ft`` to the top, finer in a drone's band.
+
+    A drone's candidate altitudes are searched every few tens of feet inside its height
+    band, so the curtain has rows at that step up to the band's top over the highest
+    ground; above it the usual step continues.
+    """
+    top_ft = options.curtain_top_ft or (airframe.ceiling_ft or 25000.0) + 2000.0
+    rows_ft = np.arange(0.0, top_ft + 1, options.curtain_step_ft)
+    band = _drone_band_ft(airframe)
+    if band is not None:
+        g = np.asarray(ground, float)
+        g_ft = float(np.nanmax(g)) / FT if np.isfinite(g).any() else 0.0
+        step = options.candidate_step_ft or _band_step_ft(band)
+        fine = np.arange(0.0, max(g_ft, 0.0) + band[1] + options.curtain_step_ft + 1, step)
+        rows_ft = np.union1d(rows_ft, fine[fine <= top_ft])
+    return rows_ft * FT
+
+
+def _drone_band_ft(airframe):
+    """(lowest, highest) height above ground of a drone [ft], None for aircraft."""
+    agl_max = getattr(airframe, "max_altitude_agl_ft", None)
+    if not agl_max:
+        return None
+    return float(getattr(airframe, "min_altitude_ft", None) or 100.0), float(agl_max)
+
+
+def _band_step_ft(band):
+    """Return a candidate step suited to a height band: about eight altitudes inside it.
+
+    Aircraft bands (thousands of feet) keep 1,000 ft; a drone's 100-400 ft band gets
+    50 ft. The steps are round numbers a pilot reads and flies (common practice).
+    """
+    depth = band[1] - band[0]
+    for step in (1000.0, 500.0, 250.0, 100.0, 50.0):
+        if depth / step >= 6:
+            return step
+    return 25.0
+
+
+def _flight_altitudes(samples, vref, level_height_m, target_flight, ground):
+    """Per-sample altitudes for the outputs: MSL (the one output reference), the route's own.
+
+    Flight levels are matched on pressure: their MSL height is the forecast's height
+    of that pressure; where the forecast has none (a coverage gap) the
+    standard-atmosphere height stands in (pressure altitude = MSL in the ISA).
+    """
+    own = np.asarray(samples.altitude_m, float)
+    if vref == "pressure":
+        msl = np.where(np.isfinite(level_height_m), level_height_m, own)
+        curtain = own
+    else:
+        msl = np.where(np.isfinite(target_flight), target_flight, own)
+        curtain = msl
+    return {
+        "altitude_msl_m": msl,
+        "altitude_ft": msl / FT,
+        "route_altitude_ft": own / FT,
+        "curtain_altitude_m": curtain,
+        "ground_m": np.asarray(ground, float),
+        "tas_m_s": np.asarray(samples.tas, float),
+    }
 
 
 def _at_flight(samples, colset, diag, state, result, sev_b, best, airframe, column_index):
@@ -356,7 +463,8 @@ def _summary_candidates(candidates, segments):
                 "above_severity": None if above is None else above.get("worst_severity"),
                 "below_ft": None if below is None else below.get("altitude_ft"),
                 "below_severity": None if below is None else below.get("worst_severity"),
-                "ice_free_altitudes_ft": list(r.get("ice_free_altitudes_ft", [])),
+                "candidate_altitudes_ft": list(r.get("ice_free_altitudes_ft", [])),
+                "ice_free_altitudes_ft": list(r.get("ice_free_altitudes_ft", [])),  # deprecated
                 "text": r.get("text"),
             }
         )
@@ -368,15 +476,18 @@ def _altitude_limits(airframe, options):
     agl_max = getattr(airframe, "max_altitude_agl_ft", None)
     if agl_max:
         # drones: between their minimum and maximum height above the ground
+        band = _drone_band_ft(airframe)
         return {
             "ceiling_m": None if airframe.ceiling_ft is None else airframe.ceiling_ft * FT,
             "max_agl_m": float(agl_max) * FT,
-            "terrain_margin_ft": float(getattr(airframe, "min_altitude_ft", None) or 100.0),
+            "terrain_margin_ft": band[0],
+            "step_ft": options.candidate_step_ft or _band_step_ft(band),
         }
     return {
         "ceiling_m": float(airframe.ceiling_ft or 25000.0) * FT,
         "max_agl_m": None,
         "terrain_margin_ft": options.terrain_margin_ft,
+        "step_ft": options.candidate_step_ft or 1000.0,
     }
 
 
@@ -390,8 +501,9 @@ def _provenance(forecast, samples):
     return prov
 
 
-def _assumptions(column_options, options, forecast, airframe):
+def _assumptions(column_options, options, forecast, airframe, limits):
     out = {"column": column_options.describe(), "screening": options.describe()}
+    out["screening"]["candidate_altitude_step_ft"] = limits["step_ft"]
     from icing.calc.airframe import assumptions as collector_assumptions
 
     out["collectors"] = collector_assumptions()
@@ -401,25 +513,39 @@ def _assumptions(column_options, options, forecast, airframe):
             out.setdefault("coverage", {})[key] = desc[key]
     out["airframe"] = airframe.describe()
     out["altitude_reference_note"] = (
-        "GeoJSON third coordinates are read and written as metres above mean sea level "
-        "(not the WGS 84 ellipsoid of RFC 7946; the geoid differs by up to ~100 m), unless "
-        "the route says altitude_reference 'agl' or 'pressure'"
+        "every output altitude is above mean sea level (altitude_reference 'msl'): GeoJSON "
+        "third coordinates are metres MSL (not the WGS 84 ellipsoid of RFC 7946; the geoid "
+        "differs by up to ~100 m); AGL routes are placed on the ground under them and flight "
+        "levels on the forecast's height of their pressure (the standard atmosphere where the "
+        "forecast has none); the route's own reference is route_altitude_reference"
     )
     return out
 
 
-def screen_routes(routes, forecast, *, airframe, progress=None, **kwargs) -> list[RouteScreening]:
+def screen_routes(
+    routes, forecast, *, airframe=None, progress=None, id_tag="", **kwargs
+) -> list[RouteScreening]:
     """Screen several routes against one forecast (segment ids unique across routes).
 
-    ``progress``, if given, is called as ``progress(done, total, route_name)`` after
-    each route (the CLI draws a progress line from it).
+    Segment ids come from each route's name (``skerrow-dispatch-001``), so they do not
+    change with the order of the routes; routes of the same name get ``-2``, ``-3`` ...
+    in the order given; ``id_tag`` goes after the name (a departure time, when one
+    run screens several departures). ``airframe`` None takes each route's own. ``progress``, if
+    given, is called as ``progress(done, total, route_name)`` after each route (the
+    CLI draws a progress line from it).
     """
+    from icing.hazards.segments import segment_prefix_of
+
     routes = list(routes)
-    out = []
-    for i, r in enumerate(routes):
-        out.append(
-            screen_route(r, forecast, airframe=airframe, segment_prefix=f"R{i + 1}-", **kwargs)
-        )
+    out, used = [], {}
+    for r in routes:
+        prefix = segment_prefix_of(r.name) if hasattr(r, "name") else None
+        if prefix is not None:
+            used[prefix] = used.get(prefix, 0) + 1
+            if used[prefix] > 1:
+                prefix = f"{prefix[:-1]}-{used[prefix]}-"
+            prefix += id_tag
+        out.append(screen_route(r, forecast, airframe=airframe, segment_prefix=prefix, **kwargs))
         if progress is not None:
-            progress(i + 1, len(routes), out[-1].route_name)
+            progress(len(out), len(routes), out[-1].route_name)
     return out

@@ -15,6 +15,7 @@ from icing.outputs.plot.style import (
     SEVERITY_COLOURS,
     SEVERITY_HATCHES,
     check_output_path,
+    hold_runs,
 )
 
 __all__ = [
@@ -22,6 +23,7 @@ __all__ = [
     "SEVERITY_HATCHES",
     "GAP_LABEL",
     "check_output_path",
+    "hold_runs",
     "plot_cross_section",
     "plot_route_map",
 ]

@@ -10,9 +10,16 @@ mean longitude, so antimeridian routes are drawn whole.
 
 from __future__ import annotations
 
+import json
+import textwrap
+from functools import lru_cache
+from importlib import resources
+
 import matplotlib
 import numpy as np
 from matplotlib import patheffects
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.collections import LineCollection
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.ticker import FuncFormatter, MaxNLocator
@@ -20,6 +27,8 @@ from matplotlib.ticker import FuncFormatter, MaxNLocator
 from icing import codes
 from icing.errors import InputError
 from icing.outputs.plot.style import (
+    COAST_COLOUR,
+    DOMAIN_COLOUR,
     GAP_HATCH_COLOUR,
     GAP_LABEL,
     MAP_STYLE,
@@ -27,9 +36,11 @@ from icing.outputs.plot.style import (
     TEXT_BOX,
     check_picture_path,
     draw_caution,
+    draw_hold_marker,
+    hold_handle,
+    hold_runs,
     props_of,
     save,
-    valid_times_text,
 )
 
 __all__ = ["plot_route_map"]
@@ -115,20 +126,141 @@ def plot_route_map(screenings_or_one, path, *, title=None, figsize=(9.0, 6.5), d
     coslat = max(np.cos(np.deg2rad(float(np.mean(all_lat)))), 0.05)
 
     fig = Figure(figsize=figsize)
-    ax = fig.add_axes([0.09, 0.17, 0.6, 0.7])
+    FigureCanvasAgg(fig)  # a renderer, to place labels where they do not overlap
+    ax = fig.add_axes([0.09, 0.17, 0.6, 0.66])
+    labels = []
     for s in items:
         lon = _near(s.samples.lon, lon0)
         lat = np.asarray(s.samples.lat, dtype=float)
         ax.plot(lon, lat, color="black", linewidth=1.0, zorder=3)
         _draw_segments(ax, getattr(s, "segments", None) or [], lon0)
-        _draw_waypoints(ax, s, lon, lat)
+        labels += _draw_waypoints(ax, s, lon, lat)
+        labels += _draw_holds(ax, s, lon, lat)
+        labels.append(_route_label(s, lon, lat))
     xm, ym, half_x, half_y = _set_extent(ax, coslat)
+    _draw_coastlines(ax, lon0)
+    _draw_domain(ax, getattr(items[0], "provenance", None), lon0)
     _draw_graticule(ax)
     _draw_scale_bar(ax, xm, ym, half_x, half_y)
     _draw_titles(fig, items, title)
     _draw_legend(ax)
+    _place_labels(fig, ax, labels)
     draw_caution(fig, figsize[0])
-    return save(fig, path, fmt, dpi)
+    return save(fig, path, fmt, dpi, tight=True)
+
+
+@lru_cache(maxsize=1)
+def _coastlines():
+    """Return the bundled coastlines (Natural Earth 1:110m, public domain) as (k, 2) arrays."""
+    path = resources.files("icing") / "data" / "coastlines" / "ne_110m_coastlines.geojson"
+    doc = json.loads(path.read_text(encoding="utf-8"))
+    return [np.asarray(line, dtype=float) for line in doc["geometry"]["coordinates"]]
+
+
+def _split_at_seam(lon, lat):
+    """Pieces of a line whose longitudes, moved near the map centre, jump by half a turn."""
+    cut = np.flatnonzero(np.abs(np.diff(lon)) > 180.0) + 1
+    return [np.column_stack(p) for p in zip(np.split(lon, cut), np.split(lat, cut), strict=True)]
+
+
+def _draw_coastlines(ax, lon0):
+    """Coastlines for orientation (not for navigation), under everything else."""
+    x0, x1 = ax.get_xlim()
+    y0, y1 = ax.get_ylim()
+    pieces = []
+    for line in _coastlines():
+        lon = _near(line[:, 0], lon0)
+        inside = (
+            (lon >= x0 - 5) & (lon <= x1 + 5) & (line[:, 1] >= y0 - 5) & (line[:, 1] <= y1 + 5)
+        )
+        if inside.any():
+            pieces += [p for p in _split_at_seam(lon, line[:, 1]) if len(p) > 1]
+    if pieces:
+        ax.add_collection(
+            LineCollection(
+                pieces, colors=COAST_COLOUR, linewidths=0.8, zorder=1, gid="coastlines"
+            ),
+            autolim=False,
+        )
+
+
+def _draw_domain(ax, provenance, lon0):
+    """Outline of the forecast's area (outside it every point is a coverage gap)."""
+    bounds = (provenance or {}).get("bounds")
+    if not bounds or len(bounds) != 4 or not all(np.isfinite(bounds)):
+        return
+    w, south, e, north = (float(v) for v in bounds)
+    w = float(_near(np.array([w]), lon0)[0])
+    e = w + ((e - w) % 360.0 or 360.0)
+    ax.add_patch(
+        matplotlib.patches.Rectangle(
+            (w, south),
+            e - w,
+            north - south,
+            fill=False,
+            edgecolor=DOMAIN_COLOUR,
+            linewidth=1.4,
+            linestyle=(0, (1, 2)),
+            zorder=2,
+            gid="forecast-area",
+        )
+    )
+
+
+def _route_label(s, lon, lat):
+    """Return the route's name label, at the middle of its track."""
+    k = len(lon) // 2
+    return (float(lon[k]), float(lat[k]), str(s.route_name), {"fontsize": 7.5, "weight": "bold"})
+
+
+def _place_labels(fig, ax, labels):
+    """Place labels next to their points where they overlap nothing placed before.
+
+    Each label tries twelve positions around its point; one that fits nowhere is
+    left out (the legend and the report name every waypoint and route).
+    """
+    renderer = fig.canvas.get_renderer()
+    ax.apply_aspect()  # the axes' drawn box (the aspect shrinks it) bounds the labels
+    frame = ax.get_window_extent(renderer)
+    taken = []
+    offsets = [
+        (5, 5),
+        (5, -12),
+        (-5, 5),
+        (-5, -12),
+        (0, 12),
+        (0, -18),
+        (12, -3),
+        (-12, -3),
+        (8, 18),
+        (-8, 18),
+        (8, -24),
+        (-8, -24),
+    ]
+    seen = set()
+    for x, y, text, style in labels:
+        key = (round(x, 3), round(y, 3), text)
+        if key in seen:
+            continue
+        seen.add(key)
+        for dx, dy in offsets:
+            ann = ax.annotate(
+                text,
+                (x, y),
+                xytext=(dx, dy),
+                textcoords="offset points",
+                ha="left" if dx >= 0 else "right",
+                zorder=13,
+                bbox=TEXT_BOX,
+                annotation_clip=True,
+                **style,
+            )
+            box = ann.get_window_extent(renderer).expanded(1.05, 1.1)
+            inside = frame.contains(box.x0, box.y0) and frame.contains(box.x1, box.y1)
+            if inside and not any(box.overlaps(t) for t in taken):
+                taken.append(box)
+                break
+            ann.remove()
 
 
 def _draw_segments(ax, segments, lon0):
@@ -160,10 +292,10 @@ def _draw_segments(ax, segments, lon0):
 
 
 def _draw_waypoints(ax, s, lon, lat):
-    """Waypoints: positions interpolated along the samples at their distances, labelled."""
+    """Draw the waypoints (positions along the samples at their distances); return labels."""
     d = getattr(s.samples, "distance_m", None)
     if d is None or not getattr(s, "waypoints", None):
-        return
+        return []
     d = np.asarray(d, dtype=float) / 1000.0
     wd = np.array([float(w[1]) for w in s.waypoints])
     wlon = np.interp(wd, d, np.unwrap(lon, period=360.0))
@@ -178,16 +310,26 @@ def _draw_waypoints(ax, s, lon, lat):
         markeredgecolor="black",
         zorder=12,
     )
-    for (name, _), wx, wy in zip(s.waypoints, wlon, wlat, strict=True):
-        ax.annotate(
-            str(name),
-            (wx, wy),
-            xytext=(4, 4),
-            textcoords="offset points",
-            fontsize=7,
-            zorder=13,
-            bbox=TEXT_BOX,
+    return [
+        (float(wx), float(wy), str(name), {"fontsize": 7})
+        for (name, _), wx, wy in zip(s.waypoints, wlon, wlat, strict=True)
+    ]
+
+
+def _draw_holds(ax, s, lon, lat):
+    """Circle each hold (hover, loiter) and return its label ("hold 10 min")."""
+    out = []
+    for a, _, minutes in hold_runs(s.samples):
+        draw_hold_marker(ax, lon[a], lat[a], zorder=12)
+        out.append(
+            (
+                float(lon[a]),
+                float(lat[a]),
+                f"hold {minutes:.0f} min",
+                {"fontsize": 7, "style": "italic"},
+            )
         )
+    return out
 
 
 def _set_extent(ax, coslat):
@@ -249,25 +391,33 @@ def _draw_scale_bar(ax, xm, ym, half_x, half_y):
 
 
 def _draw_titles(fig, items, title):
-    """Title (the routes) and the subtitle (airframes, forecast valid times)."""
+    """Title (the routes, wrapped, never cut) and the subtitle (airframes, flight times)."""
+    names = list(dict.fromkeys(s.route_name for s in items))
     if title:
         head = title
-    elif len(items) == 1:
-        head = items[0].route_name
+    elif len(names) == 1:
+        head = names[0]
     else:
-        head = f"{len(items)} routes: " + ", ".join(s.route_name for s in items)
-        if len(head) > 90:
-            head = head[:87].rstrip(", ") + "..."
-    vt = valid_times_text(getattr(items[0], "provenance", None))
+        head = f"{len(names)} routes: " + ", ".join(names)
+    lines = textwrap.wrap(head, 80)
+    if len(lines) > 2:
+        lines = lines[:2]
+        lines[1] = lines[1][:76].rstrip(", ") + " \u2026"
     frames = ", ".join(dict.fromkeys(s.airframe_name for s in items))
-    fig.text(0.09, 0.965, head, fontsize=11, weight="bold", va="top", gid="title")
+    times = [np.asarray(s.samples.time).astype("datetime64[m]") for s in items]
+    first = min(t.min() for t in times).item()
+    last = max(t.max() for t in times).item()
+    when = f"{first:%Y-%m-%d %H:%M}\u2013{last:%H:%M} UTC"
+    issued = (getattr(items[0], "provenance", None) or {}).get("issue_time")
+    fig.text(0.09, 0.975, "\n".join(lines), fontsize=11, weight="bold", va="top", gid="title")
     fig.text(
         0.09,
-        0.925,
-        f"icing hazard along the route{'s' if len(items) > 1 else ''}"
-        f" ({frames})" + (f"; forecast valid {vt}" if vt else ""),
+        0.975 - 0.042 * len(lines),
+        f"icing hazard along the route{'s' if len(names) > 1 else ''} ({frames}); flights "
+        f"{when}" + (f"; forecast issued {issued}" if issued else ""),
         fontsize=8,
         va="top",
+        gid="subtitle",
     )
 
 
@@ -291,6 +441,16 @@ def _draw_legend(ax):
             [], [], color=GAP_HATCH_COLOUR, linewidth=3.0, linestyle=(0, (3, 2)), label=GAP_LABEL
         ),
         Line2D([], [], color="black", linewidth=1.0, label="route"),
+        Line2D([], [], color=COAST_COLOUR, linewidth=0.8, label="coast (Natural Earth)"),
+        Line2D(
+            [],
+            [],
+            color=DOMAIN_COLOUR,
+            linewidth=1.4,
+            linestyle=(0, (1, 2)),
+            label="forecast area",
+        ),
+        hold_handle("hold"),
         Line2D(
             [],
             [],

@@ -9,6 +9,8 @@ caution. Drawn with matplotlib's object API (no pyplot, no global state).
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 from matplotlib import patheffects
 from matplotlib.colors import BoundaryNorm, ListedColormap
@@ -18,6 +20,7 @@ from matplotlib.patches import Patch
 
 from icing import codes
 from icing.constants import FT
+from icing.errors import InputError
 from icing.outputs.plot.style import (
     CANDIDATE_COLOUR,
     CLOUD_COLOUR,
@@ -27,6 +30,7 @@ from icing.outputs.plot.style import (
     GAP_LABEL,
     GROUND,
     HATCH_COLOURS,
+    ISOTHERM_COLOUR,
     ISOTHERMS,
     MARKERS,
     SEVERITY_COLOURS,
@@ -36,13 +40,42 @@ from icing.outputs.plot.style import (
     TEXT_BOX,
     check_picture_path,
     draw_caution,
+    draw_hold_marker,
+    hold_handle,
+    hold_runs,
     props_of,
     save,
     severity_handles,
-    valid_times_text,
 )
 
 __all__ = ["plot_cross_section"]
+
+
+@dataclass(frozen=True)
+class _Frame:
+    """Where the curtain lands on the picture: the axis coordinates of every cell."""
+
+    x: np.ndarray
+    """(n,) distance along the route [km]."""
+    rows: np.ndarray
+    """(a,) curtain rows in the curtain's reference [ft]."""
+    shift: np.ndarray
+    """(n,) what is subtracted from an altitude to place it on the axis (the ground
+    for the height-above-ground axis, else 0) [ft]."""
+    agl: bool
+    """The vertical axis is height above the ground."""
+
+    @property
+    def X(self):  # noqa: N802 - the grid's conventional name
+        return np.broadcast_to(self.x[:, None], (self.x.size, self.rows.size))
+
+    @property
+    def Y(self):  # noqa: N802
+        return self.rows[None, :] - self.shift[:, None]
+
+    def y_at(self, km, alt_ft):
+        """Axis position of an altitude [ft, curtain reference] at a distance [km]."""
+        return np.asarray(alt_ft, float) - np.interp(km, self.x, self.shift)
 
 
 def _ground_ft(cur):
@@ -54,14 +87,14 @@ def _ground_ft(cur):
     return np.where(np.isfinite(g), g, np.nan) / FT
 
 
-def _mask_fill(ax, x, y, mask, *, hatch, hatch_colour, zorder):
+def _mask_fill(ax, fr, mask, *, hatch, hatch_colour, zorder):
     """Hatch the cells where ``mask`` is true (contour of the 0/1 field at 0.5)."""
     if not mask.any():
         return None
     cs = ax.contourf(
-        x,
-        y,
-        mask.T.astype(float),
+        fr.X,
+        fr.Y,
+        mask.astype(float),
         levels=[0.5, 1.5],
         colors="none",
         hatches=[hatch],
@@ -76,25 +109,33 @@ def _mask_fill(ax, x, y, mask, *, hatch, hatch_colour, zorder):
     return cs
 
 
-def _runs(flags):
-    """(start, stop) index pairs of the runs of True in a 1-D bool array."""
-    f = np.r_[False, np.asarray(flags, dtype=bool), False]
-    edges = np.flatnonzero(np.diff(f.astype(int)))
-    return list(zip(edges[::2], edges[1::2], strict=True))
-
-
 def _flight_path(screening):
+    """Distance [km] and altitude [ft, in the curtain's reference] of the planned path.
+
+    The altitude is above mean sea level (AGL routes stand on the ground under them),
+    or the pressure altitude for routes flown on flight levels.
+    """
     at = getattr(screening, "at_flight", None) or {}
     samples = getattr(screening, "samples", None)
     x = at.get("distance_km")
     if x is None and samples is not None and getattr(samples, "distance_m", None) is not None:
         x = np.asarray(samples.distance_m, dtype=float) / 1000.0
-    y = at.get("altitude_ft")
+    y = at.get("curtain_altitude_m")
+    y = None if y is None else np.asarray(y, float) / FT
+    if y is None:
+        y = at.get("altitude_ft")
     if y is None and samples is not None and getattr(samples, "altitude_m", None) is not None:
         y = np.asarray(samples.altitude_m, dtype=float) / FT
     if x is None or y is None:
         return None, None
     return np.asarray(x, dtype=float), np.asarray(y, dtype=float)
+
+
+def _runs(flags):
+    """(start, stop) index pairs of the runs of True in a 1-D bool array."""
+    f = np.r_[False, np.asarray(flags, dtype=bool), False]
+    edges = np.flatnonzero(np.diff(f.astype(int)))
+    return list(zip(edges[::2], edges[1::2], strict=True))
 
 
 def _candidate_runs(seg_props, join_km):
@@ -130,7 +171,7 @@ def _candidate_runs(seg_props, join_km):
     return runs
 
 
-def _draw_candidates(ax, seg_props, x):
+def _draw_candidates(ax, seg_props, fr):
     """Mark candidate ice-free altitudes; return True when any was drawn.
 
     Every clear altitude of a stretch is a short tick at its middle; the nearest
@@ -138,14 +179,15 @@ def _draw_candidates(ax, seg_props, x):
     run of adjacent stretches sharing it) with a triangle and a label.
     """
     drawn = False
+    x = fr.x
     for p in seg_props:
-        alts = p.get("ice_free_altitudes_ft") or []
+        alts = p.get("candidate_altitudes_ft") or p.get("ice_free_altitudes_ft") or []
         if p.get("kind") != "icing" or not alts:
             continue
         mid = 0.5 * (float(p["start_km"]) + float(p["end_km"]))
         ax.plot(
             np.full(len(alts), mid),
-            alts,
+            fr.y_at(mid, alts),
             linestyle="none",
             marker="_",
             markersize=9,
@@ -158,18 +200,18 @@ def _draw_candidates(ax, seg_props, x):
     for side, h, fl, a, b in _candidate_runs(seg_props, join_km=2.5 * spacing):
         mid = 0.5 * (a + b)
         up = side == "above"
-        ax.hlines(
-            [h],
-            a,
-            max(b, a + 1e-3),
-            colors=CANDIDATE_COLOUR,
-            linewidths=1.2,
-            linestyles=[(0, (2, 2))],
+        km = np.linspace(a, max(b, a + 1e-3), 24)
+        ax.plot(
+            km,
+            fr.y_at(km, np.full(km.size, h)),
+            color=CANDIDATE_COLOUR,
+            linewidth=1.2,
+            linestyle=(0, (2, 2)),
             zorder=6,
         )
         ax.plot(
             [mid],
-            [h],
+            [fr.y_at(mid, h)],
             marker="^" if up else "v",
             markersize=7,
             color=CANDIDATE_COLOUR,
@@ -178,7 +220,7 @@ def _draw_candidates(ax, seg_props, x):
         )
         ax.annotate(
             f"{h:.0f} ft" if fl is None else f"FL{int(fl):03d}",
-            (mid, h),
+            (mid, fr.y_at(mid, h)),
             xytext=(0, 5 if up else -5),
             textcoords="offset points",
             ha="center",
@@ -192,22 +234,31 @@ def _draw_candidates(ax, seg_props, x):
     return drawn
 
 
-def _altitude_top_ft(y, fy, seg_props):
-    """Top of the picture [ft]: enough above the path and the candidates, within the curtain."""
+def _altitude_top_ft(y, fy, seg_props, band_top_ft=None):
+    """Top of the picture [ft]: enough above the path and the candidates, within the curtain.
+
+    Aircraft: three times the highest planned altitude, at least 3,000 ft above it.
+    Drones (``band_top_ft``, the top of their height band on the axis): a close view,
+    twice the highest planned height and 300 ft above the band's top.
+    """
     top = float(y[-1])
     if fy is None or not np.isfinite(fy).any():
         return top
     high = float(np.nanmax(fy))
-    want = max(3.0 * high, high + 3000.0)
+    drone = band_top_ft is not None and np.isfinite(band_top_ft)
+    want = max(2.0 * high, band_top_ft + 300.0) if drone else max(3.0 * high, high + 3000.0)
+    margin = 200.0 if drone else 1000.0
     for p in seg_props:
         for o in (p.get("vertical_options") or {}).values():
             if isinstance(o, dict) and o.get("altitude_ft") is not None:
-                want = max(want, float(o["altitude_ft"]) + 1000.0)
-    return max(min(top, want), high + 500.0)  # the path is always inside
+                want = max(want, float(o["altitude_ft"]) + margin)
+    return max(min(top, want), high + (100.0 if drone else 500.0))  # the path is inside
 
 
-def _label_gaps(ax, x, y, gap, y_bottom, y_top):
+def _label_gaps(ax, fr, gap, y_bottom, y_top):
     """Label each stretch of coverage gap once, on its tallest visible band."""
+    x = fr.x
+    y = fr.rows - float(np.median(fr.shift))
     span = x[-1] - x[0] if x.size > 1 else 1.0
     runs = _runs(gap.any(axis=1))
     if not runs:
@@ -244,7 +295,15 @@ def _label_gaps(ax, x, y, gap, y_bottom, y_top):
 
 
 def plot_cross_section(
-    screening, path, *, title=None, figsize=(11.0, 6.5), dpi=150, candidates=True, ylim_ft=None
+    screening,
+    path,
+    *,
+    title=None,
+    figsize=(11.0, 6.8),
+    dpi=150,
+    candidates=True,
+    ylim_ft=None,
+    axis="msl",
 ):
     """Draw the route's vertical cross-section and write it as PNG or SVG.
 
@@ -275,6 +334,10 @@ def plot_cross_section(
         Altitude range shown. [ft] Default: the curtain's bottom to its top, or
         for low flights (drones) to three times the highest planned altitude,
         at least 3,000 ft above it and above the nearest candidates.
+    axis : {"msl", "agl"}
+        Vertical axis: feet above mean sea level (AGL routes are drawn at their
+        true height over the drawn ground), or height above the ground (drone
+        work: the ground is the axis's zero and every column is shifted by it).
 
     Returns
     -------
@@ -288,60 +351,82 @@ def plot_cross_section(
     """
     path, fmt = check_picture_path(path)
     cur = screening.curtain
-    x = np.asarray(cur.distance_km, dtype=float)
-    y = np.asarray(cur.altitudes_m, dtype=float) / FT
     sev = np.asarray(cur.severity)
     below = np.asarray(cur.below_ground, dtype=bool)
     gap = (sev == codes.GAP) & ~below
-
+    fr = _frame(cur, axis)
     fig = Figure(figsize=figsize)
     pressure = getattr(cur, "altitude_reference", "msl") == "pressure"
-    ax = fig.add_axes([0.075, 0.2, 0.62 if pressure else 0.66, 0.62])
-    _draw_severity(ax, x, y, sev)
-    _draw_gaps(ax, x, y, gap)
-    _draw_sld(ax, x, y, np.asarray(cur.sld_class), below)
-    _draw_cloud(ax, x, y, np.asarray(cur.cloud, dtype=bool) & ~below)
-    _draw_isotherms(ax, x, y, np.where(below, np.nan, np.asarray(cur.temperature_c, float)))
-    _draw_ground(ax, x, y, _ground_ft(cur))
+    ax = fig.add_axes([0.075, 0.27, 0.62 if pressure else 0.66, 0.56])
+    _draw_severity(ax, fr, sev)
+    _draw_gaps(ax, fr, gap)
+    _draw_sld(ax, fr, np.asarray(cur.sld_class), below)
+    _draw_cloud(ax, fr, np.asarray(cur.cloud, dtype=bool) & ~below)
+    temp = np.where(below | gap, np.nan, np.asarray(cur.temperature_c, float))
+    _draw_isotherms(ax, fr, temp)  # none through coverage gaps: temperature unknown there
+    _draw_ground(ax, fr, _ground_ft(cur))
     fx, fy = _flight_path(screening)
     seg_props = [props_of(f) for f in (getattr(screening, "segments", None) or [])]
     if fx is not None:
+        fy = fr.y_at(fx, fy)
         _draw_flight_path(ax, fx, fy, seg_props)
-    have_candidates = _draw_candidates(ax, seg_props, x) if candidates else False
-    ax.set_xlim(x[0], x[-1])
-    y_top = _altitude_top_ft(y, fy, seg_props) if ylim_ft is None else float(ylim_ft[1])
-    y_bottom = y[0] if ylim_ft is None else float(ylim_ft[0])
+        _draw_holds(ax, screening, fx, fy)
+    have_candidates = _draw_candidates(ax, seg_props, fr) if candidates else False
+    ax.set_xlim(fr.x[0], fr.x[-1] if fr.x[-1] > fr.x[0] else fr.x[0] + 1.0)
+    y_axis = fr.rows - (float(np.nanmin(fr.shift)) if fr.agl else 0.0)
+    band = getattr(screening, "max_agl_m", None)
+    if band is not None:
+        band = band / FT + (0.0 if fr.agl else float(np.nanmax(_ground_ft(cur), initial=0.0)))
+    y_top = _altitude_top_ft(y_axis, fy, seg_props, band) if ylim_ft is None else float(ylim_ft[1])
+    y_bottom = (0.0 if fr.agl else fr.rows[0]) if ylim_ft is None else float(ylim_ft[0])
     ax.set_ylim(y_bottom, y_top)
-    _label_gaps(ax, x, y, gap, y_bottom, y_top)
-    _draw_axes(ax, pressure, list(getattr(screening, "waypoints", None) or []))
+    _label_gaps(ax, fr, gap, y_bottom, y_top)
+    _draw_axes(ax, pressure, list(getattr(screening, "waypoints", None) or []), fr.agl)
+    _draw_time_axis(ax, screening)
     _draw_titles(fig, screening, title)
     _draw_legend(ax, pressure, have_candidates)
     draw_caution(fig, figsize[0])
-    return save(fig, path, fmt, dpi)
+    return save(fig, path, fmt, dpi, tight=True)
 
 
-def _draw_severity(ax, x, y, sev):
+def _frame(cur, axis):
+    """Return the picture's frame: MSL (or pressure altitude) rows, or height above the ground."""
+    if axis not in ("msl", "agl"):
+        raise InputError(
+            f"cross-section axis {axis!r} not supported",
+            where="plot_cross_section(axis=...)",
+            fix="use 'msl' or 'agl'",
+        )
+    x = np.asarray(cur.distance_km, dtype=float)
+    rows = np.asarray(cur.altitudes_m, dtype=float) / FT
+    agl = axis == "agl" and getattr(cur, "altitude_reference", "msl") != "pressure"
+    g = _ground_ft(cur)
+    shift = np.where(np.isfinite(g), g, 0.0) if agl else np.zeros(x.size)
+    return _Frame(x=x, rows=rows, shift=shift, agl=agl)
+
+
+def _draw_severity(ax, fr, sev):
     """Severity fill (cells as they are: nearest shading) and its hatches."""
     shown = np.ma.masked_where(sev < codes.SEV_TRACE, sev)
     cmap = ListedColormap([SEVERITY_COLOURS[k] for k in (1, 2, 3, 4)])
     norm = BoundaryNorm([0.5, 1.5, 2.5, 3.5, 4.5], cmap.N)
     ax.pcolormesh(
-        x, y, shown.T, cmap=cmap, norm=norm, shading="nearest", zorder=1, rasterized=True
+        fr.X, fr.Y, shown, cmap=cmap, norm=norm, shading="nearest", zorder=1, rasterized=True
     )
     for k in (codes.SEV_LIGHT, codes.SEV_MODERATE, codes.SEV_SEVERE):
         _mask_fill(
-            ax, x, y, sev == k, hatch=SEVERITY_HATCHES[k], hatch_colour=HATCH_COLOURS[k], zorder=2
+            ax, fr, sev == k, hatch=SEVERITY_HATCHES[k], hatch_colour=HATCH_COLOURS[k], zorder=2
         )
 
 
-def _draw_gaps(ax, x, y, gap):
+def _draw_gaps(ax, fr, gap):
     """Coverage gaps: grey, hatched (labelled later, once the limits are known)."""
     if not gap.any():
         return
     ax.pcolormesh(
-        x,
-        y,
-        np.ma.masked_where(~gap, np.ones(gap.shape)).T,
+        fr.X,
+        fr.Y,
+        np.ma.masked_where(~gap, np.ones(gap.shape)),
         cmap=ListedColormap([GAP_FILL]),
         vmin=0,
         vmax=2,
@@ -349,42 +434,38 @@ def _draw_gaps(ax, x, y, gap):
         zorder=1,
         rasterized=True,
     )
-    _mask_fill(ax, x, y, gap, hatch=GAP_HATCH, hatch_colour=GAP_HATCH_COLOUR, zorder=2)
+    _mask_fill(ax, fr, gap, hatch=GAP_HATCH, hatch_colour=GAP_HATCH_COLOUR, zorder=2)
 
 
-def _draw_sld(ax, x, y, sld, below):
+def _draw_sld(ax, fr, sld, below):
     """SLD areas: circle hatches with a dashed outline."""
     for cls, hatch in SLD_HATCH.items():
         m = (sld == cls) & ~below
-        if _mask_fill(ax, x, y, m, hatch=hatch, hatch_colour=SLD_COLOUR, zorder=3):
-            ax.contour(
-                x,
-                y,
-                m.T.astype(float),
-                levels=[0.5],
-                colors=SLD_COLOUR,
-                linewidths=1.0,
-                linestyles=[(0, (3, 1.5))],
-                zorder=3,
-            )
+        if _mask_fill(ax, fr, m, hatch=hatch, hatch_colour=SLD_COLOUR, zorder=3):
+            _outline(ax, fr, m, SLD_COLOUR, 1.0, (0, (3, 1.5)), 3)
 
 
-def _draw_cloud(ax, x, y, cloud):
-    """Cloud outline (bases and tops)."""
+def _draw_cloud(ax, fr, cloud):
+    """Draw the cloud outline (bases and tops)."""
     if cloud.any() and not cloud.all():
-        ax.contour(
-            x,
-            y,
-            cloud.T.astype(float),
-            levels=[0.5],
-            colors=CLOUD_COLOUR,
-            linewidths=1.3,
-            linestyles=[(0, (6, 2, 1, 2))],
-            zorder=4,
-        )
+        _outline(ax, fr, cloud, CLOUD_COLOUR, 1.3, (0, (6, 2, 1, 2)), 4)
 
 
-def _draw_isotherms(ax, x, y, temp):
+def _outline(ax, fr, mask, colour, width, style, zorder):
+    """Draw the edge of the cells where ``mask`` is true."""
+    ax.contour(
+        fr.X,
+        fr.Y,
+        mask.astype(float),
+        levels=[0.5],
+        colors=colour,
+        linewidths=width,
+        linestyles=[style],
+        zorder=zorder,
+    )
+
+
+def _draw_isotherms(ax, fr, temp):
     """Isotherms 0, -10, -20 degC, labelled (none where the temperature is unknown)."""
     finite = np.isfinite(temp)
     if not finite.any():
@@ -394,11 +475,11 @@ def _draw_isotherms(ax, x, y, temp):
     if not levels:
         return
     cs = ax.contour(
-        x,
-        y,
-        temp.T,
+        fr.X,
+        fr.Y,
+        temp,
         levels=levels,
-        colors="#151515",
+        colors=ISOTHERM_COLOUR,
         linestyles=[ISOTHERMS[lv][0] for lv in levels],
         linewidths=[ISOTHERMS[lv][1] for lv in levels],
         zorder=4,
@@ -406,23 +487,29 @@ def _draw_isotherms(ax, x, y, temp):
     ax.clabel(cs, fmt={lv: f"{lv:d} \u00b0C" for lv in levels}, fontsize=7, inline=True)
 
 
-def _draw_ground(ax, x, y, g):
+def _draw_ground(ax, fr, g):
     """Draw the ground under the route (filled, with its outline)."""
-    if np.isfinite(g).any():
-        ax.fill_between(
-            x, y[0], np.where(np.isfinite(g), g, y[0]), color=GROUND, zorder=5, linewidth=0
-        )
-        ax.plot(x, g, color="black", linewidth=1.2, zorder=5)
+    if not np.isfinite(g).any():
+        return
+    g = np.where(np.isfinite(g), g, fr.rows[0]) - fr.shift
+    floor = min(fr.rows[0], float(g.min())) - (1e5 if fr.agl else 0.0)
+    ax.fill_between(fr.x, floor, g, color=GROUND, zorder=5, linewidth=0)
+    ax.plot(fr.x, g, color="black", linewidth=1.2, zorder=5)
 
 
 def _draw_flight_path(ax, fx, fy, seg_props):
-    """Draw the planned flight path, its coverage gaps dashed, its icing stretches marked."""
-    halo = [patheffects.withStroke(linewidth=4.0, foreground="white")]
-    ax.plot(fx, fy, color="black", linewidth=1.5, zorder=7, path_effects=halo)
+    """Draw the planned path; its gaps dashed, its icing stretches thick with markers.
+
+    Markers stand at even spacing along the route (about forty over its length),
+    shaped by the severity there, so that short segments never pile up into a smear.
+    """
+    halo = [patheffects.withStroke(linewidth=4.5, foreground="white")]
+    ax.plot(fx, fy, color="black", linewidth=2.2, zorder=7, path_effects=halo)
+    span = float(fx[-1] - fx[0]) if fx.size > 1 else 0.0
+    spots = np.linspace(fx[0], fx[-1], 41)[1:-1] if span > 0 else np.array([])
     for p in seg_props:
-        inside = (fx >= float(p.get("start_km", np.inf)) - 1e-9) & (
-            fx <= float(p.get("end_km", -np.inf)) + 1e-9
-        )
+        a, b = float(p.get("start_km", np.inf)), float(p.get("end_km", -np.inf))
+        inside = (fx >= a - 1e-9) & (fx <= b + 1e-9)
         if not inside.any():
             continue
         if p.get("kind") == "coverage-gap":
@@ -442,20 +529,49 @@ def _draw_flight_path(ax, fx, fy, seg_props):
                 color="black",
                 linewidth=4.0,
                 zorder=8,
+                solid_capstyle="butt",
+                path_effects=[patheffects.withStroke(linewidth=6.0, foreground="white")],
+            )
+            here = spots[(spots >= a) & (spots <= b)]
+            if not here.size:
+                here = np.array([0.5 * (a + b)])
+            ax.plot(
+                here,
+                np.interp(here, fx, fy),
+                linestyle="none",
                 marker=MARKERS[k],
                 markersize=6,
                 markerfacecolor=SEVERITY_COLOURS[k],
                 markeredgecolor="black",
                 markeredgewidth=0.8,
-                markevery=max(1, int(inside.sum()) // 4),
-                path_effects=[patheffects.withStroke(linewidth=6.0, foreground="white")],
+                zorder=9,
             )
 
 
-def _draw_axes(ax, pressure, wps):
+def _draw_holds(ax, screening, fx, fy):
+    """Mark each hold (hover or loiter): it takes time but no distance."""
+    for a, b, minutes in hold_runs(getattr(screening, "samples", None)):
+        km, alt = float(fx[a]), float(np.nanmean(fy[a:b]))
+        draw_hold_marker(ax, km, alt, zorder=10)
+        ax.annotate(
+            f"hold {minutes:.0f} min",
+            (km, alt),
+            xytext=(8, 8),
+            textcoords="offset points",
+            fontsize=7,
+            zorder=10,
+            bbox=TEXT_BOX,
+            gid="hold-label",
+        )
+
+
+def _draw_axes(ax, pressure, wps, agl=False):
     """Axis labels, the flight-level axis and the waypoints on the top axis."""
-    ax.set_xlabel("distance along the route [km]")
-    ax.set_ylabel("pressure altitude [ft]" if pressure else "altitude [ft MSL]")
+    ax.set_xlabel("distance along the route [km]", fontsize=8)
+    if agl:
+        ax.set_ylabel("height above the ground [ft]")
+    else:
+        ax.set_ylabel("pressure altitude [ft]" if pressure else "altitude [ft MSL]")
     if pressure:
         sec = ax.secondary_yaxis("right", functions=(lambda v: v / 100.0, lambda v: v * 100.0))
         sec.set_ylabel("flight level")
@@ -472,15 +588,54 @@ def _draw_axes(ax, pressure, wps):
             ax.axvline(float(d), color="#777777", linewidth=0.5, linestyle=":", zorder=4)
 
 
+def _draw_time_axis(ax, screening):
+    """Draw a second distance axis below the first, labelled with the planned times [UTC]."""
+    samples = getattr(screening, "samples", None)
+    if samples is None or getattr(samples, "time", None) is None:
+        return
+    km = np.asarray(samples.distance_m, float) / 1000.0
+    t = np.asarray(samples.time).astype("datetime64[ms]").astype(np.int64) / 60000.0  # [min]
+    if km.size < 2 or km[-1] <= km[0]:
+        return
+    span = t[-1] - t[0]
+    step = next((m for m in (5, 10, 15, 30, 60, 120, 180, 360) if span / m <= 8), 720)
+    marks = np.arange(np.ceil(t[0] / step) * step, t[-1] + 1e-9, step)
+    ticks = np.interp(marks, t, km)  # where the flight is at each round time
+    keep = []  # during a hold several times fall on one place: label the first only
+    for i, x in enumerate(ticks):
+        if not keep or x - ticks[keep[-1]] > 0.04 * (km[-1] - km[0]):
+            keep.append(i)
+    marks, ticks = marks[keep], ticks[keep]
+    labels = [np.datetime64(int(round(v)), "m").item().strftime("%H:%M") for v in marks]
+    sec = ax.secondary_xaxis(-0.2)
+    sec.set_xticks(ticks, labels=labels, fontsize=7)
+    sec.set_xlabel("planned time [UTC]", fontsize=8)
+
+
 def _draw_titles(fig, screening, title):
-    """Title (route and airframe) and the subtitle with the forecast valid times."""
+    """Title (route and airframe) and the subtitle with the flight's own times."""
     head = title or f"{screening.route_name} \u2014 {screening.airframe_name}"
-    vt = valid_times_text(getattr(screening, "provenance", None))
     sub = "icing severity cross-section (reference collector)"
-    if vt:
-        sub += f"; forecast valid {vt}"
+    times = _flight_times(screening)
+    if times:
+        sub += f"; departs {times[0]}, arrives {times[1]}"
+    issued = (getattr(screening, "provenance", None) or {}).get("issue_time")
+    if issued:
+        sub += f"; forecast issued {issued}"
     fig.text(0.075, 0.965, head, fontsize=11, weight="bold", va="top", gid="title")
-    fig.text(0.075, 0.925, sub, fontsize=8, va="top")
+    fig.text(0.075, 0.925, sub, fontsize=8, va="top", gid="subtitle")
+
+
+def _flight_times(screening):
+    """Departure and arrival as text (UTC), or None."""
+    samples = getattr(screening, "samples", None)
+    t = getattr(samples, "time", None)
+    if t is None or not np.size(t):
+        return None
+    t = np.asarray(t).astype("datetime64[m]")
+    first, last = t.min().item(), t.max().item()
+    end = last.strftime("%H:%M UTC" if first.date() == last.date() else "%Y-%m-%d %H:%M UTC")
+    return first.strftime("%Y-%m-%d %H:%M UTC"), end
 
 
 def _draw_legend(ax, pressure, have_candidates):
@@ -509,11 +664,14 @@ def _draw_legend(ax, pressure, have_candidates):
             ),
         ]
         + [
-            Line2D([], [], color="#151515", linestyle=ls, linewidth=lw, label=f"{lv} \u00b0C")
+            Line2D(
+                [], [], color=ISOTHERM_COLOUR, linestyle=ls, linewidth=lw, label=f"{lv} \u00b0C"
+            )
             for lv, (ls, lw) in ISOTHERMS.items()
         ]
         + [
-            Line2D([], [], color="black", linewidth=1.5, label="planned flight path"),
+            Line2D([], [], color="black", linewidth=2.2, label="planned flight path"),
+            hold_handle("hold (time at one place)"),
             Line2D(
                 [],
                 [],
@@ -526,27 +684,7 @@ def _draw_legend(ax, pressure, have_candidates):
         ]
     )
     if have_candidates:
-        handles += [
-            Line2D(
-                [],
-                [],
-                color=CANDIDATE_COLOUR,
-                linestyle="none",
-                marker="_",
-                markersize=9,
-                markeredgewidth=1.6,
-                label="candidate ice-free altitude\n(check against official advisories)",
-            ),
-            Line2D(
-                [],
-                [],
-                color=CANDIDATE_COLOUR,
-                linestyle=(0, (2, 2)),
-                marker="^",
-                markeredgecolor="black",
-                label="nearest candidate above / below",
-            ),
-        ]
+        handles += _candidate_handles()
     leg = ax.legend(
         handles=handles,
         loc="upper left",
@@ -557,3 +695,28 @@ def _draw_legend(ax, pressure, have_candidates):
         handlelength=2.4,
     )
     leg.set_gid("legend")
+
+
+def _candidate_handles():
+    """Legend entries of the candidate altitudes."""
+    return [
+        Line2D(
+            [],
+            [],
+            color=CANDIDATE_COLOUR,
+            linestyle="none",
+            marker="_",
+            markersize=9,
+            markeredgewidth=1.6,
+            label="candidate ice-free altitude\n(check against official advisories)",
+        ),
+        Line2D(
+            [],
+            [],
+            color=CANDIDATE_COLOUR,
+            linestyle=(0, (2, 2)),
+            marker="^",
+            markeredgecolor="black",
+            label="nearest candidate above / below",
+        ),
+    ]

@@ -40,13 +40,19 @@ __all__ = [
     "GROUND",
     "CLOUD_COLOUR",
     "CANDIDATE_COLOUR",
+    "COAST_COLOUR",
+    "DOMAIN_COLOUR",
     "ISOTHERMS",
+    "ISOTHERM_COLOUR",
     "TEXT_BOX",
     "check_output_path",
     "check_picture_path",
     "save",
     "draw_caution",
     "severity_handles",
+    "hold_handle",
+    "hold_runs",
+    "draw_hold_marker",
     "valid_times_text",
     "props_of",
 ]
@@ -89,8 +95,11 @@ SLD_COLOUR = "#0a8f9a"
 GROUND = "#5c5346"
 CLOUD_COLOUR = "#2b5fad"
 CANDIDATE_COLOUR = "#1b7f3b"
-#: Isotherms drawn [degC] -> (line style, width).
-ISOTHERMS = {0: ("solid", 1.6), -10: ((0, (5, 2.5)), 1.1), -20: ((0, (1.2, 1.8)), 1.1)}
+COAST_COLOUR = "#8fa3b8"
+DOMAIN_COLOUR = "#3b5b7a"
+#: Isotherms drawn [degC] -> (line style, width), in a grey that the black path stands out from.
+ISOTHERMS = {0: ((0, (8, 2, 2, 2)), 1.3), -10: ((0, (5, 2.5)), 1.0), -20: ((0, (1.2, 1.8)), 1.0)}
+ISOTHERM_COLOUR = "#4a4a4a"
 # A light box behind labels (a path-effect halo would turn SVG text into paths).
 TEXT_BOX = {"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": "none", "alpha": 0.8}
 _SAVE_RC = {"svg.fonttype": "none", "hatch.linewidth": 0.7, "svg.hashsalt": "icing"}
@@ -124,10 +133,15 @@ def check_picture_path(path):
     return check_output_path(path, ("png", "svg"), what="picture")
 
 
-def save(fig, path, fmt, dpi):
-    """Write a figure atomically (temporary file, then renamed)."""
+def save(fig, path, fmt, dpi, *, tight=False):
+    """Write a figure atomically (temporary file, then renamed).
+
+    ``tight`` grows or trims the page to what is drawn, so that no label, legend or
+    title is cut off at the edge.
+    """
+    extra = {"bbox_inches": "tight", "pad_inches": 0.12} if tight else {}
     with matplotlib.rc_context(_SAVE_RC):
-        replace_atomically(path, lambda tmp: fig.savefig(tmp, format=fmt, dpi=dpi))
+        replace_atomically(path, lambda tmp: fig.savefig(tmp, format=fmt, dpi=dpi, **extra))
     return path
 
 
@@ -166,6 +180,52 @@ def severity_handles():
         )
         for k in (codes.SEV_TRACE, codes.SEV_LIGHT, codes.SEV_MODERATE, codes.SEV_SEVERE)
     ]
+
+
+def hold_runs(samples):
+    """Each hold of a route as (first sample, stop, minutes held); empty without holds."""
+    import numpy as np
+
+    hold = getattr(samples, "hold", None)
+    if hold is None or not np.any(hold):
+        return []
+    hold = np.asarray(hold, bool)
+    dt = np.asarray(samples.dt_s, float)
+    edges = np.flatnonzero(np.diff(np.r_[0, hold.astype(int), 0]))
+    return [
+        (int(a), int(b), float(dt[a:b].sum()) / 60.0)
+        for a, b in zip(edges[::2], edges[1::2], strict=True)
+    ]
+
+
+def draw_hold_marker(ax, x, y, *, zorder):
+    """Draw a hold's open circle at one place."""
+    ax.plot(
+        [x],
+        [y],
+        marker="o",
+        markersize=12,
+        markerfacecolor="none",
+        markeredgecolor="black",
+        markeredgewidth=1.6,
+        zorder=zorder,
+    )
+
+
+def hold_handle(label):
+    """Legend entry of a hold (an open circle, on the map and the cross-section)."""
+    from matplotlib.lines import Line2D
+
+    return Line2D(
+        [],
+        [],
+        color="black",
+        linestyle="none",
+        marker="o",
+        markerfacecolor="none",
+        markersize=9,
+        label=label,
+    )
 
 
 def valid_times_text(provenance):
