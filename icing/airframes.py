@@ -31,6 +31,10 @@ A user file (TOML)::
     ceiling_ft = 12000          # optional
     ice_protection = "none"     # optional: none | de-ice | anti-ice
     reference = "prop"          # optional: the collector that sets severity
+    [speeds]                    # optional: indicated airspeeds by phase of flight
+    climb_ias_kt = 25           # (level_ias_kt, descent_ias_kt, holding_ias_kt too)
+    holding_ias_kt = 0          # a hover
+    speed_limit = "none"        # or "14 CFR 91.117(a)": 250 kt indicated below 10,000 ft
     [[collectors]]
     name = "prop"
     shape = "rotor"
@@ -54,6 +58,7 @@ from icing.calc.airframe import (
     Airframe,
     Collector,
 )
+from icing.calc.airspeed import SPEED_LIMITS, SpeedSchedule
 from icing.errors import AirframeError
 
 __all__ = [
@@ -81,7 +86,9 @@ _AIRFRAME_KEYS = (
     "reference",
     "min_altitude_ft",
     "max_altitude_agl_ft",
+    "speeds",
 )
+_SPEED_KEYS = ("level_ias_kt", "climb_ias_kt", "descent_ias_kt", "holding_ias_kt", "speed_limit")
 
 
 def _number(table, key, path, where, *, positive=True, required=True, default=None):
@@ -248,7 +255,52 @@ def airframe_from_dict(table: dict, *, path=None, source=None) -> Airframe:
         ),
         max_altitude_agl_ft=_number(table, "max_altitude_agl_ft", path, where, required=False),
         source=source or "preset",
+        speeds=_speeds_from_dict(table.get("speeds"), tas, path, where),
     )
+
+
+def _speeds_from_dict(t, cruise_tas_kt, path, where):
+    """Check the optional ``[speeds]`` table; return a SpeedSchedule or None."""
+    if t is None:
+        return None
+    where = f"{where} speeds"
+    if not isinstance(t, dict):
+        raise AirframeError(
+            "'speeds' must be a table",
+            path=path,
+            where=where,
+            fix="write the speeds as a [speeds] table (climb_ias_kt = 90, ...)",
+        )
+    unknown = sorted(set(t) - set(_SPEED_KEYS))
+    if unknown:
+        raise AirframeError(
+            f"unknown key {unknown[0]!r}",
+            path=path,
+            where=where,
+            fix=f"use only {', '.join(_SPEED_KEYS)}",
+        )
+    limit = t.get("speed_limit", "none")
+    if limit not in SPEED_LIMITS:
+        raise AirframeError(
+            f"'speed_limit' must be one of {', '.join(map(repr, SPEED_LIMITS))}, got {limit!r}",
+            path=path,
+            where=where,
+            fix='write speed_limit = "14 CFR 91.117(a)" or "none"',
+        )
+    kw = {
+        k: _number(t, k, path, where, positive=False, required=False)
+        for k in _SPEED_KEYS
+        if k != "speed_limit"
+    }
+    for k, v in kw.items():
+        if v is not None and v < 0:
+            raise AirframeError(
+                f"{k!r} must be >= 0, got {v}",
+                path=path,
+                where=where,
+                fix=f"give {k} as an indicated airspeed in knots",
+            )
+    return SpeedSchedule(cruise_tas_kt=cruise_tas_kt, speed_limit=limit, **kw)
 
 
 def _collectors_and_reference(table, path, where):
