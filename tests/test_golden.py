@@ -171,6 +171,22 @@ def test_jet_at_low_altitude_flies_its_schedule_not_its_cruise_speed(forecast):
     assert s.summary["worst_severity"] == "moderate"
 
 
+def test_supercooled_liquid_reads_trace_with_the_reason_at_any_speed(forecast):
+    # kinetic heating at 440 kt (+25 K, T_r = T + V^2 / 2 c_p) keeps the stagnation
+    # line above 0 C in -7 C cloud, but supercooled liquid is never "no icing": at least
+    # trace (0.01 g/m3 in-cloud threshold, Korolev et al. 2003), with the reason
+    s = icing.screen_route(
+        _level_route("stratiform-deck", 5000), forecast, airframe="regional-jet", tas_kt=440.0
+    )
+    assert s.summary["worst_severity"] == "trace"
+    seg = [f["properties"] for f in s.segments if f["properties"]["kind"] == "icing"]
+    assert seg and all(
+        "liquid present; kinetic heating keeps the stagnation line above 0 C at 440 kt"
+        in p["severity_reasons"]
+        for p in seg
+    )
+
+
 def test_profile_levels_use_the_given_airspeed_or_the_schedule(forecast):
     # icing profile --tas-kt N: N at every level; otherwise the level-flight schedule
     # (250 kt indicated below 10,000 ft for the jet: 14 CFR 91.117(a))
@@ -193,6 +209,21 @@ def test_freezing_rain_segment_shows_the_ice_it_accretes(forecast):
     seg = [f["properties"] for f in s.segments if f["properties"]["sld"] == "freezing-rain"]
     assert seg and all(p["severity"] == "severe" for p in seg)
     assert all(p["accretion_rate_mm_h_max"] > 0 and p["accretion_mm"] > 0 for p in seg)
+
+
+def test_glaciated_deck_reads_one_step_lower_with_the_reason(forecast):
+    # ice and snow falling into a -20 to -30 C deck glaciate it (glaciation likelihood
+    # 1.0; Korolev & Mazin 2003); the diagnosed liquid is kept (bimodal phase, Korolev
+    # et al. 2003) but the word is one step lower, never below trace, with the reason
+    col = diagnose_point(
+        forecast,
+        *WHERE["glaciating-deep-cold-deck"],
+        np.datetime64("2027-01-14T12:00"),
+        airframe="twin-turboprop",
+    )
+    cloudy = [lv for lv in col["levels"] if lv["cloud"] and lv["lwc_g_m3"] >= 0.01]
+    assert cloudy and all(lv["severity"] in ("trace", "light") for lv in cloudy)
+    assert all(any(r.startswith("lowered one step") for r in lv["reasons"]) for lv in cloudy)
 
 
 def test_warm_topped_deck_gives_freezing_drizzle_without_model_rain(tmp_path):

@@ -92,6 +92,7 @@ SAMPLE_COLUMNS = [
     "distance_km",
     "time",
     "dt_s",
+    "tas_kt",
     "covered",
     "gap_reason",
     "pressure_hpa",
@@ -117,6 +118,7 @@ SAMPLE_COLUMNS = [
     "accretion_rate_mm_h",
     "accretion_mm",
     "severity",
+    "severity_reasons",
 ]
 
 
@@ -143,6 +145,7 @@ def sample_table(screening) -> list[dict]:
             "severity": str(codes.words(sev, codes.SEVERITY, gap=KIND_GAP)),
             "worst_collector": af["worst_collector"][i],
             "cloud": bool(af["cloud"][i]),
+            "severity_reasons": str(af["severity_reasons"][i]) if "severity_reasons" in af else "",
         }
         for key in SAMPLE_COLUMNS:
             if key not in row:
