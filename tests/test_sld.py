@@ -526,7 +526,7 @@ def test_very_heavy_rate_still_sized(columns):
 # ----------------------------------------------------------------- warm rain growth
 def test_drizzle_growth_matches_an_adaptive_ode_solution():
     # reference library: scipy's solve_ivp (adaptive RK45, rtol 1e-10) on the same
-    # Khairoutdinov & Kogan (2000) rates; 0.5 % tolerance: 16 fixed RK4 steps
+    # Khairoutdinov & Kogan (2000) rates; 1 % tolerance: 8 fixed RK4 steps
     from scipy.integrate import solve_ivp
 
     from icing.calc.warm_rain import (
@@ -542,7 +542,7 @@ def test_drizzle_growth_matches_an_adaptive_ode_solution():
             return [auto + float(khairoutdinov_kogan_accretion(qc, max(q[0], 0.0)))]
 
         ref = solve_ivp(rate, (0.0, t), [0.0], rtol=1e-10, atol=1e-16).y[0, -1]
-        assert float(drizzle_growth(qc, n, t)) == pytest.approx(min(ref, qc), rel=5e-3)
+        assert float(drizzle_growth(qc, n, t)) == pytest.approx(min(ref, qc), rel=1e-2)
 
 
 def test_accretion_grows_drizzle_from_less_cloud_water_than_autoconversion_alone(columns):

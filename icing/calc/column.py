@@ -366,7 +366,7 @@ def _diagnose_core(s, cols, o):
         below = _below_ground(s, cols, p, z)
         rho = thermo.air_density(p, t, np.nan_to_num(q))
         lwc_model = _model_liquid(s, rho, o)
-        cloud, lay, valid = _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below)
+        cloud, lay, valid, f_ice = _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below)
         air = valid & ~below
         all_air = bool(air.all())  # the usual case: nothing to mask
         liquid_ok = cloud & (t > T_HOMOGENEOUS)
@@ -378,7 +378,9 @@ def _diagnose_core(s, cols, o):
         lwc, basis = _combine_liquid(lwc_model, lwc_diag, liquid_ok, air, all_air)
         number, mvd, shape = _droplets(lwc, liquid_ok, w_eff, sel, o)
         glac = _glaciation(s, o, p, t, rho, lwc, w, cloud, lay)
-        sld_out = _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, o)
+        sld_out = _sld(
+            p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, f_ice, o
+        )
         freezing = _freezing_level(t, z, air)
         lwc_c = _in_air(lwc, air, all_air, 0.0)
         exceed = clouds.appendix_c_exceedances(lwc_c, t, convective=convective)
@@ -534,7 +536,11 @@ def _model_liquid(s, rho, o):
 
 
 def _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below):
-    """Cloud mask, its layers, and validity less the layers resting on missing levels."""
+    """Cloud mask, its layers, validity less the layers resting on missing levels.
+
+    Also returns the water humidity of ice-saturated air (None when neither the
+    threshold nor the gap bridging needed it), reused by the SLD diagnosis.
+    """
     air = valid & ~below
     # water RH of ice-saturated air: once for the threshold and the gap bridging
     f_ice = (
@@ -554,7 +560,6 @@ def _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below):
     )
     if o.bridge_single_level_gaps:
         cloud = clouds.bridge_single_level_gaps(cloud, rh, t, valid=air, ice_saturation=f_ice)
-    del f_ice
     # layer boundaries never reach into the ground or into missing levels
     all_air = bool(air.all())
     lay = clouds.cloud_layers(
@@ -571,7 +576,7 @@ def _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below):
         bi = lay.base_index
         under_base = np.take_along_axis(lost, np.clip(bi - 1, 0, None), -1) & (bi >= 1)
         valid = valid & ~(cloud & under_base)
-    return cloud, lay, valid
+    return cloud, lay, valid, f_ice
 
 
 def _diagnosed_liquid(p, t, z, q, rh, lay, sel, air, all_air, convective, o):
@@ -719,7 +724,7 @@ def _freezing_level(t, z, air):
     return np.where(any_cross, za + frac * (zb - za), np.nan)
 
 
-def _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, o):
+def _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, f_ice, o):
     """Call :func:`icing.sld.diagnose_sld` on ground-up arrays; outputs keyed by field."""
     res = sld.diagnose_sld(
         p,
@@ -740,6 +745,7 @@ def _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, o
         below_ground=below,
         drizzle_time_scale_s=o.drizzle_time_scale_s,
         hydrometeors_given=_hydrometeors_given(present, p.shape[:-1]),
+        ice_saturation=f_ice,
     )
     return {
         "sld_class": np.asarray(res.sld_class),

@@ -272,6 +272,7 @@ def diagnose_sld(
     below_ground=None,
     drizzle_time_scale_s=3600.0,
     hydrometeors_given=None,
+    ice_saturation=None,
 ):
     """Diagnose freezing rain and freezing drizzle level by level.
 
@@ -308,6 +309,9 @@ def diagnose_sld(
         Per column: the model's rain or snow field was given (a profile set may
         mix columns with and without them). Default: every column when ``rain`` or
         ``snow`` is given, none otherwise.
+    ice_saturation : array_like, shape (..., level), optional
+        ``thermo.ice_saturation_relative_humidity(temperature)`` when the caller has
+        it already (saves computing it again).
 
     Returns
     -------
@@ -424,6 +428,7 @@ def diagnose_sld(
         "cloud_ice": cloud_ice,
         "valid": valid,
         "below_ground": below_ground,
+        "ice_saturation": ice_saturation,
     }
     args = {k: (None if v is None else np.broadcast_to(v, shape)) for k, v in level.items()}
     args["precipitation_rate_mm_h"] = (
@@ -535,6 +540,7 @@ def _sorted_block(a):
         "snow": srt("snow", 0.0),
         "cloud_ice": srt("cloud_ice", 0.0),
         "relative_humidity": srt("relative_humidity"),
+        "ice_saturation": None if a["ice_saturation"] is None else srt("ice_saturation"),
         "idx": np.broadcast_to(np.arange(shape[-1]), shape),
         "n_use": u.sum(axis=-1),
         "rate": _column_rate(a, shape),
@@ -601,6 +607,12 @@ def _rain_sizes(a, b, model_rain, q_rain):
     return ra_lwc, ra_mvd, ra_dmax
 
 
+def _ice_saturation(b, at):
+    """Water humidity of ice-saturated air at the levels ``at`` (given, else computed)."""
+    given = b["ice_saturation"]
+    return given[at] if given is not None else ice_saturation_relative_humidity(b["t"][at])
+
+
 def _seeded(b):
     """Levels seeded by ice (at or above, no ice-subsaturated clear air in between).
 
@@ -611,8 +623,9 @@ def _seeded(b):
     rh_s = b["relative_humidity"]
     cold_aloft = u & (t < ICE_ALOFT_T)
     ice_sat = np.zeros(t.shape, bool)
-    at = np.nonzero(cold_aloft & ~cld)
-    ice_sat[at] = rh_s[at] >= ice_saturation_relative_humidity(t[at])
+    # ice saturation is above 40 % over water down to about -90 C: judge moister levels
+    at = np.nonzero(cold_aloft & ~cld & (rh_s >= 0.4))
+    ice_sat[at] = rh_s[at] >= _ice_saturation(b, at)
     # model ice or snow; cloud, or air saturated over ice, colder than ICE_ALOFT_T
     ice_flag = (
         (b["cloud_ice"] > HYDROMETEOR_MIN)
@@ -626,7 +639,7 @@ def _seeded(b):
     dry = u & ~cld & ~ice_flag & (first_ice < nlev)
     at = np.nonzero(dry)
     # NaN humidity counts as dry
-    dry[at] = ~(rh_s[at] >= ice_saturation_relative_humidity(t[at]))
+    dry[at] = ~(rh_s[at] >= _ice_saturation(b, at))
     first_dry = _rev_cummin(np.where(dry, idx, nlev))
     # ice at or above, with no dry gap between; and any ice in the column
     return first_ice < first_dry, first_ice[..., 0] < nlev
