@@ -51,14 +51,14 @@ import tomllib
 from importlib import resources
 from pathlib import Path
 
-from icing.calc.airframe import (
+from icing.calc.airspeed import SPEED_LIMITS, SpeedSchedule
+from icing.calc.collector import (
     LEADING_EDGE_RADIUS_FACTOR,
     PROTECTIONS,
     SHAPES,
     Airframe,
     Collector,
 )
-from icing.calc.airspeed import SPEED_LIMITS, SpeedSchedule
 from icing.errors import AirframeError
 
 __all__ = [
@@ -114,6 +114,17 @@ def _number(table, key, path, where, *, positive=True, required=True, default=No
             fix=f"give a positive {key}",
         )
     return float(v)
+
+
+def _refuse_unknown_keys(table, allowed, path, where):
+    unknown = sorted(set(table) - set(allowed))
+    if unknown:
+        raise AirframeError(
+            f"unknown key {unknown[0]!r}",
+            path=path,
+            where=where,
+            fix=f"use only {', '.join(allowed)}",
+        )
 
 
 def _protection(value, path, where, key):
@@ -221,14 +232,7 @@ def airframe_from_dict(table: dict, *, path=None, source=None) -> Airframe:
             "missing key 'name'", path=path, where=where0, fix='add name = "<airframe name>"'
         )
     where = f"airframe {name!r}"
-    unknown = sorted(set(table) - set(_AIRFRAME_KEYS))
-    if unknown:
-        raise AirframeError(
-            f"unknown key {unknown[0]!r}",
-            path=path,
-            where=where,
-            fix=f"use only {', '.join(_AIRFRAME_KEYS)}",
-        )
+    _refuse_unknown_keys(table, _AIRFRAME_KEYS, path, where)
     tas = _number(table, "true_airspeed_kt", path, where, positive=False)
     if tas < 0:
         raise AirframeError(
@@ -271,14 +275,7 @@ def _speeds_from_dict(t, cruise_tas_kt, path, where):
             where=where,
             fix="write the speeds as a [speeds] table (climb_ias_kt = 90, ...)",
         )
-    unknown = sorted(set(t) - set(_SPEED_KEYS))
-    if unknown:
-        raise AirframeError(
-            f"unknown key {unknown[0]!r}",
-            path=path,
-            where=where,
-            fix=f"use only {', '.join(_SPEED_KEYS)}",
-        )
+    _refuse_unknown_keys(t, _SPEED_KEYS, path, where)
     limit = t.get("speed_limit", "none")
     if limit not in SPEED_LIMITS:
         raise AirframeError(

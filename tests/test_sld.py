@@ -13,16 +13,16 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from icing import codes
+from icing.calc.bourgouin import bourgouin_layer_areas
 from icing.calc.droplets import marshall_palmer, marshall_palmer_from_lwc
 from icing.calc.sld import (
     DRIZZLE_LWC_MIN,
     FZDZ_DMAX,
     FZRA_DMAX,
     appendix_o_class,
-    bourgouin_layer_areas,
     diagnose_sld,
-    khairoutdinov_kogan_autoconversion,
 )
+from icing.calc.warm_rain import khairoutdinov_kogan_autoconversion
 from icing.constants import CP_AIR, RD, T0
 
 PT = {name: i for i, name in enumerate(codes.PRECIP_TYPES)}
@@ -550,8 +550,6 @@ def test_accretion_grows_drizzle_from_less_cloud_water_than_autoconversion_alone
     # dominates once drizzle exists; autoconversion alone over 30 min needed more
     # than 0.74 g/m3 at the deck's top at 95 droplets per cm3 (measured on the
     # earlier code). Grown over the drizzle's residence in the deck, 0.5 g/m3 does
-    import icing.calc.sld as sld_module
-
     col = columns.sld_drizzle_deck_column(top_c=-6.0, lwc_top_g_m3=0.5)
     d = run(col, number_cm3=95.0)
     assert np.any(d.sld_class == codes.SLD_DRIZZLE)
@@ -559,9 +557,7 @@ def test_accretion_grows_drizzle_from_less_cloud_water_than_autoconversion_alone
     deck = (z >= 400.0) & (z <= 1000.0)
     rho = col["pressure"] / (RD * col["temperature"])
     once = (
-        sld_module.khairoutdinov_kogan_autoconversion(
-            col["cloud_liquid"][deck], np.full(deck.sum(), 95e6)
-        )
+        khairoutdinov_kogan_autoconversion(col["cloud_liquid"][deck], np.full(deck.sum(), 95e6))
         * rho[deck]
         * 1800.0
     )

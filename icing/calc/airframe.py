@@ -95,7 +95,7 @@ from icing.calc.collection import (
     range_parameter,
     spectrum_quadrature,
 )
-from icing.calc.collector import (
+from icing.calc.collector import (  # noqa: F401  (kept importable from here)
     LEADING_EDGE_RADIUS_FACTOR,
     PROTECTIONS,
     SHAPES,
@@ -125,11 +125,6 @@ from icing.constants import (
 )
 
 __all__ = [
-    "SHAPES",
-    "PROTECTIONS",
-    "LEADING_EDGE_RADIUS_FACTOR",
-    "Collector",
-    "Airframe",
     "AirframeIcing",
     "airframe_icing",
     "fit_range_flags",

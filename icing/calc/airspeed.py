@@ -66,6 +66,45 @@ PHASE_LEVEL, PHASE_CLIMB, PHASE_DESCENT, PHASE_HOLD = range(4)
 SPEED_LIMITS = {"14 CFR 91.117(a)": (250.0, 10000.0), "none": None}
 
 
+def _impact_pressure(mach, pressure):
+    """Subsonic pitot impact pressure ``p [(1 + (g - 1)/2 M^2)^(g/(g - 1)) - 1]`` [Pa].
+
+    ``(1 + x)^a - 1`` is taken as ``expm1(a log1p(x))``: exact down to walking speeds.
+    """
+    g = GAMMA_AIR
+    return pressure * np.expm1(g / (g - 1.0) * np.log1p(0.5 * (g - 1.0) * mach**2))
+
+
+def _mach_of_impact_pressure(impact_pressure, pressure):
+    """Mach number of an impact pressure at a static pressure (inverse of the above)."""
+    g = GAMMA_AIR
+    return np.sqrt(
+        2.0 / (g - 1.0) * np.expm1((g - 1.0) / g * np.log1p(impact_pressure / pressure))
+    )
+
+
+def _speed_of_sound(temperature):
+    """``sqrt(gamma R T)`` with the ICAO gas constant [m/s]."""
+    return np.sqrt(GAMMA_AIR * _R_ICAO * temperature)
+
+
+def _pitot(speed, sound_in, pressure_in, sound_out, pressure_out, *, local):
+    """Return the speed giving the same pitot impact pressure in other air (NaN from M 1).
+
+    ``local`` names the side ("in" or "out") in the air itself, whose Mach number
+    must stay below 1 for the subsonic relation to hold.
+    """
+    v = np.asarray(speed, dtype=float)
+    p_in = np.asarray(pressure_in, dtype=float)
+    p_out = np.asarray(pressure_out, dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mach_in = v / sound_in
+        mach_out = _mach_of_impact_pressure(_impact_pressure(mach_in, p_in), p_out)
+        mach = mach_in if local == "in" else mach_out
+        ok = (v >= 0.0) & (mach < 1.0) & (p_in > 0.0) & (p_out > 0.0) & (sound_in > 0.0)
+        return np.where(ok & (sound_out > 0.0), mach_out * sound_out, np.nan)
+
+
 def true_airspeed_from_calibrated(calibrated_airspeed, pressure, temperature):
     """Convert a calibrated airspeed into true airspeed in air of a given pressure and temperature.
 
@@ -105,17 +144,8 @@ def true_airspeed_from_calibrated(calibrated_airspeed, pressure, temperature):
     >>> round(float(true_airspeed_from_calibrated(250 * kt, 69681.7, 268.34)) / kt, 1)
     288.7
     """
-    vc = np.asarray(calibrated_airspeed, dtype=float)
-    p = np.asarray(pressure, dtype=float)
     t = np.asarray(temperature, dtype=float)
-    g = GAMMA_AIR
-    with np.errstate(invalid="ignore", divide="ignore"):
-        # (1 + x)^a - 1 as expm1(a log1p(x)): exact down to walking speeds
-        qc = P0_STD * np.expm1(g / (g - 1.0) * np.log1p(0.5 * (g - 1.0) * (vc / A0_STD) ** 2))
-        mach = np.sqrt(2.0 / (g - 1.0) * np.expm1((g - 1.0) / g * np.log1p(qc / p)))
-        tas = mach * np.sqrt(g * _R_ICAO * t)
-        ok = (vc >= 0.0) & (mach < 1.0) & (p > 0.0) & (t > 0.0)
-    return np.where(ok, tas, np.nan)
+    return _pitot(calibrated_airspeed, A0_STD, P0_STD, _speed_of_sound(t), pressure, local="out")
 
 
 def calibrated_airspeed_from_true(true_airspeed, pressure, temperature):
@@ -129,16 +159,8 @@ def calibrated_airspeed_from_true(true_airspeed, pressure, temperature):
     >>> round(float(calibrated_airspeed_from_true(288.68 * kt, 69681.7, 268.34)) / kt, 1)
     250.0
     """
-    vt = np.asarray(true_airspeed, dtype=float)
-    p = np.asarray(pressure, dtype=float)
     t = np.asarray(temperature, dtype=float)
-    g = GAMMA_AIR
-    with np.errstate(invalid="ignore", divide="ignore"):
-        mach = vt / np.sqrt(g * _R_ICAO * t)
-        qc = p * np.expm1(g / (g - 1.0) * np.log1p(0.5 * (g - 1.0) * mach**2))
-        vc = A0_STD * np.sqrt(2.0 / (g - 1.0) * np.expm1((g - 1.0) / g * np.log1p(qc / P0_STD)))
-        ok = (vt >= 0.0) & (mach < 1.0) & (p > 0.0) & (t > 0.0)
-    return np.where(ok, vc, np.nan)
+    return _pitot(true_airspeed, _speed_of_sound(t), pressure, A0_STD, P0_STD, local="in")
 
 
 @dataclass(frozen=True)

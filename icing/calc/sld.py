@@ -61,16 +61,13 @@ from scipy import special
 
 from icing import codes
 from icing.calc.bourgouin import (
-    NA_FREEZING_RAIN_OFFSET,
     NA_PELLETS_OFFSET,
     NA_SLOPE,
-    PA_MELT,
     PA_SNOW,
     PA_SURFACE_SNOW,
     _rev_cummax,
     _rev_cummin,
     _take,
-    bourgouin_layer_areas,
     warm_layer_areas,
 )
 from icing.calc.droplets import (
@@ -79,7 +76,7 @@ from icing.calc.droplets import (
     marshall_palmer_from_lwc,
 )
 from icing.calc.thermo import air_density, ice_saturation_relative_humidity
-from icing.calc.warm_rain import khairoutdinov_kogan_autoconversion, layer_drizzle
+from icing.calc.warm_rain import layer_drizzle
 from icing.constants import IN_CLOUD_LWC as _IN_CLOUD_LWC
 from icing.constants import T0
 
@@ -87,14 +84,6 @@ __all__ = [
     "SLDDiagnosis",
     "diagnose_sld",
     "appendix_o_class",
-    "bourgouin_layer_areas",
-    "khairoutdinov_kogan_autoconversion",
-    "PA_SNOW",
-    "PA_SURFACE_SNOW",
-    "PA_MELT",
-    "NA_PELLETS_OFFSET",
-    "NA_FREEZING_RAIN_OFFSET",
-    "NA_SLOPE",
     "PRECIP_RATE_MIN",
     "HYDROMETEOR_MIN",
     "NOMINAL_RAIN_RATE",
