@@ -31,6 +31,10 @@ A user file (TOML)::
     ceiling_ft = 12000          # optional
     ice_protection = "none"     # optional: none | de-ice | anti-ice
     reference = "prop"          # optional: the collector that sets severity
+    [speeds]                    # optional: indicated airspeeds by phase of flight
+    climb_ias_kt = 25           # (level_ias_kt, descent_ias_kt, holding_ias_kt too)
+    holding_ias_kt = 0          # a hover
+    speed_limit = "none"        # or "14 CFR 91.117(a)": 250 kt indicated below 10,000 ft
     [[collectors]]
     name = "prop"
     shape = "rotor"
@@ -47,7 +51,8 @@ import tomllib
 from importlib import resources
 from pathlib import Path
 
-from icing.calc.airframe import (
+from icing.calc.airspeed import SPEED_LIMITS, SpeedSchedule
+from icing.calc.collector import (
     LEADING_EDGE_RADIUS_FACTOR,
     PROTECTIONS,
     SHAPES,
@@ -81,7 +86,9 @@ _AIRFRAME_KEYS = (
     "reference",
     "min_altitude_ft",
     "max_altitude_agl_ft",
+    "speeds",
 )
+_SPEED_KEYS = ("level_ias_kt", "climb_ias_kt", "descent_ias_kt", "holding_ias_kt", "speed_limit")
 
 
 def _number(table, key, path, where, *, positive=True, required=True, default=None):
@@ -107,6 +114,17 @@ def _number(table, key, path, where, *, positive=True, required=True, default=No
             fix=f"give a positive {key}",
         )
     return float(v)
+
+
+def _refuse_unknown_keys(table, allowed, path, where):
+    unknown = sorted(set(table) - set(allowed))
+    if unknown:
+        raise AirframeError(
+            f"unknown key {unknown[0]!r}",
+            path=path,
+            where=where,
+            fix=f"use only {', '.join(allowed)}",
+        )
 
 
 def _protection(value, path, where, key):
@@ -214,14 +232,7 @@ def airframe_from_dict(table: dict, *, path=None, source=None) -> Airframe:
             "missing key 'name'", path=path, where=where0, fix='add name = "<airframe name>"'
         )
     where = f"airframe {name!r}"
-    unknown = sorted(set(table) - set(_AIRFRAME_KEYS))
-    if unknown:
-        raise AirframeError(
-            f"unknown key {unknown[0]!r}",
-            path=path,
-            where=where,
-            fix=f"use only {', '.join(_AIRFRAME_KEYS)}",
-        )
+    _refuse_unknown_keys(table, _AIRFRAME_KEYS, path, where)
     tas = _number(table, "true_airspeed_kt", path, where, positive=False)
     if tas < 0:
         raise AirframeError(
@@ -248,7 +259,45 @@ def airframe_from_dict(table: dict, *, path=None, source=None) -> Airframe:
         ),
         max_altitude_agl_ft=_number(table, "max_altitude_agl_ft", path, where, required=False),
         source=source or "preset",
+        speeds=_speeds_from_dict(table.get("speeds"), tas, path, where),
     )
+
+
+def _speeds_from_dict(t, cruise_tas_kt, path, where):
+    """Check the optional ``[speeds]`` table; return a SpeedSchedule or None."""
+    if t is None:
+        return None
+    where = f"{where} speeds"
+    if not isinstance(t, dict):
+        raise AirframeError(
+            "'speeds' must be a table",
+            path=path,
+            where=where,
+            fix="write the speeds as a [speeds] table (climb_ias_kt = 90, ...)",
+        )
+    _refuse_unknown_keys(t, _SPEED_KEYS, path, where)
+    limit = t.get("speed_limit", "none")
+    if limit not in SPEED_LIMITS:
+        raise AirframeError(
+            f"'speed_limit' must be one of {', '.join(map(repr, SPEED_LIMITS))}, got {limit!r}",
+            path=path,
+            where=where,
+            fix='write speed_limit = "14 CFR 91.117(a)" or "none"',
+        )
+    kw = {
+        k: _number(t, k, path, where, positive=False, required=False)
+        for k in _SPEED_KEYS
+        if k != "speed_limit"
+    }
+    for k, v in kw.items():
+        if v is not None and v < 0:
+            raise AirframeError(
+                f"{k!r} must be >= 0, got {v}",
+                path=path,
+                where=where,
+                fix=f"give {k} as an indicated airspeed in knots",
+            )
+    return SpeedSchedule(cruise_tas_kt=cruise_tas_kt, speed_limit=limit, **kw)
 
 
 def _collectors_and_reference(table, path, where):

@@ -338,7 +338,13 @@ def cmd_profile(args) -> int:
     t = parse_time(args.time, where="--time") if args.time else None
     tt = None if t is None else np.datetime64(t.replace(tzinfo=None), "ms")  # UTC
     result = diagnose_point(
-        forecast, lat, lon, tt, airframe=args.airframe, column_options=_column_options(args)
+        forecast,
+        lat,
+        lon,
+        tt,
+        airframe=args.airframe,
+        column_options=_column_options(args),
+        tas_kt=args.tas_kt,
     )
     result.update(
         lat=lat,
@@ -594,6 +600,12 @@ def build_parser() -> argparse.ArgumentParser:
         help="valid time (with zone); also the launch time of a radiosonde file without one",
     )
     pr.add_argument("--airframe", "-a", default=None, help="airframe preset or TOML file")
+    pr.add_argument(
+        "--tas-kt",
+        type=float,
+        default=None,
+        help="true airspeed at every level [kt] (default: the airframe's speed schedule)",
+    )
     pr.add_argument("--json", action="store_true", help="print one JSON object")
     pr.set_defaults(func=cmd_profile)
 

@@ -53,8 +53,17 @@ SLD_NONE, SLD_DRIZZLE, SLD_RAIN = range(3)
 BASIS = ("none", "model-cloud-water", "diagnosed")
 BASIS_NONE, BASIS_MODEL, BASIS_DIAGNOSED = range(3)
 
-#: Surface precipitation type per column (Bourgouin 2000 areas), index = code.
-PRECIP_TYPES = ("none", "rain", "snow", "ice-pellets", "freezing-rain", "freezing-drizzle")
+#: Surface precipitation type per column (Bourgouin 2000 areas; drizzle from the
+#: warm-rain process), index = code. Not ordered by hazard; new types are appended.
+PRECIP_TYPES = (
+    "none",
+    "rain",
+    "snow",
+    "ice-pellets",
+    "freezing-rain",
+    "freezing-drizzle",
+    "drizzle",
+)
 
 
 def severity_code(word: str) -> int:

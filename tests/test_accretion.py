@@ -27,6 +27,7 @@ from icing import calc as acc
 from icing import codes
 from icing.airframes import airframe_from_dict, list_airframes, load_airframe
 from icing.calc import airframe as airframe_mod
+from icing.calc.severity import NOTE_KINETIC_HEATING, NOTE_NO_CATCH
 from icing.calc.thermo import (
     air_conductivity,
     air_density,
@@ -311,14 +312,23 @@ def test_warm_air_without_freezing_is_none():
         assert float(res.accretion_rate_mm_h) == 0.0
 
 
-def test_ram_rise_of_a_fast_jet_prevents_ice_near_minus_10():
-    # physical: at 440 kt the stagnation recovery is ~ +25 K (+15 C at -10 C), and
-    # 85 % of it aft; no ice forms (why jets ice in climb, descent and holding)
+def test_ram_rise_of_a_fast_jet_keeps_the_stagnation_line_wet_but_liquid_is_never_none():
+    # physical: at 440 kt the stagnation recovery is ~ +25 K (T_r = T + V^2 / (2 c_p),
+    # +15 C at -10 C): nothing freezes at the stagnation line; but supercooled liquid
+    # at or below 0 C is never reported as no icing (at least trace, with the reason;
+    # the 0.01 g/m3 threshold of Korolev et al. 2003)
     af = load_airframe("regional-jet")
     res = acc.airframe_icing(af, **STRAT)
-    assert int(res.severity) == codes.SEV_NONE
+    assert float(res.stagnation_rate_mm_h) == 0.0
+    assert int(res.severity) >= codes.SEV_TRACE
+    fast_warm = acc.airframe_icing(
+        af, lwc=3e-4, mvd=20e-6, temperature=265.15, pressure=9e4, airspeed=250.0
+    )
+    assert int(fast_warm.severity) == codes.SEV_TRACE
+    assert int(fast_warm.notes) & NOTE_KINETIC_HEATING
+    assert float(fast_warm.accretion_rate_mm_h) == 0.0
     slow = acc.airframe_icing(af, airspeed=230 * 0.514444, **STRAT)
-    assert int(slow.severity) >= codes.SEV_TRACE
+    assert int(slow.severity) >= codes.SEV_LIGHT
 
 
 def test_identities_of_the_rates():
@@ -458,10 +468,22 @@ def test_invariants(points, name):
     assert np.all((res.severity >= 0) & (res.severity <= 4))
     assert np.all((res.collection_efficiency >= 0) & (res.collection_efficiency <= 1))
     assert np.all(res.beta0 >= res.collection_efficiency - 1e-3)
-    ice = res.severity > 0
+    ice = res.accretion_rate_mm_h > 0
     assert np.all(res.ice_type[ice] > 0) and np.all(res.ice_type[~ice] == 0)
     assert np.all((res.ice_density[ice] >= 100) & (res.ice_density[ice] <= 917))
     assert np.all(res.accretion_rate_mm_h >= 0) and np.all(res.mass_rate >= 0)
+    # the whole catch (before the protection removes its share) is never less than
+    # what freezes at the stagnation line
+    from icing.calc.severity import PROTECTION_RESIDUAL
+
+    for c in af.collectors:
+        pc = res.per_collector[c.name]
+        left = PROTECTION_RESIDUAL[c.protection or af.ice_protection]
+        assert np.all(pc["accretion_rate_mm_h"] / left >= pc["stagnation_rate_mm_h"] * (1 - 1e-9))
+    # supercooled liquid is never "none"; warm or dry air without ice is
+    cold_liquid = (lwc >= 1e-5) & (t <= 273.15)
+    assert np.all(res.severity[cold_liquid] >= 1)
+    assert np.all(res.severity[~cold_liquid & ~ice] == 0)
     # more supercooled water never makes icing less severe (physical)
     assert np.all(more.severity >= res.severity)
 
@@ -495,3 +517,154 @@ def test_assumptions_are_json():
     assert d["severity"]["protection_residual"]["none"] == 1.0
     with pytest.raises(ValueError, match="finstad88, langmuir46"):
         acc.assumptions(model="other")
+
+
+# ----------------------------------------------------------------- severity words
+def test_protection_never_scales_the_rate_word_a_protected_twin_at_150_kt_reads_moderate():
+    # FAA AIM: the intensities describe the rate on unprotected surfaces with the
+    # protection in use; ~47 mm/h (AIM 25-75 mm/h, moderate) at 150 kt in 0.3 g/m3 at
+    # -10 C is moderate whatever the boots (scaling the rate by a protection residual
+    # counted the protection twice and read trace)
+    af = load_airframe("twin-turboprop")
+    res = acc.airframe_icing(
+        af, lwc=3e-4, mvd=15e-6, temperature=263.15, pressure=7e4, airspeed=150 * 0.514444
+    )
+    assert codes.SEVERITY[int(res.severity)] == "moderate"
+
+
+def test_protection_decides_when_the_airframe_no_longer_copes():
+    # AIM severe: the equipment "fails to reduce or control the hazard". The same
+    # unprotected-surface rate (severe) reads moderate while what the boots leave
+    # takes over 5 min to reach the tolerance, severe once it takes less; an
+    # unprotected airframe reads severe at that rate (our stated convention)
+    from icing.calc.severity import NOTE_PROTECTION_COPES, NOTE_PROTECTION_OVERWHELMED
+
+    twin = load_airframe("twin-turboprop")
+    cloud = dict(mvd=20e-6, temperature=261.15, pressure=6e4)
+    copes = acc.airframe_icing(twin, lwc=4e-4, **cloud)
+    swamped = acc.airframe_icing(twin, lwc=1.5e-3, **cloud)
+    assert int(copes.severity) == codes.SEV_MODERATE
+    assert int(copes.notes) & NOTE_PROTECTION_COPES
+    assert float(copes.time_to_tolerance_min) > 5.0
+    assert int(swamped.severity) == codes.SEV_SEVERE
+    assert int(swamped.notes) & NOTE_PROTECTION_OVERWHELMED
+    assert float(swamped.time_to_tolerance_min) < 5.0
+    bare = acc.airframe_icing(load_airframe("light-piston"), lwc=1.5e-3, **cloud)
+    assert int(bare.severity) == codes.SEV_SEVERE
+
+
+def test_sld_aft_of_protected_areas_raises_the_word():
+    # FAA AIM: severe includes ice forming aft of protected areas, the mark of SLD
+    from icing.calc.severity import NOTE_SLD_AFT
+
+    twin = load_airframe("twin-turboprop")
+    base = dict(lwc=1e-4, mvd=15e-6, temperature=267.15, pressure=8.5e4)
+    plain = acc.airframe_icing(twin, **base)
+    drizzle = acc.airframe_icing(twin, sld_lwc=1e-4, sld_mvd=150e-6, sld_class=1, **base)
+    assert int(drizzle.severity) == codes.SEV_SEVERE > int(plain.severity)
+    assert int(drizzle.notes) & NOTE_SLD_AFT
+
+
+@settings(max_examples=80, deadline=None)
+@given(
+    lwc=st.floats(1e-5, 3e-3),
+    t=st.floats(233.0, 273.15),
+    v=st.floats(0.0, 300.0),
+    name=st.sampled_from([a.name for a in list_airframes()]),
+)
+def test_supercooled_liquid_is_never_no_icing_whatever_the_speed(lwc, t, v, name):
+    # at least 0.01 g/m3 of liquid (Korolev et al. 2003) at a static temperature at or
+    # below 0 C reads at least trace at every airspeed (kinetic heating only moves the
+    # freezing aft or away from the stagnation line at that one speed)
+    res = acc.airframe_icing(
+        load_airframe(name), lwc=lwc, mvd=20e-6, temperature=t, pressure=7e4, airspeed=v
+    )
+    assert int(res.severity) >= codes.SEV_TRACE
+    if float(res.accretion_rate_mm_h) == 0.0:  # the reason is stated
+        assert int(res.notes) & (NOTE_KINETIC_HEATING | NOTE_NO_CATCH)
+
+
+def test_regional_jet_at_440_kt_through_042_g_m3_at_minus_10_reads_trace_not_none():
+    # the case measured on the earlier code: 0.42 g/m3 at -10 C, 800 hPa, MVD 15 um;
+    # at 440 kt nothing freezes anywhere (the ram rise), it read "none"; now trace
+    # with the kinetic-heating reason, and at 250 kt true (the speed the jet flies
+    # low down) it ices at once
+    af = load_airframe("regional-jet")
+    cloud = dict(lwc=4.2e-4, mvd=15e-6, temperature=263.15, pressure=8e4)
+    fast = acc.airframe_icing(af, airspeed=440 * 0.514444, **cloud)
+    assert int(fast.severity) == codes.SEV_TRACE and int(fast.notes) & NOTE_KINETIC_HEATING
+    slow = acc.airframe_icing(af, airspeed=250 * 0.514444, **cloud)
+    assert int(slow.severity) >= codes.SEV_MODERATE
+
+
+def test_whole_catch_accretion_is_positive_wherever_the_catch_freezes():
+    # freezing rain on a fast turboprop: the stagnation line stays wet (n0 <= 0), the
+    # drops freeze aft: the accretion rate counts them (our stated convention)
+    af = load_airframe("twin-turboprop")
+    res = acc.airframe_icing(
+        af,
+        lwc=0.0,
+        mvd=np.nan,
+        temperature=269.15,
+        pressure=9e4,
+        sld_lwc=3e-4,
+        sld_mvd=1.2e-3,
+        sld_class=2,
+    )
+    assert int(res.severity) == codes.SEV_SEVERE
+    assert float(res.stagnation_rate_mm_h) == 0.0 < float(res.accretion_rate_mm_h)
+
+
+def test_glaciation_lowers_a_diagnosed_word_one_step_never_below_trace():
+    # the model holds ice and no liquid, or the glaciation likelihood is high: the
+    # diagnosed liquid is most likely glaciated (bimodal phase, Korolev et al. 2003),
+    # one step lower, never below trace; model liquid is never lowered
+    from icing.calc.severity import NOTE_GLACIATION_LIKELY, NOTE_MODEL_GLACIATED
+
+    af = load_airframe("light-piston")
+    cloud = dict(lwc=6e-4, mvd=15e-6, temperature=258.15, pressure=6e4)
+    plain = acc.airframe_icing(af, **cloud)
+    model = acc.airframe_icing(af, model_glaciated=True, basis=codes.BASIS_DIAGNOSED, **cloud)
+    likely = acc.airframe_icing(af, glaciation=0.95, basis=codes.BASIS_DIAGNOSED, **cloud)
+    kept = acc.airframe_icing(af, glaciation=1.0, basis=codes.BASIS_MODEL, **cloud)
+    assert int(model.severity) == int(plain.severity) - 1
+    assert int(model.notes) & NOTE_MODEL_GLACIATED
+    assert int(likely.severity) == int(plain.severity) - 1
+    assert int(likely.notes) & NOTE_GLACIATION_LIKELY
+    assert int(kept.severity) == int(plain.severity)
+    thin = dict(cloud, lwc=2e-5)
+    low = acc.airframe_icing(af, glaciation=1.0, basis=codes.BASIS_DIAGNOSED, **thin)
+    assert int(low.severity) == codes.SEV_TRACE
+
+
+def test_stagnation_nusselt_number_is_the_hiemenz_solution_in_potential_flow():
+    # independent: the laminar plane stagnation-point boundary layer (Hiemenz flow,
+    # f''' + f f'' + 1 - f'^2 = 0; energy theta'' + Pr f theta' = 0) solved here with
+    # scipy's solve_bvp, and the potential-flow velocity gradient at a cylinder's
+    # stagnation line, du/dx = 4 U / D, give Nu_D = 2 Re_D^0.5 (-theta'(0)). The
+    # module's Nu = 1.14 Re^0.5 Pr^0.4 (from memory) is that value: confirmed by
+    # derivation to 1 % (the Pr^0.4 fit of the exact Pr dependence)
+    from scipy.integrate import solve_bvp
+
+    from icing.constants import PRANDTL_AIR
+
+    def solve(pr):
+        eta = np.linspace(0.0, 8.0, 400)
+
+        def rhs(_, y):
+            f, fp, fpp, th, thp = y
+            return np.vstack([fp, fpp, -f * fpp - 1.0 + fp**2, thp, -pr * f * thp])
+
+        def bc(a, b):
+            return np.array([a[0], a[1], b[1] - 1.0, a[3] - 1.0, b[3]])
+
+        guess = np.vstack([eta, np.tanh(eta), 1 / np.cosh(eta) ** 2, np.exp(-eta), -np.exp(-eta)])
+        sol = solve_bvp(rhs, bc, eta, guess, tol=1e-8, max_nodes=20000)
+        assert sol.success
+        return sol.sol(0.0)[2], -sol.sol(0.0)[4]
+
+    fpp0, q = solve(PRANDTL_AIR)
+    # Hiemenz's wall shear f''(0) = 1.2326 (Schlichting, Boundary-Layer Theory, from memory)
+    assert fpp0 == pytest.approx(1.2326, abs=2e-4)
+    assert 2.0 * q == pytest.approx(1.14 * PRANDTL_AIR**0.4, rel=0.01)
+    assert 2.0 * solve(1.0)[1] == pytest.approx(1.14, rel=0.01)

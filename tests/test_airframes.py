@@ -132,6 +132,25 @@ critical = false
 """
 
 
+def test_user_file_speed_schedule_loads(tmp_path):
+    # the [speeds] table (DEVELOPERS.md, "How to add an airframe"); without it the
+    # cruise true airspeed in every phase and no indicated-speed limit
+    p = tmp_path / "drone.toml"
+    p.write_text(
+        GOOD.replace(
+            'reference = "prop"\n',
+            'reference = "prop"\n[speeds]\nclimb_ias_kt = 20\nholding_ias_kt = 0\n',
+        )
+    )
+    a = load_airframe(p)
+    assert a.schedule.climb_ias_kt == 20.0 and a.schedule.holding_ias_kt == 0.0
+    assert a.schedule.speed_limit == "none" and a.schedule.cruise_tas_kt == 30.0
+    plain = tmp_path / "plain.toml"
+    plain.write_text(GOOD)
+    s = load_airframe(plain).schedule
+    assert s.cruise_tas_kt == 30.0 and s.climb_ias_kt is None and s.speed_limit == "none"
+
+
 def test_user_file_loads(tmp_path):
     p = tmp_path / "drone.toml"
     p.write_text(GOOD)
@@ -180,6 +199,19 @@ BAD = [
     (
         'name = "x"\ntrue_airspeed_kt = 1\nice_tolerance_mm = 1\ncollectors = 3\n',
         ["'collectors' must be an array of tables"],
+    ),
+    (_replace('reference = "prop"\n', 'reference = "prop"\nspeeds = 3\n'), ["'speeds'"]),
+    (
+        _replace('reference = "prop"\n', 'reference = "prop"\n[speeds]\nclimb_kt = 20\n'),
+        ["unknown key 'climb_kt'", "climb_ias_kt"],
+    ),
+    (
+        _replace('reference = "prop"\n', 'reference = "prop"\n[speeds]\nspeed_limit = "fast"\n'),
+        ["'speed_limit'", "14 CFR 91.117(a)"],
+    ),
+    (
+        _replace('reference = "prop"\n', 'reference = "prop"\n[speeds]\nholding_ias_kt = -5\n'),
+        ["'holding_ias_kt' must be >= 0"],
     ),
 ]
 

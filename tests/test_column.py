@@ -118,8 +118,8 @@ def test_model_liquid_larger_wins_and_is_never_added(columns):
     np.testing.assert_allclose(d.lwc[inside], np.maximum(d.lwc_model, d.lwc_diagnosed)[inside])
     little = dict(col, cloud_liquid=np.where(col["cloud_liquid"] > 0, 1e-6, 0.0))
     d2 = diagnose_columns(**little)
-    deck = d2.cloud & (d2.lwc > 0)
-    assert np.all(d2.basis[deck] == codes.BASIS_DIAGNOSED)
+    deck = d2.cloud & (d2.lwc_diagnosed > 0)
+    assert deck.sum() >= 4 and np.all(d2.basis[deck] == codes.BASIS_DIAGNOSED)
     np.testing.assert_allclose(d2.lwc[deck], d2.lwc_diagnosed[deck])
     # model liquid kg/kg -> kg/m3 with the air density (p / Rd Tv)
     rho = d.pressure / (287.0475 * d.temperature)
@@ -224,9 +224,16 @@ def test_glaciation_deep_frontal_deck_with_ice_above_is_high(columns):
 
 
 def test_glaciation_thin_minus8_deck_is_low(columns):
-    # physical reasoning: few ice nuclei at -8 C (Meyers et al. 1992), no ice above
-    d = diagnose_columns(**columns.thin_minus8_deck())
-    assert d.cloud.any() and np.nanmax(d.glaciation[d.cloud]) < 0.2
+    # physical reasoning: few ice nuclei at -8 C (Meyers et al. 1992), no ice above;
+    # the deck saturated over three levels so that it holds liquid above its base
+    col = columns.thin_minus8_deck()
+    p = col["pressure"]
+    col["relative_humidity"] = np.where(
+        (p <= 89500.0) & (p >= 85500.0), 1.0, col["relative_humidity"]
+    )
+    d = diagnose_columns(**col)
+    wet = d.cloud & (d.lwc >= 5e-5)
+    assert wet.any() and np.nanmax(d.glaciation[wet]) < 0.2
     assert np.isnan(d.glaciation[~d.cloud]).all()
 
 
@@ -476,3 +483,161 @@ def test_results_are_frozen_with_a_docstring_per_field(columns):
             assert f"{f.name}:" in src and (
                 f"{f.name} :" in doc or '"""' in src.split(f"    {f.name}:", 1)[1].splitlines()[1]
             ), (cls.__name__, f.name)
+
+
+# ----------------------------------------------------------- flight conditions
+def _deck_over_moist_air(rh_below):
+    """A saturated deck from 850 hPa up over sub-cloud air at ``rh_below`` (ours)."""
+    from icing.calc import thermo
+
+    p = np.linspace(100000.0, 60000.0, 41)
+    t = 278.15 - 6.0e-3 * thermo.standard_atmosphere_height(p)
+    rh = np.where(p <= 85000.0, 1.0, np.where(p <= 86000.0, rh_below, 0.7))
+    return p, t, rh
+
+
+def test_adiabatic_liquid_starts_where_the_air_saturates_not_at_the_cloud_threshold():
+    # the 95 % threshold flags cloud (model grids scatter below saturation) but a
+    # parcel condenses only once saturated: the liquid starts at the lifting
+    # condensation level (Bolton 1980) of the layer's lowest cloudy air, so the
+    # sub-cloud humidity no longer moves the liquid at the base, and a level crossing
+    # the threshold changes it smoothly (a 1 % RH change moved it four-fold before)
+    lwc = {}
+    for r in (0.90, 0.91, 0.94, 0.95, 0.96):
+        p, t, rh = _deck_over_moist_air(r)
+        d = diagnose_columns(p, t, relative_humidity=rh)
+        lwc[r] = float(d.lwc_diagnosed[p == 84000.0][0])
+        assert d.lwc_diagnosed[(p > 85500.0) & (p < 86500.0)].max() < 1e-5  # sub-saturated
+    assert lwc[0.90] == pytest.approx(lwc[0.91], rel=1e-9)  # below cloud: no effect
+    # 1 % of humidity at the base moves its condensation level ~20 m (dew-point
+    # depression ~0.15 K per %, ~125 m per K) and the liquid by ~0.02-0.03 g/m3 (the
+    # adiabatic gradient ~1.6 g/m3 per km times the 0.77 factor; derived): across the
+    # threshold and above it the steps stay that small
+    assert abs(lwc[0.95] - lwc[0.94]) < 0.03e-3
+    assert abs(lwc[0.96] - lwc[0.95]) < 0.03e-3
+
+
+def _deep_cumulus(floor):
+    from icing.calc import thermo
+
+    p = np.linspace(95000.0, 30000.0, 60)
+    t = thermo.moist_adiabat_temperature(p[None, :], np.array([293.15]), np.array([95000.0]))[0]
+    rh = np.where(p <= 94000.0, 1.0, 0.8)
+    w = np.where(p <= 94000.0, 3.0, 0.5)
+    d = diagnose_columns(
+        p,
+        t,
+        relative_humidity=rh,
+        vertical_velocity=w,
+        options=ColumnOptions(sub_adiabatic_floor_convective=floor),
+    )
+    return p, t, d
+
+
+def test_convective_liquid_stays_within_the_published_sub_adiabatic_range():
+    # Warner (1955, from memory): cumulus LWC/LWC_ad ~0.2-0.5 a few km above base;
+    # the exponential alone fell to 0.04 at 4.5 km (0.77 exp(-4.5/1.5)): the floor 0.2
+    from icing.calc import clouds
+
+    p, t, d = _deep_cumulus(0.2)
+    cloud = d.cloud & (d.lwc_diagnosed > 0)
+    base_p = d.pressure[np.flatnonzero(d.cloud)[0]]
+    ad = clouds.adiabatic_lwc(p, t, base_p, t[d.pressure == base_p][0])
+    ratio = d.lwc_diagnosed[cloud] / ad[cloud]
+    high = d.height[cloud] > d.height[cloud][0] + 3000.0
+    assert high.any() and np.all(ratio[high] >= 0.2 - 0.02)  # 0.02: base placement
+    assert np.all(ratio <= 0.77 + 0.02)
+
+
+def test_appendix_c_intermittent_maximum_warns_where_convective_liquid_exceeds_it():
+    # 14 CFR 25 Appendix C intermittent maximum (figure values from memory): a deep
+    # warm-based cumulus at half of adiabatic passes it, and the run says so
+    _, _, d = _deep_cumulus(0.5)
+    assert any("intermittent maximum" in w for w in d.warnings)
+    _, _, thin = _deep_cumulus(0.0)
+    assert not any("intermittent maximum" in w for w in thin.warnings)
+
+
+def test_model_holding_ice_and_no_liquid_marks_the_level_glaciated(columns):
+    # the model's own microphysics glaciated these levels: ice (>= 0.01 g/m3, Korolev
+    # et al. 2003) and no liquid; only where the model gives both fields
+    col = columns.supercooled_stratiform_deck()
+    ice = np.where(col["cloud_liquid"] > 0, 2e-4, 0.0)
+    glaciated = dict(col, cloud_liquid=np.zeros_like(ice), cloud_ice=ice)
+    d = diagnose_columns(**glaciated)
+    assert np.all(d.model_glaciated[ice > 0]) and not d.model_glaciated[ice == 0].any()
+    mixed = diagnose_columns(**dict(col, cloud_ice=ice))
+    assert not mixed.model_glaciated.any()  # model liquid present
+    no_liquid_field = {k: v for k, v in glaciated.items() if k != "cloud_liquid"}
+    assert not diagnose_columns(**no_liquid_field).model_glaciated.any()
+
+
+def test_a_column_lacking_an_optional_field_is_diagnosed_without_it_not_as_a_gap(columns):
+    # a radiosonde (no cloud water, no vertical velocity) beside a model column that
+    # has them: the field is absent for the sounding, never a gap at every level
+    model = columns.supercooled_stratiform_deck()
+    sounding = {k: v for k, v in columns.supercooled_stratiform_deck().items()}
+    for k in ("cloud_liquid", "vertical_velocity"):
+        sounding.pop(k, None)
+    alone = diagnose_columns(**sounding)
+    both = columns.stack(model, dict(sounding, cloud_liquid=np.nan, vertical_velocity=np.nan))
+    for k in ("cloud_liquid", "vertical_velocity"):
+        both[k] = np.stack(
+            [
+                np.asarray(model.get(k, np.zeros_like(model["pressure"]))),
+                np.full_like(model["pressure"], np.nan),
+            ]
+        )
+    d = diagnose_columns(**both)
+    assert d.valid[1].all() and (d.sld_class[1] != codes.GAP).all()
+    np.testing.assert_allclose(d.lwc[1], alone.lwc)
+    np.testing.assert_array_equal(d.cloud[1], alone.cloud)
+    # a NaN at some levels of a field the column does carry is still a gap there
+    part = dict(both)
+    part["cloud_liquid"] = part["cloud_liquid"].copy()
+    part["cloud_liquid"][0, 5] = np.nan
+    assert not diagnose_columns(**part).valid[0, 5]
+
+
+def test_a_sounding_beside_a_model_column_in_one_profile_file_is_screened(tmp_path):
+    # the same through the profile reader: the sounding lacks cloud_liquid_g_kg,
+    # which the model profile gives; the sounding's position is screened, not a gap
+    import json
+
+    import icing
+
+    levels = {
+        "pressure_hpa": [1000, 950, 900, 850, 800, 700, 600, 500],
+        "temperature_c": [3.0, 0.5, -2.0, -4.5, -7.0, -13.0, -20.0, -28.0],
+        "dewpoint_c": [2.0, 0.0, -2.3, -4.7, -7.3, -18.0, -30.0, -40.0],
+    }
+    model = dict(levels, cloud_liquid_g_kg=[0, 0.05, 0.2, 0.25, 0.1, 0, 0, 0])
+    doc = {
+        "format": "icing-profiles",
+        "version": 1,
+        "profiles": [
+            {
+                "id": "SONDE",
+                "lat": 51.0,
+                "lon": -4.0,
+                "valid_time": "2027-01-14T12:00:00Z",
+                "levels": levels,
+            },
+            {
+                "id": "MODEL",
+                "lat": 53.0,
+                "lon": -4.0,
+                "valid_time": "2027-01-14T12:00:00Z",
+                "levels": model,
+            },
+        ],
+    }
+    path = tmp_path / "mixed.json"
+    path.write_text(json.dumps(doc))
+    f = icing.load_forecast(path)
+    cs = f.columns_at(
+        np.array([51.0]), np.array([-4.0]), np.array(["2027-01-14T12:00"], dtype="datetime64[ms]")
+    )
+    d = diagnose_columns(**cs.columns)
+    sonde = int(np.asarray(cs.candidates)[0, 0])
+    assert d.valid[sonde][np.isfinite(d.pressure[sonde])].all()

@@ -45,15 +45,27 @@ def _screen(forecast, case, feet, airframe):
     return icing.screen_route(_level_route(case, feet), forecast, airframe=airframe)
 
 
-@pytest.mark.parametrize("feet", [3000, 5000])
-def test_supercooled_stratiform_deck_light_aircraft(forecast, feet):
+@pytest.mark.parametrize(
+    "feet, words",
+    [
+        # 3,000 ft lies in the deck's 98 % humidity base, just below where its air
+        # saturates (Bolton 1980 condensation level): no liquid yet. The humidity
+        # threshold flags cloud there; the liquid starts at saturation
+        (3000, ("none",)),
+        # mid-deck, 0.1-0.4 g/m3: light to moderate
+        (5000, ("light", "moderate")),
+    ],
+)
+def test_supercooled_stratiform_deck_light_aircraft(forecast, feet, words):
     # Supercooled stratiform cloud at -5 to -10 C with LWC 0.1-0.4 g/m3 and MVD 15-25 um
     # accretes rime or mixed ice at light-to-moderate rates on an unprotected light
-    # aircraft (FAA AIM 7-1-22 severity definitions; REFERENCES.md rate anchors).
+    # aircraft (FAA AIM 7-1-22 severity definitions; REFERENCES.md rate anchors); the
+    # liquid starts at the saturated base (Bolton 1980 condensation level), so the
+    # lowest few hundred feet of the deck hold little of it.
     s = _screen(forecast, "stratiform-deck", feet, "light-piston")
-    assert s.summary["worst_severity"] in ("light", "moderate")
+    assert s.summary["worst_severity"] in words
     types = {codes.ICE_TYPES[i] for i in s.at_flight["ice_type"] if i}
-    assert types and types <= {"rime", "mixed"}
+    assert types <= {"rime", "mixed"} and (bool(types) == (words != ("none",)))
     assert s.summary["sld"] == ["none"]
 
 
@@ -146,3 +158,86 @@ def test_outside_the_time_window_is_a_gap(forecast):
     )
     assert s.summary["worst_severity"] is None
     assert s.summary["status"].startswith("not-screened")
+
+
+# ------------------------------------------------------------- flight conditions
+def test_jet_at_low_altitude_flies_its_schedule_not_its_cruise_speed(forecast):
+    # 14 CFR 91.117(a): 250 kt indicated below 10,000 ft (~265 kt true at 5,000 ft in
+    # this -7 C deck), not the 440 kt true of cruise: the ram rise no longer hides the
+    # ice, and the word follows the unprotected-surface rate the anti-ice copes with
+    s = _screen(forecast, "stratiform-deck", 5000, "regional-jet")
+    tas = np.asarray(s.at_flight["tas_kt"])
+    assert np.all((tas > 255.0) & (tas < 275.0))
+    assert s.summary["worst_severity"] == "moderate"
+
+
+def test_supercooled_liquid_reads_trace_with_the_reason_at_any_speed(forecast):
+    # kinetic heating at 440 kt (+25 K, T_r = T + V^2 / 2 c_p) keeps the stagnation
+    # line above 0 C in -7 C cloud, but supercooled liquid is never "no icing": at least
+    # trace (0.01 g/m3 in-cloud threshold, Korolev et al. 2003), with the reason
+    s = icing.screen_route(
+        _level_route("stratiform-deck", 5000), forecast, airframe="regional-jet", tas_kt=440.0
+    )
+    assert s.summary["worst_severity"] == "trace"
+    seg = [f["properties"] for f in s.segments if f["properties"]["kind"] == "icing"]
+    assert seg and all(
+        "liquid present; kinetic heating keeps the stagnation line above 0 C at 440 kt"
+        in p["severity_reasons"]
+        for p in seg
+    )
+
+
+def test_profile_levels_use_the_given_airspeed_or_the_schedule(forecast):
+    # icing profile --tas-kt N: N at every level; otherwise the level-flight schedule
+    # (250 kt indicated below 10,000 ft for the jet: 14 CFR 91.117(a))
+    at = WHERE["stratiform-deck"]
+    t = np.datetime64("2027-01-14T12:00")
+    given = diagnose_point(forecast, *at, t, airframe="regional-jet", tas_kt=300.0)
+    assert {lv["tas_kt"] for lv in given["levels"] if lv["tas_kt"] is not None} == {300.0}
+    sched = diagnose_point(forecast, *at, t, airframe="regional-jet")
+    low = [lv for lv in sched["levels"] if lv["height_m"] < 3000.0 and lv["tas_kt"]]
+    # 250 kt indicated is 250-290 kt true from the ground to 3 km (ICAO atmosphere)
+    assert low and all(245.0 < lv["tas_kt"] < 290.0 for lv in low)
+    assert [lv["tas_kt"] for lv in low] == sorted(lv["tas_kt"] for lv in low)
+
+
+def test_freezing_rain_segment_shows_the_ice_it_accretes(forecast):
+    # the accretion counts the whole catch: runback and freezing rain striking aft
+    # (where the AIM's severe ice forms) freeze even where the stagnation line stays
+    # wet; a severe freezing-rain segment never shows 0 mm
+    s = _screen(forecast, "warm-nose", 1000, "twin-turboprop")
+    seg = [f["properties"] for f in s.segments if f["properties"]["sld"] == "freezing-rain"]
+    assert seg and all(p["severity"] == "severe" for p in seg)
+    assert all(p["accretion_rate_mm_h_max"] > 0 and p["accretion_mm"] > 0 for p in seg)
+
+
+def test_glaciated_deck_reads_one_step_lower_with_the_reason(forecast):
+    # ice and snow falling into a -20 to -30 C deck glaciate it (glaciation likelihood
+    # 1.0; Korolev & Mazin 2003); the diagnosed liquid is kept (bimodal phase, Korolev
+    # et al. 2003) but the word is one step lower, never below trace, with the reason
+    col = diagnose_point(
+        forecast,
+        *WHERE["glaciating-deep-cold-deck"],
+        np.datetime64("2027-01-14T12:00"),
+        airframe="twin-turboprop",
+    )
+    cloudy = [lv for lv in col["levels"] if lv["cloud"] and lv["lwc_g_m3"] >= 0.01]
+    assert cloudy and all(lv["severity"] in ("trace", "light") for lv in cloudy)
+    assert all(any(r.startswith("lowered one step") for r in lv["reasons"]) for lv in cloudy)
+
+
+def test_warm_topped_deck_gives_freezing_drizzle_without_model_rain(tmp_path):
+    # the warm-rain process itself (Khairoutdinov & Kogan 2000 autoconversion and
+    # accretion over the drizzle's residence time in the deck) makes the drizzle: a
+    # sounding or model file without a rain field still shows it (Huffman & Norman
+    # 1988: warm top, dry above; Rasmussen et al. 2002: few droplets)
+    doc = json.loads(GOLDEN.read_text())
+    for prof in doc["profiles"]:
+        prof["levels"].pop("rain_g_kg", None)
+    path = tmp_path / "no-rain.json"
+    path.write_text(json.dumps(doc))
+    f = icing.load_forecast(path)
+    s = _screen(f, "drizzle-deck", 3000, "light-piston")
+    assert "freezing-drizzle" in s.summary["sld"]
+    col = diagnose_point(f, *WHERE["drizzle-deck"], np.datetime64("2027-01-14T12:00"))
+    assert any(lv["sld"] == "freezing-drizzle" for lv in col["levels"])

@@ -88,7 +88,8 @@ def test_cross_section_svg_has_caution_legend_and_gap_label(tmp_path, screening)
     assert screening.route_name in title and screening.airframe_name in title
     # the flight's own times (not every forecast valid time) and a time axis
     assert "departs 2027-01-14 12:00 UTC" in all_text and "planned time [UTC]" in all_text
-    assert "9000 ft" in all_text and "4000 ft" in all_text  # nearest candidates marked
+    assert "9000 ft" in all_text and "3000 ft" in all_text  # nearest candidates marked
+    # (4,000 ft is cloud inside the +2 C margin above freezing: 3,000 ft)
 
 
 def test_cross_section_pressure_and_warm_nose(tmp_path, make_screening):

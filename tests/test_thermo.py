@@ -178,3 +178,28 @@ def test_moist_adiabat_vectorised_and_nan_safe():
     np.testing.assert_allclose(got[1, 0], one, rtol=1e-12)  # batch-independent
     # physical law: a saturated parcel cools on ascent
     assert np.all(np.diff(one) < 0)
+
+
+@pytest.mark.parametrize("t, rh", [(275.15, 0.9), (290.0, 0.5), (260.0, 0.7), (300.0, 0.3)])
+def test_lifting_condensation_level_against_metpy(t, rh):
+    # reference library: MetPy's iterative lcl (version in the venv); Bolton's (1980)
+    # eq. 22 is within 0.1 K of it for RH 0.2-1 (his stated accuracy); pressure within
+    # 0.2 %: the dry-air exponent c_p/R_d is used, not Bolton's moist kappa
+    import metpy.calc as mpcalc
+    from metpy.units import units
+
+    from icing.calc.thermo import lifting_condensation_level
+
+    td = mpcalc.dewpoint_from_relative_humidity(t * units.K, rh)
+    p_ref, t_ref = mpcalc.lcl(90000.0 * units.Pa, t * units.K, td)
+    p, tl = lifting_condensation_level(90000.0, t, rh)
+    assert float(tl) == pytest.approx(t_ref.m_as("K"), abs=0.1)
+    assert float(p) == pytest.approx(p_ref.m_as("Pa"), rel=2e-3)
+
+
+def test_saturated_air_is_at_its_own_condensation_level():
+    from icing.calc.thermo import lifting_condensation_level
+
+    p, t = lifting_condensation_level(80000.0, 265.0, [1.0, 1.03])
+    np.testing.assert_allclose(p, 80000.0)
+    np.testing.assert_allclose(t, 265.0)

@@ -6,12 +6,13 @@ the modelling chain:
 
 ``thermo`` (saturation, density, hypsometry, moist adiabat) ->
 ``clouds`` (cloud layers, adiabatic liquid, glaciation) ->
-``droplets`` (activation, spectra, fall speed) -> ``warm_rain`` (drizzle rates)
--> ``sld`` (freezing rain and drizzle) -> ``column`` (the whole column
-diagnosis; its choices in ``column_options``) -> ``collection`` (collision
-efficiency) -> ``accretion`` (heat balance, ice type and density) ->
-``severity`` (the words) -> ``airframe`` (every collector of an airframe; the
-airframes themselves in ``collector``).
+``droplets`` (activation, spectra, fall speed) -> ``warm_rain`` (drizzle growth)
+-> ``bourgouin`` (melting and refreezing areas) -> ``sld`` (freezing rain and
+drizzle) -> ``column`` (the whole column diagnosis; its choices in
+``column_options``) -> ``collection`` (collision efficiency) -> ``accretion``
+(heat balance, ice type and density) -> ``severity`` (the words) -> ``airframe``
+(every collector of an airframe; the airframes themselves in ``collector``, their
+speed schedules in ``airspeed``).
 
 Examples
 --------
@@ -23,6 +24,8 @@ Examples
 from icing.calc import (
     accretion,
     airframe,
+    airspeed,
+    bourgouin,
     clouds,
     collection,
     collector,
@@ -36,6 +39,8 @@ from icing.calc import (
 )
 from icing.calc.accretion import *  # noqa: F403
 from icing.calc.airframe import *  # noqa: F403
+from icing.calc.airspeed import *  # noqa: F403
+from icing.calc.bourgouin import *  # noqa: F403
 from icing.calc.clouds import *  # noqa: F403
 from icing.calc.collection import *  # noqa: F403
 from icing.calc.collector import *  # noqa: F403
@@ -54,6 +59,7 @@ __all__ = sorted(
             thermo,
             clouds,
             droplets,
+            bourgouin,
             sld,
             column,
             column_options,
@@ -61,6 +67,7 @@ __all__ = sorted(
             collection,
             accretion,
             severity,
+            airspeed,
             airframe,
             warm_rain,
         )

@@ -108,8 +108,13 @@ def recovery_temperature(temperature, airspeed, *, recovery_factor=1.0):
 def stagnation_heat_transfer(cylinder_diameter, airspeed, *, pressure, temperature):
     """Convective heat-transfer coefficient at the stagnation line of a cylinder.
 
-    ``h_c = Nu k / D`` with ``Nu = 1.14 Re_D^0.5 Pr^0.4`` (laminar stagnation
-    flow on a cylinder, from memory), ``Re_D = rho V D / mu``.
+    ``h_c = Nu k / D`` with ``Nu = 1.14 Re_D^0.5 Pr^0.4``, ``Re_D = rho V D / mu``:
+    the laminar stagnation-point (Hiemenz) boundary layer with the potential-flow
+    velocity gradient ``4 U / D`` of a cylinder, ``Nu_D = 2 Re_D^0.5 (-theta'(0))``
+    (confirmed by solving the Hiemenz equations in the tests: within 1 % for Pr
+    0.7-1). Measured cylinder stagnation lines run somewhat lower (their velocity
+    gradient is below the potential-flow value; from memory, by some 5-10 %), so
+    the heat transfer, and with it the freezing, errs on the high side.
 
     Parameters
     ----------

@@ -31,36 +31,29 @@ Conventions of ours, stated once:
   proportion ``max(n0, n_aft) / 0.3`` below (very wet growth: most water leaves
   the surface unfrozen). This keeps the count continuous from rime through
   clear ice to none.
-* **Severity** maps the collector's counted catch onto the earlier AIM
-  edition's representative rates "on the outer wing" (trace < 6 mm/h, light
-  6-25, moderate 25-75, severe > 75 mm/h). The collector's rate on that scale,
-  the *equivalent outer-wing rate*, is the caught mass spread as solid ice over
-  the collector's frontal height, ``E LWC V / 917 kg m-3`` [mm/h] (for an airfoil
-  the equivalent cylinder's frontal height, twice its leading-edge radius), times
-  the fraction of it the collector's ice protection leaves on the airframe
-  (``PROTECTION_RESIDUAL``; the AIM words are defined by the effect on the
-  aircraft and by what its protection can do):
-
-  - ``none`` (1): all of it; and the time until the collector's ice tolerance is
-    reached (from the total-catch stagnation thickness rate at the ice's own
-    density) raises the word: under ``TOLERANCE_MINUTES`` 5 min severe, under
-    20 min at least moderate, under 60 min at least light;
-  - ``de-ice`` (1/3; boots, cyclic electric): the surface sheds its ice each
-    cycle; what counts is the ice between cycles and the residual after them;
-  - ``anti-ice`` (1/10; heated, evaporative or running-wet): the surface stays
-    clear; what counts is runback refreezing aft of the heated zone.
-
-  A turboprop with boots in ordinary stratiform cloud thus reads moderate, not
-  the severe its unprotected wing rate would give; an anti-iced jet in the same
-  cloud at holding speed reads light.
-* **SLD** (at least 0.01 g/m3 of drizzle or rain drops that freeze on the
-  collector) impinge aft of the protected areas, the AIM's mark of severe
-  icing: freezing rain reads severe on unprotected and boot-protected
-  collectors and at least moderate on anti-iced ones; freezing drizzle reads
-  severe on boot-protected collectors and at least moderate on unprotected and
-  anti-iced ones.
-* "trace" needs at least 0.01 g/m3 of supercooled liquid (the in-cloud
-  threshold of Korolev et al. 2003); less reads none.
+* **Whole catch**: the accretion rate reported (``accretion_rate_mm_h``) is
+  the counted catch as ice thickness at the stagnation line, frozen there, by
+  runback aft or (SLD in sub-freezing air) aft of the leading edge,
+  ``beta0 LWC V x counted / rho_ice``, times the share the collector's ice
+  protection leaves on it (``PROTECTION_RESIDUAL``): the ice that stays. The ice
+  frozen at the stagnation line alone is ``stagnation_rate_mm_h``. Wherever
+  anything freezes the rate is positive, so an icing stretch never shows a zero
+  thickness.
+* **Severity** (:mod:`icing.calc.severity`, rules stated there): the
+  *equivalent outer-wing rate* of the counted catch as if unprotected, the
+  caught mass spread as solid ice over the collector's frontal height
+  ``E LWC V / 917 kg m-3`` [mm/h] (for an airfoil the equivalent cylinder's
+  frontal height, twice its leading-edge radius), mapped onto the AIM rates;
+  the collector's protection and ice tolerance decide whether the airframe
+  copes (``PROTECTION_RESIDUAL`` of the catch left on it, its time to the
+  tolerance); SLD aft of the protected areas raises the word; supercooled
+  liquid at or below 0 C is never "none"; glaciation lowers words resting on
+  diagnosed liquid only.
+* **SLD in sub-freezing air** strikes and runs back aft of the leading edge,
+  where kinetic heating is smaller and local static temperatures fall below
+  ambient: its catch counts as freezing there whatever the stagnation balance
+  says (common practice, no source; a screening tool must not let ram heating
+  hide freezing rain).
 * Missing input (NaN) reads ``codes.GAP``, never none.
 
 References
@@ -102,7 +95,7 @@ from icing.calc.collection import (
     range_parameter,
     spectrum_quadrature,
 )
-from icing.calc.collector import (
+from icing.calc.collector import (  # noqa: F401  (kept importable from here)
     LEADING_EDGE_RADIUS_FACTOR,
     PROTECTIONS,
     SHAPES,
@@ -111,10 +104,12 @@ from icing.calc.collector import (
 )
 from icing.calc.severity import (
     AIM_RATES_MM_H,
+    GLACIATION_LOWERS,
     IN_CLOUD_LWC,
     PROTECTION_RESIDUAL,
     TOLERANCE_MINUTES,
     collector_severity,
+    lower_for_glaciation,
 )
 from icing.calc.thermo import (
     air_conductivity,
@@ -130,11 +125,6 @@ from icing.constants import (
 )
 
 __all__ = [
-    "SHAPES",
-    "PROTECTIONS",
-    "LEADING_EDGE_RADIUS_FACTOR",
-    "Collector",
-    "Airframe",
     "AirframeIcing",
     "airframe_icing",
     "fit_range_flags",
@@ -152,6 +142,9 @@ _FIELDS = (
     "mass_rate",
     "runback",
     "time_to_tolerance_min",
+    "stagnation_rate_mm_h",
+    "unprotected_rate_mm_h",
+    "notes",
 )
 
 
@@ -178,15 +171,26 @@ class AirframeIcing:
     ice_density : ndarray
         [kg m-3]; NaN where no ice.
     accretion_rate_mm_h : ndarray
-        Stagnation thickness rate of the ice frozen there,
+        Thickness rate of the ice that stays on the collector: the whole counted
+        catch (frozen at the stagnation line, by runback aft, and SLD aft) at the
+        stagnation line, ``beta0 LWC V counted / rho_ice``, times the share its ice
+        protection leaves (``PROTECTION_RESIDUAL``: all of it unprotected). [mm/h]
+    unprotected_rate_mm_h : ndarray
+        Equivalent outer-wing rate of the counted catch as if unprotected,
+        ``E LWC V counted / 917 kg m-3``: the quantity the rate word maps onto the
+        AIM rates. [mm/h]
+    stagnation_rate_mm_h : ndarray
+        Thickness rate of the ice frozen at the stagnation line itself,
         ``beta0 LWC V min(n0, 1) / rho_ice``. [mm/h]
     mass_rate : ndarray
         Total catch per unit span ``E LWC V D`` (cloud and SLD). [kg m-1 s-1]
     runback : ndarray bool
         Water runs back (``0 < n0 < 1``).
     time_to_tolerance_min : ndarray
-        Minutes until the collector's ice tolerance is reached at the total-catch
-        stagnation rate; ``inf`` where no ice, NaN in gaps. [min]
+        Minutes until the ice that stays (``accretion_rate_mm_h``) reaches the
+        collector's ice tolerance; ``inf`` where no ice, NaN in gaps. [min]
+    notes : ndarray int16
+        ``icing.calc.severity.NOTE_*`` bits: the rules that set the word (0 in gaps).
     per_collector : dict
         Collector name -> dict of the same fields (except ``worst_collector``).
     """
@@ -202,6 +206,9 @@ class AirframeIcing:
     mass_rate: np.ndarray
     runback: np.ndarray
     time_to_tolerance_min: np.ndarray
+    stagnation_rate_mm_h: np.ndarray
+    unprotected_rate_mm_h: np.ndarray
+    notes: np.ndarray
     per_collector: dict = field(default_factory=dict)
 
 
@@ -209,39 +216,46 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
     """All fields for one collector on flat arrays (n,); ``st`` holds the air state."""
     d = float(c.diameter)
     v = c.speed(st["v"])
-    lwc, sld_lwc = st["lwc"], st["sld_lwc"]
+    lwc, sld_lwc, t = st["lwc"], st["sld_lwc"], st["t"]
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         e, b0 = _cloud_catch(c, st, v, d)
         es, bs, has_sld = _sld_catch(c, st, v, d, e.shape)
-        flux_total = (e * lwc + es * sld_lwc) * v  # total catch per frontal area [kg m-2 s-1]
         m_imp = (b0 * lwc + bs * sld_lwc) * v  # stagnation impinging flux [kg m-2 s-1]
         bal = _heat_balance(st, v, d, m_imp, recovery_factor)
-        freezes, stag, n0 = bal["freezes"], bal["stag"], bal["n0"]
+        n0, stag = bal["n0"], bal["stag"]
+        # SLD in sub-freezing air freezes aft whatever the stagnation balance (module doc)
+        sld_cold = has_sld & ((bs > 0.0) | (es > 0.0)) & (t <= T0)
+        counted_sld = np.where(sld_cold, 1.0, bal["counted"])
+        catch_stag = (b0 * lwc * bal["counted"] + bs * sld_lwc * counted_sld) * v
+        catch_total = (e * lwc * bal["counted"] + es * sld_lwc * counted_sld) * v
+        freezes = catch_stag > 0.0
         rho_i = np.where(
             freezes, ice_density(bal["mvd_eff"], v, bal["ts"], glaze=~bal["dry"]), np.nan
         )
         per_rho = np.where(freezes, 3.6e6 / rho_i, 0.0)  # kg m-2 s-1 -> mm/h of this ice
         stag_rate = np.where(stag, m_imp * np.minimum(n0, 1.0) * per_rho, 0.0)
-        catch_rate = (
-            m_imp * bal["counted"] * per_rho
-        )  # caught at the stagnation line, frozen anywhere
-        # equivalent outer-wing rate: counted mass as solid ice over the frontal height
-        outer_wing = flux_total * bal["counted"] * (3.6e6 / RHO_ICE * PROTECTION_RESIDUAL[prot])
-        ttt = np.where(freezes, 60.0 * tol_mm / catch_rate, np.inf)
-    # Large drops strike and run back aft of the leading edge, where kinetic heating is
-    # smaller and local static temperatures fall below ambient: in sub-freezing air the
-    # SLD floors hold whatever the stagnation balance says (common practice, no source;
-    # a screening tool must not let ram heating hide freezing rain).
-    sld_cold = has_sld & ((bs > 0.0) | (es > 0.0)) & (st["t"] <= T0)
+        catch_rate = catch_stag * per_rho  # the whole counted catch, frozen anywhere
+        outer_wing = catch_total * (3.6e6 / RHO_ICE)  # as if unprotected [mm/h]
+        left = catch_rate * PROTECTION_RESIDUAL[prot]  # what the protection leaves [mm/h]
+        ttt = np.where(freezes, 60.0 * tol_mm / left, np.inf)
     sld_ice = (freezes & has_sld & (bs > 0.0)) | sld_cold
-    sev = collector_severity(
+    sev, notes = collector_severity(
         outer_wing,
         freezes,
         ttt,
         prot,
         sld_ice=sld_ice,
-        sld_cold=sld_cold,
         sld_class=st["sld_class"],
+        cold_liquid=((lwc > 0.0) | has_sld) & (t <= T0),
+        caught=m_imp > 0.0,
+    )
+    sev, notes = lower_for_glaciation(
+        sev,
+        notes,
+        model_glaciated=st["model_glaciated"],
+        glaciation=st["glaciation"],
+        diagnosed=st["diagnosed"],
+        sld=has_sld,
     )
     with np.errstate(invalid="ignore", divide="ignore"):
         total_lwc = lwc + sld_lwc
@@ -253,14 +267,17 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
         "beta0": b_all,
         "freezing_fraction": n0,
         "ice_type": np.where(
-            stag, ice_type(n0), np.where(freezes | sld_cold, codes.ICE_CLEAR, codes.ICE_NONE)
+            stag, ice_type(n0), np.where(freezes, codes.ICE_CLEAR, codes.ICE_NONE)
         ).astype(np.int8),
         "ice_density": rho_i,
-        "accretion_rate_mm_h": stag_rate,
-        "mass_rate": flux_total * d,
+        "accretion_rate_mm_h": left,
+        "unprotected_rate_mm_h": outer_wing,
+        "mass_rate": (e * lwc + es * sld_lwc) * v * d,
         "runback": (freezes & (n0 < 1.0)) | sld_cold,
         "time_to_tolerance_min": ttt,
-        "_tie": catch_rate / tol_mm,
+        "stagnation_rate_mm_h": stag_rate,
+        "notes": notes,
+        "_tie": left / tol_mm,
     }
 
 
@@ -390,6 +407,9 @@ def airframe_icing(
     n_bins=7,
     recovery_factor=1.0,
     spectrum_method="table",
+    glaciation=None,
+    model_glaciated=None,
+    basis=None,
 ):
     """Icing of every collector of an airframe, and the airframe's severity.
 
@@ -436,6 +456,14 @@ def airframe_icing(
         Cloud-drop collection from the precomputed spectrum table
         (:func:`icing.collection.collection_table`, within 1e-3) or the direct
         sum over the bins at every point.
+    glaciation : array_like, optional
+        Glaciation likelihood of the cloud liquid (``ColumnDiagnosis.glaciation``). [1]
+    model_glaciated : array_like of bool, optional
+        The model holds ice and no liquid here (``ColumnDiagnosis.model_glaciated``).
+    basis : array_like of int, optional
+        ``codes.BASIS`` of the cloud liquid; the glaciation rule of
+        :mod:`icing.calc.severity` lowers only words resting on diagnosed liquid.
+        Without it no word is lowered.
 
     Returns
     -------
@@ -476,6 +504,7 @@ def airframe_icing(
     )
     gap = _input_gaps(*flat)
     st = _working_state(flat, gap, model=model, n_bins=n_bins, spectrum_method=spectrum_method)
+    st.update(_broadcast_phase(shape, glaciation, model_glaciated, basis))
     per = {}
     for c in airframe.collectors:
         prot = c.protection or airframe.ice_protection
@@ -483,6 +512,20 @@ def airframe_icing(
         per[c.name] = _collector_icing(c, prot, float(tol), st, recovery_factor)
     worst = _worst_collector(airframe, per, gap.size)
     return _assemble(airframe, per, worst, gap, shape)
+
+
+def _broadcast_phase(shape, glaciation, model_glaciated, basis):
+    """Flat inputs of the glaciation rule (``severity.lower_for_glaciation``)."""
+
+    def flat(a, default, dtype):
+        a = default if a is None else a
+        return np.broadcast_to(np.asarray(a, dtype=dtype), shape).reshape(-1)
+
+    return {
+        "glaciation": flat(glaciation, np.nan, float),
+        "model_glaciated": flat(model_glaciated, False, bool),
+        "diagnosed": flat(basis, codes.BASIS_NONE, float) == codes.BASIS_DIAGNOSED,
+    }
 
 
 def _input_gaps(lwc, mvd, t, p, mu_shape, sld_lwc, sld_mvd, sld_cls, v_air, rh):
@@ -606,6 +649,8 @@ def _mask_gap(a, gap, name):
         return np.where(gap, codes.GAP, a).astype(np.int8)
     if name == "ice_type":
         return np.where(gap, codes.ICE_NONE, a).astype(np.int8)
+    if name == "notes":
+        return np.where(gap, 0, a).astype(np.int16)
     if name == "runback":
         return np.where(gap, False, a)
     return np.where(gap, np.nan, a)
@@ -680,7 +725,7 @@ def assumptions(*, model="finstad88", n_bins=7, spectrum_method="table"):
         },
         "heat_balance": {
             "model": "Messinger (1953) in Anderson (2004) form, stagnation line",
-            "nusselt": "1.14 Re^0.5 Pr^0.4",
+            "nusselt": "1.14 Re^0.5 Pr^0.4 (laminar stagnation line, potential-flow gradient)",
             "evaporation": "Chilton-Colburn, saturation over water at 0 C",
             "aft_recovery_factor": AFT_RECOVERY_FACTOR,
         },
@@ -692,11 +737,21 @@ def assumptions(*, model="finstad88", n_bins=7, spectrum_method="table"):
         "917 kg/m3 for glaze; impact speed = section speed",
         "severity": {
             "scale_mm_h": list(AIM_RATES_MM_H),
-            "rate": "counted catch as solid ice over the collector's frontal height",
+            "rate": "counted catch as solid ice over the collector's frontal height, as if "
+            "unprotected (the AIM intensities describe unprotected surfaces)",
+            "protection": "a protected collector reads at most moderate while the ice its "
+            "protection leaves (protection_residual of the catch) takes at least "
+            f"{TOLERANCE_MINUTES[0]:g} min to reach its ice tolerance; sooner: severe",
             "protection_residual": dict(PROTECTION_RESIDUAL),
-            "tolerance_minutes_unprotected": list(TOLERANCE_MINUTES),
+            "tolerance_minutes": list(TOLERANCE_MINUTES),
             "in_cloud_lwc_g_m3": IN_CLOUD_LWC * 1e3,
+            "supercooled_liquid": "at least 0.01 g/m3 of liquid at or below 0 C reads at least "
+            "trace whatever the kinetic heating",
             "sld": "freezing rain: severe (none, de-ice), >= moderate (anti-ice); freezing "
             "drizzle: severe (de-ice), >= moderate (none, anti-ice)",
+            "glaciation": f"one step lower (never below trace) where the liquid is diagnosed "
+            f"only and the model holds ice and no liquid, or the glaciation likelihood is at "
+            f"least {GLACIATION_LOWERS}",
+            "accretion": "the whole counted catch (stagnation line, runback, SLD aft)",
         },
     }

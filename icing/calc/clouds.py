@@ -442,17 +442,23 @@ def adiabatic_lwc_gradient(pressure, temperature):
         return -thermo.air_density(p, t) * drs_dz
 
 
-def sub_adiabatic_factor(height_above_base, *, factor_at_base=0.77, scale_height=1500.0):
+def sub_adiabatic_factor(
+    height_above_base, *, factor_at_base=0.77, scale_height=1500.0, floor=0.0
+):
     """Observed-to-adiabatic LWC ratio, falling with height above cloud base.
 
-    ``f(h) = f_0 exp(-h / H)``.
+    ``f(h) = max(f_0 exp(-h / H), floor)``.
 
     ``f_0 = 0.77`` is the mean ratio in marine stratocumulus (Braun et al. 2018,
     0.77 +- 0.13); the fall with height follows Warner (1955), whose cumulus
-    ratios drop to ~0.2-0.5 a few km above base (from memory). With
-    ``H = 1500 m`` a 500 m layer keeps ~0.55 of adiabatic and the product
-    ``f(h) LWC_ad(h)`` peaks at ``h = H`` (~0.6-0.7 g/m3 near 0 degC): deep layers
-    do not integrate to several g/m3. ``H`` is our choice, no source.
+    ratios drop to about 0.2-0.5 a few km above base (from memory; the paper
+    itself not read here). With ``H = 1500 m`` a 500 m layer keeps ~0.55 of
+    adiabatic and the product ``f(h) LWC_ad(h)`` peaks at ``h = H`` (~0.6-0.7
+    g/m3 near 0 degC): deep stratiform layers do not integrate to several g/m3.
+    ``H`` is our choice, no source. Convective layers take a ``floor`` (the
+    column diagnosis uses 0.2, the low end of Warner's range): the exponential
+    alone would fall below the observed cumulus ratios (0.04 at 4.5 km above
+    base) and under-warn exactly where cumulus liquid is largest.
 
     Parameters
     ----------
@@ -460,25 +466,30 @@ def sub_adiabatic_factor(height_above_base, *, factor_at_base=0.77, scale_height
         Height above the cloud base. [m] Negative values give NaN.
     factor_at_base, scale_height : float, optional
         ``f_0`` [1] and ``H`` [m].
+    floor : float or array_like, optional
+        Smallest factor (0: none). [1]
 
     Returns
     -------
     numpy.ndarray
-        Factor in (0, f_0]. [1]
+        Factor in [floor, f_0] (NaN below the base). [1]
 
     References
     ----------
     Braun, R. A. et al. (2018), J. Geophys. Res. Atmos. (NE Pacific stratocumulus).
-    Warner, J. (1955), Tellus 7, 449-457.
+    Warner, J. (1955), The water content of cumuliform cloud, Tellus 7, 449-457.
 
     Examples
     --------
     >>> round(float(sub_adiabatic_factor(0.0)), 2), round(float(sub_adiabatic_factor(1500.0)), 3)
     (0.77, 0.283)
+    >>> round(float(sub_adiabatic_factor(4500.0, floor=0.2)), 2)
+    0.2
     """
     h = np.asarray(height_above_base, dtype=float)
     with np.errstate(invalid="ignore"):
-        return np.where(h >= 0, factor_at_base * np.exp(-h / scale_height), np.nan)
+        f = np.maximum(factor_at_base * np.exp(-h / scale_height), floor)
+        return np.where(h >= 0, f, np.nan)
 
 
 def ice_nuclei_concentration(temperature, *, model="meyers92", aerosol_per_cm3=1.0):
@@ -704,7 +715,9 @@ def glaciation_likelihood(
 
 
 #: Appendix C continuous-maximum LWC at MED 15 um [(degC, g/m3)]: FROM MEMORY of
-#: 14 CFR 25 Appendix C figure 1, not read off the figure; check before relying on it.
+#: 14 CFR 25 Appendix C figure 1. The regulation's text (continuous maximum: 17.4 nmi,
+#: figure 1; intermittent maximum: 2.6 nmi, figure 4) was read; the figures' values
+#: could not be read here, so these stay from memory: check before relying on them.
 APPENDIX_C_CONTINUOUS_MAX = ((-30.0, 0.2), (-20.0, 0.35), (-10.0, 0.6), (0.0, 0.8))
 #: Appendix C intermittent-maximum LWC at MED 15 um [(degC, g/m3)]: FROM MEMORY of
 #: figure 4 (about 2.5-3 g/m3 near 0 degC); the lower, more cautious end is used.

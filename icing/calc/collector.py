@@ -16,6 +16,7 @@ from dataclasses import asdict, dataclass
 
 import numpy as np
 
+from icing.calc.airspeed import SpeedSchedule
 from icing.constants import FT, KT
 
 __all__ = [
@@ -130,6 +131,10 @@ class Airframe:
         Operating limits (drones: maximum height above ground). [ft]
     source : str
         ``"preset"`` or the file it was read from.
+    speeds : SpeedSchedule or None
+        Airspeeds by phase of flight and the low-altitude limit that applies
+        (None: the cruise true airspeed in every phase, no limit); see
+        :attr:`schedule`.
     """
 
     name: str
@@ -143,6 +148,14 @@ class Airframe:
     min_altitude_ft: float | None = None
     max_altitude_agl_ft: float | None = None
     source: str = "preset"
+    speeds: SpeedSchedule | None = None
+
+    @property
+    def schedule(self) -> SpeedSchedule:
+        """The speed schedule (cruise true airspeed in every phase when none is given)."""
+        if self.speeds is not None:
+            return self.speeds
+        return SpeedSchedule(cruise_tas_kt=self.true_airspeed_kt)
 
     @property
     def cruise_tas(self) -> float:
@@ -174,6 +187,7 @@ class Airframe:
             "reference": self.reference,
             "collectors": [c.describe() for c in self.collectors],
             "source": self.source,
+            "speed_schedule": self.schedule.describe(),
         }
         if self.min_altitude_ft is not None:
             d["min_altitude_ft"] = self.min_altitude_ft

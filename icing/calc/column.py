@@ -33,7 +33,7 @@ from icing import codes
 from icing.calc import clouds, droplets, sld, thermo
 from icing.calc._column_input import _check_units, _prepare
 from icing.calc.column_options import ColumnOptions
-from icing.constants import T0, T_HOMOGENEOUS
+from icing.constants import CP_AIR, T0, T_HOMOGENEOUS, G
 from icing.errors import InputError
 
 __all__ = ["ColumnOptions", "ColumnDiagnosis", "diagnose_columns"]
@@ -76,6 +76,8 @@ class ColumnDiagnosis:
     """int8 ``codes.BASIS``: where ``lwc`` came from."""
     glaciation: np.ndarray
     """Likelihood [0..1] that the liquid has been glaciated (NaN outside cloud)."""
+    model_glaciated: np.ndarray
+    """bool: the model holds ice or snow and no liquid here (both fields given)."""
     droplet_number: np.ndarray
     """Cloud droplet number (Twomey activation at the layer's base). [m-3]"""
     mvd: np.ndarray
@@ -90,6 +92,8 @@ class ColumnDiagnosis:
     """Median volume diameter of the drizzle or rain drops (NaN where none). [m]"""
     sld_dmax: np.ndarray
     """Largest drizzle or rain drop worth considering (NaN where none). [m]"""
+    possible_drizzle: np.ndarray
+    """bool: possible freezing drizzle (warm-rain conditions hold, growth marginal)."""
     precip_type: np.ndarray
     """Shape (...): int8 ``codes.PRECIP_TYPES`` index of the surface type (GAP if unknown)."""
     freezing_level: np.ndarray
@@ -129,6 +133,7 @@ _PER_LEVEL_OUT = (
     "lwc_diagnosed",
     "basis",
     "glaciation",
+    "model_glaciated",
     "droplet_number",
     "mvd",
     "spectrum_shape",
@@ -136,6 +141,7 @@ _PER_LEVEL_OUT = (
     "sld_lwc",
     "sld_mvd",
     "sld_dmax",
+    "possible_drizzle",
 )
 _PER_COLUMN_OUT = ("precip_type", "freezing_level")
 
@@ -351,6 +357,7 @@ def _diagnose_core(s, cols, o):
     """Run the physics on ground-up sorted arrays shaped (n, level), one step each."""
     p, t = s["pressure"], s["temperature"]
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        s, present = _absent_per_column(s)
         rh, q, hum = _humidity(s, p, t)
         valid = _validity(s, p, t, hum)
         z = _heights(s, cols, p, t, q, valid)
@@ -359,18 +366,21 @@ def _diagnose_core(s, cols, o):
         below = _below_ground(s, cols, p, z)
         rho = thermo.air_density(p, t, np.nan_to_num(q))
         lwc_model = _model_liquid(s, rho, o)
-        cloud, lay, valid = _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below)
+        cloud, lay, valid, f_ice = _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below)
         air = valid & ~below
         all_air = bool(air.all())  # the usual case: nothing to mask
         liquid_ok = cloud & (t > T_HOMOGENEOUS)
+        glaciated = _model_glaciated(s, present, rho, lwc_model, cloud)
         lwc_model = _in_air(np.where(t > T_HOMOGENEOUS, lwc_model, 0.0), air, all_air, np.nan)
-        sel = np.nonzero(liquid_ok)  # only cloudy liquid levels are integrated
-        lwc_diag = _diagnosed_liquid(p, t, z, q, lay, sel, air, all_air, o)
-        lwc, basis = _combine_liquid(lwc_model, lwc_diag, liquid_ok, air, all_air)
         w, convective, w_eff = _updraft(s, o, cloud, lay)
+        sel = np.nonzero(liquid_ok)  # only cloudy liquid levels are integrated
+        lwc_diag = _diagnosed_liquid(p, t, z, q, rh, lay, sel, air, all_air, convective, o)
+        lwc, basis = _combine_liquid(lwc_model, lwc_diag, liquid_ok, air, all_air)
         number, mvd, shape = _droplets(lwc, liquid_ok, w_eff, sel, o)
         glac = _glaciation(s, o, p, t, rho, lwc, w, cloud, lay)
-        sld_out = _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, o)
+        sld_out = _sld(
+            p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, f_ice, o
+        )
         freezing = _freezing_level(t, z, air)
         lwc_c = _in_air(lwc, air, all_air, 0.0)
         exceed = clouds.appendix_c_exceedances(lwc_c, t, convective=convective)
@@ -390,6 +400,7 @@ def _diagnose_core(s, cols, o):
         "lwc_diagnosed": lwc_diag,
         "basis": basis,
         "glaciation": glac,
+        "model_glaciated": glaciated & air,
         "droplet_number": number,
         "mvd": mvd,
         "spectrum_shape": shape,
@@ -397,6 +408,57 @@ def _diagnose_core(s, cols, o):
         **sld_out,
     }
     return out, exceed
+
+
+#: Optional per-level inputs and the value that stands for "not given" in a column
+#: that lacks them (the physics then reads them as absent, not as a gap).
+_OPTIONAL_FILL = {
+    "cloud_liquid": 0.0,
+    "cloud_ice": 0.0,
+    "rain": 0.0,
+    "snow": 0.0,
+    "cloud_fraction": 1.0,
+    "vertical_velocity": 0.0,
+}
+
+
+def _absent_per_column(s):
+    """Columns lacking an optional field at every level: absent there, not a gap.
+
+    A profile set may mix a radiosonde (no cloud water) with model columns (with
+    it); NaN at every level of one column means the field is absent for that
+    column only. Returns the inputs with those columns filled by the neutral value
+    of ``_OPTIONAL_FILL`` and, per optional field given, the columns that carry it.
+    """
+    present, out = {}, s
+    for k, fill in _OPTIONAL_FILL.items():
+        if k not in s:
+            continue
+        has = np.isfinite(s[k]).any(axis=-1)
+        present[k] = has
+        if not has.all():
+            if out is s:
+                out = dict(s)
+            out[k] = np.where(has[:, None], s[k], fill)
+    return out, present
+
+
+def _model_glaciated(s, present, rho, lwc_model, cloud):
+    """Levels where the model holds ice or snow and no liquid (both fields given).
+
+    Ice and snow together at least the 0.01 g/m3 in-cloud threshold (Korolev et al.
+    2003, applied to condensate), model liquid below it.
+    """
+    if "cloud_liquid" not in present or not ("cloud_ice" in present or "snow" in present):
+        return np.zeros(cloud.shape, bool)
+    ice = np.zeros(cloud.shape)
+    given = np.zeros(cloud.shape[:-1], bool)
+    for k in ("cloud_ice", "snow"):
+        if k in present:
+            ice = ice + np.maximum(np.nan_to_num(s[k]), 0.0)
+            given |= present[k]
+    both = (given & present["cloud_liquid"])[:, None]
+    return both & (ice * rho >= clouds.IN_CLOUD_LWC) & (lwc_model < clouds.IN_CLOUD_LWC)
 
 
 def _in_air(x, air, all_air, fill):
@@ -474,7 +536,11 @@ def _model_liquid(s, rho, o):
 
 
 def _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below):
-    """Cloud mask, its layers, and validity less the layers resting on missing levels."""
+    """Cloud mask, its layers, validity less the layers resting on missing levels.
+
+    Also returns the water humidity of ice-saturated air (None when neither the
+    threshold nor the gap bridging needed it), reused by the SLD diagnosis.
+    """
     air = valid & ~below
     # water RH of ice-saturated air: once for the threshold and the gap bridging
     f_ice = (
@@ -494,7 +560,6 @@ def _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below):
     )
     if o.bridge_single_level_gaps:
         cloud = clouds.bridge_single_level_gaps(cloud, rh, t, valid=air, ice_saturation=f_ice)
-    del f_ice
     # layer boundaries never reach into the ground or into missing levels
     all_air = bool(air.all())
     lay = clouds.cloud_layers(
@@ -511,29 +576,55 @@ def _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below):
         bi = lay.base_index
         under_base = np.take_along_axis(lost, np.clip(bi - 1, 0, None), -1) & (bi >= 1)
         valid = valid & ~(cloud & under_base)
-    return cloud, lay, valid
+    return cloud, lay, valid, f_ice
 
 
-def _diagnosed_liquid(p, t, z, q, lay, sel, air, all_air, o):
-    """Sub-adiabatic liquid ``f(h) LWC_ad`` at the selected levels, 0 elsewhere in air."""
+def _diagnosed_liquid(p, t, z, q, rh, lay, sel, air, all_air, convective, o):
+    """Sub-adiabatic liquid ``f(h) LWC_ad`` at the selected levels, 0 elsewhere in air.
+
+    The parcel starts saturated at the lifting condensation level of the air at
+    the layer's lowest cloudy level (:func:`_condensation_base`): the humidity
+    threshold flags the cloud, saturation starts its liquid. Levels below that
+    condensation level get none. Convective layers keep at least
+    ``o.sub_adiabatic_floor_convective`` of adiabatic.
+    """
     lwc_diag = np.zeros(p.shape) if all_air else np.where(air, 0.0, np.nan)
     if sel[0].size:
+        p_l, t_l, z_l = _condensation_base(p, t, z, rh, lay, sel)
         ad = clouds.adiabatic_lwc(
             p[sel],
             t[sel],
-            lay.base_pressure[sel],
-            lay.base_temperature[sel],
+            p_l,
+            t_l,
             specific_humidity=np.nan_to_num(q[sel]),
             max_step=o.moist_adiabat_step,
         )
         f = clouds.sub_adiabatic_factor(
-            z[sel] - lay.base_height[sel],
+            z[sel] - z_l,
             factor_at_base=o.sub_adiabatic_factor_at_base,
             scale_height=o.sub_adiabatic_scale_height_m,
+            floor=np.where(convective[sel], o.sub_adiabatic_floor_convective, 0.0),
         )
         ad_f = np.nan_to_num(ad * f)
         lwc_diag[sel] = np.where(ad_f > 1e-12, ad_f, 0.0)  # drop round-off at the base
     return lwc_diag
+
+
+def _condensation_base(p, t, z, rh, lay, sel):
+    """Pressure, temperature and height of the saturated base of each selected level.
+
+    The lifting condensation level (Bolton 1980) of the air at the layer's lowest
+    cloudy level: ``p_L`` [Pa], ``T_L`` [K] and its height along the dry adiabat,
+    ``z_L = z_b + c_p (T_b - T_L) / g`` [m]. A layer whose lowest level is saturated
+    starts there; one flagged at a humidity below saturation starts higher, where
+    its air saturates, so the liquid changes smoothly as the layer's lowest level
+    crosses the cloud threshold.
+    """
+    rows = sel[:-1]
+    at = rows + (lay.base_index[sel],)
+    p_b, t_b, z_b, rh_b = p[at], t[at], z[at], rh[at]
+    p_l, t_l = thermo.lifting_condensation_level(p_b, t_b, np.where(np.isfinite(rh_b), rh_b, 1.0))
+    return p_l, t_l, z_b + CP_AIR / G * (t_b - t_l)
 
 
 def _combine_liquid(lwc_model, lwc_diag, liquid_ok, air, all_air):
@@ -633,7 +724,7 @@ def _freezing_level(t, z, air):
     return np.where(any_cross, za + frac * (zb - za), np.nan)
 
 
-def _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, o):
+def _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, f_ice, o):
     """Call :func:`icing.sld.diagnose_sld` on ground-up arrays; outputs keyed by field."""
     res = sld.diagnose_sld(
         p,
@@ -653,11 +744,25 @@ def _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, o):
         valid=valid,
         below_ground=below,
         drizzle_time_scale_s=o.drizzle_time_scale_s,
+        hydrometeors_given=_hydrometeors_given(present, p.shape[:-1]),
+        ice_saturation=f_ice,
     )
     return {
         "sld_class": np.asarray(res.sld_class),
         "sld_lwc": np.asarray(res.sld_lwc, float),
         "sld_mvd": np.asarray(res.sld_mvd, float),
         "sld_dmax": np.asarray(res.sld_dmax, float),
+        "possible_drizzle": np.asarray(res.possible_drizzle, bool),
         "precip_type": np.asarray(res.precip_type),
     }
+
+
+def _hydrometeors_given(present, shape):
+    """Per column: the model's rain or snow field was given (None: neither anywhere)."""
+    if "rain" not in present and "snow" not in present:
+        return None
+    given = np.zeros(shape, bool)
+    for k in ("rain", "snow"):
+        if k in present:
+            given |= present[k]
+    return given

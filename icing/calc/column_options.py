@@ -28,6 +28,9 @@ class ColumnOptions:
     sub_adiabatic_scale_height_m : float
         e-folding height of that ratio above base, 1500 m (our choice to follow
         Warner's 1955 fall with height; deep layers stay bounded). [m]
+    sub_adiabatic_floor_convective : float
+        Smallest ratio in convective layers, 0.2: the low end of the cumulus ratios
+        of Warner (1955), about 0.2-0.5 (from memory). [1]
     rh_threshold_model : str
         ``"ice-water-blend"`` (default; see ``icing.clouds.liquid_cloud_rh_threshold``)
         or ``"water-saturation"``.
@@ -54,8 +57,11 @@ class ColumnOptions:
         Sub-grid updraft added to the grid-mean ``|w|``, 0.2 m/s (order of the
         turbulent velocity in stratiform cloud, common practice, no source).
     drizzle_time_scale_s : float
-        Time the warm-rain process has to make drizzle (passed to
-        ``icing.sld.diagnose_sld``), 1800 s (our choice). [s]
+        Longest time drizzle grows in a warm-topped layer (passed to
+        ``icing.sld.diagnose_sld``): the residence time is the depth above the level
+        over the fall speed of a 50 um drizzle embryo (Khairoutdinov & Kogan 2000's
+        embryo size), at most this, 3600 s (our choice: the order of a stratiform
+        deck's drizzle-cell lifetime, no source). [s]
     ice_nuclei_model : str
         ``"meyers92"`` (default), ``"fletcher62"`` or ``"demott10"``.
     aerosol_per_cm3 : float
@@ -78,6 +84,7 @@ class ColumnOptions:
     air_mass: object = "maritime"
     sub_adiabatic_factor_at_base: float = 0.77
     sub_adiabatic_scale_height_m: float = 1500.0
+    sub_adiabatic_floor_convective: float = 0.2
     rh_threshold_model: str = "ice-water-blend"
     rh_threshold_warm: float = 0.95
     rh_threshold_ice_fraction: float = 0.5
@@ -87,7 +94,7 @@ class ColumnOptions:
     updraft_floor_convective_m_s: float = 1.0
     convective_updraft_m_s: float = 1.0
     subgrid_updraft_m_s: float = 0.2
-    drizzle_time_scale_s: float = 1800.0
+    drizzle_time_scale_s: float = 3600.0
     ice_nuclei_model: str = "meyers92"
     aerosol_per_cm3: float = 1.0
     ice_crystal_radius_m: float = 50e-6
@@ -135,6 +142,13 @@ class ColumnOptions:
             "moist_adiabat_step",
             "chunk_columns",
         )
+        if not 0.0 <= self.sub_adiabatic_floor_convective <= 1.0:
+            raise InputError(
+                "sub_adiabatic_floor_convective must be in [0, 1], got "
+                f"{self.sub_adiabatic_floor_convective!r}",
+                where="ColumnOptions.sub_adiabatic_floor_convective",
+                fix="use e.g. 0.2",
+            )
         if not self.subgrid_updraft_m_s >= 0:
             raise InputError(
                 f"subgrid_updraft_m_s must be at least 0, got {self.subgrid_updraft_m_s!r}",
@@ -181,8 +195,14 @@ class ColumnOptions:
             "cloud_fraction_floor": self.cloud_fraction_floor,
             "sub_adiabatic_factor": (
                 f"{self.sub_adiabatic_factor_at_base} exp(-h / "
-                f"{self.sub_adiabatic_scale_height_m} m), h above the layer base "
-                "(0.77 Braun et al. 2018; fall with height after Warner 1955)"
+                f"{self.sub_adiabatic_scale_height_m} m), h above the adiabatic base "
+                "(0.77 Braun et al. 2018; fall with height after Warner 1955); at least "
+                f"{self.sub_adiabatic_floor_convective} in convective layers (Warner 1955, "
+                "cumulus 0.2-0.5, from memory)"
+            ),
+            "adiabatic_base": (
+                "the lifting condensation level (Bolton 1980) of the air at the layer's "
+                "base: the humidity threshold flags cloud, saturation starts the liquid"
             ),
             "homogeneous_freezing_c": round(T_HOMOGENEOUS - T0, 2),
             "droplet_number": (
@@ -197,12 +217,25 @@ class ColumnOptions:
                 "likelihood beside the LWC (never thinning it): ice nuclei at cloud-top "
                 f"temperature ({self.ice_nuclei_model}) plus ice and snow falling from above, "
                 "diffusional growth against the grid-mean updraft's condensate supply (Korolev "
-                "& Mazin 2003 balance), over a residence time"
+                "& Mazin 2003 balance), over a residence time; it enters the severity word "
+                "(icing.calc.severity): one step lower where the liquid is diagnosed only "
+                "and the likelihood is high or the model holds ice and no liquid"
+            ),
+            "optional_fields": (
+                "an optional field (cloud liquid, ice, rain, snow, cloud fraction, vertical "
+                "velocity) missing at every level of a column is absent for that column, "
+                "not a coverage gap"
             ),
             "aerosol_per_cm3": self.aerosol_per_cm3,
             "ice_crystal_radius_m": self.ice_crystal_radius_m,
             "crystal_density_kg_m3": self.crystal_density_kg_m3,
             "glaciation_residence_time_s": self.glaciation_residence_time_s,
             "drizzle_time_scale_s": self.drizzle_time_scale_s,
+            "drizzle": (
+                "Khairoutdinov & Kogan (2000) autoconversion plus accretion of cloud water "
+                "by drizzle, integrated over the residence time of drizzle in the layer "
+                "above each level (depth over the fall speed of a 50 um drizzle embryo, at "
+                "most drizzle_time_scale_s)"
+            ),
             "appendix_c_envelopes": "14 CFR 25 Appendix C maxima, values from memory",
         }

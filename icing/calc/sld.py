@@ -10,9 +10,11 @@ Two mechanisms, diagnosed level by level over arrays shaped (..., level):
 * Freezing drizzle (warm-rain process, no melting layer needed): collision-
   coalescence in a cloud with a warm top, no ice falling into it and few
   droplets (Huffman & Norman 1988; Rasmussen et al. 2002). The drizzle content is
-  the Khairoutdinov & Kogan (2000) autoconversion integrated over a stated time
-  scale; its LWC, MVD and maximum size are bounded by the 14 CFR 25 Appendix O
-  freezing-drizzle envelopes.
+  grown by the Khairoutdinov & Kogan (2000) autoconversion and accretion over its
+  residence time in the layer (:func:`icing.calc.warm_rain.layer_drizzle`); its
+  LWC, MVD and maximum size are bounded by the 14 CFR 25 Appendix O
+  freezing-drizzle envelopes. Where the conditions of the climatologies hold but
+  the growth stays marginal, the levels are flagged ``possible_drizzle``.
 
 Neither is gated by the cloud mask: rain and drizzle fall through clear air
 below cloud base. A level is an SLD level only where T <= 0 C.
@@ -20,16 +22,7 @@ below cloud base. A level is an SLD level only where T <= 0 C.
 Thresholds (source tags as in the project's reference list: [V] read in the
 source, [M] from memory, [C] common practice, no source, [O] our choice):
 
-- ``PA_SNOW`` = 2 J/kg: a warm layer aloft too weak to melt snow, Bourgouin
-  (2000) [M].
-- ``PA_SURFACE_SNOW`` = 5.6 J/kg: a surface warm layer below this leaves snow,
-  Bourgouin (2000) [M].
-- ``PA_MELT`` = 13.2 J/kg: complete melting, Bourgouin (2000) [M] (documentary:
-  the refreezing line below decides between rain and pellets).
-- ``NA_PELLETS_OFFSET`` + ``NA_SLOPE`` PA = 66 + 0.66 PA J/kg: refrozen to ice
-  pellets above; freezing rain below 46 + 0.66 PA (``NA_FREEZING_RAIN_OFFSET``),
-  mixed between, Bourgouin (2000) [M]. The mixed band is reported as freezing
-  rain [O, conservative].
+- The Bourgouin (2000) area thresholds: :mod:`icing.calc.bourgouin`.
 - ``PRECIP_RATE_MIN`` = 0.01 mm/h: precipitating [C].
 - ``HYDROMETEOR_MIN`` = 1e-6 kg/kg: model rain, snow or ice present [C].
 - ``NOMINAL_RAIN_RATE`` = 1 mm/h: the rate assumed when precipitation is inferred
@@ -37,18 +30,25 @@ source, [M] from memory, [C] common practice, no source, [O] our choice):
 - ``DRIZZLE_TOP_T_MIN`` = -12 C: the coldest cloud top for the warm-rain process;
   Huffman & Norman (1988) give 0 to -10/-12 C [V]; the colder bound is taken so
   that more decks qualify [O, conservative].
-- ``ICE_ALOFT_T`` = -12 C: cloud colder than this at or above a level counts as ice
-  falling into it [O].
+- ``ICE_ALOFT_T`` = -12 C: cloud, or air saturated over ice, colder than this at or
+  above a level counts as ice falling into it [O].
 - ``DRIZZLE_MIN_DEPTH`` = 300 m: cloud depth for drizzle [C].
 - ``DRIZZLE_LWC_MIN`` = 1e-5 kg/m3 (0.01 g/m3): the in-cloud liquid threshold of
   Korolev et al. (2003) [V], borrowed as the smallest drizzle content worth
   reporting [O].
+- ``POSSIBLE_DRIZZLE_MAX_NUMBER`` = 100 cm-3: "few droplets" for possible freezing
+  drizzle; Rasmussen et al. (2002) find drizzle forming at low droplet
+  concentrations, about 100 cm-3 or fewer [M].
+- ``POSSIBLE_DRIZZLE_FRACTION`` = 0.1: growth within a factor 10 of
+  ``DRIZZLE_LWC_MIN`` is "marginal" [O].
 - ``FZDZ_DMAX`` = 500 um: Appendix O freezing drizzle, Dmax 100-500 um [V for
   the structure].
 - ``FZRA_DMAX`` = 2.2 mm: cap on the freezing-rain Dmax after Appendix O [M].
 - Freezing-drizzle LWC envelope: 0.29 g/m3 at 0 C to 0.18 g/m3 at -25 C, linear,
-  after Appendix O freezing drizzle MVD > 40 um [M]: read the published figures
-  before relying on it.
+  after Appendix O freezing drizzle MVD > 40 um [M]: the published figures could not
+  be read here; check them before relying on it.
+- Huffman & Norman (1988) tops 0 to -10 C with a dry layer above [V; also confirmed
+  in a secondary source].
 """
 
 from __future__ import annotations
@@ -60,28 +60,30 @@ import numpy as np
 from scipy import special
 
 from icing import codes
+from icing.calc.bourgouin import (
+    NA_PELLETS_OFFSET,
+    NA_SLOPE,
+    PA_SNOW,
+    PA_SURFACE_SNOW,
+    _rev_cummax,
+    _rev_cummin,
+    _take,
+    warm_layer_areas,
+)
 from icing.calc.droplets import (
     combined_median_volume_diameter,
     marshall_palmer,
     marshall_palmer_from_lwc,
 )
 from icing.calc.thermo import air_density, ice_saturation_relative_humidity
-from icing.calc.warm_rain import khairoutdinov_kogan_autoconversion
-from icing.constants import CP_AIR, RD, T0
+from icing.calc.warm_rain import layer_drizzle
 from icing.constants import IN_CLOUD_LWC as _IN_CLOUD_LWC
+from icing.constants import T0
 
 __all__ = [
     "SLDDiagnosis",
     "diagnose_sld",
     "appendix_o_class",
-    "bourgouin_layer_areas",
-    "khairoutdinov_kogan_autoconversion",
-    "PA_SNOW",
-    "PA_SURFACE_SNOW",
-    "PA_MELT",
-    "NA_PELLETS_OFFSET",
-    "NA_FREEZING_RAIN_OFFSET",
-    "NA_SLOPE",
     "PRECIP_RATE_MIN",
     "HYDROMETEOR_MIN",
     "NOMINAL_RAIN_RATE",
@@ -89,17 +91,13 @@ __all__ = [
     "ICE_ALOFT_T",
     "DRIZZLE_MIN_DEPTH",
     "DRIZZLE_LWC_MIN",
+    "POSSIBLE_DRIZZLE_MAX_NUMBER",
+    "POSSIBLE_DRIZZLE_FRACTION",
     "FZDZ_DMAX",
     "FZRA_DMAX",
     "APPENDIX_O_MVD_SPLIT",
 ]
 
-PA_SNOW = 2.0  # J/kg, Bourgouin (2000), from memory
-PA_SURFACE_SNOW = 5.6  # J/kg, Bourgouin (2000), from memory
-PA_MELT = 13.2  # J/kg, Bourgouin (2000), from memory
-NA_PELLETS_OFFSET = 66.0  # J/kg, Bourgouin (2000): NA > 66 + 0.66 PA -> ice pellets [M]
-NA_FREEZING_RAIN_OFFSET = 46.0  # J/kg, Bourgouin (2000): NA < 46 + 0.66 PA -> FZRA [M]
-NA_SLOPE = 0.66  # Bourgouin (2000), from memory
 PRECIP_RATE_MIN = 0.01  # mm/h, common practice
 HYDROMETEOR_MIN = 1e-6  # kg/kg, common practice
 NOMINAL_RAIN_RATE = 1.0  # mm/h, common practice
@@ -107,6 +105,8 @@ DRIZZLE_TOP_T_MIN = T0 - 12.0  # K, Huffman & Norman (1988) range 0 to -10/-12 C
 ICE_ALOFT_T = T0 - 12.0  # K, our choice
 DRIZZLE_MIN_DEPTH = 300.0  # m, common practice
 DRIZZLE_LWC_MIN = _IN_CLOUD_LWC  # constants.IN_CLOUD_LWC (Korolev et al. 2003)
+POSSIBLE_DRIZZLE_MAX_NUMBER = 100e6  # m-3, Rasmussen et al. (2002), from memory
+POSSIBLE_DRIZZLE_FRACTION = 0.1  # of DRIZZLE_LWC_MIN, our choice
 FZDZ_DMAX = 500e-6  # m, 14 CFR 25 Appendix O
 FZRA_DMAX = 2.2e-3  # m, 14 CFR 25 Appendix O, from memory
 APPENDIX_O_MVD_SPLIT = 40e-6  # m, 14 CFR 25 Appendix O
@@ -117,7 +117,6 @@ _FZDZ_LWC_ENVELOPE = ((T0 - 25.0, 0.18e-3), (T0, 0.29e-3))
 _DMAX_OVER_D0 = float(special.gammaincinv(4.0, 0.999) / special.gammaincinv(4.0, 0.5))
 #: Drizzle population MVD: an exponential spectrum whose Dmax is FZDZ_DMAX [O].
 _FZDZ_MVD = FZDZ_DMAX / _DMAX_OVER_D0
-_KAPPA = RD / CP_AIR
 _BLOCK_LEVELS = 200_000  # levels per block of columns (bounds the temporaries' memory)
 _PT = {name: i for i, name in enumerate(codes.PRECIP_TYPES)}
 
@@ -150,6 +149,11 @@ class SLDDiagnosis:
     drizzle_content : numpy.ndarray, shape (..., level)
         Diagnosed warm-rain drizzle water content reaching each level before the
         threshold and the envelope cap [kg m-3] (for inspection).
+    possible_drizzle : numpy.ndarray of bool, shape (..., level)
+        Possible freezing drizzle: a sub-freezing level at or below a warm-topped,
+        deep enough, unseeded layer with few droplets (``POSSIBLE_DRIZZLE_MAX_NUMBER``)
+        whose grown drizzle stays under ``DRIZZLE_LWC_MIN`` but within
+        ``POSSIBLE_DRIZZLE_FRACTION`` of it; never where SLD is diagnosed.
     complete : numpy.ndarray of bool, shape (...)
         False where some above-ground level was unusable: the diagnosis then
         bridges the gap and a "none" there is less certain.
@@ -164,6 +168,7 @@ class SLDDiagnosis:
     refreezing_area: np.ndarray
     drizzle_content: np.ndarray
     complete: np.ndarray
+    possible_drizzle: np.ndarray
 
 
 def appendix_o_class(
@@ -225,77 +230,6 @@ def appendix_o_class(
     return out.astype(object)
 
 
-def bourgouin_layer_areas(pressure_bottom, temperature_bottom, pressure_top, temperature_top):
-    """Positive and negative Bourgouin areas of the layer between two levels.
-
-    The area between the temperature curve and the 0 C isotherm on a tephigram,
-    in energy units:
-
-    ``A = c_p integral (T - T0) d(ln theta)``
-
-    with the temperature linear in ``ln theta`` across the layer, so a layer that
-    crosses 0 C is split exactly at the crossing. For a layer entirely on one side
-    this is ``c_p (T_mean - T0) ln(theta_top / theta_bottom)``, the form used by
-    Bourgouin (2000) (from memory). ``|d ln theta|`` is taken, so a superadiabatic
-    layer adds area rather than cancelling it.
-
-    Parameters
-    ----------
-    pressure_bottom, temperature_bottom, pressure_top, temperature_top : array_like
-        Pressure [Pa] and temperature [K] of the layer's bounding levels.
-
-    Returns
-    -------
-    positive : numpy.ndarray
-        Area of the part warmer than 0 C (melting energy). [J kg-1]
-    negative : numpy.ndarray
-        Area of the part colder than 0 C, as a positive number (refreezing). [J kg-1]
-
-    References
-    ----------
-    Bourgouin, P. (2000), A method to determine precipitation types, Wea.
-    Forecasting 15, 583-592.
-
-    Examples
-    --------
-    >>> pa, na = bourgouin_layer_areas(85000.0, 275.15, 75000.0, 275.15)
-    >>> round(float(pa), 1), float(na)
-    (71.9, 0.0)
-    """
-    pb = np.asarray(pressure_bottom, dtype=float)
-    pt = np.asarray(pressure_top, dtype=float)
-    ta = np.asarray(temperature_bottom, dtype=float) - T0
-    tb = np.asarray(temperature_top, dtype=float) - T0
-    with np.errstate(invalid="ignore", divide="ignore"):
-        # ln(theta_top / theta_bottom) with theta = T (p0 / p)^kappa
-        dlnth = np.abs(np.log((tb + T0) / (ta + T0)) + _KAPPA * np.log(pb / pt))
-        hi = np.maximum(ta, tb)
-        lo = np.minimum(ta, tb)
-        span = np.where(hi > lo, hi - lo, 1.0)
-        # mean over the layer of max(T - T0, 0) and min(T - T0, 0), T linear in ln theta
-        pos_mean = np.where(
-            lo >= 0.0, 0.5 * (ta + tb), np.where(hi <= 0.0, 0.0, hi**2 / (2 * span))
-        )
-        neg_mean = np.where(
-            hi <= 0.0, 0.5 * (ta + tb), np.where(lo >= 0.0, 0.0, -(lo**2) / (2 * span))
-        )
-    return CP_AIR * pos_mean * dlnth, CP_AIR * (0.0 - neg_mean) * dlnth + 0.0
-
-
-def _rev_cummin(a):
-    """Minimum over this and every higher level (last axis)."""
-    return np.minimum.accumulate(a[..., ::-1], axis=-1)[..., ::-1]
-
-
-def _rev_cummax(a):
-    """Maximum over this and every higher level (last axis)."""
-    return np.maximum.accumulate(a[..., ::-1], axis=-1)[..., ::-1]
-
-
-def _take(a, idx):
-    return np.take_along_axis(a, idx, axis=-1)
-
-
 def _take_or_view(a, idx):
     """Reorder ``a`` along levels by ``idx``; return ``a`` itself where ``idx`` is None."""
     return a if idx is None else np.take_along_axis(a, idx, axis=-1)
@@ -325,7 +259,9 @@ def diagnose_sld(
     cloud_ice=None,
     valid=None,
     below_ground=None,
-    drizzle_time_scale_s=1800.0,
+    drizzle_time_scale_s=3600.0,
+    hydrometeors_given=None,
+    ice_saturation=None,
 ):
     """Diagnose freezing rain and freezing drizzle level by level.
 
@@ -357,7 +293,14 @@ def diagnose_sld(
     below_ground : array_like of bool, shape (..., level), optional
         Levels under the surface; excluded from the physics.
     drizzle_time_scale_s : float, optional
-        Time over which autoconversion builds up drizzle. [s]
+        Longest residence time of drizzle in a layer. [s]
+    hydrometeors_given : array_like of bool, shape (...), optional
+        Per column: the model's rain or snow field was given (a profile set may
+        mix columns with and without them). Default: every column when ``rain`` or
+        ``snow`` is given, none otherwise.
+    ice_saturation : array_like, shape (..., level), optional
+        ``thermo.ice_saturation_relative_humidity(temperature)`` when the caller has
+        it already (saves computing it again).
 
     Returns
     -------
@@ -395,23 +338,30 @@ def diagnose_sld(
     ``DRIZZLE_TOP_T_MIN``, a depth of at least ``DRIZZLE_MIN_DEPTH`` and no ice falling
     into the level (model cloud ice or snow above ``HYDROMETEOR_MIN``, or cloud colder
     than ``ICE_ALOFT_T``, at or above the level with no ice-subsaturated clear air in
-    between to sublimate the crystals), the drizzle content is
-    ``rho_air x 1350 q_c^2.47 N_c^-1.79 x drizzle_time_scale_s``. Drizzle falls: each
-    level receives the largest content produced at or above it (no evaporation, no
-    summation). Levels with T <= 0 C receiving at least ``DRIZZLE_LWC_MIN`` are
+    between to sublimate the crystals), drizzle grows by autoconversion and accretion
+    (Khairoutdinov & Kogan 2000) over its residence time in the layer above the
+    level (:func:`icing.calc.warm_rain.layer_drizzle`, at most
+    ``drizzle_time_scale_s``). Drizzle falls: each level receives the largest
+    content grown at or above it (no evaporation, no summation). Levels with
+    T <= 0 C receiving at least ``DRIZZLE_LWC_MIN`` are
     freezing drizzle, with LWC capped by the Appendix O envelope at the level's
     temperature, Dmax = ``FZDZ_DMAX`` and the MVD of an exponential spectrum with that
     Dmax (140 um). Model rain at a sub-freezing level with no melting layer above is
     freezing drizzle with the model's content (not capped). Where both mechanisms
     apply, freezing rain wins.
 
-    **Surface type** (lowest usable level): cold surface: freezing rain, else
-    freezing drizzle, else ice pellets (warm layer above but refrozen), else snow
-    (precipitation, warm layer absent or with ``PA < PA_SNOW``); warm surface: snow if
+    **Surface type** (lowest usable level), from the precipitation's origin: it is
+    of ice origin where the column holds ice (model cloud ice or snow above
+    ``HYDROMETEOR_MIN``, or cloud colder than ``ICE_ALOFT_T``), else liquid (warm
+    rain). Cold surface: freezing rain, else freezing drizzle, else ice pellets
+    (warm layer above but refrozen), else snow (ice origin) or freezing drizzle
+    (liquid origin); warm surface: snow if the precipitation is of ice origin,
     there is cold air aloft and the surface warm layer's area is below
-    ``PA_SURFACE_SNOW``, else rain. Snow and rain need evidence of precipitation (a
-    rate or model rain/snow); cloud alone never makes them, only the melting-layer
-    inference for freezing rain and ice pellets. The three-layer cases of Bourgouin (warm layer
+    ``PA_SURFACE_SNOW``; drizzle if it is warm-rain drizzle (liquid origin,
+    drizzle at the ground); else rain. Snow, rain and drizzle need evidence of
+    precipitation (a rate, model rain/snow or diagnosed drizzle); cloud alone
+    never makes them, only the melting-layer inference for freezing rain and ice
+    pellets. The three-layer cases of Bourgouin (warm layer
     over a cold one over a warm surface layer) are reduced to the surface layer.
 
     References
@@ -467,6 +417,7 @@ def diagnose_sld(
         "cloud_ice": cloud_ice,
         "valid": valid,
         "below_ground": below_ground,
+        "ice_saturation": ice_saturation,
     }
     args = {k: (None if v is None else np.broadcast_to(v, shape)) for k, v in level.items()}
     args["precipitation_rate_mm_h"] = (
@@ -475,6 +426,11 @@ def diagnose_sld(
         else np.broadcast_to(np.asarray(precipitation_rate_mm_h, dtype=float), shape[:-1])
     )
     tau = float(drizzle_time_scale_s)
+    given = rain is not None or snow is not None
+    args["hydrometeors_given"] = np.broadcast_to(
+        np.asarray(given if hydrometeors_given is None else hydrometeors_given, bool),
+        shape[:-1],
+    )
     # blocks of columns along the first axis bound the memory of the temporaries
     rows = max(1, _BLOCK_LEVELS // max(1, int(np.prod(shape[1:]))))
     if len(shape) == 1 or shape[0] <= rows:
@@ -499,24 +455,28 @@ def _diagnose_block(a, drizzle_time_scale_s):
     p, t = b["p"], b["t"]
     with np.errstate(invalid="ignore", divide="ignore"):
         rho = air_density(p, t)
-        areas = _warm_layer_areas(b)
+        areas = warm_layer_areas(b["usable"], p, t)
         precip, hydro = _precipitation(a, b, areas)
         fzra, melted, model_rain, q_rain = _freezing_rain(a, b, areas, precip, rho)
         ra_lwc, ra_mvd, ra_dmax = _rain_sizes(a, b, model_rain, q_rain)
-        drizzle = _drizzle_content(b, rho, drizzle_time_scale_s)
+        seeded, ice_origin = _seeded(b)
+        drizzle, possible = _drizzle_content(b, rho, seeded, drizzle_time_scale_s)
         # model rain at a sub-freezing level without a melting layer above: warm-rain
         # drizzle by the model's own microphysics, taken at its word with its content
         model_drizzle = areas["cold"] & model_rain & ~areas["warm_above"]
         fzdz = areas["cold"] & ((drizzle >= DRIZZLE_LWC_MIN) | model_drizzle) & ~fzra
         s_lwc = _sld_content(t, fzra, fzdz, ra_lwc, drizzle, model_drizzle, q_rain)
+        possible &= areas["cold"] & ~fzra & ~fzdz
     # ---- per-level results (sorted order)
     cls = np.where(fzra, codes.SLD_RAIN, np.where(fzdz, codes.SLD_DRIZZLE, codes.SLD_NONE))
     s_mvd = np.where(fzra, ra_mvd, np.where(fzdz, _FZDZ_MVD, np.nan))
     s_dmax = np.where(fzra, ra_dmax, np.where(fzdz, FZDZ_DMAX, np.nan))
     ptype, melting, refreezing = _surface_type(
-        b, areas, precip, hydro, melted, fzra, fzdz, drizzle
+        b, areas, precip, hydro, melted, fzra, fzdz, drizzle, ice_origin
     )
-    return _unsorted_result(b, cls, s_lwc, s_mvd, s_dmax, drizzle, ptype, melting, refreezing)
+    return _unsorted_result(
+        b, cls, s_lwc, s_mvd, s_dmax, drizzle, possible, ptype, melting, refreezing
+    )
 
 
 def _sorted_block(a):
@@ -569,46 +529,12 @@ def _sorted_block(a):
         "snow": srt("snow", 0.0),
         "cloud_ice": srt("cloud_ice", 0.0),
         "relative_humidity": srt("relative_humidity"),
+        "ice_saturation": None if a["ice_saturation"] is None else srt("ice_saturation"),
         "idx": np.broadcast_to(np.arange(shape[-1]), shape),
         "n_use": u.sum(axis=-1),
         "rate": _column_rate(a, shape),
-    }
-
-
-def _warm_layer_areas(b):
-    """Bourgouin areas, cumulated upward from the lowest usable level, per level.
-
-    ``pa``/``na``: positive area of the nearest warm layer above each level and the
-    negative area between that layer's base and the level; ``cpos``: cumulated
-    positive area; ``first_cold``: lowest cold level at or above; ``kw_c``: index
-    of the warm layer's base (clipped); ``warm_above``: a warm layer lies above.
-    """
-    u, p, t, shape, nlev = b["usable"], b["p"], b["t"], b["shape"], b["nlev"]
-    idx = b["idx"]
-    warm = u & (t > T0)
-    cold = u & (t <= T0)
-    pos, neg = bourgouin_layer_areas(p[..., :-1], t[..., :-1], p[..., 1:], t[..., 1:])
-    layer_ok = u[..., :-1] & u[..., 1:]
-    zeros = np.zeros(shape[:-1] + (1,))
-    cpos = np.concatenate([zeros, np.cumsum(np.where(layer_ok, pos, 0.0), -1)], -1)
-    cneg = np.concatenate([zeros, np.cumsum(np.where(layer_ok, neg, 0.0), -1)], -1)
-    first_warm = _rev_cummin(np.where(warm, idx, nlev))  # lowest warm level >= j
-    first_cold = _rev_cummin(np.where(cold, idx, nlev))  # lowest cold level >= j
-    kw = np.concatenate([first_warm[..., 1:], np.full(shape[:-1] + (1,), nlev)], -1)
-    warm_above = kw < nlev  # a warm layer lies strictly above level j
-    kw_c = np.clip(kw, 1, nlev - 1) if nlev > 1 else np.zeros_like(kw)
-    kc = np.where(warm_above, _take(first_cold, kw_c), nlev)  # top of that warm layer
-    pa = np.where(warm_above, _take(cpos, np.clip(kc, 0, nlev - 1)) - _take(cpos, kw_c - 1), 0.0)
-    na = np.where(warm_above, _take(cneg, kw_c) - cneg, 0.0)
-    return {
-        "warm": warm,
-        "cold": cold,
-        "cpos": cpos,
-        "first_cold": first_cold,
-        "kw_c": kw_c,
-        "warm_above": warm_above,
-        "pa": pa,
-        "na": na,
+        "z": _take_or_view(z_in, order),
+        "hydrometeors_given": a["hydrometeors_given"],
     }
 
 
@@ -623,7 +549,7 @@ def _precipitation(a, b, areas):
         hydro |= b["snow"] > HYDROMETEOR_MIN
     hydro &= u
     hydro_above = _rev_cummax(hydro.astype(np.int8)).astype(bool)
-    no_info = (~np.isfinite(rate) & (a["rain"] is None) & (a["snow"] is None))[..., None]
+    no_info = (~np.isfinite(rate) & ~b["hydrometeors_given"])[..., None]
     cloud_above = _rev_cummax(b["cloud"].astype(np.int8)).astype(bool)
     cloud_above_warm = areas["warm_above"] & _take(cloud_above, areas["kw_c"])
     return rate_flag | hydro_above | (no_info & cloud_above_warm), hydro
@@ -670,46 +596,78 @@ def _rain_sizes(a, b, model_rain, q_rain):
     return ra_lwc, ra_mvd, ra_dmax
 
 
+def _ice_saturation(b, at):
+    """Water humidity of ice-saturated air at the levels ``at`` (given, else computed)."""
+    given = b["ice_saturation"]
+    return given[at] if given is not None else ice_saturation_relative_humidity(b["t"][at])
+
+
 def _seeded(b):
-    """Levels with ice at or above and no ice-subsaturated clear air in between."""
+    """Levels seeded by ice (at or above, no ice-subsaturated clear air in between).
+
+    Returns the seeded levels and, per column, whether the column holds any ice
+    (the precipitation's origin for the surface type).
+    """
     u, t, cld, nlev, idx = b["usable"], b["t"], b["cloud"], b["nlev"], b["idx"]
+    rh_s = b["relative_humidity"]
+    cold_aloft = u & (t < ICE_ALOFT_T)
+    ice_sat = np.zeros(t.shape, bool)
+    # ice saturation is above 40 % over water down to about -90 C: judge moister levels
+    at = np.nonzero(cold_aloft & ~cld & (rh_s >= 0.4))
+    ice_sat[at] = rh_s[at] >= _ice_saturation(b, at)
+    # model ice or snow; cloud, or air saturated over ice, colder than ICE_ALOFT_T
     ice_flag = (
         (b["cloud_ice"] > HYDROMETEOR_MIN)
         | (b["snow"] > HYDROMETEOR_MIN)
-        | (cld & (t < ICE_ALOFT_T))
+        | (cold_aloft & (cld | ice_sat))
     )
     ice_flag &= u
     # crystals fall until air subsaturated over ice (not cloud, no ice) sublimates them
-    rh_s = b["relative_humidity"]
     first_ice = _rev_cummin(np.where(ice_flag, idx, nlev))
     # dry air matters only below some ice: judge the humidity at those levels alone
     dry = u & ~cld & ~ice_flag & (first_ice < nlev)
     at = np.nonzero(dry)
     # NaN humidity counts as dry
-    dry[at] = ~(rh_s[at] >= ice_saturation_relative_humidity(t[at]))
+    dry[at] = ~(rh_s[at] >= _ice_saturation(b, at))
     first_dry = _rev_cummin(np.where(dry, idx, nlev))
-    return first_ice < first_dry  # ice at or above, with no dry gap between
+    # ice at or above, with no dry gap between; and any ice in the column
+    return first_ice < first_dry, first_ice[..., 0] < nlev
 
 
-def _drizzle_content(b, rho, drizzle_time_scale_s):
-    """Warm-rain drizzle content reaching each level [kg m-3] (largest from above)."""
+def _drizzle_content(b, rho, seeded, drizzle_time_scale_s):
+    """Warm-rain drizzle reaching each level [kg m-3], and the possible-drizzle levels.
+
+    Drizzle grows in cloud levels of warm-topped (``DRIZZLE_TOP_T_MIN``), deep enough
+    (``DRIZZLE_MIN_DEPTH``), unseeded layers (:func:`icing.calc.warm_rain.layer_drizzle`).
+    Where those layers also have few droplets (``POSSIBLE_DRIZZLE_MAX_NUMBER``) but
+    the drizzle grown stays under ``DRIZZLE_LWC_MIN`` (and within
+    ``POSSIBLE_DRIZZLE_FRACTION`` of it), the levels at and below them are possible
+    freezing drizzle.
+    """
     source = (
         b["cloud"]
         & (b["cloud_top_temperature"] >= DRIZZLE_TOP_T_MIN)
         & ((b["cloud_top_height"] - b["cloud_base_height"]) >= DRIZZLE_MIN_DEPTH)
-        & ~_seeded(b)
+        & ~seeded
         & (b["lwc"] > 0.0)
         & (b["droplet_number"] > 0.0)
     )
-    qliq, ndrop = b["lwc"], b["droplet_number"]
-    # the autoconversion only where it counts (its powers are the costly part)
-    produced = np.zeros(b["shape"])
-    at = np.nonzero(source)
-    if at[0].size:
-        made = rho[at] * khairoutdinov_kogan_autoconversion(qliq[at] / rho[at], ndrop[at])
-        made = made * float(drizzle_time_scale_s)
-        produced[at] = np.where(np.isfinite(made), made, 0.0)
-    return _rev_cummax(produced)  # drizzle falls: the largest content from above
+    drizzle, produced = layer_drizzle(
+        np.where(b["usable"], b["z"], np.nan),
+        rho,
+        b["cloud"],
+        np.nan_to_num(b["lwc"]),
+        b["droplet_number"],
+        b["cloud_top_height"],
+        b["p"],
+        b["t"],
+        source=source,
+        max_residence_time=drizzle_time_scale_s,
+    )
+    few = source & (b["droplet_number"] <= POSSIBLE_DRIZZLE_MAX_NUMBER)
+    marginal = few & (produced >= POSSIBLE_DRIZZLE_FRACTION * DRIZZLE_LWC_MIN)
+    possible = _rev_cummax(marginal.astype(np.int8)).astype(bool) & b["usable"]
+    return drizzle, possible & (drizzle < DRIZZLE_LWC_MIN)
 
 
 def _sld_content(t, fzra, fzdz, ra_lwc, drizzle, model_drizzle, q_rain):
@@ -724,8 +682,12 @@ def _sld_content(t, fzra, fzdz, ra_lwc, drizzle, model_drizzle, q_rain):
     return s_lwc
 
 
-def _surface_type(b, areas, precip, hydro, melted, fzra, fzdz, drizzle):
-    """Surface precipitation type and the Bourgouin areas that decided it, per column."""
+def _surface_type(b, areas, precip, hydro, melted, fzra, fzdz, drizzle, ice_origin):
+    """Surface precipitation type and the Bourgouin areas that decided it, per column.
+
+    ``ice_origin`` (per column): the column holds ice, so precipitation without a
+    melting layer reaches the ground as snow; otherwise it is warm-rain liquid.
+    """
     shape, nlev, t = b["shape"], b["nlev"], b["t"]
     rate = b["rate"]
     has = b["n_use"] > 0
@@ -740,12 +702,15 @@ def _surface_type(b, areas, precip, hydro, melted, fzra, fzdz, drizzle):
     cold_aloft = kc0 < nlev
     liquid_drizzle_0 = drizzle[..., 0] >= DRIZZLE_LWC_MIN
     ptype = np.full(shape[:-1], _PT["none"], dtype=int)
-    ptype = np.where(cold_sfc & evidence, _PT["snow"], ptype)
+    liquid = _PT["freezing-drizzle"]  # warm-rain precipitation on a cold surface
+    ptype = np.where(cold_sfc & evidence, np.where(ice_origin, _PT["snow"], liquid), ptype)
     refrozen = precip[..., 0] & melted[..., 0] & ~fzra[..., 0]
     ptype = np.where(cold_sfc & refrozen, _PT["ice-pellets"], ptype)
     ptype = np.where(cold_sfc & fzdz[..., 0], _PT["freezing-drizzle"], ptype)
     ptype = np.where(cold_sfc & fzra[..., 0], _PT["freezing-rain"], ptype)
-    warm_type = np.where(cold_aloft & (pa_sfc < PA_SURFACE_SNOW), _PT["snow"], _PT["rain"])
+    snow_sfc = ice_origin & cold_aloft & (pa_sfc < PA_SURFACE_SNOW)
+    warm_rain = np.where(liquid_drizzle_0 & ~ice_origin, _PT["drizzle"], _PT["rain"])
+    warm_type = np.where(snow_sfc, _PT["snow"], warm_rain)
     ptype = np.where(warm_sfc & (evidence | liquid_drizzle_0), warm_type, ptype)
     ptype = np.where(has, ptype, codes.GAP).astype(np.int8)
     pa, na = areas["pa"], areas["na"]
@@ -754,13 +719,14 @@ def _surface_type(b, areas, precip, hydro, melted, fzra, fzdz, drizzle):
     return ptype, melting, refreezing
 
 
-def _unsorted_result(b, cls, s_lwc, s_mvd, s_dmax, drizzle, ptype, melting, refreezing):
+def _unsorted_result(b, cls, s_lwc, s_mvd, s_dmax, drizzle, possible, ptype, melting, refreezing):
     """Back to the input order, gaps and below-ground levels marked: the SLDDiagnosis."""
     inverse, usable_in, below_in, gap_in = b["inverse"], b["usable_in"], b["below_in"], b["gap_in"]
 
     def back(x):
         return _take_or_view(x, inverse)
 
+    possible_in = np.ascontiguousarray(back(possible))
     if b["all_usable"]:  # no gaps, nothing below ground
         cls_in, lwc_in, mvd_in, dmax_in = back(cls), back(s_lwc), back(s_mvd), back(s_dmax)
         drz_in = np.ascontiguousarray(back(drizzle))
@@ -781,4 +747,5 @@ def _unsorted_result(b, cls, s_lwc, s_mvd, s_dmax, drizzle, ptype, melting, refr
         refreezing_area=refreezing,
         drizzle_content=drz_in,
         complete=~gap_in.any(axis=-1),
+        possible_drizzle=possible_in & usable_in,
     )

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from icing.constants import EPSILON, LAPSE_STD, LV0, P0_STD, RD, RV, T0_STD, G
+from icing.constants import CP_AIR, EPSILON, LAPSE_STD, LV0, P0_STD, RD, RV, T0_STD, G
 
 __all__ = [
     "saturation_vapor_pressure",
@@ -29,6 +29,7 @@ __all__ = [
     "standard_atmosphere_height",
     "moist_adiabat_temperature",
     "ice_saturation_relative_humidity",
+    "lifting_condensation_level",
 ]
 
 
@@ -408,3 +409,45 @@ def moist_adiabat_temperature(pressure, start_temperature, start_pressure, *, ma
             temperature = temperature + h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4)
             x = x + h
         return np.where(bad, np.nan, temperature)
+
+
+def lifting_condensation_level(pressure, temperature, relative_humidity):
+    """Pressure and temperature at which air lifted dry-adiabatically saturates.
+
+    Bolton (1980), eq. 22: ``T_L = 1 / (1/(T - 55) - ln(RH)/2840) + 55`` (T in K,
+    RH over water as a fraction; within 0.1 K of the exact value for RH 0.2-1),
+    and the dry adiabat ``p_L = p (T_L / T)^(c_p / R_d)``. Saturated or
+    supersaturated air (RH >= 1) is at its own condensation level.
+
+    Parameters
+    ----------
+    pressure, temperature : array_like
+        Pressure [Pa] and temperature [K] of the air.
+    relative_humidity : array_like
+        Relative humidity over water. [1]
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        LCL pressure [Pa] and temperature [K]; NaN where an input is NaN or the
+        humidity is not positive.
+
+    References
+    ----------
+    Bolton, D. (1980), The computation of equivalent potential temperature,
+    Mon. Wea. Rev. 108, 1046-1053, eq. 22.
+
+    Examples
+    --------
+    >>> p, t = lifting_condensation_level(90000.0, 275.15, 0.9)
+    >>> round(float(p) / 100, 1), round(float(t) - 273.15, 2)
+    (879.7, 0.22)
+    """
+    p = np.asarray(pressure, dtype=float)
+    t = np.asarray(temperature, dtype=float)
+    rh = np.asarray(relative_humidity, dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        rh_c = np.where(rh > 0.0, np.minimum(rh, 1.0), np.nan)
+        t_l = 1.0 / (1.0 / (t - 55.0) - np.log(rh_c) / 2840.0) + 55.0  # Bolton (1980) eq. 22
+        p_l = p * (t_l / t) ** (CP_AIR / RD)  # dry adiabat from the level to the LCL
+    return p_l, t_l

@@ -19,6 +19,8 @@ Rules of the search (all conservative, all stated in the ``basis`` text):
   curtain's altitude range;
 * a candidate with supercooled large drops in sub-freezing air on the stretch
   is never called clear, whatever its severity code;
+* a candidate in cloud is called clear only at least ``CLOUD_WARM_MARGIN_C``
+  (+2 C, our choice) above 0 C all along the stretch;
 * a warm layer (above 0 degC over the whole stretch) is a real option; the
   freezing rain beneath it (``codes.SLD_RAIN`` below the candidate) is named,
   because the descent out of it passes through that rain;
@@ -39,6 +41,7 @@ from icing.errors import InputError
 
 __all__ = [
     "CANDIDATE_WORDING",
+    "CLOUD_WARM_MARGIN_C",
     "candidate_altitudes",
     "candidates_summary",
     "segment_candidates",
@@ -47,6 +50,10 @@ __all__ = [
 
 #: How every candidate altitude is worded in outputs.
 CANDIDATE_WORDING = "candidate altitudes to check against official advisories; not advice to fly"
+#: Margin above 0 C a candidate altitude in cloud needs to count as clear [degC]: our
+#: choice (no published value used), for the 1-2 K error of forecast temperatures near
+#: 0 C and the local cooling over upper wing surfaces.
+CLOUD_WARM_MARGIN_C = 2.0
 
 _FPM = FT / 60.0  # one foot per minute [m/s]
 _TRANSIT_POINTS = 64  # points along each climb/descent path (about 100 ft apart or closer)
@@ -322,6 +329,7 @@ def _stretch(curtain, idx):
         "below": below,
         "temp": np.asarray(curtain.temperature_c, dtype=float)[idx],
         "sld": np.asarray(curtain.sld_class)[idx],
+        "cloud": np.asarray(curtain.cloud, dtype=bool)[idx],
         "ground": np.where(np.isfinite(ground), ground, alt[0]),
         "terrain_known": terrain_known,
     }
@@ -364,11 +372,18 @@ def _evaluate(st, cand_m):
         )
     worst_c = np.where(sev_c == codes.GAP, codes.SEV_NONE, sev_c).max(axis=0)
     eligible = ~gap_c & ~ground_c
+    # cloud within the margin above 0 C is never called clear (CLOUD_WARM_MARGIN_C)
+    cloud = st["cloud"]
+    with np.errstate(invalid="ignore"):
+        near_freezing = ((cloud[:, r_lo] | cloud[:, r_hi]) & ~(t_c >= CLOUD_WARM_MARGIN_C)).any(
+            axis=0
+        )
     return {
         "worst": worst_c,
         "gap": gap_c,
         "eligible": eligible,
-        "clear": eligible & (worst_c == codes.SEV_NONE) & ~sld_freezing,
+        "clear": eligible & (worst_c == codes.SEV_NONE) & ~sld_freezing & ~near_freezing,
+        "near_freezing": near_freezing,
         "warm": warm_c,
         "sld": sld_c,
         "sld_freezing": sld_freezing,
@@ -389,6 +404,8 @@ def _option_notes(ev, j, ft, direction):
         )
     if ev["warm"][j]:
         notes.append("warm layer (above 0 C along the stretch)")
+    if ev["near_freezing"][j] and ev["worst"][j] == codes.SEV_NONE:
+        notes.append(f"cloud within {CLOUD_WARM_MARGIN_C:g} C above freezing: not called clear")
     if ev["fzra_below"][j]:
         notes.append("freezing rain beneath this altitude: met again on descent")
     if ev["sld_freezing"][j]:

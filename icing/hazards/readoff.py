@@ -129,6 +129,15 @@ def read_off(diag, column_index, target, *, reference="msl"):
     out["below_ground"] = present & (ga & ((w < 0.5) | gb))
     out["valid"] = inside & va & vb & ~out["below_ground"]
     out["cloud"] = out["lwc"] >= IN_CLOUD_LWC
+    # flags: glaciated by the model only where both levels are; possible drizzle where
+    # either is (a stated possibility is never interpolated away)
+    for name, both in (("model_glaciated", True), ("possible_drizzle", False)):
+        flag = getattr(diag, name, None)
+        if flag is None:
+            out[name] = np.zeros(out["valid"].shape, bool)
+            continue
+        fa, fb = pick(np.asarray(flag, bool))
+        out[name] = (fa & fb) if both else (fa | fb)
     return out
 
 
@@ -152,6 +161,9 @@ def icing_at(airframe, state, airspeed):
         sld_class=state["sld_class"],
         airspeed=airspeed,
         relative_humidity=np.clip(np.nan_to_num(state["relative_humidity"], nan=1.0), 0, 1.2),
+        glaciation=state.get("glaciation"),
+        model_glaciated=state.get("model_glaciated"),
+        basis=state.get("basis"),
     )
     sev = np.where(state["valid"], result.severity, codes.GAP)
     return result, sev

@@ -333,6 +333,10 @@ def _icing_properties(at_flight, samples, a, b):
         ),
         "accretion_mm": _round(max(best_mm, 0.0), 3),
     }
+    reasons = at_flight.get("severity_reasons")
+    if reasons is not None:  # why the words are what they are, in sample order
+        seen = [r for x in np.asarray(reasons)[sl] if x for r in str(x).split(" | ")]
+        props["severity_reasons"] = list(dict.fromkeys(seen))
     if sld != codes.SLD_NONE:
         props["sld_lwc_g_m3_max"] = _round(_stat(at_flight["sld_lwc_g_m3"][sl], np.max), 4)
         props["sld_mvd_um_max"] = _round(_stat(at_flight["sld_mvd_um"][sl], np.max), 1)

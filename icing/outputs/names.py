@@ -63,6 +63,7 @@ LABELS = {
     "kind": "kind",
     "severity": "icing severity",
     "severity_rank": "severity rank (0 none .. 4 severe)",
+    "severity_reasons": "why the severity is what it is",
     "ice_type": "ice type",
     "basis": "liquid from",
     "start_km": "start [km]",

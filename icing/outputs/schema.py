@@ -76,6 +76,7 @@ SEGMENT_TYPES = {
     "kind": {"enum": ["icing", "coverage-gap", "no-icing"]},
     "severity": _SEV,
     "severity_rank": _RANK,
+    "severity_reasons": {"type": "array", "items": {"type": "string"}},
     "ice_type": {"enum": list(codes.ICE_TYPES[1:]) + [None]},
     "sld": {"enum": list(codes.SLD_CLASSES) + [None]},
     "basis": _STR,
@@ -122,7 +123,14 @@ SEGMENT_TYPES = {
 _SEGMENT_REQUIRED = [
     k
     for k in SEGMENT_TYPES
-    if k not in ("flight_level", "flight_level_min", "flight_level_max", "vertical_options")
+    if k
+    not in (
+        "flight_level",
+        "flight_level_min",
+        "flight_level_max",
+        "vertical_options",
+        "severity_reasons",
+    )
     and k not in ("gap_reason", "note")
 ]
 _SUMMARY_REQUIRED = [

@@ -193,6 +193,7 @@ SAMPLE_COLUMNS = [
     "hold",
     "tas_m_s",
     "severity_rank",
+    "severity_reasons",
 ]
 
 
@@ -242,6 +243,9 @@ def sample_table(screening) -> list[dict]:
             "worst_collector": "" if gap else af["worst_collector"][i],
             "cloud": "" if gap else bool(af["cloud"][i]),
             "altitude_msl_m": _number(alt_m[i]),
+            "severity_reasons": ""
+            if gap
+            else str(np.asarray(af.get("severity_reasons", [""] * n))[i]),
         }
         for key in SAMPLE_COLUMNS:
             if key not in row:

@@ -17,11 +17,14 @@ from types import SimpleNamespace
 import numpy as np
 
 from icing import codes
+from icing.calc.airspeed import PHASE_LEVEL, PHASES
+from icing.calc.severity import NOTE_POSSIBLE_DRIZZLE, severity_reasons
 from icing.caution import CAUTION
-from icing.constants import FT, T0
+from icing.constants import FT, KT, T0
 from icing.hazards.outcome import Condition, route_outcome
 from icing.hazards.readoff import icing_at, read_off, take_last, worst_over_candidates
 from icing.hazards.results import Curtain, RouteScreening
+from icing.runs.speeds import flight_phase, route_for_timing, sample_airspeed
 
 __all__ = ["ScreenOptions", "screen_route", "screen_routes"]
 
@@ -129,7 +132,9 @@ def screen_route(
         Largest distance between samples along the track; overrides
         ``options.step_km`` (default 1 km). [km]
     tas_kt : float, optional
-        True airspeed; default the route's, else the airframe's cruise speed. [kt]
+        True airspeed at the flight altitude; default the route's own speeds where
+        it gives them, else the airframe's speed schedule by phase of flight in the
+        forecast's air (:mod:`icing.runs.speeds`). [kt]
     departure : datetime, optional
         Overrides the route's departure time (timezone-aware).
     column_options : ColumnOptions, optional
@@ -153,14 +158,16 @@ def screen_route(
         options = replace(options, step_km=step_km)
     column_options = column_options or ColumnOptions()
     route, forecast, airframe = _loaded(route, forecast, airframe)
-    samples = _sample(route, forecast, airframe, options, tas_kt, departure)
+    timed, given = route_for_timing(route, airframe, tas_kt=tas_kt)
+    samples = _sample(timed, forecast, airframe, options, tas_kt, departure)
     colset = forecast.columns_at(samples.lat, samples.lon, samples.time)
     diag = diagnose_columns(**colset.columns, options=column_options)
     ground = _ground_height(route, samples, forecast, colset)
     grid = _read_off_targets(samples, colset, diag, ground, airframe, options)
     state, ci, alts_m, vref = grid["state"], grid["ci"], grid["alts_m"], grid["vref"]
-    tas_ms = np.broadcast_to(np.asarray(samples.tas, float)[:, None, None], ci.shape)
+    tas_ms = _target_airspeeds(samples, route, airframe, given, state)
     result, sev = icing_at(airframe, state, tas_ms)
+    notes = result.notes | np.where(state.get("possible_drizzle", False), NOTE_POSSIBLE_DRIZZLE, 0)
     kbest = worst_over_candidates(sev, result.accretion_rate_mm_h)  # (n, a+1)
 
     def best(a):
@@ -171,6 +178,7 @@ def screen_route(
     at.update(
         _flight_altitudes(samples, vref, best(state["height"])[:, -1], grid["flight"], ground)
     )
+    _speeds_and_reasons(at, best(tas_ms)[:, -1], best(notes)[:, -1], samples, route)
     curtain = Curtain(
         distance_km=at["distance_km"],
         altitudes_m=alts_m,
@@ -186,6 +194,39 @@ def screen_route(
     )
     return _assemble(
         route, airframe, samples, at, curtain, forecast, column_options, options, segment_prefix
+    )
+
+
+def _target_airspeeds(samples, route, airframe, given, state):
+    """Return the true airspeed of every target (n, a + 1, k): curtain rows, then flight.
+
+    Curtain rows are flown level at the schedule's speed of their altitude; the
+    flight altitude at the route's own speed where given, else the schedule's
+    speed of the sample's phase of flight (:mod:`icing.runs.speeds`).
+    """
+    p, t, z = state["pressure"], state["temperature"], state["height"]
+    rows = airframe.schedule.true_airspeed(PHASE_LEVEL, p[:, :-1], t[:, :-1], z[:, :-1])
+    flight = sample_airspeed(
+        samples, route, airframe, given, pressure=p[:, -1], temperature=t[:, -1], height=z[:, -1]
+    )
+    return np.concatenate([rows, flight[:, None, :]], axis=1)
+
+
+def _speeds_and_reasons(at, tas_ms, notes, samples, route):
+    """Add the airspeed, phase of flight and severity reasons of every sample to ``at``.
+
+    The reasons name the airspeed to the nearest 10 kt, so a segment flown at a
+    steady speed repeats one reason; several reasons of a sample are joined by " | ".
+    """
+    at["tas_kt"] = tas_ms / KT
+    at["phase"] = np.asarray(PHASES, dtype=object)[flight_phase(samples, route)]
+    at["severity_notes"] = np.where(at["severity"] == codes.GAP, 0, notes).astype(np.int16)
+    at["severity_reasons"] = np.array(
+        [
+            " | ".join(severity_reasons(n, tas_kt=round(v, -1) if np.isfinite(v) else v))
+            for n, v in zip(at["severity_notes"], at["tas_kt"], strict=True)
+        ],
+        dtype=object,
     )
 
 
