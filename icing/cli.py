@@ -66,7 +66,7 @@ def _var_map(items):
 
 
 def _forecast(args):
-    from icing.forecast.core import load_forecast
+    from icing.forecast import load_forecast
 
     kwargs = {}
     if getattr(args, "radius_km", None) is not None:

@@ -15,8 +15,9 @@ import numpy as np
 import pytest
 
 from icing.errors import ForecastError, PlausibilityWarning
-from icing.forecast.core import load_forecast
-from icing.forecast.readers import parse_time, profile_schema
+from icing.forecast import load_forecast
+from icing.forecast.profiles import profile_schema
+from icing.forecast.table import parse_time
 
 ROOT = Path(__file__).resolve().parents[1]
 _spec = importlib.util.spec_from_file_location(
@@ -89,7 +90,7 @@ def test_schema_is_valid_and_fixtures_follow_it():
 
 
 def test_example_document_of_the_design_loads(tmp_path):
-    # DESIGN.md 3.3's illustrative profile (its heights are not hypsometric: kept as given)
+    # an illustrative profile (its heights are not hypsometric: kept as given)
     doc = {
         "format": "icing-profiles",
         "version": 1,
@@ -267,7 +268,7 @@ def test_error_place_in_a_later_profile(tmp_path):
 
 
 def test_relative_humidity_a_little_above_100_is_accepted_and_clipped(tmp_path):
-    # model output up to ~110 % over water is normal (DESIGN.md 3.3): accepted, clipped
+    # model output up to ~110 % over water is normal: accepted, clipped
     fc = load_forecast(_write(tmp_path, _one_profile_doc(relative_humidity_pct=[80, 105, 60])))
     rh = fc.table.levels["relative_humidity"][0]
     np.testing.assert_allclose(rh, [0.80, 1.0, 0.60])
@@ -544,7 +545,7 @@ def test_lead_time_files_with_different_units_are_refused(tmp_path):
     import xarray as xr
 
     from icing.errors import ForecastError
-    from icing.forecast.core import load_forecast
+    from icing.forecast import load_forecast
 
     with xr.open_dataset(ROOT / "fixtures" / "skerrow-latlon.nc") as ds:
         ds = ds.load()
@@ -560,7 +561,7 @@ def test_lead_time_files_with_different_units_are_refused(tmp_path):
 
 def test_profile_csv_row_with_extra_cells_is_one_line_error(tmp_path):
     from icing.errors import ForecastError
-    from icing.forecast.core import load_forecast
+    from icing.forecast import load_forecast
 
     src = (ROOT / "fixtures" / "skerrow-profiles.csv").read_text().splitlines()
     src[1] = src[1] + ",99,98"

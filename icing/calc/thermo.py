@@ -408,3 +408,43 @@ def moist_adiabat_temperature(pressure, start_temperature, start_pressure, *, ma
             temperature = temperature + h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4)
             x = x + h
         return np.where(bad, np.nan, temperature)
+
+
+def vertical_velocity_from_omega(omega, pressure, temperature, specific_humidity=0.0):
+    """Vertical velocity from the pressure tendency omega, hydrostatic.
+
+    Parameters
+    ----------
+    omega : array_like
+        Lagrangian tendency of air pressure, Dp/Dt. [Pa/s]
+    pressure, temperature : array_like
+        Air pressure [Pa] and temperature [K] at the same points.
+    specific_humidity : array_like, optional
+        For the moist air density. [kg/kg]
+
+    Returns
+    -------
+    numpy.ndarray
+        Upward air velocity. [m/s]
+
+    Notes
+    -----
+    ``w = -omega / (rho g)`` (hydrostatic: ``dp = -rho g dz``), with the moist
+    density of :func:`air_density`. Valid where the vertical motion is nearly
+    hydrostatic (horizontal scales well above the depth of the layer).
+
+    References
+    ----------
+    Wallace, J. M. & Hobbs, P. V. (2006), Atmospheric Science, 2nd ed., eq. 7.33
+    (from memory).
+
+    Examples
+    --------
+    >>> round(float(vertical_velocity_from_omega(-1.0, 70000.0, 263.15)), 3)
+    0.11
+    """
+    rho = air_density(pressure, temperature, specific_humidity)
+    return -np.asarray(omega, dtype=float) / (rho * G)
+
+
+__all__ += ["vertical_velocity_from_omega"]  # appended helpers of the forecast readers

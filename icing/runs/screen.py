@@ -134,7 +134,7 @@ def screen_route(
     from icing.airframes import load_airframe
     from icing.calc.column import ColumnOptions, diagnose_columns
     from icing.calc.thermo import standard_atmosphere_pressure
-    from icing.forecast.core import load_forecast
+    from icing.forecast import load_forecast
     from icing.hazards.avoidance import CANDIDATE_WORDING, annotate_segments
     from icing.hazards.segments import build_segments, route_summary
     from icing.route import load_route, sample_route

@@ -1,0 +1,174 @@
+"""From interpolated forecast values to the column physics' inputs.
+
+A gridded forecast interpolates its fields to the samples; what comes out is
+what the file holds, in SI. :func:`assemble_columns` turns it into the keyword
+arguments of :func:`icing.calc.column.diagnose_columns`, surface first:
+
+- pressure levels become the ``pressure`` column; height levels the ``height``
+  column (plus the surface height when the heights are above ground);
+- humidity is clipped to saturation over water (model output a little above
+  100 % is normal);
+- heights absent from a pressure-level file are computed hypsometrically, on
+  the interpolated column so that they agree with its temperatures;
+- omega is turned into an upward velocity with the column's own density;
+- hydrometeors are clipped at 0, cloud fraction to 0..1.
+
+The physics lives in :mod:`icing.calc.thermo`; this module only applies it to
+the assembled column, so that every conversion that needs several variables
+uses the same column the diagnosis sees.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from icing.calc.thermo import (
+    height_from_pressure_hypsometric,
+    saturation_vapor_pressure,
+    specific_humidity_from_relative_humidity,
+    vertical_velocity_from_omega,
+)
+
+__all__ = ["ColumnSpec", "assemble_columns", "specific_humidity_of", "fill_along_levels"]
+
+_HYDROMETEORS = ("cloud_liquid", "cloud_ice", "rain", "snow")
+
+
+@dataclass(frozen=True)
+class ColumnSpec:
+    """What a gridded forecast's interpolated values are, for :func:`assemble_columns`."""
+
+    levels: np.ndarray
+    """The level values, surface first: pressure [Pa], height [m] or model level number."""
+    vertical: str
+    """"pressure" | "height" | "model"."""
+    humidity: str
+    """The humidity key the forecast carries."""
+    height_above_ground: bool = False
+    """Height levels are above the surface (add the surface height)."""
+    omega: bool = False
+    """``vertical_velocity`` holds omega [Pa/s] (to convert)."""
+
+
+def specific_humidity_of(levels, humidity):
+    """Return the specific humidity [kg/kg] from whichever humidity the levels carry."""
+    p, t, a = levels["pressure"], levels["temperature"], levels[humidity]
+    with np.errstate(invalid="ignore"):
+        if humidity == "specific_humidity":
+            return a
+        if humidity == "relative_humidity":
+            return specific_humidity_from_relative_humidity(p, t, a)
+        e = saturation_vapor_pressure(a)
+        return specific_humidity_from_relative_humidity(p, t, e / saturation_vapor_pressure(t))
+
+
+def fill_along_levels(a):
+    """Fill NaN along the last axis from the nearest valid level below, else above.
+
+    Used only to keep the hypsometric integration going through missing
+    temperatures (e.g. levels below the ground); the filled values are never
+    returned as data.
+
+    >>> fill_along_levels(np.array([np.nan, 1.0, np.nan, 3.0, np.nan])).tolist()
+    [1.0, 1.0, 1.0, 3.0, 3.0]
+    """
+    a = np.asarray(a, dtype=float)
+    ok = np.isfinite(a)
+    n = a.shape[-1]
+    idx = np.where(ok, np.arange(n), 0)
+    fwd = np.maximum.accumulate(idx, axis=-1)
+    first = np.argmax(ok, axis=-1)[..., None]
+    fwd = np.where(np.take_along_axis(ok, fwd, -1), fwd, first)
+    return np.take_along_axis(a, fwd, -1)
+
+
+def _clip_humidity(hum, humidity, temperature):
+    """Clip to physical values (saturation over water, and 0)."""
+    with np.errstate(invalid="ignore"):
+        if humidity == "relative_humidity":
+            return np.clip(hum, 0.0, 1.0)
+        if humidity == "dewpoint":
+            return np.minimum(hum, temperature)
+        return np.maximum(hum, 0.0)
+
+
+def _hypsometric_heights(cols, humidity):
+    """Heights of a pressure-level column without heights in the file."""
+    q = np.nan_to_num(specific_humidity_of(cols, humidity), nan=0.0)
+    anchored = "surface_pressure" in cols and "surface_height" in cols
+    with np.errstate(invalid="ignore"):
+        return height_from_pressure_hypsometric(
+            cols["pressure"],
+            fill_along_levels(cols["temperature"]),
+            specific_humidity=q,
+            base_height=cols["surface_height"] if anchored else None,
+            base_pressure=cols["surface_pressure"] if anchored else None,
+        )
+
+
+def _vertical_coordinates(vals, m, spec, cols):
+    """Pressure and height columns from the levels and the fields."""
+    n_lev = spec.levels.size
+    if spec.vertical == "pressure":
+        cols["pressure"] = np.broadcast_to(spec.levels, (m, n_lev)).copy()
+        return
+    cols["pressure"] = vals["pressure"]
+    if spec.vertical == "model":
+        cols["height"] = vals["height"]
+        return
+    z = np.broadcast_to(spec.levels, (m, n_lev)).copy()
+    if spec.height_above_ground:
+        # an unknown surface leaves the heights unknown: a gap, never MSL
+        z = z + vals["surface_height"][:, None]
+    cols["height"] = z
+
+
+def assemble_columns(vals, m, spec: ColumnSpec) -> dict:
+    """Turn interpolated values (SI, surface first) into ``diagnose_columns`` keyword arrays.
+
+    Parameters
+    ----------
+    vals : dict
+        ``{key: array}``: level keys shaped (m, level), surface keys (m,), as
+        interpolated from the forecast's fields (plus ``wind_u``/``wind_v``).
+    m : int
+        Number of columns.
+    spec : ColumnSpec
+        What the values are.
+
+    Returns
+    -------
+    dict
+        The columns (``precipitation_rate_mm_h`` for the precipitation rate; the
+        winds kept under ``wind_u``/``wind_v`` for the caller to take out).
+    """
+    cols = {}
+    _vertical_coordinates(vals, m, spec, cols)
+    cols["temperature"] = vals["temperature"]
+    cols[spec.humidity] = _clip_humidity(vals[spec.humidity], spec.humidity, cols["temperature"])
+    for key in ("surface_pressure", "surface_height"):
+        if key in vals:
+            cols[key] = vals[key]
+    if spec.vertical == "pressure":
+        z = vals.get("height")
+        cols["height"] = z if z is not None else _hypsometric_heights(cols, spec.humidity)
+    for key in _HYDROMETEORS:
+        if key in vals:
+            cols[key] = np.maximum(vals[key], 0.0)
+    if "cloud_fraction" in vals:
+        cols["cloud_fraction"] = np.clip(vals["cloud_fraction"], 0.0, 1.0)
+    if "vertical_velocity" in vals:
+        w = vals["vertical_velocity"]
+        if spec.omega:
+            q = np.nan_to_num(specific_humidity_of(cols, spec.humidity), nan=0.0)
+            with np.errstate(invalid="ignore"):
+                w = vertical_velocity_from_omega(w, cols["pressure"], cols["temperature"], q)
+        cols["vertical_velocity"] = w
+    if "precipitation_rate" in vals:
+        cols["precipitation_rate_mm_h"] = np.maximum(vals["precipitation_rate"], 0.0)
+    for key in ("wind_u", "wind_v"):
+        if key in vals:
+            cols[key] = vals[key]
+    return cols

@@ -1,0 +1,67 @@
+"""CF-NetCDF and data-service NetCDF forecasts: open lazily, hand to the common build.
+
+The file is opened with xarray (netCDF4, else h5netcdf) for its metadata and
+with netCDF4 directly for fast block reads; :func:`icing.forecast.build.build_grid_source`
+finds the variables and yields the internal structure.
+"""
+
+from __future__ import annotations
+
+import threading
+from pathlib import Path
+
+from icing.errors import ForecastError
+from icing.forecast.build import build_grid_source
+from icing.forecast.fields import NetcdfVariable
+
+__all__ = ["open_netcdf", "open_netcdf4", "read_netcdf_forecast"]
+
+
+def open_netcdf(path):
+    """Open a NetCDF file lazily with xarray (netCDF4, then h5netcdf); one-line error."""
+    import xarray as xr
+
+    errors = []
+    for engine in ("netcdf4", "h5netcdf"):
+        try:
+            return xr.open_dataset(path, engine=engine, cache=False, decode_timedelta=True)
+        except Exception as exc:  # the engines raise many kinds; report the first one
+            errors.append(f"{engine}: {str(exc).splitlines()[0] if str(exc) else type(exc)}")
+    raise ForecastError(
+        f"not a readable NetCDF file ({errors[0]})",
+        path=path,
+        fix="give a CF-NetCDF file (netCDF4/HDF5 or classic), a profile JSON or a profile CSV",
+    )
+
+
+def open_netcdf4(path):
+    """Open the file with netCDF4 for direct block reads, or None when it cannot be."""
+    try:
+        import netCDF4
+
+        nc = netCDF4.Dataset(path)
+    except Exception:  # h5netcdf-only files: reads go through xarray
+        return None
+    nc.set_auto_maskandscale(True)
+    return nc
+
+
+def raw_variables(ds, nc):
+    """``raw_of(name)``: the file's variables as raw readers sharing one lock."""
+    lock = threading.Lock()
+    cache = {}
+
+    def raw_of(name):
+        if name not in cache:
+            nc_var = None if nc is None else nc.variables.get(name)
+            cache[name] = NetcdfVariable(name, ds[name].variable, nc_var, lock)
+        return cache[name]
+
+    return raw_of
+
+
+def read_netcdf_forecast(path, *, var_map=None, **_options):
+    """Read a CF-NetCDF (or data-service NetCDF) forecast into a GridSource."""
+    path = Path(path)
+    ds = open_netcdf(path)
+    return build_grid_source(ds, path, raw_variables(ds, open_netcdf4(path)), var_map=var_map)
