@@ -76,6 +76,9 @@ def _forecast(args):
     var_map = _var_map(getattr(args, "var", None))
     if var_map:
         kwargs["var_map"] = var_map
+    for option in ("member", "rh_convention"):  # gridded files: ensemble member, RH convention
+        if getattr(args, option, None) is not None:
+            kwargs[option] = getattr(args, option)
     paths = []
     for p in args.forecast:
         if any(ch in p for ch in "*?["):
@@ -290,8 +293,8 @@ def build_parser() -> argparse.ArgumentParser:
             nargs="+",
             required=True,
             metavar="FILE",
-            help="forecast file(s): profile JSON/CSV or CF-NetCDF; several files "
-            "(lead times, or a glob) form one forecast",
+            help="forecast file(s): GRIB1/GRIB2, CF or data-service NetCDF, WRF output, "
+            "profile JSON/CSV; several files (lead times, or a glob) form one forecast",
         )
         sp.add_argument(
             "--radius-km",
@@ -312,6 +315,20 @@ def build_parser() -> argparse.ArgumentParser:
             metavar="KEY=NAME",
             help="map a quantity to a NetCDF variable name, e.g. "
             "--var temperature=TMP (repeatable)",
+        )
+        sp.add_argument(
+            "--member",
+            type=int,
+            default=None,
+            metavar="N",
+            help="ensemble member to read from a file with several (GRIB number)",
+        )
+        sp.add_argument(
+            "--rh-convention",
+            choices=("water", "ifs-mixed", "ncep-gfs", "ice"),
+            default=None,
+            help="what the file's relative humidity is relative to below 0 C, when the "
+            "file does not say (default: from the file; unknown is read as over water)",
         )
         sp.add_argument(
             "--air-mass",

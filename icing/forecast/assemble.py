@@ -30,6 +30,7 @@ from icing.calc.thermo import (
     specific_humidity_from_relative_humidity,
     vertical_velocity_from_omega,
 )
+from icing.constants import RD, G
 
 __all__ = ["ColumnSpec", "assemble_columns", "specific_humidity_of", "fill_along_levels"]
 
@@ -50,6 +51,9 @@ class ColumnSpec:
     """Height levels are above the surface (add the surface height)."""
     omega: bool = False
     """``vertical_velocity`` holds omega [Pa/s] (to convert)."""
+    ground_unknown: bool = False
+    """Neither surface pressure nor surface height: the ground is taken at mean sea level
+    (the lowest ground there is) so that levels beneath are below the ground."""
 
 
 def specific_humidity_of(levels, humidity):
@@ -125,6 +129,33 @@ def _vertical_coordinates(vals, m, spec, cols):
     cols["height"] = z
 
 
+def _sea_level_ground(cols):
+    """Pressure at mean sea level in each column: the ground when the file gives none.
+
+    A pressure level under the ground carries values extrapolated by the model's
+    post-processing; without surface pressure or orography the only ground known
+    for certain is mean sea level (0 m). The pressure there is interpolated (linear
+    in ln p) between the levels around 0 m, or, when every level lies above sea
+    level, carried down from the lowest one hypsometrically. Given as the columns'
+    surface pressure, it makes the diagnosis treat the levels beneath as below the
+    ground (so the lowest usable level is the lowest above sea level); the surface
+    height stays unknown (heights above ground are not invented).
+    """
+    z, p, t = cols["height"], cols["pressure"], cols["temperature"]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        above = np.isfinite(z) & (z >= 0.0)
+        k = np.argmax(above, axis=-1)
+        rows = np.arange(z.shape[0])
+        k0 = np.maximum(k - 1, 0)
+        z0, z1 = z[rows, k0], z[rows, k]
+        lnp = np.log(p)
+        w = np.where(z1 > z0, (0.0 - z0) / (z1 - z0), 0.0)
+        inside = lnp[rows, k0] + w * (lnp[rows, k] - lnp[rows, k0])
+        down = lnp[rows, 0] + G * z[rows, 0] / (RD * t[rows, 0])  # all levels above 0 m
+        lnp0 = np.where(k > 0, inside, down)
+        return np.where(above.any(axis=-1), np.exp(lnp0), np.nan)
+
+
 def assemble_columns(vals, m, spec: ColumnSpec) -> dict:
     """Turn interpolated values (SI, surface first) into ``diagnose_columns`` keyword arrays.
 
@@ -154,6 +185,8 @@ def assemble_columns(vals, m, spec: ColumnSpec) -> dict:
     if spec.vertical == "pressure":
         z = vals.get("height")
         cols["height"] = z if z is not None else _hypsometric_heights(cols, spec.humidity)
+    if spec.ground_unknown:
+        cols["surface_pressure"] = _sea_level_ground(cols)
     for key in _HYDROMETEORS:
         if key in vals:
             cols[key] = np.maximum(vals[key], 0.0)

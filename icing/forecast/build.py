@@ -2,22 +2,35 @@
 
 Every gridded reader opens its file as an xarray Dataset of raw variables (lazy)
 with a :class:`~icing.forecast.fields.RawVariable` behind each, then hands it
-here: the same steps find the variables (:mod:`icing.forecast.discovery`),
-the coordinates, valid times and grid mapping, convert units once
-(:mod:`icing.forecast.units`) and bring every level variable to the
-temperature's levels. Each step is a function over ``(dataset, kinds)``
-(``kinds`` the dimension kinds of :func:`~icing.forecast.discovery.dimension_kinds`).
+here: the same steps find the variables (:mod:`icing.forecast.discovery`), the
+frame, times and grid mapping (:mod:`icing.forecast.coords`), convert units once
+(:mod:`icing.forecast.units`), check the values for unit slips
+(:mod:`icing.forecast.plausibility`), bring every level variable to the
+temperature's levels, and apply the conversions that need several variables
+(:mod:`icing.forecast.conversions`: humidity conventions, mixing ratios,
+earth-relative winds). Every step leaves its trace in the provenance.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
 
 from icing.constants import G
 from icing.errors import ForecastError
+from icing.forecast import conversions, plausibility
+from icing.forecast.conventions import humidity_convention
+from icing.forecast.coords import (
+    check_monotonic,
+    coordinate_si,
+    grid_mapping,
+    issue_time,
+    layout_of,
+    level_coordinates,
+    valid_times,
+)
 from icing.forecast.dataset import GridSource
 from icing.forecast.discovery import (
     HUMIDITY_KEYS,
@@ -25,23 +38,26 @@ from icing.forecast.discovery import (
     VAR_KEYS,
     check_var_map,
     dimension_kinds,
+    files_variables,
     find_variable,
+    is_mixing_ratio,
     level_dim_of,
 )
 from icing.forecast.fields import FileField, LevelRegridField
+from icing.forecast.gribparams import MIXING_RATIO_NOTE
 from icing.forecast.interp import level_weights
-from icing.forecast.units import conversion_of, linear, units_of
+from icing.forecast.units import Conversion, conversion_of
 
-__all__ = [
-    "Layout",
-    "build_grid_source",
-    "horizontal_dims",
-    "valid_times",
-    "issue_time",
-    "grid_mapping",
-    "coordinate_si",
-]
+__all__ = ["build_grid_source", "CLOUD_WATER_NOTE"]
 
+#: how model cloud water is used (said in the provenance of cloud_liquid)
+CLOUD_WATER_NOTE = (
+    "grid-box mean mass fraction; divided by the layer cloud fraction to an in-cloud "
+    "value where the file has one, else used as it is (then it understates in-cloud "
+    "liquid); combined with the liquid diagnosed from humidity by taking the larger, "
+    "never the sum (models under-predict supercooled liquid: Forbes & Ahlgrimm 2014, "
+    "Mon. Wea. Rev. 142, 3425)"
+)
 _RH_REFUSE = 1.50
 #: optional keys searched after temperature, humidity (and pressure on height levels)
 _OPTIONAL = (
@@ -60,379 +76,304 @@ _OPTIONAL = (
 )
 
 
-@dataclass(frozen=True)
-class Layout:
-    """Where the temperature's dimensions are: the frame every other variable is read in."""
-
-    temperature: str
-    """Name of the temperature variable."""
-    y_dim: str
-    """y (latitude) dimension."""
-    x_dim: str
-    """x (longitude) dimension."""
-    level_dim: str
-    """Vertical dimension of the temperature."""
-    time_dim: str | None
-    """Valid-time dimension, None for a single-time file."""
-    other: dict = field(default_factory=dict)
-    """Other dimensions (size 1) held at index 0."""
-
-
 def _require_temperature(ds, kinds, var_map, path):
     found = find_variable(ds, kinds, "temperature", var_map, path=path)
     if found is None:
         raise ForecastError(
-            "no air temperature on levels found (standard_name "
-            "air_temperature or a common name like t, T, TMP)",
+            "no air temperature on levels found (by standard_name air_temperature, GRIB "
+            f"parameter or a name like t, TMP, Temperature_isobaric); the file has: "
+            f"{files_variables(ds, kinds)}",
             path=path,
             fix="map the temperature variable with --var temperature=NAME",
         )
     return found[0]
 
 
-def horizontal_dims(ds, kinds, name, path):
-    """Return (y_dim, x_dim) of a variable; refuse when they cannot be told."""
-    var = ds[name]
-    hx = [d for d in var.dims if kinds.get(d) in ("lon", "x")]
-    hy = [d for d in var.dims if kinds.get(d) in ("lat", "y")]
-    if len(hx) != 1 or len(hy) != 1:
-        raise ForecastError(
-            f"cannot tell the horizontal coordinates of {name!r} (dims {', '.join(var.dims)})",
-            path=path,
-            where=f"variable {name}",
-            fix="give 1-D latitude/longitude or projection_x/y coordinates with "
-            "standard_name attributes",
-        )
-    return hy[0], hx[0]
-
-
-def _layout(ds, kinds, tname, path):
-    """Return the temperature's frame; refuse model levels, extra dimensions, several times."""
-    y_dim, x_dim = horizontal_dims(ds, kinds, tname, path)
-    tvar = ds[tname]
-    level_dim = level_dim_of(ds, kinds, tvar)
-    if kinds[level_dim] == "level-unknown":
-        raise ForecastError(
-            f"vertical coordinate {level_dim!r} is neither pressure nor height (model levels?)",
-            path=path,
-            where=f"coordinate {level_dim}",
-            fix="interpolate to pressure or height levels first (units hPa/Pa or m)",
-        )
-    time_dims = [d for d in tvar.dims if kinds.get(d) == "time"]
-    other = {d: 0 for d in tvar.dims if d not in (x_dim, y_dim, level_dim, *time_dims)}
-    for d in other:
-        if ds.sizes[d] > 1:
-            raise ForecastError(
-                f"{tname!r} has an extra dimension {d!r} of size {ds.sizes[d]}",
-                path=path,
-                where=f"variable {tname}",
-                fix="select one member/realisation before screening",
-            )
-    if len(time_dims) > 1:
-        raise ForecastError(
-            f"{tname!r} has several time dimensions",
-            path=path,
-            where=f"variable {tname}",
-            fix="give valid times along one dimension",
-        )
-    time_dim = time_dims[0] if time_dims else None
-    return Layout(tname, y_dim, x_dim, level_dim, time_dim, other)
-
-
-def _datetimes(values):
-    return np.asarray(values).astype("datetime64[ms]")
-
-
-def _is_reference_time(name, var):
-    return str(var.attrs.get("standard_name", "")) == "forecast_reference_time" or name in (
-        "forecast_reference_time",
-        "reftime",
-    )
-
-
-def valid_times(ds, time_dim, tname, path):
-    """Return the valid times along ``time_dim`` (or the one scalar valid time), datetime64[ms]."""
-    if time_dim is not None:
-        tc = ds.variables[time_dim]
-        if not np.issubdtype(tc.dtype, np.datetime64):
-            tc = next(
-                v
-                for n, v in ds.coords.items()
-                if v.dims == (time_dim,) and np.issubdtype(v.dtype, np.datetime64)
-            )
-        times = _datetimes(tc.values)
-    else:
-        scal = [
-            v
-            for n, v in ds.coords.items()
-            if v.ndim == 0
-            and np.issubdtype(v.dtype, np.datetime64)
-            and not _is_reference_time(n, v)
-        ]
-        if not scal:
-            raise ForecastError(
-                "no valid time found",
-                path=path,
-                where=f"variable {tname}",
-                fix="add a time coordinate (CF units 'hours since ...')",
-            )
-        times = _datetimes(np.atleast_1d(scal[0].values))
-    if np.any(np.isnat(times)):
-        raise ForecastError(
-            "undecodable valid time",
-            path=path,
-            where=f"dimension {time_dim}",
-            fix="give CF time units such as 'hours since 2027-01-14 00:00:00'",
-        )
-    return times
-
-
-def issue_time(ds):
-    """Return the forecast reference time (scalar coordinate), or None."""
-    issue = None
-    for n, v in ds.coords.items():
-        if _is_reference_time(n, v) and v.ndim == 0 and np.issubdtype(v.dtype, np.datetime64):
-            issue = np.datetime64(v.values, "ms")
-    return issue
-
-
-def grid_mapping(ds, kinds, lay, path):
-    """Return (crs, grid description, CF attributes, notes) of the temperature's grid."""
-    tname, x_dim, y_dim = lay.temperature, lay.x_dim, lay.y_dim
-    if kinds[x_dim] != "x":
-        if kinds[x_dim] != "lon" or kinds[y_dim] != "lat":
-            raise ForecastError(
-                f"mixed horizontal coordinates {y_dim}/{x_dim}",
-                path=path,
-                where=f"variable {tname}",
-                fix="give latitude-longitude or x/y",
-            )
-        return None, "latitude-longitude", None, []
-    gm_name = ds[tname].attrs.get("grid_mapping")
-    if not gm_name or gm_name not in ds.variables:
-        raise ForecastError(
-            f"projected coordinates {x_dim}/{y_dim} without a grid_mapping",
-            path=path,
-            where=f"variable {tname}",
-            fix="add the CF grid_mapping attribute and variable",
-        )
-    from pyproj import CRS
-
-    attrs = dict(ds[gm_name].attrs)
-    try:
-        crs = CRS.from_cf(attrs)
-    except Exception as exc:
-        raise ForecastError(
-            f"grid mapping not understood ({exc})",
-            path=path,
-            where=f"variable {gm_name}",
-            fix="give CF grid_mapping attributes",
-        ) from None
-    grid = f"projected ({attrs.get('grid_mapping_name', crs.name)})"
-    note = "grid mapping: " + ", ".join(
-        f"{k}={np.asarray(v).tolist()}" for k, v in attrs.items() if k != "crs_wkt"
-    )
-    return crs, grid, attrs, [note]
-
-
-def coordinate_si(ds, dim, kind, *, projected, path):
-    """Return a coordinate's values in SI: x/y in m (projected), pressure in Pa, height in m."""
-    c = ds.variables[dim]
-    vals = np.asarray(c.values, dtype=float)
-    u = units_of(c)
-    where = f"coordinate {dim}"
-    if kind in ("x", "y") and projected:
-        conv = linear(u or "m", "m", path=path, name=where)
-        return vals * conv[0] + conv[1] if conv else vals
-    if kind not in ("pressure", "height"):
-        return vals
-    target = "Pa" if kind == "pressure" else "m"
-    if u is None:
-        raise ForecastError(
-            f"vertical coordinate {dim!r} has no units",
-            path=path,
-            where=where,
-            fix="add units (hPa, Pa or m)",
-        )
-    conv = linear(u, target, path=path, name=where)
-    if conv is None and kind == "height":
-        c2 = linear(u, "m2 s-2", path=path, name=where)
-        conv = None if c2 is None else (c2[0] / G, c2[1] / G)
-    if conv is None:
-        raise ForecastError(
-            f"units {u!r} of {dim!r} are not {target}",
-            path=path,
-            where=where,
-            fix="give hPa, Pa or m",
-        )
-    return vals * conv[0] + conv[1]
-
-
-def _check_monotonic(dim, vals, path):
-    d = np.diff(vals)
-    if vals.size < 2 or not (np.all(d > 0) or np.all(d < 0)):
-        raise ForecastError(
-            f"coordinate {dim!r} is not strictly monotonic with 2+ points",
-            path=path,
-            where=f"coordinate {dim}",
-            fix="give a regular grid with at least 2 points per axis",
-        )
-
-
 @dataclass(frozen=True)
 class _Found:
-    """One variable found for a key, with its conversion and a sample column in SI."""
+    """One variable found for a key, its conversion, and a sample of its values in SI."""
 
     key: str
     name: str
     how: str
-    conversion: object
+    conversion: Conversion
     level_dim: str | None
     sample: np.ndarray
+    mixing_ratio: bool = False
+    extra: tuple = ()
 
 
-def _sample_column(ds, lay, var, level_dim):
-    """Read the variable at the grid's first point and first time (a quick plausibility look)."""
-    idx = {lay.y_dim: 0, lay.x_dim: 0, **lay.other}
+def _sample(ds, lay, var, level_dim):
+    """Read the variable at up to 6 x 6 columns spread over the grid, first time."""
+    idx = {
+        lay.y_dim: slice(0, None, max(1, ds.sizes[lay.y_dim] // 6)),
+        lay.x_dim: slice(0, None, max(1, ds.sizes[lay.x_dim] // 6)),
+        **lay.other,
+    }
     if lay.time_dim:
         idx[lay.time_dim] = 0
     idx = {d: i for d, i in idx.items() if d in var.dims}
     for d in var.dims:
         if d not in idx and d != level_dim and ds.sizes[d] == 1:
             idx[d] = 0
-    return np.asarray(var.isel(idx).values, dtype=float)
+    sub = var.isel(idx)
+    order = [d for d in (level_dim, lay.y_dim, lay.x_dim) if d in sub.dims]
+    return np.asarray(sub.transpose(*order).values, dtype=float)
 
 
-def _find(ds, kinds, lay, key, var_map, path):
-    res = find_variable(ds, kinds, key, var_map, path=path, hdims=(lay.y_dim, lay.x_dim))
+def _find(ds, kinds, lay, key, var_map, path, vertical=None):
+    res = find_variable(
+        ds, kinds, key, var_map, path=path, hdims=(lay.y_dim, lay.x_dim), vertical=vertical
+    )
     if res is None:
         return None
     name, how = res
     var = ds[name]
     ld = level_dim_of(ds, kinds, var) if key in LEVEL_KEYS else None
-    sample = _sample_column(ds, lay, var, ld)
+    sample = _sample(ds, lay, var, ld)
     conv = conversion_of(key, var, path=path, name=name, sample=sample)
-    return _Found(key, name, how, conv, ld, sample * conv.scale + conv.offset)
+    si = sample * conv.scale + conv.offset
+    derived = var.attrs.get("derived_from")
+    extra = (f"from {derived}",) if derived else ()
+    return _Found(key, name, how, conv, ld, si, is_mixing_ratio(ds, name) and not derived, extra)
 
 
-def _check_temperature(found, path):
-    t = found.sample
-    with np.errstate(invalid="ignore"):
-        if np.nanmax(t, initial=-np.inf) > 360 or np.nanmin(t, initial=np.inf) < 150:
-            raise ForecastError(
-                f"temperatures {np.nanmin(t):.1f}..{np.nanmax(t):.1f} K are "
-                f"implausible (units attribute {found.conversion.units!r})",
-                path=path,
-                where=f"variable {found.name}",
-                fix="correct the units attribute (K or degC)",
-            )
-
-
-def _check_relative_humidity(found, path):
-    rh = found.sample
-    with np.errstate(invalid="ignore"):
-        if np.nanmax(rh, initial=0.0) > _RH_REFUSE:
-            raise ForecastError(
-                f"relative humidity up to {100 * np.nanmax(rh):.0f} % "
-                f"(units attribute {found.conversion.units!r})",
-                path=path,
-                where=f"variable {found.name}",
-                fix="give % or a fraction and set the units attribute",
-            )
+def _require(ds, kinds, lay, key, var_map, path, vertical, what):
+    f = _find(ds, kinds, lay, key, var_map, path, vertical)
+    if f is None:
+        raise ForecastError(
+            f"no {what} found; the file has: {files_variables(ds, kinds)}",
+            path=path,
+            fix=f"map it with --var {key}=NAME",
+        )
+    return f
 
 
 def _find_all(ds, kinds, lay, vertical, var_map, path):
-    """Every key found, temperature and humidity required (height-level files: pressure)."""
+    """Find every key: temperature, a humidity, and pressure (and height) off pressure levels."""
     found = {"temperature": _find(ds, kinds, lay, "temperature", var_map, path)}
-    _check_temperature(found["temperature"], path)
     for hum in HUMIDITY_KEYS:
-        f = _find(ds, kinds, lay, hum, var_map, path)
+        f = _find(ds, kinds, lay, hum, var_map, path, vertical)
         if f is not None:
             found[hum] = f
             break
     else:
         raise ForecastError(
-            "no humidity variable found (relative_humidity, "
-            "dew_point_temperature or specific_humidity)",
+            "no humidity variable found (relative_humidity, dew_point_temperature or "
+            f"specific_humidity, on {vertical} levels); the file has: "
+            f"{files_variables(ds, kinds)}",
             path=path,
             fix="map one with --var relative_humidity=NAME (or dewpoint=, specific_humidity=)",
         )
-    if "relative_humidity" in found:
-        _check_relative_humidity(found["relative_humidity"], path)
-    if vertical == "height":
-        f = _find(ds, kinds, lay, "pressure", var_map, path)
-        if f is None:
-            raise ForecastError(
-                f"no {VAR_KEYS['pressure']} found",
-                path=path,
-                fix="map it with --var pressure=NAME",
-            )
-        found["pressure"] = f
+    if vertical in ("height", "model"):
+        found["pressure"] = _require(
+            ds, kinds, lay, "pressure", var_map, path, vertical, VAR_KEYS["pressure"]
+        )
+    if vertical == "model":
+        found["height"] = _require(
+            ds, kinds, lay, "height", var_map, path, vertical, "height of the model levels"
+        )
     for key in _OPTIONAL:
-        if key == "height" and vertical == "height":
+        if key in found or (key == "height" and vertical == "height"):
             continue
-        f = _find(ds, kinds, lay, key, var_map, path)
+        f = _find(ds, kinds, lay, key, var_map, path, vertical)
         if f is not None:
             found[key] = f
     return found
 
 
-def _level_sets(ds, kinds, found, lay, vertical, path):
-    """SI values of every level dimension in use; refuse a mix of level kinds."""
-    lev = lay.level_dim
-    coords = {lev: coordinate_si(ds, lev, vertical, projected=False, path=path)}
-    for f in found.values():
-        ld = f.level_dim
-        if ld is None or ld in coords:
-            continue
-        if kinds[ld] != vertical:
-            raise ForecastError(
-                f"{f.name!r} is on {kinds[ld]} levels but {lay.temperature!r} "
-                f"on {vertical} levels",
-                path=path,
-                where=f"variable {f.name}",
-                fix="give all level variables on one kind of level",
+def _corrected_geopotential(f, level_coords, vertical, path):
+    """Heights that are geopotential labelled metres, divided by g (said)."""
+    if vertical != "pressure" or f.level_dim is None:
+        return f
+    p = level_coords[f.level_dim].reshape((-1,) + (1,) * (f.sample.ndim - 1))
+    if not plausibility.geopotential_as_metres(f.sample, p, name=f.name, path=path):
+        return f
+    conv = replace(f.conversion, scale=f.conversion.scale / G, offset=f.conversion.offset / G)
+    note = f"values are geopotential (m2 s-2) labelled {f.conversion.units!r}: divided by g"
+    return replace(f, conversion=conv, sample=f.sample / G, extra=f.extra + (note,))
+
+
+def _corrected_orography(f):
+    """Surface heights above 9 km labelled metres are geopotential: divided by g (said)."""
+    with np.errstate(invalid="ignore"):
+        top = np.nanmax(f.sample) if np.isfinite(f.sample).any() else 0.0
+    if not 9000.0 * 1.2 < top < 9000.0 * G:
+        return f
+    conv = replace(f.conversion, scale=f.conversion.scale / G, offset=f.conversion.offset / G)
+    note = f"values up to {top:.0f} are geopotential labelled {f.conversion.units!r}: divided by g"
+    return replace(f, conversion=conv, sample=f.sample / G, extra=f.extra + (note,))
+
+
+def _checked(found, level_coords, lay, vertical, path):
+    """Refuse implausible values; correct the unambiguous slips (said in the provenance)."""
+    t = found["temperature"]
+    plausibility.check_temperature(t.sample, name=t.name, units=t.conversion.units, path=path)
+    if "relative_humidity" in found:
+        r = found["relative_humidity"]
+        plausibility.check_relative_humidity(
+            r.sample, name=r.name, units=r.conversion.units, path=path
+        )
+    if "height" in found:
+        found["height"] = _corrected_geopotential(found["height"], level_coords, vertical, path)
+    if "surface_height" in found:
+        found["surface_height"] = _corrected_orography(found["surface_height"])
+    levels = level_coords[lay.level_dim]
+    for key, sign in (("height", 1.0), ("pressure", -1.0)):
+        f = found.get(key)
+        if f is not None and f.level_dim == lay.level_dim and vertical != key:
+            plausibility.check_monotonic_heights(
+                sign * f.sample, levels, name=f.name, vertical=vertical, path=path
             )
-        coords[ld] = coordinate_si(ds, ld, kinds[ld], projected=False, path=path)
-    return coords
+    return found
 
 
-def _provenance(f):
-    out = {"name": f.name, "found_by": f.how, "units": f.conversion.units}
-    if f.conversion.transform == "omega":
-        out["converted"] = "omega to w = -omega / (rho g)"
-    return out
+def _missing_levels(weights, levels, vertical):
+    """List the forecast's levels a variable lacks, surface first, in words."""
+    _, _, _, valid = weights
+    order = np.argsort(-levels) if vertical == "pressure" else np.argsort(levels)
+    lacking = [levels[i] for i in order if not valid[i]]
+    if not lacking:
+        return None
+    if vertical == "pressure":
+        return ", ".join(f"{v / 100:g}" for v in lacking) + " hPa"
+    return ", ".join(f"{v:g}" for v in lacking) + " m"
 
 
-def _fields(found, lay, level_coords, vertical, raw_of, notes):
+def _file_fields(found, lay, level_coords, vertical, raw_of, notes):
     """One lazy SI field per key, level variables brought to the temperature's levels."""
-    fields = {}
+    fields, missing = {}, {}
+    levels = level_coords[lay.level_dim]
     for key, f in found.items():
+        raw = raw_of(f.name)
         fld = FileField(
-            raw_of(f.name),
+            raw,
             lay.y_dim,
             lay.x_dim,
-            lay.time_dim if lay.time_dim in raw_of(f.name).dims else None,
+            lay.time_dim if lay.time_dim in raw.dims else None,
             f.level_dim,
-            tuple((d, i) for d, i in lay.other.items() if d in raw_of(f.name).dims),
+            tuple((d, i) for d, i in lay.other.items() if d in raw.dims),
             f.conversion.scale,
             f.conversion.offset,
             label=f.name,
         )
         if f.level_dim is not None and f.level_dim != lay.level_dim:
-            w = level_weights(
-                level_coords[f.level_dim], level_coords[lay.level_dim], log=vertical == "pressure"
-            )
+            w = level_weights(level_coords[f.level_dim], levels, log=vertical == "pressure")
             fld = LevelRegridField(fld, w, label=f.name)
+            missing[key] = _missing_levels(w, levels, vertical)
             notes.append(
                 f"{f.name} is on its own levels ({f.level_dim}); interpolated "
                 f"to the {lay.level_dim} levels"
+                + (f", missing at {missing[key]}" if missing[key] else "")
             )
         fields[key] = fld
-    return fields
+    return fields, missing
 
 
-def build_grid_source(ds, path, raw_of, *, var_map=None, fmt="CF-NetCDF", notes=()):
+def _humidity_conversion(fields, found, file_attrs, raw_attrs, rh_convention):
+    """Bring relative humidity to over water; return the provenance text."""
+    if "relative_humidity" not in fields:
+        hum = next(h for h in HUMIDITY_KEYS if h in fields)
+        return {hum: "not applicable (no relative humidity; vapour from " + hum + ")"}
+    conv, how = humidity_convention(raw_attrs("relative_humidity"), file_attrs, rh_convention)
+    if conv.name not in ("water", "unknown"):
+        fields["relative_humidity"] = conversions.water_relative_humidity(
+            fields["relative_humidity"], fields["temperature"], conv, label="rh-water"
+        )
+        text = f"{conv.name}: {conv.description}; converted to over water ({how}; {conv.source})"
+    elif conv.name == "water":
+        text = f"water: {conv.description} ({how}; {conv.source})"
+    else:
+        text = f"unknown: {conv.description} ({how})"
+    return {"relative_humidity": text}
+
+
+def _mixing_ratios(fields, found, vertical, levels, converted):
+    """Mixing ratios (per kg of dry air) to mass fractions (per kg of moist air)."""
+    hum = next(h for h in HUMIDITY_KEYS if h in fields)
+    if hum == "specific_humidity" and found[hum].mixing_ratio:
+        fields[hum] = conversions.specific_from_mixing_ratio(fields[hum], label="q-from-r")
+        converted[hum] = "vapour " + MIXING_RATIO_NOTE + ": q = r / (1 + r)"
+    pressure = levels if vertical == "pressure" else fields["pressure"]
+    for key in ("cloud_liquid", "cloud_ice", "rain", "snow"):
+        if key in fields and found[key].mixing_ratio:
+            fields[key] = conversions.mass_fraction_from_mixing_ratio(
+                fields[key], hum, fields[hum], fields["temperature"], pressure, label=key
+            )
+            converted[key] = MIXING_RATIO_NOTE + ": q = r (1 - q_v)"
+
+
+def _winds(fields, raw_attrs, crs, y, x, converted):
+    """Grid-relative winds (GRIB flag, WRF) to earth-relative on projected or rotated grids."""
+    if crs is None or not {"wind_u", "wind_v"} <= set(fields):
+        return
+    relative = [
+        int(raw_attrs(k).get("GRIB_uvRelativeToGrid", 0) or 0) for k in ("wind_u", "wind_v")
+    ]
+    if not any(relative):
+        return
+    fields["wind_u"], fields["wind_v"] = conversions.earth_relative_winds(
+        fields["wind_u"], fields["wind_v"], crs, y, x, labels=("u-earth", "v-earth")
+    )
+    for key in ("wind_u", "wind_v"):
+        converted[key] = "grid-relative wind rotated to earth-relative"
+
+
+def _provenance(found, missing, converted, conventions):
+    """Per-variable provenance: source name, how found, units, conversions, conventions."""
+    out = {}
+    for key, f in found.items():
+        p = {"name": f.name, "found_by": f.how, "units": f.conversion.units}
+        notes = []
+        if f.conversion.transform == "omega":
+            notes.append("omega to w = -omega / (rho g)")
+        notes += list(f.extra)
+        if key in converted:
+            notes.append(converted[key])
+        if notes:
+            p["converted"] = "; ".join(notes)
+        if key in conventions:
+            p["humidity_convention"] = conventions[key]
+        if missing.get(key):
+            p["missing_levels"] = missing[key]
+        if key == "cloud_liquid":
+            p["cloud_water"] = CLOUD_WATER_NOTE
+        out[key] = p
+    return out
+
+
+def _frame(ds, kinds, lay, path, notes):
+    """Return times, grid mapping and horizontal axes of the temperature's frame."""
+    times = valid_times(ds, lay.time_dim, lay.temperature, path)
+    crs, grid, gm_attrs, gm_notes = grid_mapping(ds, kinds, lay, path)
+    notes += gm_notes
+    projected = crs is not None and not crs.is_geographic
+    x = coordinate_si(ds, lay.x_dim, kinds[lay.x_dim], projected=projected, path=path)
+    y = coordinate_si(ds, lay.y_dim, kinds[lay.y_dim], projected=projected, path=path)
+    for dim, vals in ((lay.x_dim, x), (lay.y_dim, y)):
+        check_monotonic(dim, vals, path)
+    return times, crs, grid, gm_attrs, y, x
+
+
+def _above_ground(ds, lay, vertical, found, path, notes):
+    std_z = str(ds.variables[lay.level_dim].attrs.get("standard_name", ""))
+    above = vertical == "height" and std_z == "height"
+    if above:
+        if "surface_height" not in found:
+            raise ForecastError(
+                "height levels are above ground (standard_name height) but "
+                "the file has no surface height",
+                path=path,
+                where="vertical coordinate",
+                fix="add surface_altitude or map one with --var surface_height=NAME",
+            )
+        notes.append("height levels are above ground (standard_name height)")
+    return above
+
+
+def build_grid_source(
+    ds, path, raw_of, *, var_map=None, fmt="CF-NetCDF", notes=(), rh_convention=None
+):
     """Find everything a screening needs in an opened gridded file.
 
     Parameters
@@ -449,46 +390,38 @@ def build_grid_source(ds, path, raw_of, *, var_map=None, fmt="CF-NetCDF", notes=
         What the file is, for the provenance.
     notes : sequence of str
         What the reader already did, for the provenance.
+    rh_convention : str, optional
+        The relative humidity's convention when the user states it
+        (:data:`icing.forecast.conventions.CONVENTIONS`).
 
     Returns
     -------
     GridSource
     """
-    path = Path(path)
+    path, notes = Path(path), list(notes)
     var_map = dict(var_map or {})
     check_var_map(ds, var_map, path=path)
     kinds = dimension_kinds(ds)
-    lay = _layout(ds, kinds, _require_temperature(ds, kinds, var_map, path), path)
-    times = valid_times(ds, lay.time_dim, lay.temperature, path)
-    crs, grid, gm_attrs, gm_notes = grid_mapping(ds, kinds, lay, path)
-    notes = list(notes) + gm_notes
-    projected = crs is not None and not crs.is_geographic
-    x = coordinate_si(ds, lay.x_dim, kinds[lay.x_dim], projected=projected, path=path)
-    y = coordinate_si(ds, lay.y_dim, kinds[lay.y_dim], projected=projected, path=path)
-    for dim, vals in ((lay.x_dim, x), (lay.y_dim, y)):
-        _check_monotonic(dim, vals, path)
+    lay = layout_of(ds, kinds, _require_temperature(ds, kinds, var_map, path), path)
+    times, crs, grid, gm_attrs, y, x = _frame(ds, kinds, lay, path, notes)
     vertical = kinds[lay.level_dim]
-    std_z = str(ds.variables[lay.level_dim].attrs.get("standard_name", ""))
-    above_ground = vertical == "height" and std_z == "height"
     found = _find_all(ds, kinds, lay, vertical, var_map, path)
-    if above_ground:
-        if "surface_height" not in found:
-            raise ForecastError(
-                "height levels are above ground (standard_name height) but "
-                "the file has no surface height",
-                path=path,
-                where="vertical coordinate",
-                fix="add surface_altitude or map one with --var surface_height=NAME",
-            )
-        notes.append("height levels are above ground (standard_name height)")
-    level_coords = _level_sets(ds, kinds, found, lay, vertical, path)
-    fields = _fields(found, lay, level_coords, vertical, raw_of, notes)
+    above_ground = _above_ground(ds, lay, vertical, found, path, notes)
+    level_dims = {f.name: f.level_dim for f in found.values() if f.key != "temperature"}
+    level_coords = level_coordinates(ds, kinds, level_dims, lay, vertical, path, notes)
+    found = _checked(found, level_coords, lay, vertical, path)
+    fields, missing = _file_fields(found, lay, level_coords, vertical, raw_of, notes)
+    raw_attrs = lambda key: dict(ds[found[key].name].attrs)  # noqa: E731
+    conventions = _humidity_conversion(fields, found, dict(ds.attrs), raw_attrs, rh_convention)
+    converted = {}
+    _mixing_ratios(fields, found, vertical, level_coords[lay.level_dim], converted)
+    _winds(fields, raw_attrs, crs, y, x, converted)
     chunks = ds[lay.temperature].encoding.get("chunksizes")
     return GridSource(
         path=path,
         format=fmt,
         fields=fields,
-        provenance={k: _provenance(f) for k, f in found.items()},
+        provenance=_provenance(found, missing, converted, conventions),
         times=times,
         issue_time=issue_time(ds),
         y=y,

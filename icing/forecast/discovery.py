@@ -1,9 +1,14 @@
 """Which variable of a file is which quantity, and what each dimension is.
 
 Discovery order (the first hit wins): the user's mapping (``--var KEY=NAME``),
-CF ``standard_name``, then the common model-output names. A mapped variable of
-the wrong shape is refused; a variable found by a name must have the expected
-vertical dimension (a level variable on levels, a surface variable without).
+CF ``standard_name``, GRIB parameter identity (:mod:`icing.forecast.gribparams`:
+GRIB files, cfgrib output, netCDF-Java/THREDDS translations), then names (the
+common model-output names and the netCDF-Java GRIB names such as
+``Temperature_isobaric``; a ``standard_name`` holding a non-CF name counts as a
+name) and long names (``Temperature @ Isobaric surface``). A mapped variable of
+the wrong shape is refused; a variable found otherwise must have the expected
+vertical dimension (a level variable on levels of the temperature's kind, a
+surface variable without levels).
 
 The functions work on an xarray Dataset and its dimension kinds
 (:func:`dimension_kinds`), so every gridded reader (CF-NetCDF, service NetCDF,
@@ -15,6 +20,7 @@ from __future__ import annotations
 import numpy as np
 
 from icing.errors import ForecastError
+from icing.forecast.gribparams import grib_identity
 from icing.forecast.units import is_dimension
 
 __all__ = [
@@ -29,6 +35,8 @@ __all__ = [
     "check_var_map",
     "candidates",
     "find_variable",
+    "SURFACE_KEYS",
+    "files_variables",
 ]
 
 VAR_KEYS = {
@@ -117,6 +125,75 @@ COMMON_NAMES = {
     ),
 }
 
+#: netCDF-Java (THREDDS) names of GRIB variables, searched with the common names
+SERVICE_NAMES = {
+    "temperature": ("Temperature_isobaric", "Temperature_height_above_sea"),
+    "relative_humidity": ("Relative_humidity_isobaric",),
+    "dewpoint": ("Dewpoint_temperature_isobaric", "Dew_point_temperature_isobaric"),
+    "specific_humidity": ("Specific_humidity_isobaric",),
+    "height": ("Geopotential_height_isobaric",),
+    "pressure": ("Pressure_height_above_sea", "Pressure_hybrid"),
+    "cloud_liquid": ("Cloud_mixing_ratio_isobaric", "Cloud_water_isobaric"),
+    "cloud_ice": ("Ice_water_mixing_ratio_isobaric", "Cloud_ice_mixing_ratio_isobaric"),
+    "rain": ("Rain_mixing_ratio_isobaric",),
+    "snow": ("Snow_mixing_ratio_isobaric",),
+    "cloud_fraction": ("Total_cloud_cover_isobaric", "Fraction_of_cloud_cover_isobaric"),
+    "vertical_velocity": (
+        "Vertical_velocity_pressure_isobaric",
+        "Vertical_velocity_geometric_isobaric",
+    ),
+    "wind_u": ("u-component_of_wind_isobaric",),
+    "wind_v": ("v-component_of_wind_isobaric",),
+    "precipitation_rate": ("Precipitation_rate_surface",),
+    "surface_pressure": ("Pressure_surface",),
+    "surface_height": ("Geopotential_height_surface", "Model_terrain_height_surface"),
+}
+#: long names (lower case, before any " @ ") -> key
+LONG_NAMES = {
+    "temperature": "temperature",
+    "air temperature": "temperature",
+    "relative humidity": "relative_humidity",
+    "dew point temperature": "dewpoint",
+    "dewpoint temperature": "dewpoint",
+    "specific humidity": "specific_humidity",
+    "geopotential height": "height",
+    "geopotential": "height",
+    "pressure": "pressure",
+    "cloud mixing ratio": "cloud_liquid",
+    "cloud water mixing ratio": "cloud_liquid",
+    "specific cloud liquid water content": "cloud_liquid",
+    "ice water mixing ratio": "cloud_ice",
+    "specific cloud ice water content": "cloud_ice",
+    "rain mixing ratio": "rain",
+    "specific rain water content": "rain",
+    "snow mixing ratio": "snow",
+    "specific snow water content": "snow",
+    "total cloud cover": "cloud_fraction",
+    "fraction of cloud cover": "cloud_fraction",
+    "vertical velocity (pressure)": "vertical_velocity",
+    "vertical velocity (geometric)": "vertical_velocity",
+    "u-component of wind": "wind_u",
+    "v-component of wind": "wind_v",
+    "precipitation rate": "precipitation_rate",
+    "surface pressure": "surface_pressure",
+    "orography": "surface_height",
+    "model terrain height": "surface_height",
+}
+#: names whose quantity is a mixing ratio (per kg of dry air), not a mass fraction
+MIXING_RATIO_NAMES = (
+    "CLWMR",
+    "ICMR",
+    "RWMR",
+    "SNMR",
+    "QCLOUD",
+    "QICE",
+    "QRAIN",
+    "QSNOW",
+    "QVAPOR",
+)
+#: keys of fields without levels; their GRIB level type must be the surface
+SURFACE_KEYS = ("precipitation_rate", "surface_pressure", "surface_height")
+
 #: humidity keys in the order of preference
 HUMIDITY_KEYS = ("relative_humidity", "dewpoint", "specific_humidity")
 
@@ -125,7 +202,7 @@ _LON_UNITS = {"degrees_east", "degree_east", "degree_e", "degrees_e", "degreee",
 
 
 def classify_dim(ds, dim):
-    """Classify a dimension: time, lat, lon, x, y, pressure, height, or None."""
+    """Classify a dimension: time, lat, lon, x, y, pressure, height, model, or None."""
     coord = ds.variables.get(dim)
     if coord is None:
         return None
@@ -154,6 +231,8 @@ def classify_dim(ds, dim):
         or str(a.get("axis", "")).upper() == "Y"
     ):
         return "y"
+    if std == "model_level_number":
+        return "model"
     if std == "air_pressure":
         return "pressure"
     if std in ("height", "altitude", "geopotential_height"):
@@ -209,39 +288,128 @@ def check_var_map(ds, var_map, *, path):
             )
 
 
+def _cf_names():
+    return {n for names in STANDARD_NAMES.values() for n in names}
+
+
+_LEVEL_ORDER = {"isobaric": 0, "heightAboveSea": 1, "heightAboveGround": 2}
+
+
+def _grib_candidates(ds, key):
+    """Variables whose GRIB identity says ``key``, pressure levels and most levels first."""
+    found = []
+    for name in ds.data_vars:
+        var = ds.variables[name]
+        ident = grib_identity(var.attrs)
+        if ident is None or key not in ident.keys:
+            continue
+        if key in SURFACE_KEYS and ident.level_type not in (None, "surface"):
+            continue
+        rank = (_LEVEL_ORDER.get(ident.level_type, 3), -var.size)
+        found.append((rank, name, f"GRIB parameter {ident.code} ({ident.description})"))
+    return [(name, how) for _, name, how in sorted(found)]
+
+
+def _long_name_key(text):
+    text = str(text).split(" @ ")[0].strip().lower()
+    return LONG_NAMES.get(text)
+
+
 def candidates(ds, key, var_map):
     """Yield ``(name, how found)`` for ``key`` in the order of discovery."""
     if key in var_map:
         yield var_map[key], "mapping"
-    for name, var in ds.data_vars.items():
-        if str(var.attrs.get("standard_name", "")) in STANDARD_NAMES[key]:
+    cf = _cf_names()
+    attrs = {name: ds.variables[name].attrs for name in ds.data_vars}
+    for name, a in attrs.items():
+        if str(a.get("standard_name", "")) in STANDARD_NAMES[key]:
             yield name, "standard_name"
-    for name in COMMON_NAMES[key]:
-        if name in ds.data_vars:
+    yield from _grib_candidates(ds, key)
+    for name in COMMON_NAMES[key] + SERVICE_NAMES.get(key, ()):
+        if name in attrs:
             yield name, "name"
+    for name, a in attrs.items():
+        std = str(a.get("standard_name", ""))
+        if std and std not in cf and (std in COMMON_NAMES[key] or _long_name_key(std) == key):
+            yield name, f"standard_name {std!r} (not a CF name) read as a name"
+    for name, a in attrs.items():
+        if _long_name_key(a.get("long_name", "")) == key:
+            yield name, "long_name"
 
 
-def find_variable(ds, kinds, key, var_map, *, path, hdims=None):
+def is_mixing_ratio(ds, name):
+    """Tell whether a variable holds a mixing ratio (per kg of dry air), by its identity."""
+    var = ds.variables[name]
+    ident = grib_identity(var.attrs)
+    if ident is not None:
+        return ident.mixing_ratio
+    std = str(var.attrs.get("standard_name", ""))
+    long_name = str(var.attrs.get("long_name", var.attrs.get("description", ""))).lower()
+    return (
+        name in MIXING_RATIO_NAMES
+        or std.endswith("_mixing_ratio")
+        or ("mixing ratio" in long_name and "specific" not in long_name)
+    )
+
+
+def _acceptable(ds, kinds, var, key, vertical):
+    """Shape check: (fits, level kind) for a candidate of ``key``."""
+    ld = level_dim_of(ds, kinds, var)
+    if (ld is not None) != (key in LEVEL_KEYS):
+        return False, None
+    kind = None if ld is None else kinds.get(ld)
+    if ld is None or vertical is None:
+        return True, kind
+    return kind == vertical, kind
+
+
+def find_variable(ds, kinds, key, var_map, *, path, hdims=None, vertical=None):
     """Return ``(name, how found)`` of the first candidate of the right shape, or None.
 
     ``hdims`` (the horizontal dimensions of the temperature) must all be on the
-    variable. A level key needs a vertical dimension, a surface key none; a mapped
-    variable of the wrong shape is refused.
+    variable; ``vertical`` (the temperature's level kind) must be the kind of a
+    level variable's levels. A level key needs a vertical dimension, a surface key
+    none; a mapped variable of the wrong shape is refused. Levels of an unknown
+    kind are taken only when nothing better is found (and then refused by name).
     """
-    want_level = key in LEVEL_KEYS
+    fallback = None
+    seen = set()
     for name, how in candidates(ds, key, var_map):
-        var = ds[name]
+        if name in seen:
+            continue
+        seen.add(name)
+        var = ds.variables[name]
         if hdims is not None and not set(hdims) <= set(var.dims):
             continue
-        has_level = level_dim_of(ds, kinds, var) is not None
-        if has_level == want_level:
+        ok, kind = _acceptable(ds, kinds, var, key, vertical)
+        if ok and kind != "level-unknown":
             return name, how
-        if how == "mapping":
+        if ok and fallback is None:
+            fallback = (name, how)
+        if how == "mapping" and not ok:
+            want_level = key in LEVEL_KEYS
             raise ForecastError(
                 f"variable {name!r} mapped to {key} "
-                f"{'has no' if want_level else 'has a'} vertical dimension",
+                f"{'has no' if want_level else 'has a'} vertical dimension"
+                if (level_dim_of(ds, kinds, var) is not None) != want_level
+                else f"variable {name!r} mapped to {key} is on {kind} levels, not {vertical}",
                 path=path,
                 where=f"--var {key}={name}",
                 fix="map a variable of the right shape",
             )
-    return None
+    return fallback
+
+
+def files_variables(ds, kinds, *, limit=12):
+    """Describe the data variables of a file in one line (for 'not found' messages)."""
+    parts = []
+    for name in ds.data_vars:
+        var = ds.variables[name]
+        if var.ndim < 2:
+            continue
+        ld = level_dim_of(ds, kinds, var)
+        where = f"{ds.sizes[ld]} {kinds.get(ld)} levels" if ld else "no levels"
+        units = var.attrs.get("units", "no units")
+        parts.append(f"{name} ({units}, {where})")
+    more = f" and {len(parts) - limit} more" if len(parts) > limit else ""
+    return "; ".join(parts[:limit]) + more if parts else "no gridded variables"

@@ -34,6 +34,7 @@ __all__ = [
     "RawVariable",
     "NetcdfVariable",
     "read_netcdf4",
+    "lazy_raw_array",
 ]
 
 
@@ -236,3 +237,32 @@ class DerivedField(Field):
                 for b, f in zip(blocks, self.inputs, strict=True)
             ]
         return self.func(*blocks, ys=ys, xs=xs)
+
+
+def lazy_raw_array(raw: RawVariable, shape):
+    """Wrap a :class:`RawVariable` as a lazy xarray array (outer indexing, read on demand)."""
+    from xarray.backends import BackendArray
+    from xarray.core import indexing
+
+    class RawArray(BackendArray):
+        def __init__(self):
+            self.shape = tuple(shape)
+            self.dtype = np.dtype(float)
+
+        def __getitem__(self, key):
+            return indexing.explicit_indexing_adapter(
+                key, self.shape, indexing.IndexingSupport.OUTER, self._read
+            )
+
+        def _read(self, key):
+            idx, drop = {}, []
+            for axis, (d, k) in enumerate(zip(raw.dims, key, strict=True)):
+                if isinstance(k, (int, np.integer)):
+                    idx[d] = slice(int(k), int(k) + 1)
+                    drop.append(axis)
+                else:
+                    idx[d] = k
+            vals = raw.read(idx, list(raw.dims))
+            return vals.reshape([n for a, n in enumerate(vals.shape) if a not in drop])
+
+    return indexing.LazilyIndexedArray(RawArray())

@@ -147,11 +147,19 @@ class GridForecast(Forecast):
             self.humidity,
             ref.height_above_ground,
             self.variables.get("vertical_velocity", {}).get("converted", "").startswith("omega"),
+            ground_unknown=self._ground_unknown(ref),
         )
         hint = ref.tile_hint
         self.tile = int(tile or (max(8, min(64, hint)) if hint else 32))
         self.chunk = int(chunk)
         self.cache = cache if cache is not None else TileCache()
+
+    @staticmethod
+    def _ground_unknown(ref):
+        """Pressure levels without surface pressure or surface height: the ground is unknown."""
+        return ref.vertical == "pressure" and not (
+            {"surface_pressure", "surface_height"} & set(ref.fields)
+        )
 
     def with_tiling(self, *, tile=None, chunk=None):
         """Return the same forecast read with another tile size or sample chunk (fresh cache)."""
@@ -376,5 +384,16 @@ class GridForecast(Forecast):
             "shape": {"y": int(ref.y.size), "x": int(ref.x.size)},
             "variables": {k: dict(v) for k, v in self.variables.items()},
             "bounds": list(self.bounds),
-            "notes": sum((list(s.notes) for s in self.sources), []),
+            "notes": sum((list(s.notes) for s in self.sources), []) + self._ground_note(),
         }
+
+    def _ground_note(self):
+        if not self._spec.ground_unknown:
+            return []
+        return [
+            "no surface pressure or orography in the file: the ground is taken at mean sea "
+            "level, so levels whose geopotential height is below 0 m are below the ground (the "
+            "lowest usable level is the lowest above sea level); under higher ground the file "
+            "cannot tell which levels lie in the terrain: they are used as the model wrote "
+            "them, and heights above ground stay unknown"
+        ]

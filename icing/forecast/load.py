@@ -17,6 +17,7 @@ from pathlib import Path
 
 from icing.errors import ForecastError
 from icing.forecast.columns import Forecast
+from icing.forecast.grib import read_grib_forecast
 from icing.forecast.grid import GridForecast
 from icing.forecast.netcdf import read_netcdf_forecast
 from icing.forecast.points import ProfileForecast
@@ -48,12 +49,26 @@ def _is_netcdf(head, path):
     return head[:4] in (b"CDF\x01", b"CDF\x02", b"CDF\x05") or head[:8] == b"\x89HDF\r\n\x1a\n"
 
 
+def _is_grib(head, path):
+    """GRIB1 or GRIB2: "GRIB" at the start (or after a short header), an edition byte 1 or 2."""
+    at = head.find(b"GRIB", 0, 1024)
+    return at >= 0 and len(head) > at + 7 and head[at + 7] in (1, 2)
+
+
 def _is_json(head, path):
     return head.lstrip(b"\xef\xbb\xbf \t\r\n")[:1] in (b"{", b"[")
 
 
 def _is_profile_csv(head, path):
     return b"," in head[:1024]
+
+
+def _read_grib(path, *, var_map=None, member=None, rh_convention=None):
+    return read_grib_forecast(path, var_map=var_map, member=member, rh_convention=rh_convention)
+
+
+def _read_netcdf(path, *, var_map=None, member=None, rh_convention=None):
+    return read_netcdf_forecast(path, var_map=var_map, member=member, rh_convention=rh_convention)
 
 
 def _read_json(path, *, var_map=None, **_options):
@@ -66,7 +81,8 @@ def _read_csv(path, *, var_map=None, **_options):
 
 #: The readers, tried in order on the first bytes of each file.
 READERS = [
-    Reader("NetCDF", "grid", _is_netcdf, read_netcdf_forecast, (".nc", ".nc4", ".cdf")),
+    Reader("NetCDF", "grid", _is_netcdf, _read_netcdf, (".nc", ".nc4", ".cdf")),
+    Reader("GRIB", "grid", _is_grib, _read_grib, (".grib", ".grb", ".grib2", ".grb2")),
     Reader("profile JSON", "profiles", _is_json, _read_json, (".json",)),
     # Sounding formats (Wyoming text and CSV, IGRA2): register their readers here, each
     # recognising its own content and returning a ProfileTable, before the generic
@@ -118,7 +134,8 @@ def _readers_of(paths):
             raise ForecastError(
                 "unknown forecast format",
                 path=p,
-                fix="give a profile JSON, profile CSV or CF-NetCDF file",
+                fix="give GRIB1/GRIB2, CF or data-service NetCDF, WRF output, "
+                "a profile JSON or a profile CSV file",
             )
         readers.append(reader)
     kinds = [r.kind for r in readers]
@@ -131,13 +148,22 @@ def _readers_of(paths):
     return readers
 
 
-def load_forecast(paths, *, radius_km=50.0, time_tolerance_h=3.0, var_map=None) -> Forecast:
+def load_forecast(
+    paths,
+    *,
+    radius_km=50.0,
+    time_tolerance_h=3.0,
+    var_map=None,
+    member=None,
+    rh_convention=None,
+) -> Forecast:
     """Read one or several forecast files into one :class:`Forecast`.
 
     Parameters
     ----------
     paths : path-like or list of path-like
-        Profile JSON (``"format": "icing-profiles"``), profile CSV or CF-NetCDF.
+        GRIB1/GRIB2, CF or data-service NetCDF, WRF output, profile JSON
+        (``"format": "icing-profiles"``) or profile CSV, told apart by content.
         Several files (lead times) form one forecast: grids must share one
         grid and levels, valid times must not repeat.
     radius_km : float
@@ -149,7 +175,14 @@ def load_forecast(paths, *, radius_km=50.0, time_tolerance_h=3.0, var_map=None) 
     var_map : dict, optional
         Gridded files: ``{key: variable name}`` (keys: ``VAR_KEYS``). A
         mapped name is used first; unmapped keys are found by CF
-        ``standard_name``, then by common model-output names.
+        ``standard_name``, then by GRIB parameter, then by names and long names.
+    member : int, optional
+        The ensemble member to read from a file with several (GRIB ``number``,
+        NetCDF ``member``/``realization``/``number``).
+    rh_convention : str, optional
+        What the files' relative humidity is relative to, when they do not say
+        (:data:`icing.forecast.conventions.CONVENTIONS`: water, ifs-mixed, ncep-gfs,
+        ice).
 
     Returns
     -------
@@ -170,15 +203,21 @@ def load_forecast(paths, *, radius_km=50.0, time_tolerance_h=3.0, var_map=None) 
     _check_options(radius_km, time_tolerance_h)
     readers = _readers_of(paths)
     if readers[0].kind == "grid":
-        sources = [r.read(p, var_map=var_map) for r, p in zip(readers, paths, strict=True)]
+        opts = {"var_map": var_map, "member": member, "rh_convention": rh_convention}
+        sources = [r.read(p, **opts) for r, p in zip(readers, paths, strict=True)]
         return GridForecast(sources, radius_km=radius_km, time_tolerance_h=time_tolerance_h)
-    if var_map:
-        raise ForecastError(
-            "a variable mapping applies to gridded files only",
-            path=paths[0],
-            where="--var",
-            fix="drop --var for profile files",
-        )
+    for option, value in (
+        ("--var", var_map),
+        ("--member", member),
+        ("--rh-convention", rh_convention),
+    ):
+        if value:
+            raise ForecastError(
+                f"{option} applies to gridded files only",
+                path=paths[0],
+                where=option,
+                fix=f"drop {option} for profile files",
+            )
     tables = [r.read(p) for r, p in zip(readers, paths, strict=True)]
     return ProfileForecast(
         ProfileTable.concatenate(tables), radius_km=radius_km, time_tolerance_h=time_tolerance_h

@@ -1,8 +1,10 @@
-"""CF-NetCDF and data-service NetCDF forecasts: open lazily, hand to the common build.
+"""CF-NetCDF, data-service NetCDF and WRF output: open lazily, hand to the common build.
 
 The file is opened with xarray (netCDF4, else h5netcdf) for its metadata and
-with netCDF4 directly for fast block reads; :func:`icing.forecast.build.build_grid_source`
-finds the variables and yields the internal structure.
+with netCDF4 directly for fast block reads. WRF output (recognised by its global
+attributes and variables) goes through :mod:`icing.forecast.wrf`; everything else
+straight to :func:`icing.forecast.build.build_grid_source`, which finds the
+variables and yields the internal structure.
 """
 
 from __future__ import annotations
@@ -13,6 +15,7 @@ from pathlib import Path
 from icing.errors import ForecastError
 from icing.forecast.build import build_grid_source
 from icing.forecast.fields import NetcdfVariable
+from icing.forecast.wrf import is_wrf, read_wrf_forecast
 
 __all__ = ["open_netcdf", "open_netcdf4", "read_netcdf_forecast"]
 
@@ -60,8 +63,17 @@ def raw_variables(ds, nc):
     return raw_of
 
 
-def read_netcdf_forecast(path, *, var_map=None, **_options):
+def read_netcdf_forecast(path, *, var_map=None, member=None, rh_convention=None):
     """Read a CF-NetCDF (or data-service NetCDF) forecast into a GridSource."""
     path = Path(path)
     ds = open_netcdf(path)
-    return build_grid_source(ds, path, raw_variables(ds, open_netcdf4(path)), var_map=var_map)
+    raw_of = raw_variables(ds, open_netcdf4(path))
+    if is_wrf(ds):
+        return read_wrf_forecast(ds, path, raw_of, var_map=var_map, rh_convention=rh_convention)
+    return build_grid_source(
+        ds,
+        path,
+        raw_variables(ds, open_netcdf4(path)),
+        var_map=var_map,
+        rh_convention=rh_convention,
+    )
