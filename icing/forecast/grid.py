@@ -373,6 +373,7 @@ class GridForecast(Forecast):
         return {
             "kind": "grid",
             "files": self.files,
+            "format": ref.format,
             "grid": ref.grid,
             "issue_time": iso_time(issue[0]) if issue else None,
             "valid_times": [iso_time(v) for v in self.valid_times],
