@@ -13,6 +13,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+import xarray as xr
 
 from icing.errors import ForecastError, PlausibilityWarning
 from icing.forecast import load_forecast
@@ -569,3 +570,38 @@ def test_profile_csv_row_with_extra_cells_is_one_line_error(tmp_path):
     bad.write_text("\n".join(src) + "\n")
     with pytest.raises(ForecastError, match="more cells than header columns"):
         load_forecast(bad)
+
+
+def test_reference_time_and_step_become_valid_times(tmp_path):
+    # files converted from GRIB keep (reference time, step) with a 2-D valid time: read
+    # as valid times, the same columns as the file with one time axis (reading rules)
+    ds = _latlon_ds()
+    ref = np.datetime64("2027-01-14T00:00", "ns")
+    steps = (ds["time"].values - ref).astype("timedelta64[ns]")
+    two = ds.rename(time="step").assign_coords(step=steps).expand_dims(time=[ref])
+    two = two.assign_coords(valid_time=(("time", "step"), (ref + steps)[None, :]))
+    path = tmp_path / "steps.nc"
+    for var in two.variables.values():
+        var.encoding = {}
+    two.to_netcdf(path)
+    fc = load_forecast(path)
+    assert fc.valid_times.size == 3
+    t = np.datetime64("2027-01-14T09:00", "ms")
+    a = fc.columns_at([57.1], [-24.3], [t]).columns
+    b = load_forecast(LATLON).columns_at([57.1], [-24.3], [t]).columns
+    for key in b:
+        np.testing.assert_allclose(a[key], b[key], rtol=1e-6, err_msg=key)
+    assert any("(reference time, step)" in n for n in fc.describe()["notes"])
+
+
+def test_one_member_of_a_netcdf_ensemble_with_member(tmp_path):
+    ds = _latlon_ds()
+    for name in ("t", "r", "gh"):
+        ds[name] = xr.concat([ds[name], ds[name] + 1.0], dim="number").assign_coords(number=[0, 1])
+    path = _to_nc(ds, tmp_path)
+    t = np.datetime64("2027-01-14T12:00", "ms")
+    one = load_forecast(path, member=1).columns_at([57.0], [-24.5], [t]).columns["temperature"]
+    ref = load_forecast(LATLON).columns_at([57.0], [-24.5], [t]).columns["temperature"]
+    np.testing.assert_allclose(one, ref + 1.0, rtol=1e-6)  # member 1 is member 0 + 1 K
+    with pytest.raises(ForecastError, match="member 5 is not in"):
+        load_forecast(path, member=5)

@@ -110,8 +110,9 @@ def _sample(ds, lay, var, level_dim):
         lay.x_dim: slice(0, None, max(1, ds.sizes[lay.x_dim] // 6)),
         **lay.other,
     }
-    if lay.time_dim:
-        idx[lay.time_dim] = 0
+    for d in (lay.time_dim, lay.step_dim):
+        if d:
+            idx[d] = 0
     idx = {d: i for d, i in idx.items() if d in var.dims}
     for d in var.dims:
         if d not in idx and d != level_dim and ds.sizes[d] == 1:
@@ -240,22 +241,28 @@ def _missing_levels(weights, levels, vertical):
     return ", ".join(f"{v:g}" for v in lacking) + " m"
 
 
-def _file_fields(found, lay, level_coords, vertical, raw_of, notes):
+def _file_fields(found, lay, level_coords, vertical, raw_of, notes, pairs=None):
     """One lazy SI field per key, level variables brought to the temperature's levels."""
     fields, missing = {}, {}
     levels = level_coords[lay.level_dim]
     for key, f in found.items():
         raw = raw_of(f.name)
+        fixed = {d: i for d, i in lay.other.items() if d in raw.dims}
+        time_dim = lay.time_dim if lay.time_dim in raw.dims else None
+        if lay.step_dim and time_dim and lay.step_dim not in raw.dims:
+            # no step on a (reference time, step) file: valid at the latest reference time
+            fixed[time_dim], time_dim = len(np.unique([p[0] for p in pairs])) - 1, None
         fld = FileField(
             raw,
             lay.y_dim,
             lay.x_dim,
-            lay.time_dim if lay.time_dim in raw.dims else None,
+            time_dim,
             f.level_dim,
-            tuple((d, i) for d, i in lay.other.items() if d in raw.dims),
+            tuple(fixed.items()),
             f.conversion.scale,
             f.conversion.offset,
             label=f.name,
+            steps=(lay.step_dim, pairs) if lay.step_dim in raw.dims else None,
         )
         if f.level_dim is not None and f.level_dim != lay.level_dim:
             w = level_weights(level_coords[f.level_dim], levels, log=vertical == "pressure")
@@ -344,7 +351,12 @@ def _provenance(found, missing, converted, conventions):
 
 def _frame(ds, kinds, lay, path, notes):
     """Return times, grid mapping and horizontal axes of the temperature's frame."""
-    times = valid_times(ds, lay.time_dim, lay.temperature, path)
+    times, pairs = valid_times(ds, lay.time_dim, lay.temperature, path, lay)
+    if pairs is not None:
+        notes.append(
+            f"(reference time, step) pairs ({lay.time_dim}, {lay.step_dim}) read as "
+            f"{times.size} valid times (where two runs give one valid time, the later run)"
+        )
     crs, grid, gm_attrs, gm_notes = grid_mapping(ds, kinds, lay, path)
     notes += gm_notes
     projected = crs is not None and not crs.is_geographic
@@ -352,7 +364,7 @@ def _frame(ds, kinds, lay, path, notes):
     y = coordinate_si(ds, lay.y_dim, kinds[lay.y_dim], projected=projected, path=path)
     for dim, vals in ((lay.x_dim, x), (lay.y_dim, y)):
         check_monotonic(dim, vals, path)
-    return times, crs, grid, gm_attrs, y, x
+    return times, pairs, crs, grid, gm_attrs, y, x
 
 
 def _above_ground(ds, lay, vertical, found, path, notes):
@@ -372,7 +384,7 @@ def _above_ground(ds, lay, vertical, found, path, notes):
 
 
 def build_grid_source(
-    ds, path, raw_of, *, var_map=None, fmt="CF-NetCDF", notes=(), rh_convention=None
+    ds, path, raw_of, *, var_map=None, fmt="CF-NetCDF", notes=(), rh_convention=None, member=None
 ):
     """Find everything a screening needs in an opened gridded file.
 
@@ -393,6 +405,8 @@ def build_grid_source(
     rh_convention : str, optional
         The relative humidity's convention when the user states it
         (:data:`icing.forecast.conventions.CONVENTIONS`).
+    member : int, optional
+        The ensemble member to read along a member dimension.
 
     Returns
     -------
@@ -402,15 +416,15 @@ def build_grid_source(
     var_map = dict(var_map or {})
     check_var_map(ds, var_map, path=path)
     kinds = dimension_kinds(ds)
-    lay = layout_of(ds, kinds, _require_temperature(ds, kinds, var_map, path), path)
-    times, crs, grid, gm_attrs, y, x = _frame(ds, kinds, lay, path, notes)
+    lay = layout_of(ds, kinds, _require_temperature(ds, kinds, var_map, path), path, member)
+    times, pairs, crs, grid, gm_attrs, y, x = _frame(ds, kinds, lay, path, notes)
     vertical = kinds[lay.level_dim]
     found = _find_all(ds, kinds, lay, vertical, var_map, path)
     above_ground = _above_ground(ds, lay, vertical, found, path, notes)
     level_dims = {f.name: f.level_dim for f in found.values() if f.key != "temperature"}
     level_coords = level_coordinates(ds, kinds, level_dims, lay, vertical, path, notes)
     found = _checked(found, level_coords, lay, vertical, path)
-    fields, missing = _file_fields(found, lay, level_coords, vertical, raw_of, notes)
+    fields, missing = _file_fields(found, lay, level_coords, vertical, raw_of, notes, pairs)
     raw_attrs = lambda key: dict(ds[found[key].name].attrs)  # noqa: E731
     conventions = _humidity_conversion(fields, found, dict(ds.attrs), raw_attrs, rh_convention)
     converted = {}

@@ -22,6 +22,7 @@ from icing.forecast.units import linear, units_of
 
 __all__ = [
     "Layout",
+    "MEMBER_DIMS",
     "layout_of",
     "horizontal_dims",
     "valid_times",
@@ -46,9 +47,11 @@ class Layout:
     level_dim: str
     """Vertical dimension of the temperature."""
     time_dim: str | None
-    """Valid-time dimension, None for a single-time file."""
+    """Valid-time (or reference-time) dimension, None for a single-time file."""
     other: dict = field(default_factory=dict)
-    """Other dimensions (size 1) held at index 0."""
+    """Other dimensions held at one index (size 1, or the chosen ensemble member)."""
+    step_dim: str | None = None
+    """Forecast-step dimension beside ``time_dim`` ((reference time, step) files)."""
 
 
 def horizontal_dims(ds, kinds, name, path):
@@ -67,7 +70,53 @@ def horizontal_dims(ds, kinds, name, path):
     return hy[0], hx[0]
 
 
-def layout_of(ds, kinds, tname, path):
+#: dimension names of ensemble members
+MEMBER_DIMS = ("number", "member", "realization", "realisation", "ensemble", "ens")
+
+
+def _member_index(ds, d, member, tname, path):
+    """Index of the chosen member along an ensemble dimension; refuse without a choice."""
+    values = np.asarray(ds[d].values) if d in ds.variables else np.arange(ds.sizes[d])
+    shown = f"{values.min()}..{values.max()}" if values.dtype.kind in "iuf" else str(list(values))
+    if member is None:
+        raise ForecastError(
+            f"{tname!r} has an extra dimension {d!r} of size {ds.sizes[d]} (ensemble "
+            "members); screening ensembles is not available yet",
+            path=path,
+            where=f"variable {tname}",
+            fix=f"pick one member with --member N (N in {shown})",
+        )
+    hits = np.flatnonzero(values == member)
+    if not hits.size:
+        raise ForecastError(
+            f"member {member} is not in {d!r} ({shown})",
+            path=path,
+            where=f"dimension {d}",
+            fix="give one of the members listed",
+        )
+    return int(hits[0])
+
+
+def _other_dims(ds, tvar, skip, member, path):
+    other = {}
+    for d in tvar.dims:
+        if d in skip:
+            continue
+        if ds.sizes[d] == 1:
+            other[d] = 0
+        elif d.lower() in MEMBER_DIMS:
+            other[d] = _member_index(ds, d, member, tvar.name, path)
+        else:
+            raise ForecastError(
+                f"{tvar.name!r} has an extra dimension {d!r} of size {ds.sizes[d]}",
+                path=path,
+                where=f"variable {tvar.name}",
+                fix=f"select one {d} before screening (or one member with --member N)",
+            )
+    return other
+
+
+def layout_of(ds, kinds, tname, path, member=None):
     """Return the temperature's frame; refuse unknown levels, extra dimensions, several times."""
     y_dim, x_dim = horizontal_dims(ds, kinds, tname, path)
     tvar = ds[tname]
@@ -80,24 +129,19 @@ def layout_of(ds, kinds, tname, path):
             fix="interpolate to pressure or height levels first (units hPa/Pa or m)",
         )
     time_dims = [d for d in tvar.dims if kinds.get(d) == "time"]
-    other = {d: 0 for d in tvar.dims if d not in (x_dim, y_dim, level_dim, *time_dims)}
-    for d in other:
-        if ds.sizes[d] > 1:
-            raise ForecastError(
-                f"{tname!r} has an extra dimension {d!r} of size {ds.sizes[d]}",
-                path=path,
-                where=f"variable {tname}",
-                fix="select one member/realisation before screening",
-            )
-    if len(time_dims) > 1:
+    step_dims = [d for d in tvar.dims if kinds.get(d) == "step"]
+    if len(time_dims) > 1 or len(step_dims) > 1 or (step_dims and not time_dims):
         raise ForecastError(
             f"{tname!r} has several time dimensions",
             path=path,
             where=f"variable {tname}",
-            fix="give valid times along one dimension",
+            fix="give valid times along one dimension, or (reference time, step)",
         )
+    skip = (x_dim, y_dim, level_dim, *time_dims, *step_dims)
+    other = _other_dims(ds, tvar, skip, member, path)
     time_dim = time_dims[0] if time_dims else None
-    return Layout(tname, y_dim, x_dim, level_dim, time_dim, other)
+    step_dim = step_dims[0] if step_dims else None
+    return Layout(tname, y_dim, x_dim, level_dim, time_dim, other, step_dim)
 
 
 def _datetimes(values):
@@ -111,8 +155,27 @@ def _is_reference_time(name, var):
     )
 
 
-def valid_times(ds, time_dim, tname, path):
-    """Return the valid times along ``time_dim`` (or the one scalar valid time), datetime64[ms]."""
+def _step_pairs(ds, lay, path):
+    """Return the valid times of (reference time, step) files, once each, and their pairs."""
+    ref = _datetimes(ds.variables[lay.time_dim].values)
+    step = np.asarray(ds.variables[lay.step_dim].values).astype("timedelta64[ms]")
+    valid = ref[:, None] + step[None, :]
+    best = {}
+    for i in range(ref.size):
+        for j in range(step.size):
+            best[valid[i, j]] = (i, j)  # later reference times come later: they win
+    times = np.array(sorted(best), dtype="datetime64[ms]")
+    return times, tuple(best[t] for t in times)
+
+
+def valid_times(ds, time_dim, tname, path, lay=None):
+    """Return the valid times along ``time_dim`` (or the one scalar valid time), datetime64[ms].
+
+    With a step dimension (``lay.step_dim``) the valid times are reference time + step,
+    and the (time index, step index) pair of each is returned too.
+    """
+    if lay is not None and lay.step_dim is not None:
+        return _step_pairs(ds, lay, path)
     if time_dim is not None:
         tc = ds.variables[time_dim]
         if not np.issubdtype(tc.dtype, np.datetime64):
@@ -145,7 +208,7 @@ def valid_times(ds, time_dim, tname, path):
             where=f"dimension {time_dim}",
             fix="give CF time units such as 'hours since 2027-01-14 00:00:00'",
         )
-    return times
+    return (times, None) if lay is not None else times
 
 
 def issue_time(ds):

@@ -25,12 +25,16 @@ from pathlib import Path
 
 import numpy as np
 
-__all__ = ["GridSource", "grid_dataset", "profile_dataset", "DIMS"]
+__all__ = ["GridSource", "grid_dataset", "profile_dataset", "DIMS", "CF_NAMES"]
 
 #: the dimensions of the internal gridded structure, in order
 DIMS = ("time", "level", "y", "x")
 
-_LEVEL_UNITS = {"pressure": "Pa", "height": "m", "model": "1"}
+_LEVEL_ATTRS = {
+    "pressure": {"units": "Pa", "standard_name": "air_pressure", "positive": "down"},
+    "height": {"units": "m", "standard_name": "altitude", "positive": "up"},
+    "model": {"units": "1", "standard_name": "model_level_number", "positive": "up"},
+}
 
 
 @dataclass(frozen=True, eq=False)
@@ -140,7 +144,7 @@ def grid_dataset(src: GridSource):
         "level": (
             "level",
             np.asarray(src.levels, float),
-            {"units": _LEVEL_UNITS[src.vertical], "vertical": src.vertical},
+            {**_LEVEL_ATTRS[src.vertical], "vertical": src.vertical},
         ),
         "y": ("y", src.y, _axis_attrs("y", geographic)),
         "x": ("x", src.x, _axis_attrs("x", geographic)),
@@ -169,11 +173,38 @@ def grid_dataset(src: GridSource):
     return xr.Dataset(data, coords=coords, attrs=attrs)
 
 
+#: CF standard names of the internal variables
+CF_NAMES = {
+    "temperature": "air_temperature",
+    "relative_humidity": "relative_humidity",
+    "dewpoint": "dew_point_temperature",
+    "specific_humidity": "specific_humidity",
+    "height": "geopotential_height",
+    "pressure": "air_pressure",
+    "cloud_liquid": "mass_fraction_of_cloud_liquid_water_in_air",
+    "cloud_ice": "mass_fraction_of_cloud_ice_in_air",
+    "rain": "mass_fraction_of_rain_in_air",
+    "snow": "mass_fraction_of_snow_in_air",
+    "cloud_fraction": "cloud_area_fraction_in_atmosphere_layer",
+    "vertical_velocity": "upward_air_velocity",
+    "wind_u": "eastward_wind",
+    "wind_v": "northward_wind",
+    "precipitation_rate": "lwe_precipitation_rate",
+    "surface_pressure": "surface_air_pressure",
+    "surface_height": "surface_altitude",
+}
+_SI_UNITS = {"m/s": "m s-1", "mm/h": "mm h-1"}
+
+
 def _variable_attrs(key, prov):
-    """CF-style attributes of an internal variable: its SI units and its provenance."""
+    """CF attributes of an internal variable: standard name, SI units, provenance."""
     from icing.forecast.units import TARGET_UNITS
 
-    attrs = {"units": TARGET_UNITS.get(key, "1").replace("/", " ") if key else "1"}
+    units = TARGET_UNITS.get(key, "1")
+    attrs = {"standard_name": CF_NAMES.get(key, key), "units": _SI_UNITS.get(units, units)}
+    if key == "vertical_velocity" and str(prov.get("converted", "")).startswith("omega"):
+        # omega is kept as read and turned into w on the assembled column
+        attrs.update(standard_name="lagrangian_tendency_of_air_pressure", units="Pa s-1")
     rename = {"name": "source_name", "units": "source_units"}
     for k, v in prov.items():
         attrs[rename.get(k, k)] = v if isinstance(v, (int, float, str)) else str(v)

@@ -202,12 +202,14 @@ _LON_UNITS = {"degrees_east", "degree_east", "degree_e", "degrees_e", "degreee",
 
 
 def classify_dim(ds, dim):
-    """Classify a dimension: time, lat, lon, x, y, pressure, height, model, or None."""
+    """Classify a dimension: time, step, lat, lon, x, y, pressure, height, model, or None."""
     coord = ds.variables.get(dim)
     if coord is None:
         return None
     if np.issubdtype(coord.dtype, np.datetime64):
         return "time"
+    if np.issubdtype(coord.dtype, np.timedelta64):
+        return "step"
     for name, var in ds.coords.items():  # e.g. valid_time(step)
         if name != dim and var.dims == (dim,) and np.issubdtype(var.dtype, np.datetime64):
             return "time"

@@ -22,7 +22,7 @@ to share between threads).
 from __future__ import annotations
 
 import threading
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -150,6 +150,9 @@ class FileField(Field):
     """SI = raw * scale + offset."""
     label: str = ""
     """A name for messages and cache keys."""
+    steps: tuple | None = None
+    """(reference time, step) files: ``(step dimension, ((time index, step index), ...))``,
+    one pair per valid time."""
 
     @property
     def timed(self):
@@ -163,6 +166,19 @@ class FileField(Field):
 
     def read(self, times, ys, xs):
         """Read the block; see :class:`Field`."""
+        if self.steps is not None:
+            step_dim, pairs = self.steps
+            fixed = dict(self.fixed)
+            blocks = []
+            for ti, si in pairs[times]:
+                one = replace(
+                    self,
+                    steps=None,
+                    time_dim=None,
+                    fixed=tuple({**fixed, self.time_dim: ti, step_dim: si}.items()),
+                )
+                blocks.append(one.read(None, ys, xs))
+            return np.stack(blocks)
         idx = {self.y_dim: ys, self.x_dim: xs, **dict(self.fixed)}
         if self.timed:
             idx[self.time_dim] = times

@@ -71,9 +71,5 @@ def read_netcdf_forecast(path, *, var_map=None, member=None, rh_convention=None)
     if is_wrf(ds):
         return read_wrf_forecast(ds, path, raw_of, var_map=var_map, rh_convention=rh_convention)
     return build_grid_source(
-        ds,
-        path,
-        raw_variables(ds, open_netcdf4(path)),
-        var_map=var_map,
-        rh_convention=rh_convention,
+        ds, path, raw_of, var_map=var_map, rh_convention=rh_convention, member=member
     )
