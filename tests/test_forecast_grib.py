@@ -399,3 +399,86 @@ def test_grib_told_apart_by_content_not_name(real_data, tmp_path):
         p = tmp_path / name
         p.write_bytes((real_data / ECMWF).read_bytes())
         assert load_forecast(p).describe()["format"] == "GRIB1"
+
+
+# --------------------------------------------------------------------------- other grids
+
+
+def _write_grid(path, sample, geometry):
+    """A small GRIB2 file on one grid (ecCodes sample + our geometry): constant fields.
+
+    Invented values, for the geometry only: 260/250 K, 80/70 %, 1500/3000 m at 850/700
+    hPa, and a grid-relative wind of 10 m/s along the grid's x axis.
+    """
+    import eccodes
+
+    msgs = []
+    values = [("t", 260.0, 250.0), ("r", 80.0, 70.0), ("gh", 1500.0, 3000.0)]
+    values += [("u", 10.0, 10.0), ("v", 0.0, 0.0)]
+    for name, low, high in values:
+        for level, value in ((850, low), (700, high)):
+            h = eccodes.codes_grib_new_from_samples(sample)
+            for key, v in geometry.items():
+                eccodes.codes_set(h, key, v)
+            eccodes.codes_set(h, "shortName", name)
+            eccodes.codes_set(h, "typeOfLevel", "isobaricInhPa")
+            eccodes.codes_set(h, "level", level)
+            eccodes.codes_set(h, "resolutionAndComponentFlags", 56)  # winds grid-relative
+            nx = geometry.get("Nx", geometry.get("Ni"))
+            ny = geometry.get("Ny", geometry.get("Nj"))
+            eccodes.codes_set_values(h, np.full(nx * ny, value))
+            msgs.append(eccodes.codes_get_message(h))
+            eccodes.codes_release(h)
+    path.write_bytes(b"".join(msgs))
+    return path
+
+
+GRIDS = {
+    "polar_stereographic_pl_grib2": {
+        "Nx": 20,
+        "Ny": 20,
+        "latitudeOfFirstGridPointInDegrees": 45.0,
+        "longitudeOfFirstGridPointInDegrees": 230.0,
+        "LaDInDegrees": 60.0,
+        "orientationOfTheGridInDegrees": 255.0,
+        "DxInMetres": 100000.0,
+        "DyInMetres": 100000.0,
+        "jScansPositively": 1,
+    },
+    "rotated_ll_pl_grib2": {
+        "Ni": 16,
+        "Nj": 11,
+        "latitudeOfSouthernPoleInDegrees": -40.0,
+        "longitudeOfSouthernPoleInDegrees": 10.0,
+        "latitudeOfFirstGridPointInDegrees": -10.0,
+        "longitudeOfFirstGridPointInDegrees": -10.0,
+        "latitudeOfLastGridPointInDegrees": 10.0,
+        "longitudeOfLastGridPointInDegrees": 20.0,
+        "iDirectionIncrementInDegrees": 2.0,
+        "jDirectionIncrementInDegrees": 2.0,
+        "jScansPositively": 1,
+    },
+}
+
+
+@pytest.mark.parametrize("sample", sorted(GRIDS))
+def test_polar_stereographic_and_rotated_grids_with_earth_relative_winds(tmp_path, sample):
+    from pyproj import Geod
+
+    path = _write_grid(tmp_path / "grid.grib2", sample, GRIDS[sample])
+    fc = load_forecast(path)  # refused if our corners missed ecCodes' coordinates
+    lat, lon, _ = _raw(path, "t", 850)
+    j, i = 5, 7
+    cs = fc.columns_at([lat[j, i]], [(lon[j, i] + 180) % 360 - 180], [fc.valid_times[0]])
+    np.testing.assert_allclose(cs.columns["temperature"][0], [260.0, 250.0])
+    # grid north measured on ecCodes' own coordinates: the azimuth from the point below
+    # to the point above along the grid's y axis (WGS 84 geodesic; the grids use a
+    # sphere, which moves the azimuth by under 0.2 degree at these latitudes)
+    az, _, _ = Geod(ellps="WGS84").inv(lon[j - 1, i], lat[j - 1, i], lon[j + 1, i], lat[j + 1, i])
+    a = np.radians(az)
+    k = int(np.flatnonzero(cs.columns["pressure"][0] == 85000.0)[0])
+    assert cs.wind_u[0, k] == pytest.approx(10.0 * np.cos(a), abs=0.05)
+    assert cs.wind_v[0, k] == pytest.approx(-10.0 * np.sin(a), abs=0.05)
+    if sample.startswith("polar"):
+        # polar stereographic: grid north leans by lon - orientation (from memory)
+        assert np.degrees(a) == pytest.approx(lon[j, i] - 255.0, abs=0.3)

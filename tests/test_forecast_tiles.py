@@ -68,3 +68,26 @@ def test_internal_dataset_is_lazy_si_and_matches_the_columns():
     np.testing.assert_array_equal(col[order], cs.columns["temperature"][0])
     rh = ds["relative_humidity"].isel(time=0, level=[0, 3], y=slice(2, 5), x=[1, 4]).values
     assert rh.shape == (2, 3, 2) and np.nanmax(rh) <= 1.5  # a fraction, not percent
+
+
+def test_threads_opening_reading_and_dropping_forecasts(real_data):
+    # the HDF5 and ecCodes libraries of the wheels are not thread-safe: every call goes
+    # through one lock per library, so a service may open, read and drop forecasts from
+    # many threads at once (this crashed the process before the locks)
+    import gc
+
+    files = [LATLON, real_data / "nam.t00z.awp21100.tm00.grib2"]
+
+    def work(seed):
+        fc = load_forecast(files[seed % 2]).with_tiling(tile=4)
+        rng = np.random.default_rng(seed)
+        lat, lon = rng.uniform(55.0, 59.0, 20), rng.uniform(-28.0, -20.0, 20)
+        if seed % 2:
+            lat, lon = rng.uniform(30.0, 45.0, 20), rng.uniform(-110.0, -80.0, 20)
+        cs = fc.columns_at(lat, lon, np.full(20, fc.valid_times[0]))
+        del fc
+        gc.collect()
+        return bool(cs.covered.all())
+
+    with ThreadPoolExecutor(max_workers=8) as pool:
+        assert all(pool.map(work, range(8)))

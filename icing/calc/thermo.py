@@ -480,14 +480,8 @@ def saturation_vapor_pressure_ifs(temperature, *, phase="liquid"):
     with np.errstate(invalid="ignore", divide="ignore"):
         e_w = 611.21 * np.exp(17.502 * (t - 273.16) / (t - 32.19))
         e_i = 611.21 * np.exp(22.587 * (t - 273.16) / (t + 0.7))
-    if phase == "liquid":
-        return e_w
-    if phase == "solid":
-        return e_i
-    if phase != "mixed":
-        raise ValueError(f"phase {phase!r} is not 'liquid', 'solid' or 'mixed'")
     alpha = np.clip((t - 250.16) / (273.16 - 250.16), 0.0, 1.0) ** 2
-    return alpha * e_w + (1.0 - alpha) * e_i
+    return _saturation_phase(e_w, e_i, alpha, phase)
 
 
 def saturation_vapor_pressure_ncep_gfs(temperature, *, phase="liquid"):
@@ -532,14 +526,19 @@ def saturation_vapor_pressure_ncep_gfs(temperature, *, phase="liquid"):
         e_l = psat * tr**a_l * np.exp((a_l + hv / (rv * ttp)) * (1.0 - tr))
         a_i = -(cv - cs) / rv
         e_i = psat * tr**a_i * np.exp((a_i + (hv + hf) / (rv * ttp)) * (1.0 - tr))
+    w = np.clip((t - (ttp - 20.0)) / 20.0, 0.0, 1.0)
+    return _saturation_phase(e_l, e_i, w, phase)
+
+
+def _saturation_phase(e_water, e_ice, weight, phase):
+    """Pick water, ice, or the blend ``weight e_water + (1 - weight) e_ice``."""
     if phase == "liquid":
-        return e_l
+        return e_water
     if phase == "solid":
-        return e_i
+        return e_ice
     if phase != "mixed":
         raise ValueError(f"phase {phase!r} is not 'liquid', 'solid' or 'mixed'")
-    w = np.clip((t - (ttp - 20.0)) / 20.0, 0.0, 1.0)
-    return w * e_l + (1.0 - w) * e_i
+    return weight * e_water + (1.0 - weight) * e_ice
 
 
 __all__ += [  # appended helpers of the forecast readers

@@ -35,6 +35,7 @@ from icing.forecast.dataset import GridSource
 from icing.forecast.discovery import (
     HUMIDITY_KEYS,
     LEVEL_KEYS,
+    OPTIONAL_KEYS,
     VAR_KEYS,
     check_var_map,
     dimension_kinds,
@@ -57,22 +58,6 @@ CLOUD_WATER_NOTE = (
     "liquid); combined with the liquid diagnosed from humidity by taking the larger, "
     "never the sum (models under-predict supercooled liquid: Forbes & Ahlgrimm 2014, "
     "Mon. Wea. Rev. 142, 3425)"
-)
-_RH_REFUSE = 1.50
-#: optional keys searched after temperature, humidity (and pressure on height levels)
-_OPTIONAL = (
-    "height",
-    "cloud_liquid",
-    "cloud_ice",
-    "rain",
-    "snow",
-    "cloud_fraction",
-    "vertical_velocity",
-    "wind_u",
-    "wind_v",
-    "precipitation_rate",
-    "surface_pressure",
-    "surface_height",
 )
 
 
@@ -174,7 +159,7 @@ def _find_all(ds, kinds, lay, vertical, var_map, path):
         found["height"] = _require(
             ds, kinds, lay, "height", var_map, path, vertical, "height of the model levels"
         )
-    for key in _OPTIONAL:
+    for key in OPTIONAL_KEYS:
         if key in found or (key == "height" and vertical == "height"):
             continue
         f = _find(ds, kinds, lay, key, var_map, path, vertical)
@@ -418,6 +403,9 @@ def build_grid_source(
     kinds = dimension_kinds(ds)
     lay = layout_of(ds, kinds, _require_temperature(ds, kinds, var_map, path), path, member)
     times, pairs, crs, grid, gm_attrs, y, x = _frame(ds, kinds, lay, path, notes)
+    members = [d for d in lay.other if ds.sizes[d] > 1]
+    for d in members:
+        notes.append(f"ensemble member {member} of {ds.sizes[d]} read (dimension {d})")
     vertical = kinds[lay.level_dim]
     found = _find_all(ds, kinds, lay, vertical, var_map, path)
     above_ground = _above_ground(ds, lay, vertical, found, path, notes)
@@ -448,4 +436,5 @@ def build_grid_source(
         height_above_ground=above_ground,
         notes=tuple(notes),
         tile_hint=int(min(chunks[-2:])) if chunks else None,
+        member=member if members else None,
     )

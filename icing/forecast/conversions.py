@@ -28,6 +28,7 @@ __all__ = [
     "mass_fraction_from_mixing_ratio",
     "earth_relative_winds",
     "grid_north_azimuth",
+    "base_geographic",
 ]
 
 
@@ -81,6 +82,15 @@ def mass_fraction_from_mixing_ratio(r, humidity, hum, temperature, pressure, *, 
     return DerivedField(func, inputs, True, label=label)
 
 
+def base_geographic(crs):
+    """Return the latitude-longitude system a projected or rotated grid is defined on.
+
+    For a rotated pole the geodetic CRS pyproj reports is the rotated system itself;
+    its source (base) CRS is the real latitude-longitude.
+    """
+    return crs.source_crs if crs.source_crs is not None else crs.geodetic_crs
+
+
 def grid_north_azimuth(crs, x, y):
     """Azimuth of grid north from true north (clockwise, radians) at grid points (y, x).
 
@@ -91,7 +101,7 @@ def grid_north_azimuth(crs, x, y):
 
     xx, yy = np.meshgrid(np.asarray(x, float), np.asarray(y, float))
     step = 1e-3 * (float(np.nanmax(np.abs(np.diff(y)))) if np.size(y) > 1 else 1.0)
-    inv = Transformer.from_crs(crs, crs.geodetic_crs, always_xy=True)
+    inv = Transformer.from_crs(crs, base_geographic(crs), always_xy=True)
     lon0, lat0 = inv.transform(xx, yy)
     lon1, lat1 = inv.transform(xx, yy + step)
     geod = Geod(**_geod_args(crs))
@@ -100,7 +110,7 @@ def grid_north_azimuth(crs, x, y):
 
 
 def _geod_args(crs):
-    ell = crs.ellipsoid
+    ell = base_geographic(crs).ellipsoid
     return {"a": ell.semi_major_metre, "b": ell.semi_minor_metre}
 
 

@@ -80,8 +80,8 @@ def _member_index(ds, d, member, tname, path):
     shown = f"{values.min()}..{values.max()}" if values.dtype.kind in "iuf" else str(list(values))
     if member is None:
         raise ForecastError(
-            f"{tname!r} has an extra dimension {d!r} of size {ds.sizes[d]} (ensemble "
-            "members); screening ensembles is not available yet",
+            f"{tname!r} has an extra dimension {d!r}: an ensemble of {ds.sizes[d]} members; "
+            "screening ensembles is not available yet",
             path=path,
             where=f"variable {tname}",
             fix=f"pick one member with --member N (N in {shown})",

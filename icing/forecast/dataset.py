@@ -73,6 +73,8 @@ class GridSource:
     """What the reader did that a user should know (said in the provenance)."""
     tile_hint: int | None = None
     """The file's chunk size along y/x, a good tile size for reads."""
+    member: int | None = None
+    """The ensemble member read (one member until ensembles are screened)."""
 
     @property
     def dataset(self):
@@ -151,6 +153,8 @@ def grid_dataset(src: GridSource):
     }
     if src.issue_time is not None:
         coords["forecast_reference_time"] = ((), np.datetime64(src.issue_time, "ns"))
+    if src.member is not None:  # the member axis, one member wide until ensembles are screened
+        coords["member"] = ((), src.member, {"long_name": "ensemble member read"})
     data = {}
     for key, fld in src.fields.items():
         dims = ("time",) * fld.timed + ("level",) * fld.levelled + ("y", "x")

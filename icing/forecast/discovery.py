@@ -36,6 +36,7 @@ __all__ = [
     "candidates",
     "find_variable",
     "SURFACE_KEYS",
+    "OPTIONAL_KEYS",
     "files_variables",
 ]
 
@@ -196,6 +197,8 @@ SURFACE_KEYS = ("precipitation_rate", "surface_pressure", "surface_height")
 
 #: humidity keys in the order of preference
 HUMIDITY_KEYS = ("relative_humidity", "dewpoint", "specific_humidity")
+#: keys searched after temperature and humidity (and pressure off pressure levels)
+OPTIONAL_KEYS = tuple(k for k in VAR_KEYS if k not in ("temperature", "pressure", *HUMIDITY_KEYS))
 
 _LAT_UNITS = {"degrees_north", "degree_north", "degree_n", "degrees_n", "degreen", "degreesn"}
 _LON_UNITS = {"degrees_east", "degree_east", "degree_e", "degrees_e", "degreee", "degreese"}

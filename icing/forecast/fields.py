@@ -21,7 +21,6 @@ to share between threads).
 
 from __future__ import annotations
 
-import threading
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -91,8 +90,10 @@ class NetcdfVariable(RawVariable):
     """The lazily opened xarray variable (metadata, and the fallback read)."""
     nc_var: object | None
     """The netCDF4 variable (masked and scaled), or None (h5netcdf-only files)."""
-    lock: threading.Lock = field(repr=False)
-    """The file's lock: one read at a time per file."""
+    lock: object = field(repr=False)
+    """The lock every NetCDF read takes (the HDF5 library is not thread-safe)."""
+    handle: object = field(default=None, repr=False)
+    """The open netCDF4 file, kept open while a reader of it lives."""
 
     @property
     def dims(self):

@@ -34,7 +34,7 @@ from icing.forecast.fields import RawVariable, lazy_raw_array
 from icing.forecast.gribgrid import grib_grid, grid_signature
 from icing.forecast.gribparams import GRIB1_PARAMETERS, GRIB2_PARAMETERS, PARAM_IDS
 
-__all__ = ["grib_edition", "read_grib_forecast", "GribFile", "GribVariable"]
+__all__ = ["ECCODES_LOCK", "grib_edition", "read_grib_forecast", "GribFile", "GribVariable"]
 
 #: level types read as vertical coordinates (levels in SI): unit, CF attributes
 _LEVEL_TYPES = {
@@ -45,6 +45,9 @@ _LEVEL_TYPES = {
 #: ecCodes level types that are one kind here (pressure levels in hPa or Pa)
 _NORMAL_TYPES = {"isobaricInhPa": "isobaric", "isobaricInPa": "isobaric"}
 _TEMPERATURE_IDS = {("grib2", 0, 0, 0), ("grib1", 130)}
+#: One lock for every ecCodes call of this package: the library of the pip wheels is
+#: not known to be built thread-safe, so scans, decodes and grid reads are serialised.
+ECCODES_LOCK = threading.RLock()
 
 
 def grib_edition(path) -> int | None:
@@ -112,6 +115,15 @@ def _identity(h):
     return ("grib1", _get(h, "paramId"), _get(h, "table2Version"), _get(h, "indicatorOfParameter"))
 
 
+def _uv_relative(h):
+    """Return 1 when vectors are grid-relative (bit 5 of GRIB2 table 3.3, GRIB1 table 7)."""
+    flag = _get_int(h, "uvRelativeToGrid")
+    if flag is None:
+        flags = _get_int(h, "resolutionAndComponentFlags") or 0
+        flag = 1 if flags & 8 else 0
+    return int(flag)
+
+
 def _relevant(identity, level_type):
     """Whether a group may be used (its parameter is in the identity tables)."""
     if level_type not in _LEVEL_TYPES and level_type != "surface":
@@ -139,7 +151,7 @@ def _group_attrs(h, identity, level_type):
         "GRIB_name": str(_get(h, "name", "")) if relevant else "",
         "GRIB_centre": str(_get(h, "centre", "")),
         "GRIB_generatingProcessIdentifier": int(_get(h, "generatingProcessIdentifier", 0) or 0),
-        "GRIB_uvRelativeToGrid": int(_get(h, "uvRelativeToGrid", 0) or 0),
+        "GRIB_uvRelativeToGrid": _uv_relative(h),
         "long_name": str(_get(h, "name", "")) if relevant else f"GRIB parameter {code}",
         "units": str(_get(h, "units", "")) if relevant else "unknown",
     }
@@ -275,18 +287,26 @@ class GribFile:
         self.fields = fields
         self.grid = grid
         self.cache_bytes = int(cache_bytes)
-        self._lock = threading.Lock()
         self._cache: OrderedDict = OrderedDict()
         self._bytes = 0
 
     def values(self, i) -> np.ndarray:
         """Field ``i`` decoded as (ny, nx) float64, NaN where the bitmap says missing."""
-        with self._lock:
+        with ECCODES_LOCK:
             hit = self._cache.get(i)
             if hit is not None:
                 self._cache.move_to_end(i)
                 return hit
-            vals = self._decode(self.fields[i])
+            try:
+                vals = self._decode(self.fields[i])
+            except Exception as exc:  # ecCodes raises its own kinds for broken fields
+                f = self.fields[i]
+                raise ForecastError(
+                    f"field at byte {f.offset:,} cannot be decoded ({type(exc).__name__})",
+                    path=self.path,
+                    where=f"{f.group[1]} level {f.level:g}",
+                    fix="download or copy the file again",
+                ) from None
             self._cache[i] = vals
             self._bytes += vals.nbytes
             while self._bytes > self.cache_bytes and len(self._cache) > 1:
@@ -296,13 +316,7 @@ class GribFile:
     def _decode(self, f):
         import eccodes
 
-        eccodes.codes_grib_multi_support_on()
-        with open(self.path, "rb") as fh:
-            eccodes.codes_grib_multi_support_reset_file(fh)
-            fh.seek(f.offset)
-            for _ in range(f.sub):
-                eccodes.codes_release(eccodes.codes_grib_new_from_file(fh))
-            h = eccodes.codes_grib_new_from_file(fh)
+        h = _open_field(self.path, f)
         try:
             if _get(h, "bitmapPresent", 0):
                 eccodes.codes_set(h, "missingValue", 9.999e20)
@@ -320,39 +334,31 @@ class GribFile:
 
 @dataclass(frozen=True, eq=False)
 class GribVariable(RawVariable):
-    """One group (parameter, level type) as a (time, [level,] y, x) variable, read lazily."""
+    """One group (parameter, level type) as a (time, [number,] [level,] y, x) variable."""
 
     file: GribFile
     """The opened file."""
     table: np.ndarray = field(repr=False)
-    """Field index per (time, level); -1 where the file has no field (NaN)."""
+    """Field index per (time, [number,] [level]); -1 where the file has no field (NaN)."""
     dims: tuple = ()
-    """Dimension names: ("time", [level dim,] y, x)."""
+    """Dimension names: ("time", ["number",] [level dim,] y, x)."""
 
     def read(self, index, order):
         """Read ``index`` (slices, integers or index arrays) with axes in ``order``."""
         sel = [index.get(d, slice(None)) for d in self.dims]
-        n_lead = len(self.dims) - 2
-        lead = [np.arange(self.table.shape[a])[sel[a]] for a in range(n_lead)]
-        shape = [np.atleast_1d(k).size for k in lead]
+        lead = [
+            np.atleast_1d(np.arange(n)[k]) for n, k in zip(self.table.shape, sel, strict=False)
+        ]
         ys, xs = sel[-2], sel[-1]
         ny = np.arange(self.file.grid.y.size)[ys].size
         nx = np.arange(self.file.grid.x.size)[xs].size
-        table = self.table.reshape(self.table.shape[:n_lead] + (1,) * (2 - n_lead))
-        out = np.full(shape + [1] * (2 - n_lead) + [ny, nx], np.nan)
-        ti = np.atleast_1d(lead[0])
-        li = np.atleast_1d(lead[1]) if n_lead > 1 else np.array([0])
-        for a, t in enumerate(ti):
-            for b, lev in enumerate(li):
-                i = table[t, lev]
-                if i >= 0:
-                    out[a, b] = self.file.values(i)[ys][:, xs]
-        out = out.reshape(shape + [ny, nx])
-        dims = [
-            d for d, k in zip(self.dims, sel, strict=True) if not isinstance(k, (int, np.integer))
-        ]
-        drop = tuple(a for a, k in enumerate(sel) if isinstance(k, (int, np.integer)))
-        out = out.reshape([s for a, s in enumerate(out.shape) if a not in drop])
+        picked = self.table[np.ix_(*lead)]
+        out = np.full(picked.shape + (ny, nx), np.nan)
+        for pos in zip(*np.nonzero(picked >= 0), strict=True):
+            out[pos] = self.file.values(picked[pos])[ys][:, xs]
+        drop = [a for a, k in enumerate(sel) if isinstance(k, (int, np.integer))]
+        out = out.reshape([n for a, n in enumerate(out.shape) if a not in drop])
+        dims = [d for a, d in enumerate(self.dims) if a not in drop]
         return np.transpose(out, [dims.index(d) for d in order])
 
 
@@ -371,36 +377,11 @@ def _choose_grid(fields, info, path, edition):
     return grid, notes
 
 
-def _choose_member(fields, member, path, edition):
-    """Keep one ensemble member; refuse several without a choice."""
-    numbers = sorted({f.number for f in fields if f.number is not None})
-    if member is None:
-        if len(numbers) > 1:
-            _refuse(
-                path,
-                edition,
-                f"an ensemble of {len(numbers)} members (number {numbers[0]}..{numbers[-1]}) "
-                "in one file; screening ensembles is not available yet",
-                f"pick one member with --member N (N in {numbers[0]}..{numbers[-1]})",
-            )
-        return fields, []
-    if member not in numbers:
-        listed = ", ".join(map(str, numbers)) if numbers else "none"
-        _refuse(
-            path,
-            edition,
-            f"member {member} is not in the file (members: {listed})",
-            "give one of the members listed, or drop --member",
-        )
-    kept = [f for f in fields if f.number == member]
-    return kept, [f"ensemble member {member} of {len(numbers)} read"]
-
-
 def _latest_runs(fields):
-    """One field per (group, level, valid time): the latest run's; notes."""
+    """One field per (group, level, valid time, member): the latest run's; notes."""
     best = {}
     for i, f in enumerate(fields):
-        key = (f.group, f.level, f.valid)
+        key = (f.group, f.level, f.valid, f.number)
         if key not in best or f.reference > fields[best[key]].reference:
             best[key] = i
     dropped = len(fields) - len(best)
@@ -451,11 +432,35 @@ def _horizontal(grid):
     }
 
 
+def _group_table(fields, keep, group, times, numbers, levels, has_level):
+    """Field index per (time, [number,] [level]) of one group; -1 where missing."""
+    shape = (
+        (times.size,)
+        + ((len(numbers),) if numbers else ())
+        + ((len(levels),) if has_level else ())
+    )
+    table = np.full(shape, -1)
+    for i in keep:
+        f = fields[i]
+        if f.group == group:
+            pos = (int(np.searchsorted(times, f.valid)),)
+            pos += (numbers.index(f.number),) if numbers else ()
+            pos += (levels.index(f.level),) if has_level else ()
+            table[pos] = i
+    return table
+
+
 def _raw_dataset(gfile, fields, keep, info):
-    """Build the file as an xarray Dataset of lazy raw variables, and ``raw_of``."""
+    """Build the file as an xarray Dataset of lazy raw variables, and ``raw_of``.
+
+    Dimensions: ``time`` (valid times), ``number`` (ensemble members, when the file
+    has several), a level dimension per level set, and the grid's y/x.
+    """
     import xarray as xr
 
     times = np.array(sorted({fields[i].valid for i in keep}), dtype="datetime64[ms]")
+    numbers = sorted({fields[i].number for i in keep if fields[i].number is not None})
+    numbers = numbers if len(numbers) > 1 else []
     groups = {}
     for i in keep:
         groups.setdefault(fields[i].group, set()).add(fields[i].level)
@@ -463,19 +468,17 @@ def _raw_dataset(gfile, fields, keep, info):
     level_dims = _level_dims(groups)
     (ydim, xdim), coords = _horizontal(gfile.grid)
     coords["time"] = ("time", times.astype("datetime64[ns]"))
+    if numbers:
+        coords["number"] = ("number", np.asarray(numbers), {"long_name": "ensemble member"})
     for group, dim in level_dims.items():
         unit, attrs = _LEVEL_TYPES[group[1]]
         coords[dim] = (dim, np.asarray(groups[group], float), {"units": unit, **attrs})
     raws, data = {}, {}
     for group, levels in groups.items():
         dim = level_dims.get(group)
-        table = np.full((times.size, len(levels) if dim else 1), -1)
-        for i in keep:
-            f = fields[i]
-            if f.group == group:
-                table[np.searchsorted(times, f.valid), levels.index(f.level) if dim else 0] = i
-        dims = ("time",) + ((dim,) if dim else ()) + (ydim, xdim)
-        table = table if dim else table[:, 0]
+        table = _group_table(fields, keep, group, times, numbers, levels, dim is not None)
+        dims = ("time",) + (("number",) if numbers else ()) + ((dim,) if dim else ())
+        dims += (ydim, xdim)
         name = f"{info[group]['GRIB_shortName']}_{group[1]}"
         raws[name] = GribVariable(gfile, table, dims)
         attrs = dict(info[group])
@@ -489,42 +492,65 @@ def _raw_dataset(gfile, fields, keep, info):
 
 
 def read_grib_forecast(path, *, var_map=None, member=None, rh_convention=None):
-    """Read a GRIB1 or GRIB2 forecast into a GridSource (see the module docstring)."""
+    """Read a GRIB1 or GRIB2 forecast into a GridSource (see the module docstring).
+
+    Errors found after the scan (a variable missing, an implausible value) name the
+    edition too.
+    """
     path = Path(path)
     edition = grib_edition(path)
-    fields, info, first_of_grid = scan(path, edition)
+    with ECCODES_LOCK:
+        fields, info, first_of_grid = scan(path, edition)
     grid_key, notes = _choose_grid(fields, info, path, edition)
     on_grid = [f for f in fields if f.grid == grid_key]
-    on_grid, member_notes = _choose_member(on_grid, member, path, edition)
-    index = {id(f): i for i, f in enumerate(fields)}
-    kept_fields = [fields[index[id(f)]] for f in on_grid]
-    keep, run_notes = _latest_runs(kept_fields)
-    handle_field = fields[first_of_grid[grid_key]]
-    grid = _grid_of(path, handle_field, edition)
-    gfile = GribFile(path, kept_fields, grid)
-    ds, raw_of = _raw_dataset(gfile, kept_fields, keep, info)
-    notes = [f"GRIB{edition} read with ecCodes; grid {grid.description}"] + notes
-    return build_grid_source(
-        ds,
-        path,
-        raw_of,
-        var_map=var_map,
-        fmt=f"GRIB{edition}",
-        notes=notes + member_notes + run_notes,
-    )
+    keep, run_notes = _latest_runs(on_grid)
+    with ECCODES_LOCK:
+        grid = _grid_of(path, fields[first_of_grid[grid_key]], edition)
+    gfile = GribFile(path, on_grid, grid)
+    ds, raw_of = _raw_dataset(gfile, on_grid, keep, info)
+    notes = [f"GRIB{edition} read with ecCodes; grid {grid.description}"] + notes + run_notes
+    if member is not None and "number" not in ds.dims:
+        _refuse(
+            path,
+            edition,
+            f"--member {member} given but the file holds one member",
+            "drop --member",
+        )
+    try:
+        return build_grid_source(
+            ds,
+            path,
+            raw_of,
+            var_map=var_map,
+            fmt=f"GRIB{edition}",
+            notes=notes,
+            rh_convention=rh_convention,
+            member=member,
+        )
+    except ForecastError as err:
+        raise ForecastError(
+            f"GRIB{edition}: {err.message}", path=err.path, where=err.where, fix=err.fix
+        ) from None
+
+
+def _open_field(path, f):
+    """Return an ecCodes handle of field ``f`` (the ``f.sub``-th field of its message)."""
+    import eccodes
+
+    eccodes.codes_grib_multi_support_on()
+    with open(path, "rb") as fh:
+        eccodes.codes_grib_multi_support_reset_file(fh)  # multi-field state of this read
+        fh.seek(f.offset)
+        for _ in range(f.sub):
+            eccodes.codes_release(eccodes.codes_grib_new_from_file(fh))
+        return eccodes.codes_grib_new_from_file(fh)
 
 
 def _grid_of(path, f, edition):
     """Open the message of field ``f`` and read its grid definition."""
     import eccodes
 
-    eccodes.codes_grib_multi_support_on()
-    with open(path, "rb") as fh:
-        eccodes.codes_grib_multi_support_reset_file(fh)
-        fh.seek(f.offset)
-        for _ in range(f.sub):
-            eccodes.codes_release(eccodes.codes_grib_new_from_file(fh))
-        h = eccodes.codes_grib_new_from_file(fh)
+    h = _open_field(path, f)
     try:
         return grib_grid(h, path=path)
     finally:

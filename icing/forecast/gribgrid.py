@@ -21,6 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from icing.errors import ForecastError
+from icing.forecast.conversions import base_geographic
 
 __all__ = ["GribGrid", "grib_grid", "earth_shape", "grid_signature"]
 
@@ -157,7 +158,7 @@ def _projected_axes(h, attrs):
     from pyproj import CRS, Transformer
 
     crs = CRS.from_cf(attrs)
-    to_xy = Transformer.from_crs(crs.geodetic_crs, crs, always_xy=True)
+    to_xy = Transformer.from_crs(base_geographic(crs), crs, always_xy=True)
     x0, y0 = to_xy.transform(
         _get(h, "longitudeOfFirstGridPointInDegrees"), _get(h, "latitudeOfFirstGridPointInDegrees")
     )
@@ -215,7 +216,7 @@ def _check_against_eccodes(h, grid, crs):
     else:
         from pyproj import Transformer
 
-        inv = Transformer.from_crs(crs, crs.geodetic_crs, always_xy=True)
+        inv = Transformer.from_crs(crs, base_geographic(crs), always_xy=True)
         glon, glat = inv.transform(grid.x[ii], grid.y[jj])
     dlon = (np.asarray(glon) - lon[jj, ii] + 180.0) % 360.0 - 180.0
     err = np.hypot(np.asarray(glat) - lat[jj, ii], dlon * np.cos(np.radians(lat[jj, ii])))
@@ -265,7 +266,9 @@ def grib_grid(h, *, path):
         else:
             raise ValueError(f"grid type {kind!r} is not read")
         err = _check_against_eccodes(h, grid, crs)
-    except (ValueError, TypeError) as exc:
+    except Exception as exc:  # ours (ValueError) and ecCodes' (inconsistent definitions)
+        if isinstance(exc, ForecastError):
+            raise
         _refuse(
             path,
             edition,

@@ -28,23 +28,11 @@ from icing.forecast.columns import (
     iso_time,
     placeholder_if_empty,
 )
-from icing.forecast.discovery import HUMIDITY_KEYS
+from icing.forecast.discovery import HUMIDITY_KEYS, OPTIONAL_KEYS
 from icing.forecast.interp import combine_corners, frac_index, time_brackets
 from icing.forecast.tiles import TileCache, tile_windows
 
 __all__ = ["GridForecast"]
-
-_OPTIONAL = (
-    "cloud_liquid",
-    "cloud_ice",
-    "rain",
-    "snow",
-    "cloud_fraction",
-    "vertical_velocity",
-    "precipitation_rate",
-    "wind_u",
-    "wind_v",
-)
 
 
 def _check_same_grid(a, b):
@@ -305,7 +293,7 @@ class GridForecast(Forecast):
         base += {"pressure": ["height"], "height": ["pressure"], "model": ["pressure", "height"]}[
             self.vertical
         ]
-        optional = [k for k in _OPTIONAL if fields is None or k in fields]
+        optional = [k for k in OPTIONAL_KEYS if k not in base and (fields is None or k in fields)]
         return [k for k in base + optional if k in self.sources[0].fields]
 
     def columns_at(self, lat, lon, time, *, fields=None):

@@ -24,6 +24,22 @@ from icing.forecast.table import (
 __all__ = ["profile_schema", "read_profiles_json", "read_profiles_csv"]
 
 
+def _not_text(path):
+    raise ForecastError(
+        "not a UTF-8 text file",
+        path=path,
+        fix="give a profile JSON, profile CSV or CF-NetCDF file",
+    ) from None
+
+
+def _text(path, encoding="utf-8"):
+    """Return the file's text; one line when it is not UTF-8."""
+    try:
+        return path.read_text(encoding=encoding)
+    except UnicodeDecodeError:
+        _not_text(path)
+
+
 def profile_schema():
     """Return the JSON Schema (dict) of the profile input (``data/schemas/profiles-v1.json``)."""
     return json.loads(
@@ -93,11 +109,7 @@ def read_profiles_json(path):
             fix="repair the JSON syntax (a missing comma or bracket?)",
         ) from None
     except UnicodeDecodeError:
-        raise ForecastError(
-            "not a UTF-8 text file",
-            path=path,
-            fix="give a profile JSON, profile CSV or CF-NetCDF file",
-        ) from None
+        _not_text(path)
     if not isinstance(doc, dict) or doc.get("format") != "icing-profiles":
         got = doc.get("format") if isinstance(doc, dict) else type(doc).__name__
         raise ForecastError(
@@ -251,15 +263,7 @@ def read_profiles_csv(path):
     in file order. Empty cells are missing values.
     """
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except UnicodeDecodeError:
-        raise ForecastError(
-            "not a UTF-8 text file",
-            path=path,
-            fix="give a profile JSON, profile CSV or CF-NetCDF file",
-        ) from None
-    reader = csv.DictReader(text.splitlines())
+    reader = csv.DictReader(_text(path, "utf-8-sig").splitlines())
     header = [h.strip() for h in (reader.fieldnames or [])]
     _check_csv_header(header, path)
     groups = _csv_groups(reader, path)

@@ -330,11 +330,10 @@ def _check_humidity(arrays, i, path, locate):
             )
 
 
-_LEVEL_RANGES = (
-    ("cloud_liquid_g_kg", 0.0, 30.0, "give the mass fraction in g/kg (kg/kg x 1000)"),
-    ("cloud_ice_g_kg", 0.0, 30.0, "give the mass fraction in g/kg (kg/kg x 1000)"),
-    ("rain_g_kg", 0.0, 30.0, "give the mass fraction in g/kg (kg/kg x 1000)"),
-    ("snow_g_kg", 0.0, 30.0, "give the mass fraction in g/kg (kg/kg x 1000)"),
+_LEVEL_RANGES = tuple(
+    (name, 0.0, 30.0, "give the mass fraction in g/kg (kg/kg x 1000)")
+    for name in ("cloud_liquid_g_kg", "cloud_ice_g_kg", "rain_g_kg", "snow_g_kg")
+) + (
     ("cloud_fraction", 0.0, 1.0, "give a fraction 0-1 (percent / 100)"),
     (
         "vertical_velocity_m_s",

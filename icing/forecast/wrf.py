@@ -39,6 +39,7 @@ import numpy as np
 
 from icing.errors import ForecastError
 from icing.forecast.build import build_grid_source
+from icing.forecast.conversions import base_geographic
 from icing.forecast.fields import RawVariable, lazy_raw_array
 
 __all__ = ["is_wrf", "read_wrf_forecast", "WrfVariable"]
@@ -182,7 +183,7 @@ def _axes(ds, attrs, path):
     from pyproj import CRS, Transformer
 
     crs = CRS.from_cf(attrs)
-    x, y = Transformer.from_crs(crs.geodetic_crs, crs, always_xy=True).transform(lon, lat)
+    x, y = Transformer.from_crs(base_geographic(crs), crs, always_xy=True).transform(lon, lat)
     x1, y1 = np.mean(x, axis=0), np.mean(y, axis=1)
     dx, dy = float(ds.attrs.get("DX", np.nan)), float(ds.attrs.get("DY", np.nan))
     spread = max(np.max(np.abs(x - x1)), np.max(np.abs(y - y1[:, None])))
