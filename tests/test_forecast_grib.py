@@ -482,3 +482,23 @@ def test_polar_stereographic_and_rotated_grids_with_earth_relative_winds(tmp_pat
     if sample.startswith("polar"):
         # polar stereographic: grid north leans by lon - orientation (from memory)
         assert np.degrees(a) == pytest.approx(lon[j, i] - 255.0, abs=0.3)
+
+
+def test_model_level_grib_is_refused_in_one_line(tmp_path, capsys):
+    # hybrid model levels need the vertical coordinate table and surface pressure to
+    # place them; they are refused, never read as if they were pressure levels
+    import eccodes
+
+    msgs = []
+    for name in ("t", "q"):
+        for level in (1, 2, 3):
+            h = eccodes.codes_grib_new_from_samples("regular_ll_pl_grib2")
+            eccodes.codes_set(h, "shortName", name)
+            eccodes.codes_set(h, "typeOfLevel", "hybrid")
+            eccodes.codes_set(h, "level", level)
+            msgs.append(eccodes.codes_get_message(h))
+            eccodes.codes_release(h)
+    path = tmp_path / "model-levels.grib2"
+    path.write_bytes(b"".join(msgs))
+    err = _one_line_refusal(capsys, tmp_path, path)
+    assert "GRIB2" in err and "hybrid" in err and "model levels" in err

@@ -396,7 +396,7 @@ def _level_dims(groups):
     names, by_type = {}, {}
     for group, levels in groups.items():
         level_type = group[1]
-        if level_type not in _LEVEL_TYPES or len(levels) < 2:
+        if len(levels) < 2:
             continue
         sets = by_type.setdefault(level_type, [])
         if levels not in sets:
@@ -471,8 +471,10 @@ def _raw_dataset(gfile, fields, keep, info):
     if numbers:
         coords["number"] = ("number", np.asarray(numbers), {"long_name": "ensemble member"})
     for group, dim in level_dims.items():
-        unit, attrs = _LEVEL_TYPES[group[1]]
-        coords[dim] = (dim, np.asarray(groups[group], float), {"units": unit, **attrs})
+        unit, attrs = _LEVEL_TYPES.get(group[1], (None, {"axis": "Z"}))
+        attrs = {**attrs, "long_name": f"GRIB level type {group[1]}"}
+        attrs.update({"units": unit} if unit else {})  # hybrid, sigma ...: a level of unknown kind
+        coords[dim] = (dim, np.asarray(groups[group], float), attrs)
     raws, data = {}, {}
     for group, levels in groups.items():
         dim = level_dims.get(group)
