@@ -66,7 +66,7 @@ def _var_map(items):
 
 
 def _forecast(args):
-    from icing.forecast.core import load_forecast
+    from icing.forecast import load_forecast
 
     kwargs = {}
     if getattr(args, "radius_km", None) is not None:
@@ -79,6 +79,9 @@ def _forecast(args):
     site = _sounding_site(args)
     if site is not None:
         kwargs["sounding_site"] = site
+    for option in ("member", "rh_convention"):  # gridded files: ensemble member, RH convention
+        if getattr(args, option, None) is not None:
+            kwargs[option] = getattr(args, option)
     paths = []
     for p in args.forecast:
         if any(ch in p for ch in "*?["):
@@ -99,8 +102,8 @@ def _sounding_site(args):
     """--station LAT,LON,ELEV_M and --time for sounding files that do not give them."""
     from dataclasses import replace
 
-    from icing.forecast.readers import parse_time
     from icing.forecast.soundings import SoundingSite, parse_station
+    from icing.forecast.table import parse_time
 
     station, time = getattr(args, "station", None), getattr(args, "time", None)
     if station is None and time is None:
@@ -540,8 +543,9 @@ def build_parser() -> argparse.ArgumentParser:
             nargs="+",
             required=True,
             metavar="FILE",
-            help="forecast file(s): profile JSON/CSV, CF-NetCDF or radiosonde soundings "
-            "(Wyoming text/CSV, IGRA2); several files (lead times, or a glob) form one forecast",
+            help="forecast file(s): GRIB1/GRIB2, CF or data-service NetCDF, WRF output, "
+            "profile JSON/CSV, radiosonde soundings (Wyoming text/CSV, IGRA2); several files "
+            "(lead times, or a glob) form one forecast",
         )
         sp.add_argument(
             "--radius-km",
@@ -569,6 +573,20 @@ def build_parser() -> argparse.ArgumentParser:
             metavar="LAT,LON,ELEV_M",
             help="radiosonde files without a station block: position and elevation [m] "
             "(use --station=-33.9,151.2,10 for negative values)",
+        )
+        sp.add_argument(
+            "--member",
+            type=int,
+            default=None,
+            metavar="N",
+            help="ensemble member to read from a file with several (GRIB number)",
+        )
+        sp.add_argument(
+            "--rh-convention",
+            choices=("water", "ifs-mixed", "ncep-gfs", "ice"),
+            default=None,
+            help="what the file's relative humidity is relative to below 0 C, when the "
+            "file does not say (default: from the file; unknown is read as over water)",
         )
         sp.add_argument(
             "--air-mass",

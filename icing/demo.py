@@ -38,7 +38,7 @@ def run_demo(out) -> tuple[list[dict], list[Path]]:
     (summaries, written)
         The route summaries and the paths written.
     """
-    from icing.forecast.core import load_forecast
+    from icing.forecast import load_forecast
     from icing.outputs.write import write_outputs
     from icing.route import load_routes
     from icing.runs.screen import screen_route

@@ -9,12 +9,17 @@ drawn by hand so that tests of pictures, avoidance and reports know where the
 answers must lie (the scenario is described at :func:`_make_screening`).
 
 Tests ask for them by fixture name: ``canonical_routes``, ``write_text``,
-``columns``, ``make_screening`` and ``screening_scenario``.
+``columns``, ``make_screening`` and ``screening_scenario``; ``real_data`` (the
+folder of real model files, origin and licence in its README.md) and
+``screen_cli`` (runs ``icing screen`` on a route of our own over them).
 """
 
 from __future__ import annotations
 
+import csv
+import json
 from datetime import UTC, datetime
+from pathlib import Path
 from types import SimpleNamespace
 
 import numpy as np
@@ -615,3 +620,47 @@ def screening_scenario():
         FREEZING_LEVEL_FT=FREEZING_LEVEL_FT,
         GAP_KM=GAP_KM,
     )
+
+
+#: Real model output kept for the reader tests (origin, licence, quirks: README.md there).
+REAL_DATA = Path(__file__).resolve().parent / "data" / "real"
+
+
+@pytest.fixture(scope="session")
+def real_data():
+    """The folder of real model files (tests/data/real; see its README.md)."""
+    return REAL_DATA
+
+
+@pytest.fixture
+def screen_cli(tmp_path):
+    """Run ``icing screen`` on a route of our own; return (exit code, GeoJSON, sample rows).
+
+    ``run(coords, forecast, departure=ISO, name=..., airframe=..., extra=(...))``:
+    ``coords`` are ``[lon, lat, alt_m]`` positions of a LineString written to a
+    temporary GeoJSON route; the output GeoJSON is None when nothing was written.
+    """
+    from icing.cli import main
+
+    def run(coords, forecast, *, departure, name="test route", airframe="light-piston", extra=()):
+        route = tmp_path / "route.geojson"
+        feature = {
+            "type": "Feature",
+            "properties": {"name": name, "departure_time": departure},
+            "geometry": {"type": "LineString", "coordinates": coords},
+        }
+        route.write_text(json.dumps(feature))
+        out, samples = tmp_path / "out.geojson", tmp_path / "samples.csv"
+        for f in (out, samples):
+            f.unlink(missing_ok=True)
+        args = ["screen", str(route), "--forecast", *map(str, np.atleast_1d(forecast))]
+        args += ["--airframe", airframe, "-o", str(out), "--samples", str(samples), *extra]
+        code = main(args)
+        fc = json.loads(out.read_text()) if out.exists() else None
+        rows = []
+        if samples.exists():
+            with samples.open() as fh:
+                rows = list(csv.DictReader(fh))
+        return code, fc, rows
+
+    return run

@@ -19,7 +19,7 @@ import pytest
 import xarray as xr
 
 from icing.errors import ForecastError
-from icing.forecast.core import (
+from icing.forecast import (
     GAP_REASONS,
     ColumnSet,
     GridForecast,
@@ -430,8 +430,7 @@ def test_only_tiles_around_the_route_are_read(tmp_path):
     t = np.full(50, np.datetime64("2027-01-14T07:00", "ms"))
     counts = {}
     for name, path in (("small", small), ("large", large)):
-        fc = load_forecast(path)
-        fc.tile = 8
+        fc = load_forecast(path).with_tiling(tile=8)
         cs = fc.columns_at(lat, lon, t)
         assert cs.covered.all()
         counts[name] = fc.read_stats["values"]
@@ -443,8 +442,7 @@ def test_only_tiles_around_the_route_are_read(tmp_path):
 
 
 def test_one_sample_reads_one_small_tile():
-    fc = load_forecast(LATLON)
-    fc.tile = 4
+    fc = load_forecast(LATLON).with_tiling(tile=4)
     fc.columns_at([57.0], [-24.5], [T12])
     full = 29 * 57 * 21 * 3
     assert fc.read_stats["values"] < 0.02 * full * len(fc.variables)
@@ -737,8 +735,7 @@ def test_samples_are_processed_in_chunks_with_the_same_result():
     lon = rng.uniform(-32.0, -16.0, 300)
     t = T06 + (rng.uniform(0, 14, 300) * 3.6e6).astype("timedelta64[ms]")
     whole = fc.columns_at(lat, lon, t)
-    fc.chunk = 17
-    parts = fc.columns_at(lat, lon, t)
+    parts = fc.with_tiling(chunk=17).columns_at(lat, lon, t)
     np.testing.assert_array_equal(whole.candidates, parts.candidates)
     for key in whole.columns:
         np.testing.assert_array_equal(whole.columns[key], parts.columns[key])
@@ -755,8 +752,6 @@ def test_size_one_extra_dimension_is_read_through(tmp_path):
 
 
 def test_blocks_are_cached_between_calls_and_reads_match_xarray(monkeypatch):
-    from icing.forecast.readers import GridFile
-
     lat, lon, t = [57.1, 59.3], [-24.3, -19.6], [T12, T18]
     fc = load_forecast(LATLON)
     first = fc.columns_at(lat, lon, t)
@@ -764,7 +759,7 @@ def test_blocks_are_cached_between_calls_and_reads_match_xarray(monkeypatch):
     again = fc.columns_at(lat, lon, t)
     assert fc.read_stats["reads"] == reads and fc.read_stats["cache_hits"] > 0
     # the xarray path (files netCDF4 cannot open) gives the same columns
-    monkeypatch.setattr(GridFile, "raw_variable", lambda self, name: None)
+    monkeypatch.setattr("icing.forecast.netcdf.open_netcdf4", lambda path: None)
     slow = load_forecast(LATLON).columns_at(lat, lon, t)
     for key in first.columns:
         np.testing.assert_array_equal(again.columns[key], first.columns[key])

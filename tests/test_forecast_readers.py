@@ -13,10 +13,12 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+import xarray as xr
 
 from icing.errors import ForecastError, PlausibilityWarning
-from icing.forecast.core import load_forecast
-from icing.forecast.readers import parse_time, profile_schema
+from icing.forecast import load_forecast
+from icing.forecast.profiles import profile_schema
+from icing.forecast.table import parse_time
 
 ROOT = Path(__file__).resolve().parents[1]
 _spec = importlib.util.spec_from_file_location(
@@ -89,7 +91,7 @@ def test_schema_is_valid_and_fixtures_follow_it():
 
 
 def test_example_document_of_the_design_loads(tmp_path):
-    # DESIGN.md 3.3's illustrative profile (its heights are not hypsometric: kept as given)
+    # an illustrative profile (its heights are not hypsometric: kept as given)
     doc = {
         "format": "icing-profiles",
         "version": 1,
@@ -267,7 +269,7 @@ def test_error_place_in_a_later_profile(tmp_path):
 
 
 def test_relative_humidity_a_little_above_100_is_accepted_and_clipped(tmp_path):
-    # model output up to ~110 % over water is normal (DESIGN.md 3.3): accepted, clipped
+    # model output up to ~110 % over water is normal: accepted, clipped
     fc = load_forecast(_write(tmp_path, _one_profile_doc(relative_humidity_pct=[80, 105, 60])))
     rh = fc.table.levels["relative_humidity"][0]
     np.testing.assert_allclose(rh, [0.80, 1.0, 0.60])
@@ -544,7 +546,7 @@ def test_lead_time_files_with_different_units_are_refused(tmp_path):
     import xarray as xr
 
     from icing.errors import ForecastError
-    from icing.forecast.core import load_forecast
+    from icing.forecast import load_forecast
 
     with xr.open_dataset(ROOT / "fixtures" / "skerrow-latlon.nc") as ds:
         ds = ds.load()
@@ -560,7 +562,7 @@ def test_lead_time_files_with_different_units_are_refused(tmp_path):
 
 def test_profile_csv_row_with_extra_cells_is_one_line_error(tmp_path):
     from icing.errors import ForecastError
-    from icing.forecast.core import load_forecast
+    from icing.forecast import load_forecast
 
     src = (ROOT / "fixtures" / "skerrow-profiles.csv").read_text().splitlines()
     src[1] = src[1] + ",99,98"
@@ -568,3 +570,38 @@ def test_profile_csv_row_with_extra_cells_is_one_line_error(tmp_path):
     bad.write_text("\n".join(src) + "\n")
     with pytest.raises(ForecastError, match="more cells than header columns"):
         load_forecast(bad)
+
+
+def test_reference_time_and_step_become_valid_times(tmp_path):
+    # files converted from GRIB keep (reference time, step) with a 2-D valid time: read
+    # as valid times, the same columns as the file with one time axis (reading rules)
+    ds = _latlon_ds()
+    ref = np.datetime64("2027-01-14T00:00", "ns")
+    steps = (ds["time"].values - ref).astype("timedelta64[ns]")
+    two = ds.rename(time="step").assign_coords(step=steps).expand_dims(time=[ref])
+    two = two.assign_coords(valid_time=(("time", "step"), (ref + steps)[None, :]))
+    path = tmp_path / "steps.nc"
+    for var in two.variables.values():
+        var.encoding = {}
+    two.to_netcdf(path)
+    fc = load_forecast(path)
+    assert fc.valid_times.size == 3
+    t = np.datetime64("2027-01-14T09:00", "ms")
+    a = fc.columns_at([57.1], [-24.3], [t]).columns
+    b = load_forecast(LATLON).columns_at([57.1], [-24.3], [t]).columns
+    for key in b:
+        np.testing.assert_allclose(a[key], b[key], rtol=1e-6, err_msg=key)
+    assert any("(reference time, step)" in n for n in fc.describe()["notes"])
+
+
+def test_one_member_of_a_netcdf_ensemble_with_member(tmp_path):
+    ds = _latlon_ds()
+    for name in ("t", "r", "gh"):
+        ds[name] = xr.concat([ds[name], ds[name] + 1.0], dim="number").assign_coords(number=[0, 1])
+    path = _to_nc(ds, tmp_path)
+    t = np.datetime64("2027-01-14T12:00", "ms")
+    one = load_forecast(path, member=1).columns_at([57.0], [-24.5], [t]).columns["temperature"]
+    ref = load_forecast(LATLON).columns_at([57.0], [-24.5], [t]).columns["temperature"]
+    np.testing.assert_allclose(one, ref + 1.0, rtol=1e-6)  # member 1 is member 0 + 1 K
+    with pytest.raises(ForecastError, match="member 5 is not in"):
+        load_forecast(path, member=5)

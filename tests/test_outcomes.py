@@ -367,7 +367,7 @@ def test_drone_candidates_are_searched_in_a_step_suited_to_the_band():
 
 
 def test_segment_ids_do_not_change_with_route_order():
-    from icing.forecast.core import load_forecast
+    from icing.forecast import load_forecast
     from icing.runs.screen import screen_routes
 
     forecast = load_forecast(FORECAST)

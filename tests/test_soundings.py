@@ -36,8 +36,7 @@ from icing.calc.thermo import relative_humidity_from_dewpoint
 from icing.cli import main
 from icing.constants import FT, T0
 from icing.errors import ForecastError, InputError, PlausibilityWarning
-from icing.forecast.core import load_forecast
-from icing.forecast.readers import parse_time
+from icing.forecast import load_forecast
 from icing.forecast.soundings import (
     SoundingSite,
     parse_station,
@@ -45,6 +44,7 @@ from icing.forecast.soundings import (
     read_sounding_text,
     sounding_format,
 )
+from icing.forecast.table import parse_time
 
 REAL = Path(__file__).parent / "data" / "real"
 BOI_TEXT = REAL / "BOI_2010-12-09T12Z_wyoming_text.txt"

@@ -30,6 +30,9 @@ __all__ = [
     "moist_adiabat_temperature",
     "ice_saturation_relative_humidity",
     "lifting_condensation_level",
+    "vertical_velocity_from_omega",
+    "saturation_vapor_pressure_ifs",
+    "saturation_vapor_pressure_ncep_gfs",
 ]
 
 
@@ -451,3 +454,134 @@ def lifting_condensation_level(pressure, temperature, relative_humidity):
         t_l = 1.0 / (1.0 / (t - 55.0) - np.log(rh_c) / 2840.0) + 55.0  # Bolton (1980) eq. 22
         p_l = p * (t_l / t) ** (CP_AIR / RD)  # dry adiabat from the level to the LCL
     return p_l, t_l
+
+
+def vertical_velocity_from_omega(omega, pressure, temperature, specific_humidity=0.0):
+    """Vertical velocity from the pressure tendency omega, hydrostatic.
+
+    Parameters
+    ----------
+    omega : array_like
+        Lagrangian tendency of air pressure, Dp/Dt. [Pa/s]
+    pressure, temperature : array_like
+        Air pressure [Pa] and temperature [K] at the same points.
+    specific_humidity : array_like, optional
+        For the moist air density. [kg/kg]
+
+    Returns
+    -------
+    numpy.ndarray
+        Upward air velocity. [m/s]
+
+    Notes
+    -----
+    ``w = -omega / (rho g)`` (hydrostatic: ``dp = -rho g dz``), with the moist
+    density of :func:`air_density`. Valid where the vertical motion is nearly
+    hydrostatic (horizontal scales well above the depth of the layer).
+
+    References
+    ----------
+    Wallace, J. M. & Hobbs, P. V. (2006), Atmospheric Science, 2nd ed., eq. 7.33
+    (from memory).
+
+    Examples
+    --------
+    >>> round(float(vertical_velocity_from_omega(-1.0, 70000.0, 263.15)), 3)
+    0.11
+    """
+    rho = air_density(pressure, temperature, specific_humidity)
+    return -np.asarray(omega, dtype=float) / (rho * G)
+
+
+def saturation_vapor_pressure_ifs(temperature, *, phase="liquid"):
+    """Saturation vapour pressure as the ECMWF IFS diagnoses it (Tetens form).
+
+    Parameters
+    ----------
+    temperature : array_like
+        Air temperature. [K]
+    phase : {"liquid", "solid", "mixed"}
+        Over water, over ice, or the IFS mixed phase: water at and above 273.16 K,
+        ice at and below 250.16 K, and between them ``alpha e_w + (1 - alpha) e_i``
+        with ``alpha = ((T - 250.16) / 23)^2``.
+
+    Returns
+    -------
+    numpy.ndarray
+        Saturation vapour pressure. [Pa]
+
+    Notes
+    -----
+    ``e = a1 exp(a3 (T - 273.16) / (T - a4))``, a1 = 611.21 Pa; water a3 = 17.502,
+    a4 = 32.19 K; ice a3 = 22.587, a4 = -0.7 K (IFS documentation, Part IV:
+    Physical processes, section 7.4 (Cy45r1) / chapter 12 (Cy47r3)). ECMWF defines
+    its relative humidity with respect to this mixed phase below 0 C.
+
+    Examples
+    --------
+    >>> round(float(saturation_vapor_pressure_ifs(273.16)), 2)
+    611.21
+    """
+    t = np.asarray(temperature, dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        e_w = 611.21 * np.exp(17.502 * (t - 273.16) / (t - 32.19))
+        e_i = 611.21 * np.exp(22.587 * (t - 273.16) / (t + 0.7))
+    alpha = np.clip((t - 250.16) / (273.16 - 250.16), 0.0, 1.0) ** 2
+    return _saturation_phase(e_w, e_i, alpha, phase)
+
+
+def saturation_vapor_pressure_ncep_gfs(temperature, *, phase="liquid"):
+    """Saturation vapour pressure as the NCEP GFS post-processor computes it.
+
+    Parameters
+    ----------
+    temperature : array_like
+        Air temperature. [K]
+    phase : {"liquid", "solid", "mixed"}
+        Over water, over ice, or the GFS blend: water at and above 273.16 K, ice
+        below 253.16 K, and linear in temperature between them,
+        ``w e_l + (1 - w) e_i`` with ``w = (T - 253.16) / 20``.
+
+    Returns
+    -------
+    numpy.ndarray
+        Saturation vapour pressure. [Pa]
+
+    Notes
+    -----
+    Clausius-Clapeyron with latent heats varying linearly in temperature:
+    ``e = psat (Ttp/T)^A exp(B (1 - Ttp/T))`` with ``A = -(cv - cl)/Rv`` and
+    ``B = A + L/(Rv Ttp)`` (``cl`` the liquid, ``cs`` the ice heat capacity, ``L``
+    the latent heat of vaporisation, or sublimation for ice), psat = 610.78 Pa,
+    Ttp = 273.16 K, cv = 1846, cl = 4185.5, cs = 2106 J/kg/K, Lv = 2.5e6,
+    Lf = 3.3358e5 J/kg, Rv = 461.5 J/kg/K: the GFS physics constants, as used by
+    the NCEP post-processor's relative humidity for the GFS (function FPVSNEW of
+    CALRH_GFS, NCEP Unified Post Processor).
+
+    Examples
+    --------
+    >>> round(float(saturation_vapor_pressure_ncep_gfs(273.16)), 2)
+    610.78
+    """
+    t = np.asarray(temperature, dtype=float)
+    ttp, psat, rv = 273.16, 610.78, 461.5
+    cv, cl, cs, hv, hf = 1846.0, 4185.5, 2106.0, 2.5e6, 3.3358e5
+    with np.errstate(invalid="ignore", divide="ignore"):
+        tr = ttp / t
+        a_l = -(cv - cl) / rv
+        e_l = psat * tr**a_l * np.exp((a_l + hv / (rv * ttp)) * (1.0 - tr))
+        a_i = -(cv - cs) / rv
+        e_i = psat * tr**a_i * np.exp((a_i + (hv + hf) / (rv * ttp)) * (1.0 - tr))
+    w = np.clip((t - (ttp - 20.0)) / 20.0, 0.0, 1.0)
+    return _saturation_phase(e_l, e_i, w, phase)
+
+
+def _saturation_phase(e_water, e_ice, weight, phase):
+    """Pick water, ice, or the blend ``weight e_water + (1 - weight) e_ice``."""
+    if phase == "liquid":
+        return e_water
+    if phase == "solid":
+        return e_ice
+    if phase != "mixed":
+        raise ValueError(f"phase {phase!r} is not 'liquid', 'solid' or 'mixed'")
+    return weight * e_water + (1.0 - weight) * e_ice

@@ -1,20 +1,25 @@
 """Forecasts: the readers of forecast files and the columns they give at route samples.
 
-Every reader yields the same internal structure; route screening, ``profile``
-and the grid mode read only that. :func:`load_forecast` picks the reader by the
-file's content and returns a :class:`Forecast` whose :meth:`Forecast.columns_at`
-brings whole columns to the samples.
+The modules follow the data flow. Files are recognised by content and read
+(:mod:`~icing.forecast.load`) by a reader per format: profile JSON/CSV
+(:mod:`~icing.forecast.profiles` -> :mod:`~icing.forecast.table`), CF and
+data-service NetCDF (:mod:`~icing.forecast.netcdf`). Gridded readers share the
+variable discovery (:mod:`~icing.forecast.discovery`), the units
+(:mod:`~icing.forecast.units`) and the build of the one internal structure
+(:mod:`~icing.forecast.build` -> :mod:`~icing.forecast.dataset`: an xarray Dataset
+in SI with lazy :mod:`~icing.forecast.fields`). The forecasts read it:
+:class:`GridForecast` (:mod:`~icing.forecast.grid`: locate, read tiles through a
+lock-safe :mod:`~icing.forecast.tiles` cache, interpolate with
+:mod:`~icing.forecast.interp`) and :class:`ProfileForecast`
+(:mod:`~icing.forecast.points`); :mod:`~icing.forecast.assemble` turns the
+interpolated values into the column physics' inputs, a :class:`ColumnSet`
+(:mod:`~icing.forecast.columns`).
 """
 
-from icing.forecast.core import (
-    GAP_REASONS,
-    ColumnSet,
-    Forecast,
-    GridForecast,
-    ProfileForecast,
-    demo_forecast_path,
-    load_forecast,
-)
+from icing.forecast.columns import GAP_REASONS, ColumnSet, Forecast
+from icing.forecast.grid import GridForecast
+from icing.forecast.load import demo_forecast_path, load_forecast
+from icing.forecast.points import ProfileForecast
 
 __all__ = [
     "GAP_REASONS",

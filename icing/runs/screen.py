@@ -233,7 +233,7 @@ def _speeds_and_reasons(at, tas_ms, notes, samples, route):
 def _loaded(route, forecast, airframe):
     """Return route, forecast and airframe objects from objects, files or preset names."""
     from icing.airframes import load_airframe
-    from icing.forecast.core import load_forecast
+    from icing.forecast import load_forecast
     from icing.route import load_route
 
     if not hasattr(route, "waypoints"):

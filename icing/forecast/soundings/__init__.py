@@ -1,6 +1,6 @@
 """Radiosonde soundings as forecasts: University of Wyoming lists and IGRA2 files.
 
-Every reader returns the same :class:`~icing.forecast.readers.ProfileTable` as the
+Every reader returns the same :class:`~icing.forecast.table.ProfileTable` as the
 profile JSON/CSV readers (one profile per ascent: position, valid time, levels in
 SI, surface first), so the coverage radius, the time tolerance and the whole-column
 diagnosis treat a sounding like any other profile. Formats, told apart by content:
@@ -111,7 +111,7 @@ def sounding_format(path):
 
 
 def read_sounding(path, *, site=None):
-    """Read a radiosonde file into a :class:`~icing.forecast.readers.ProfileTable`.
+    """Read a radiosonde file into a :class:`~icing.forecast.table.ProfileTable`.
 
     Parameters
     ----------

@@ -30,8 +30,10 @@ from __future__ import annotations
 import numpy as np
 
 from icing.errors import ForecastError
-from icing.forecast.readers import _linear, _open_dataset
+from icing.forecast.netcdf import NETCDF_LOCK
+from icing.forecast.netcdf import open_netcdf as _open_dataset
 from icing.forecast.soundings.common import RawSounding
+from icing.forecast.units import linear as _linear
 
 __all__ = ["parse_cf_profiles", "cf_feature_type", "looks_like_cf_profile", "CF_HUMIDITY_NOTE"]
 
@@ -71,7 +73,7 @@ def cf_feature_type(path):
     try:
         import netCDF4  # already a dependency; reads one attribute without xarray's decoding
 
-        with netCDF4.Dataset(path) as nc:
+        with NETCDF_LOCK, netCDF4.Dataset(path) as nc:  # HDF5 is not thread-safe
             return str(getattr(nc, "featureType", "")).strip().lower()
     except Exception:  # unreadable here: the grid reader reports it in one line
         return ""
@@ -191,11 +193,12 @@ def _level_fields(ds, zdim, zname, path):
 
 def parse_cf_profiles(path, site_elevation=None):
     """Read a CF profile / timeSeriesProfile NetCDF file: RawSounding list, sources, notes."""
-    ds = _open_dataset(path)
-    try:
-        return _parse(ds, path, site_elevation)
-    finally:
-        ds.close()
+    with NETCDF_LOCK:  # HDF5 is not thread-safe: open, read and close under its lock
+        ds = _open_dataset(path)
+        try:
+            return _parse(ds, path, site_elevation)
+        finally:
+            ds.close()
 
 
 def _parse(ds, path, site_elevation):

@@ -22,7 +22,7 @@ steps here are the same for every format:
 7. wind direction and speed become components.
 
 The result goes through the profile readers' own checks
-(:func:`icing.forecast.readers._build_table`: kelvin in Celsius fields, humidity
+(:func:`icing.forecast.table.build_table`: kelvin in Celsius fields, humidity
 far above saturation, ranges), so a sounding and a profile file are judged alike.
 Levels without temperature or humidity stay in the table as NaN: the column
 diagnosis marks them invalid (a coverage gap at those levels, never dry air).
@@ -53,7 +53,8 @@ from icing.calc.thermo import (
 )
 from icing.constants import T0
 from icing.errors import ForecastError
-from icing.forecast.readers import _build_table, fill_along_levels
+from icing.forecast.assemble import fill_along_levels
+from icing.forecast.table import build_table as _build_table
 
 __all__ = [
     "RawSounding",
@@ -479,7 +480,7 @@ def _none_for_nan(a):
 
 
 def to_table(raws, site, path, *, kind, sources, notes=(), humidity_note=HUMIDITY_NOTE):
-    """Clean every ascent and build one :class:`~icing.forecast.readers.ProfileTable`.
+    """Clean every ascent and build one :class:`~icing.forecast.table.ProfileTable`.
 
     Parameters
     ----------
