@@ -3,7 +3,8 @@
 Route and forecast files, and the bodies of service requests, come from outside. A
 reader takes their bytes through this module so that a hostile or broken input ends
 in one :class:`icing.errors.InputError` line (file, place, fix), never a traceback, a
-hang or a process killed for memory:
+hang or a process killed for memory. A leaf: the caller passes the error class to raise
+(``error=RouteError``), so nothing from ``icing`` is imported here.
 
 * :func:`read_input_bytes` opens regular files only (never a device, FIFO or folder,
   whose reading never ends) and refuses files over a stated size before reading them.
@@ -36,8 +37,6 @@ import re
 import stat
 from pathlib import Path
 
-from icing.errors import InputError
-
 __all__ = [
     "MAX_ROUTE_FILE_BYTES",
     "MAX_JSON_DEPTH",
@@ -53,7 +52,7 @@ MAX_INTEGER_DIGITS = 20
 _NOT_JSON = re.compile(r"-?\b(?:NaN|Infinity)\b")
 
 
-def read_input_bytes(path, *, limit, error=InputError, what="file", fix=None):
+def read_input_bytes(path, *, limit, error, what="file", fix=None):
     """Return the bytes of a regular file of at most ``limit`` bytes.
 
     Parameters
@@ -63,7 +62,7 @@ def read_input_bytes(path, *, limit, error=InputError, what="file", fix=None):
     limit : int
         The largest size accepted. [bytes]
     error : type
-        The :class:`InputError` subclass raised.
+        The :class:`icing.errors.InputError` subclass raised.
     what : str
         What the file is, for the messages ("route file").
     fix : str, optional
@@ -179,7 +178,7 @@ def _too_deep(obj, max_depth):
     return False
 
 
-def parse_json(text, *, path=None, error=InputError, max_depth=MAX_JSON_DEPTH, fix=None):
+def parse_json(text, *, error, path=None, max_depth=MAX_JSON_DEPTH, fix=None):
     """Parse JSON text strictly; refuse what is not plain, finite, shallow JSON.
 
     Parameters
@@ -189,7 +188,7 @@ def parse_json(text, *, path=None, error=InputError, max_depth=MAX_JSON_DEPTH, f
     path : str or os.PathLike, optional
         The file, named in the messages.
     error : type
-        The :class:`InputError` subclass raised.
+        The :class:`icing.errors.InputError` subclass raised.
     max_depth : int
         The deepest nesting of lists and objects accepted.
     fix : str, optional
@@ -204,9 +203,10 @@ def parse_json(text, *, path=None, error=InputError, max_depth=MAX_JSON_DEPTH, f
 
     Examples
     --------
-    >>> parse_json('{"a": [1, 2.5, null]}')
+    >>> from icing.errors import InputError
+    >>> parse_json('{"a": [1, 2.5, null]}', error=InputError)
     {'a': [1, 2.5, None]}
-    >>> parse_json('[NaN]', path="x.json")  # doctest: +ELLIPSIS
+    >>> parse_json('[NaN]', error=InputError, path="x.json")  # doctest: +ELLIPSIS
     Traceback (most recent call last):
     ...
     icing.errors.InputError: x.json: line 1: NaN is not a JSON number (fix: write null ...
