@@ -32,6 +32,7 @@ from icing.calc.thermo import (
 )
 from icing.constants import RHO_WATER, T0, G
 from icing.errors import ForecastError, PlausibilityWarning
+from icing.untrusted import parse_json
 
 __all__ = [
     "PROFILE_LEVEL_FIELDS",
@@ -246,14 +247,12 @@ def read_profiles_json(path):
     """
     path = Path(path)
     try:
-        doc = json.loads(path.read_text(encoding="utf-8"))
-    except json.JSONDecodeError as exc:
-        raise ForecastError(
-            f"malformed JSON: {exc.msg}",
+        doc = parse_json(  # strict: NaN, Infinity, huge numbers and deep nesting refused
+            path.read_text(encoding="utf-8"),
             path=path,
-            where=f"line {exc.lineno}, column {exc.colno}",
+            error=ForecastError,
             fix="repair the JSON syntax (a missing comma or bracket?)",
-        ) from None
+        )
     except UnicodeDecodeError:
         raise ForecastError(
             "not a UTF-8 text file",
