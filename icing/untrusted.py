@@ -168,7 +168,7 @@ def _pairs(pairs):
 
 def _too_deep(obj, max_depth):
     """Return True when ``obj`` nests lists and objects deeper than ``max_depth``."""
-    stack = [(obj, 1)]
+    stack = [(obj, 1)] if isinstance(obj, (list, dict)) else []
     while stack:
         node, depth = stack.pop()
         if depth > max_depth:
