@@ -332,6 +332,8 @@ def _line_coordinates(geom, *, path, where):
 
 
 def _same_point(a, b):
+    if not (isinstance(a, list) and isinstance(b, list)):
+        return False  # not positions: the position check names them
     try:
         return (
             float(a[1]) == float(b[1])
