@@ -363,6 +363,7 @@ def cmd_screen(args) -> int:
     ]
     if airframe is None:
         _require_airframes(routes)
+        _check_route_airframes(routes)
     forecast = _forecast(args)
     opts = ScreenOptions(step_km=args.step_km, all_segments=args.all_segments, condition=condition)
     screenings = []
@@ -413,6 +414,25 @@ def _inputs(args):
     if args.airframe is not None and Path(args.airframe).is_file():
         out.append((args.airframe, "airframe file"))
     return out
+
+
+def _check_route_airframes(routes):
+    """Load the airframe each route names; an unknown one is blamed on its route file."""
+    from icing.airframes import load_airframe
+    from icing.errors import AirframeError
+
+    for r in routes:
+        try:
+            load_airframe(r.airframe)
+        except AirframeError as err:
+            if err.path is not None:  # the airframe file itself is at fault
+                raise
+            raise AirframeError(
+                err.message,
+                path=r.source,
+                where=f"route {r.name!r}: airframe",
+                fix=err.fix,
+            ) from None
 
 
 def _require_airframes(routes):

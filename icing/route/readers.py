@@ -122,6 +122,12 @@ def _read_routes(path):
             path=path,
             fix=_FORMAT_FIX,
         ) from None
+    if "\x00" in text:
+        raise RouteError(
+            f"NUL byte at character {text.index(chr(0))}: a binary file, not a route file",
+            path=path,
+            fix=_FORMAT_FIX,
+        )
     text = text.lstrip("\ufeff")
     if not text.strip():
         raise RouteError("file is empty", path=path, fix=_FORMAT_FIX)
