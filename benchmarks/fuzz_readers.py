@@ -328,6 +328,18 @@ def _worker(seed, deadline, queue, out_dir):
     queue.put(("counts", dict(counts)))
 
 
+def _drain(queue, counts, findings):
+    """Take the workers' messages: counts, and findings (the first of each kind printed)."""
+    while not queue.empty():
+        msg = queue.get()
+        if msg[0] == "counts":
+            counts.update(msg[1])
+            continue
+        findings[msg[1]] += 1
+        if findings[msg[1]] == 1:
+            print(f"finding: {msg[1]}: {msg[2]} ({msg[3]})", flush=True)
+
+
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--minutes", type=float, default=10.0)
@@ -349,14 +361,7 @@ def main(argv=None):
             p.start()
             procs[p] = seed
             seed += 1
-        while not queue.empty():
-            msg = queue.get()
-            if msg[0] == "counts":
-                counts.update(msg[1])
-            else:
-                findings[msg[1]] += 1
-                if findings[msg[1]] == 1:
-                    print(f"finding: {msg[1]}: {msg[2]} ({msg[3]})", flush=True)
+        _drain(queue, counts, findings)
         for p in list(procs):
             if not p.is_alive():
                 p.join()
@@ -365,12 +370,7 @@ def main(argv=None):
                     print(f"worker {procs[p]} died with exit code {p.exitcode}", flush=True)
                 del procs[p]
         time.sleep(0.2)
-    while not queue.empty():
-        msg = queue.get()
-        if msg[0] == "counts":
-            counts.update(msg[1])
-        else:
-            findings[msg[1]] += 1
+    _drain(queue, counts, findings)
     total = sum(v for k, v in counts.items() if k != "refused")
     print(f"cases: {total} ({', '.join(f'{k} {v}' for k, v in sorted(counts.items()))})")
     print(
