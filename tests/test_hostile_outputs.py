@@ -199,3 +199,15 @@ def test_a_lone_point_feature_keeps_its_own_name_time_and_speed(tmp_path):
     assert r.ground_elevation_m == 20.0 and r.waypoints[0].hold_min == 12.0
     s = sample_route(r)
     assert s.dt_s.sum() == pytest.approx(12 * 60.0)  # the hover, timed from its departure
+
+
+def test_an_agl_route_over_profiles_without_ground_is_a_named_gap(tmp_path, capsys):
+    corpus = ROOT / "tests" / "data" / "hostile"
+    out = tmp_path / "h.geojson"
+    route = corpus / "_agl-route.geojson"
+    code = main(["screen", str(route), "-f", str(corpus / "forecast-gap-no-surface.json"),
+                 "-a", "small-multirotor", "-o", str(out)])  # fmt: skip
+    assert code == 0, capsys.readouterr().err
+    feats = json.loads(out.read_text())["features"]
+    assert feats and all(f["properties"]["kind"] == "coverage-gap" for f in feats)
+    assert any("surface-height-unknown" in f["properties"]["gap_reason"] for f in feats)
