@@ -72,6 +72,7 @@ __all__ = [
     "airframe_from_dict",
     "format_airframes",
     "airframes_to_json",
+    "PLAUSIBLE",
 ]
 
 _OPTIONAL_COLLECTOR = ("protection", "critical", "ice_tolerance_mm", "catch_factor", "description")
@@ -89,6 +90,60 @@ _AIRFRAME_KEYS = (
     "speeds",
 )
 _SPEED_KEYS = ("level_ias_kt", "climb_ias_kt", "descent_ias_kt", "holding_ias_kt", "speed_limit")
+
+
+#: Plausible ranges of an airframe's numbers, key -> (low, high, reason); a value
+#: outside is refused naming the likely slip (:func:`_check_plausible`).
+PLAUSIBLE = {
+    # AIRSPEED_RANGE_KT of the routes: below 1 kt nothing moves between waypoints;
+    # above 700 kt an aircraft is supersonic wherever icing occurs (ICAO standard atmosphere)
+    "true_airspeed_kt": (1.0, 700.0, "cruise true airspeed in knots"),
+    # wires and thin probes (~1 mm) to engine-inlet lips and fuselage noses (~5 m)
+    "diameter_m": (0.0005, 5.0, "a collector's diameter in metres"),
+    # small-drone propellers (~1 cm) to the root chord of the largest wings (~18 m)
+    "chord_m": (0.01, 20.0, "a section's chord in metres"),
+    # the thinnest blade sections (~2 %) to the thickest airfoils in service (~40 %)
+    "thickness_ratio": (0.02, 0.40, "thickness over chord as a fraction"),
+    # a small drone's propeller (~2 cm) to the largest helicopter rotors (~17 m)
+    "section_radius_m": (0.02, 20.0, "the section's radius in metres"),
+    # large helicopter rotors (~100 rpm) to small-drone propellers (~30,000 rpm)
+    "rpm": (50.0, 60000.0, "revolutions per minute"),
+    # a planning figure: a tenth of a millimetre (drone blades) to 100 mm (ice shapes)
+    "ice_tolerance_mm": (0.1, 100.0, "ice thickness in millimetres"),
+    "ceiling_ft": (100.0, 65600.0, "feet (65,600 ft = 20 km, above any icing)"),
+    "min_altitude_ft": (-1000.0, 65600.0, "feet"),
+    "max_altitude_agl_ft": (10.0, 20000.0, "feet above the ground"),
+    # the section speed of a rotor, sqrt((omega r)^2): faster than sound (~340 m/s)
+    # is no propeller or rotor in service (tips stay below about Mach 0.9)
+    "section_speed_m_s": (0.0, 340.0, "omega r of the rotor section, from rpm and radius"),
+}
+_SLIPS = {  # key -> (factor, slip): the value times factor in range names the slip
+    "diameter_m": (1e-3, "millimetres given as metres?"),
+    "chord_m": (1e-3, "millimetres given as metres?"),
+    "section_radius_m": (1e-3, "millimetres given as metres?"),
+    "thickness_ratio": (1e-2, "a percentage given as a fraction? (12 % is 0.12)"),
+    "ice_tolerance_mm": (1e-3, "micrometres given as millimetres?"),
+    "ceiling_ft": (100.0, "a flight level given as feet? (FL100 = 10,000 ft)"),
+    "true_airspeed_kt": (1 / 1.852, "km/h given as knots?"),
+}
+
+
+def _check_plausible(key, value, path, where):
+    """Refuse a number outside :data:`PLAUSIBLE` in one line naming the likely slip."""
+    if key not in PLAUSIBLE:
+        return value
+    low, high, what = PLAUSIBLE[key]
+    if low <= value <= high:
+        return value
+    factor, slip = _SLIPS.get(key, (None, "check the value and its unit"))
+    if factor is None or not low <= value * factor <= high:
+        slip = "check the value and its unit" if value else "zero is not a usable value"
+    raise AirframeError(
+        f"{key!r} {value:g} is outside {low:g}..{high:g} ({what}); {slip}",
+        path=path,
+        where=where,
+        fix=f"give {key} as {what}, within {low:g}..{high:g}",
+    )
 
 
 def _number(table, key, path, where, *, positive=True, required=True, default=None):
@@ -113,7 +168,7 @@ def _number(table, key, path, where, *, positive=True, required=True, default=No
             where=where,
             fix=f"give a positive {key}",
         )
-    return float(v)
+    return _check_plausible(key, float(v), path, where)
 
 
 def _refuse_unknown_keys(table, allowed, path, where):
@@ -176,6 +231,9 @@ def _collector_from_dict(t, path, where):
             fix=f"use only {', '.join(sorted(allowed))}",
         )
     kw = {k: _number(t, k, path, where) for k in SHAPES[shape]}
+    if shape == "rotor":
+        omega_r = 2.0 * math.pi * kw["rpm"] / 60.0 * kw["section_radius_m"]
+        _check_plausible("section_speed_m_s", omega_r, path, where)
     if shape != "cylinder" and not kw["thickness_ratio"] < 1.0:
         raise AirframeError(
             f"'thickness_ratio' must be below 1, got {kw['thickness_ratio']}",
@@ -364,6 +422,13 @@ def _read_toml(path):
             path=path,
             where=None,
             fix="check the quoting and brackets near the named line",
+        ) from None
+    except UnicodeDecodeError as exc:
+        raise AirframeError(
+            f"not a UTF-8 text file (byte {exc.start})",
+            path=path,
+            where=None,
+            fix="save the airframe file as UTF-8 (TOML files are UTF-8)",
         ) from None
     except OSError as exc:
         raise AirframeError(

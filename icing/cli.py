@@ -18,12 +18,94 @@ from icing import codes
 from icing._version import __version__
 from icing.caution import CAUTION
 from icing.errors import IcingError, InputError
+from icing.outputs.atomic import check_targets
 from icing.outputs.table import departure_table, format_number, summary_table
-from icing.outputs.write import write_outputs
+from icing.outputs.write import output_targets, write_outputs
 
 __all__ = ["main", "build_parser", "departure_window"]
 
 EXIT_OK, EXIT_INTERNAL, EXIT_INPUT, EXIT_FAIL_ON = 0, 1, 2, 3
+
+#: The most forecast files of one run: more than the lead times of any model run at
+#: hourly steps for a week (168); each file is opened and indexed.
+MAX_FORECAST_FILES = 1000
+
+
+class _Parser(argparse.ArgumentParser):
+    """An argument parser whose usage errors are one line with the fix (``--help`` is full)."""
+
+    def error(self, message):
+        """Print ``prog: error: message (fix: ...)`` on one line and exit 2."""
+        text = " ".join(f"{self.prog}: error: {message} (fix: {self._fix(message)})".split())
+        self.exit(EXIT_INPUT, text + "\n")
+
+    def _fix(self, message):
+        import difflib
+        import re
+
+        helps = f"see `{self.prog} --help`"
+        unknown = re.match(r"unrecognized arguments: (\S+)", message)
+        if unknown:
+            word = unknown.group(1).split("=")[0].lstrip("-")
+            names = {o.lstrip("-"): o for o in _option_strings(self) if o.startswith("--")}
+            close = [names[c] for c in difflib.get_close_matches(word, sorted(names), n=1)]
+            if self.prog == "icing":  # options belong to the commands
+                helps = "see `icing COMMAND --help`"
+            return (f"did you mean {close[0]}? " if close else "remove it; ") + helps
+        choice = re.search(r"invalid choice: '([^']*)'", message)
+        if choice:
+            known = re.findall(r"'([^']*)'", message.split("choose from", 1)[-1])
+            close = difflib.get_close_matches(choice.group(1), known, n=1)
+            return (f"did you mean {close[0]}? " if close else "") + helps
+        if "arguments are required" in message:
+            example = {
+                "icing screen": "icing screen ROUTE.geojson --forecast FILE --airframe NAME",
+                "icing profile": "icing profile --forecast FILE --at=LAT,LON",
+            }.get(self.prog, "icing screen ROUTE.geojson --forecast FILE --airframe NAME")
+            return f"give them, e.g. `{example}`; {helps}"
+        if "expected one argument" in message or "expected at least one" in message:
+            return f"give the option its value (negative numbers as --opt=-1); {helps}"
+        return helps
+
+
+def _option_strings(parser):
+    """Return every option string of a parser and of its subcommands."""
+    out = set()
+    for action in parser._actions:
+        out.update(action.option_strings)
+        if isinstance(action, argparse._SubParsersAction):
+            for sub in action.choices.values():
+                out |= _option_strings(sub)
+    return out
+
+
+def _bounded(low, high, unit, reason):
+    """Return an argparse type: a finite number within [low, high], else a one-line error."""
+
+    def number(text):
+        import math
+
+        try:
+            value = float(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
+        if not math.isfinite(value) or not low <= value <= high:
+            raise argparse.ArgumentTypeError(
+                f"{text} is outside {low:g}..{high:g} {unit} ({reason})"
+            )
+        return value
+
+    return number
+
+
+_TAS = _bounded(
+    1.0, 700.0, "kt", "below 1 kt a 1 km leg takes half an hour; above 700 kt is supersonic"
+)
+_STEP = _bounded(0.01, 100.0, "km", "finer than 10 m resolves nothing; coarser skips cloud layers")
+_RADIUS = _bounded(0.1, 500.0, "km", "a sounding represents tens of kilometres, not a continent")
+_TOLERANCE = _bounded(0.0, 72.0, "h", "a forecast older than three days is no forecast for now")
+_ALTITUDE_FT = _bounded(-1000.0, 65600.0, "ft", "from below the sea to 20 km")
+_FLIGHT_LEVEL = _bounded(-20.0, 656.0, "", "FL656 is 20 km; a flight level is hundreds of feet")
 
 
 def _latlon(args):
@@ -82,6 +164,12 @@ def _forecast(args):
     for option in ("member", "rh_convention"):  # gridded files: ensemble member, RH convention
         if getattr(args, option, None) is not None:
             kwargs[option] = getattr(args, option)
+    paths = _forecast_paths(args)
+    return load_forecast(paths, **kwargs)
+
+
+def _forecast_paths(args):
+    """Return the forecast files given, globs expanded; at most :data:`MAX_FORECAST_FILES`."""
     paths = []
     for p in args.forecast:
         if any(ch in p for ch in "*?["):
@@ -95,7 +183,13 @@ def _forecast(args):
             paths.extend(found)
         else:
             paths.append(p)
-    return load_forecast(paths, **kwargs)
+    if len(paths) > MAX_FORECAST_FILES:
+        raise InputError(
+            f"{len(paths)} forecast files, above the limit of {MAX_FORECAST_FILES}",
+            where="--forecast",
+            fix="give the files of one run (a narrower pattern)",
+        )
+    return paths
 
 
 def _sounding_site(args):
@@ -247,6 +341,17 @@ def cmd_screen(args) -> int:
     _check_suffix(args.plot, {".png", ".svg"}, "--plot")
     _check_suffix(args.map, {".png", ".svg"}, "--map")
     _check_suffix(args.report, {".html", ".htm"}, "--report")
+    inputs = _inputs(args)
+    check_targets(
+        output_targets(
+            out_geojson=args.output,
+            samples=args.samples,
+            plot=args.plot,
+            map_=args.map,
+            report=args.report,
+        ),
+        inputs,
+    )
     condition = _condition(args)
     departures = _departures(args)
     airframe = None
@@ -261,6 +366,7 @@ def cmd_screen(args) -> int:
     ]
     if airframe is None:
         _require_airframes(routes)
+        _check_route_airframes(routes)
     forecast = _forecast(args)
     opts = ScreenOptions(step_km=args.step_km, all_segments=args.all_segments, condition=condition)
     screenings = []
@@ -286,6 +392,7 @@ def cmd_screen(args) -> int:
         report=args.report,
         samples=args.samples,
         section_axis=args.section_axis,
+        inputs=inputs,
     )
     summaries = fc["summaries"]
     window = len(departures) > 1
@@ -301,6 +408,34 @@ def cmd_screen(args) -> int:
         for p in written:
             print(f"wrote {p}", file=sys.stderr)
     return _fail_code(summaries, window=window)
+
+
+def _inputs(args):
+    """Return the run's input files, each with what it is: outputs never overwrite them."""
+    out = [(p, "route file") for p in args.routes]
+    out += [(p, "forecast file") for p in _forecast_paths(args)]
+    if args.airframe is not None and Path(args.airframe).is_file():
+        out.append((args.airframe, "airframe file"))
+    return out
+
+
+def _check_route_airframes(routes):
+    """Load the airframe each route names; an unknown one is blamed on its route file."""
+    from icing.airframes import load_airframe
+    from icing.errors import AirframeError
+
+    for r in routes:
+        try:
+            load_airframe(r.airframe)
+        except AirframeError as err:
+            if err.path is not None:  # the airframe file itself is at fault
+                raise
+            raise AirframeError(
+                err.message,
+                path=r.source,
+                where=f"route {r.name!r}: airframe",
+                fix=err.fix,
+            ) from None
 
 
 def _require_airframes(routes):
@@ -454,19 +589,21 @@ def _screen_parser(sub, forecast_args):
         "2027-01-14T06:00Z/2027-01-14T18:00Z/1h) and tabulate the outcomes; with --fail-on, "
         "exit 3 when a route has no departure clear of the condition",
     )
-    s.add_argument("--tas-kt", type=float, default=None, help="true airspeed [kt]")
-    s.add_argument("--step-km", type=float, default=1.0, help="largest sample spacing [km]")
+    s.add_argument("--tas-kt", type=_TAS, default=None, help="true airspeed [kt], 1..700")
+    s.add_argument(
+        "--step-km", type=_STEP, default=1.0, help="largest sample spacing [km], 0.01..100"
+    )
     alt = s.add_mutually_exclusive_group()
     alt.add_argument(
         "--altitude-ft",
-        type=float,
+        type=_ALTITUDE_FT,
         default=None,
         metavar="N",
         help="altitude of routes drawn without altitudes [ft, MSL unless the route says agl]",
     )
     alt.add_argument(
         "--flight-level",
-        type=float,
+        type=_FLIGHT_LEVEL,
         default=None,
         metavar="N",
         help="flight level of routes drawn without altitudes (FL100: 10,000 ft pressure altitude)",
@@ -527,7 +664,7 @@ def _condition_args(s):
 
 def build_parser() -> argparse.ArgumentParser:
     """Return the argument parser of the ``icing`` command."""
-    p = argparse.ArgumentParser(
+    p = _Parser(
         prog="icing",
         description="Estimate the in-flight icing hazard along a route for an airframe, as "
         "GeoJSON. " + CAUTION,
@@ -549,13 +686,13 @@ def build_parser() -> argparse.ArgumentParser:
         )
         sp.add_argument(
             "--radius-km",
-            type=float,
+            type=_RADIUS,
             default=None,
             help="coverage radius around profile soundings (default 50 km)",
         )
         sp.add_argument(
             "--time-tolerance",
-            type=float,
+            type=_TOLERANCE,
             default=None,
             metavar="HOURS",
             help="how far outside the forecast valid times a sample may lie (default 3 h)",
@@ -609,8 +746,8 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="LAT,LON",
         help="position; use --at=-33.9,151.2 for negative values",
     )
-    pr.add_argument("--lat", type=float, default=None)
-    pr.add_argument("--lon", type=float, default=None)
+    pr.add_argument("--lat", type=_bounded(-90.0, 90.0, "degrees", "latitude"), default=None)
+    pr.add_argument("--lon", type=_bounded(-180.0, 360.0, "degrees", "longitude"), default=None)
     pr.add_argument(
         "--time",
         default=None,

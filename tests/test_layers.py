@@ -22,6 +22,7 @@ RANKS = {
     "constants": 0,
     "caution": 0,
     "_version": 0,
+    "untrusted": 0,
     "calc": 1,
     "route": 2,
     "forecast": 2,

@@ -464,7 +464,10 @@ def test_bad_sampling_arguments_are_refused(kwargs, canonical_routes):
 
 
 def test_too_many_samples_is_refused(canonical_routes):
-    with pytest.raises(RouteError, match="larger step"):
+    # 100 km at 1 kt every second: 194,000 samples, above the stated limit
+    with pytest.raises(RouteError, match="check the true airspeed.*larger step"):
+        sample_route(canonical_routes.STRAIGHT_ROUTE, tas_kt=1.0, max_step_s=1.0)
+    with pytest.raises(RouteError, match="step_km 1e-05 is outside"):
         sample_route(canonical_routes.STRAIGHT_ROUTE, step_km=1e-5)
 
 
@@ -545,17 +548,26 @@ def test_wind_is_read_at_an_msl_height_for_agl_routes(canonical_routes):
     assert seen[0] == pytest.approx(350.0)
 
 
-def test_times_implying_an_impossible_ground_speed_warn(canonical_routes):
+def test_times_implying_a_fast_ground_speed_warn_and_impossible_ones_are_refused(
+    canonical_routes,
+):
     t0 = canonical_routes.DEPARTURE
-    r = Route(
-        "typo",
-        [
-            Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
-            Waypoint("PENTU", 57.0, -15.0, 2500.0, time=t0 + timedelta(minutes=6)),
-        ],
-    )
+
+    def route(minutes):
+        return Route(
+            "typo",
+            [
+                Waypoint("KARVO", 57.0, -25.0, 2500.0, time=t0),
+                Waypoint("PENTU", 57.0, -15.0, 2500.0, time=t0 + timedelta(minutes=minutes)),
+            ],
+        )
+
+    # 606 km in 23 min: ~855 kt, beyond a jet with a jet-stream tail wind: a warning
     with pytest.warns(PlausibilityWarning, match="kt over the ground"):
-        sample_route(r)
+        sample_route(route(23))
+    # 606 km in 6 min: ~3,270 kt, an hour slip: refused at the reader's edge
+    with pytest.raises(RouteError, match="imply 32.. kt over the ground.*slip"):
+        sample_route(route(6))
 
 
 def test_nat_departure_is_refused(canonical_routes):

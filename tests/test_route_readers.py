@@ -251,14 +251,16 @@ def test_geojson_single_point_hover(tmp_path):
     assert sample_route(r).dt_s.sum() == pytest.approx(600.0)
 
 
-def test_geojson_feet_as_metres_warns_at_the_caller(tmp_path):
+def test_geojson_feet_as_metres_is_refused_and_agl_ones_warn_at_the_caller(tmp_path):
+    # 25,000 m MSL is above any icing-relevant flight: feet given as metres, refused
     f = line_feature([[-25.0, 57.0, 9000], [-24.0, 57.0, 25000]])
-    with pytest.warns(PlausibilityWarning, match="looks like feet") as record:
+    with pytest.raises(RouteError, match="25000 m MSL is above 20000 m.*feet given as metres"):
         load_route(dump(tmp_path, f))
-    assert record[0].filename == __file__
+    # 2,000 m AGL is possible but unlikely for a drone: a warning at the caller
     drone = line_feature([[-25.0, 57.0, 120], [-24.99, 57.0, 2000]], altitude_reference="agl")
-    with pytest.warns(PlausibilityWarning, match="AGL"):
+    with pytest.warns(PlausibilityWarning, match="AGL") as record:
         load_route(dump(tmp_path, drone))
+    assert record[0].filename == __file__
 
 
 # --------------------------------------------------------------------------- CSV
@@ -379,7 +381,7 @@ def test_gpx_1_0_and_no_namespace_are_read(tmp_path, write_text):
 
 def test_gpx_ele_is_metres_with_the_feet_check(tmp_path, write_text):
     body = "<rte>" + rtept(56, -25, "30000") + rtept(56, -24, "30000") + "</rte>"
-    with pytest.warns(PlausibilityWarning, match="looks like feet"):
+    with pytest.raises(RouteError, match="feet.gpx: rte 1 rtept 1: altitude 30000 m.*feet"):
         load_route(write_text(tmp_path, "feet.gpx", gpx(body)))
 
 

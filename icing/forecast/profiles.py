@@ -20,6 +20,7 @@ from icing.forecast.table import (
     build_table,
     parse_time,
 )
+from icing.untrusted import parse_json
 
 __all__ = ["profile_schema", "read_profiles_json", "read_profiles_csv"]
 
@@ -100,14 +101,12 @@ def read_profiles_json(path):
     """
     path = Path(path)
     try:
-        doc = json.loads(path.read_text(encoding="utf-8"))
-    except json.JSONDecodeError as exc:
-        raise ForecastError(
-            f"malformed JSON: {exc.msg}",
+        doc = parse_json(  # strict: NaN, Infinity, huge numbers and deep nesting refused
+            path.read_text(encoding="utf-8"),
             path=path,
-            where=f"line {exc.lineno}, column {exc.colno}",
+            error=ForecastError,
             fix="repair the JSON syntax (a missing comma or bracket?)",
-        ) from None
+        )
     except UnicodeDecodeError:
         _not_text(path)
     if not isinstance(doc, dict) or doc.get("format") != "icing-profiles":

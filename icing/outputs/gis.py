@@ -25,10 +25,17 @@ import numpy as np
 
 from icing import codes
 from icing.caution import CAUTION
-from icing.outputs.atomic import atomic_write, replace_atomically
+from icing.outputs.atomic import write_together
 from icing.outputs.plot.style import GAP_FILL, MAP_STYLE, SEVERITY_COLOURS
 
-__all__ = ["write_geopackage", "kml_text", "qml_text", "sld_text", "STYLE_RULES"]
+__all__ = [
+    "write_geopackage",
+    "geopackage_writer",
+    "kml_text",
+    "qml_text",
+    "sld_text",
+    "STYLE_RULES",
+]
 
 #: The style rules shared by QML and SLD: (label, field, value, colour, width [mm], dashed).
 STYLE_RULES = [
@@ -122,8 +129,37 @@ def _store_styles(path, qml, sld):
         )
 
 
+def geopackage_writer(screenings, fc):
+    """Return ``write(path)`` that writes the hazards and routes layers to a new ``.gpkg``.
+
+    Parameters
+    ----------
+    screenings : sequence of RouteScreening
+    fc : dict
+        Their FeatureCollection (:func:`icing.hazards.segments.feature_collection`).
+    """
+    feats = fc["features"]
+    summaries = fc["summaries"]
+    qml, sld = qml_text(), sld_text()
+
+    def build(path):
+        path = Path(path)
+        path.unlink(missing_ok=True)
+        if feats:
+            records = [dict(f["properties"]) for f in feats]
+            _write_layer(path, "hazards", [f["geometry"] for f in feats], records, append=False)
+        routes = [_route_geometry(s) for s in screenings]
+        records = [dict(s) for s in summaries]
+        _write_layer(path, "routes", routes, records, append=bool(feats))
+        _store_styles(path, qml, sld)
+
+    return build
+
+
 def write_geopackage(screenings, fc, path):
     """Write the hazards and routes layers (and the styles beside them); return the paths.
+
+    The three files are written together (:func:`icing.outputs.atomic.write_together`).
 
     Parameters
     ----------
@@ -131,7 +167,7 @@ def write_geopackage(screenings, fc, path):
     fc : dict
         Their FeatureCollection (:func:`icing.hazards.segments.feature_collection`).
     path : str or pathlib.Path
-        The ``.gpkg`` file; written to a temporary file and renamed.
+        The ``.gpkg`` file.
 
     Returns
     -------
@@ -140,24 +176,13 @@ def write_geopackage(screenings, fc, path):
     """
     path = Path(path)
     qml, sld = qml_text(), sld_text()
-    feats = fc["features"]
-    summaries = fc["summaries"]
-
-    def build(tmp):
-        tmp.unlink(missing_ok=True)
-        if feats:
-            records = [dict(f["properties"]) for f in feats]
-            _write_layer(tmp, "hazards", [f["geometry"] for f in feats], records, append=False)
-        routes = [_route_geometry(s) for s in screenings]
-        records = [dict(s) for s in summaries]
-        _write_layer(tmp, "routes", routes, records, append=bool(feats))
-        _store_styles(tmp, qml, sld)
-
-    replace_atomically(path, build, keep_suffix=True)
-    qml_path, sld_path = path.with_suffix(".qml"), path.with_suffix(".sld")
-    atomic_write(qml_path, qml)
-    atomic_write(sld_path, sld)
-    return [path, qml_path, sld_path]
+    return write_together(
+        [
+            (path, geopackage_writer(screenings, fc), "the GeoPackage"),
+            (path.with_suffix(".qml"), lambda tmp: tmp.write_text(qml, "utf-8"), "its QGIS style"),
+            (path.with_suffix(".sld"), lambda tmp: tmp.write_text(sld, "utf-8"), "its SLD style"),
+        ]
+    )
 
 
 # ----------------------------------------------------------------------------- styles

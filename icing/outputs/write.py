@@ -1,7 +1,10 @@
 """The one output writer of a run, shared by ``icing screen`` and ``icing demo``.
 
-Each output is complete in memory (or in a temporary file) first and is then
-renamed into place (:mod:`icing.outputs.atomic`).
+Every output of a run is written together or not at all
+(:func:`icing.outputs.atomic.write_together`): each is complete in a temporary file
+first, and only when all are complete are they renamed into place. No output may be an
+input of the run (the route, forecast and airframe files) or another output of it (the
+summary beside ``-o``, the styles beside a GeoPackage, one picture per route).
 """
 
 from __future__ import annotations
@@ -11,14 +14,27 @@ from functools import partial
 from pathlib import Path
 
 from icing.hazards.segments import feature_collection
-from icing.outputs.atomic import atomic_write
+from icing.outputs.atomic import write_together
 from icing.outputs.table import samples_csv
 
-__all__ = ["write_outputs"]
+__all__ = ["write_outputs", "output_targets"]
 
 
 def _sibling_json(path: Path) -> Path:
     return path.with_name(path.stem + ".summary.json")
+
+
+def _text(text):
+    return lambda tmp: tmp.write_text(text, encoding="utf-8")
+
+
+def _forecast_inputs(screenings):
+    """Return the forecast files named in the screenings' provenance."""
+    out = []
+    for s in screenings:
+        files = (getattr(s, "provenance", None) or {}).get("files") or []
+        out += [(f, "forecast file") for f in ([files] if isinstance(files, str) else files)]
+    return out
 
 
 def write_outputs(
@@ -30,70 +46,126 @@ def write_outputs(
     report=None,
     samples=None,
     section_axis="msl",
+    inputs=(),
 ):
-    """Write the outputs of a run; each is complete in memory first, then written atomically.
+    """Write the outputs of a run, all together or none (see the module docstring).
 
     ``out_geojson`` may name a GeoJSON (``.geojson``/``.json``), GeoPackage
     (``.gpkg``, with ``.qml`` and ``.sld`` styles beside it) or KML (``.kml``) file;
-    the route summaries always go into ``OUT.summary.json`` beside it.
+    the route summaries always go into ``OUT.summary.json`` beside it. ``inputs``
+    lists the run's input files (paths, or ``(path, what)`` pairs); the forecast files
+    of the screenings' provenance are added. An output at an input's path or at
+    another output's path is refused (:class:`icing.errors.InputError`) before
+    anything is written.
 
     Returns the FeatureCollection dict and the paths written. With several routes,
     ``plot`` names a pattern: ``STEM-<route>.SUFFIX`` per route (and the departure
     time when a route is screened at several departures).
     """
     fc = feature_collection(screenings)
-    pending, gis = [], []
+    files = []
+    if out_geojson:
+        files += _main_output(screenings, fc, Path(out_geojson))
+    if samples:
+        files.append((Path(samples), _text(samples_csv(screenings)), "--samples"))
+    files += _pictures(screenings, plot, map_, report, section_axis)
+    given = [(p, "input file") if isinstance(p, (str, Path)) else tuple(p) for p in inputs]
+    written = write_together(files, inputs=given + _forecast_inputs(screenings))
+    return fc, written
+
+
+def output_targets(*, out_geojson=None, samples=None, plot=None, map_=None, report=None):
+    """Return ``(path, role)`` of the files a run with these options writes.
+
+    Checked before the work starts (:func:`icing.outputs.atomic.check_targets`), so a
+    run that would overwrite an input stops at once; with several routes the pictures
+    get one name per route, checked again when they are written.
+    """
+    out = []
     if out_geojson:
         p = Path(out_geojson)
-        kind = p.suffix.lower()
-        if kind == ".kml":
-            from icing.outputs.gis import kml_text
+        out += [(p, "-o")] + [(q, role) for q, role in _beside(p)]
+    for path, role in ((samples, "--samples"), (plot, "--plot"), (map_, "--map")):
+        if path:
+            out.append((Path(path), role))
+    if report:
+        out.append((Path(report), "--report"))
+    return out
 
-            pending.append((p, kml_text(screenings)))
-        elif kind == ".gpkg":
-            gis.append(p)
-        else:
-            pending.append((p, json.dumps(fc, indent=1, allow_nan=False)))
-        side = {k: v for k, v in fc.items() if k not in ("type", "features")}
-        pending.append((_sibling_json(p), json.dumps(side, indent=1, allow_nan=False)))
-    if samples:
-        pending.append((Path(samples), samples_csv(screenings)))
-    for p, text in pending:
-        atomic_write(p, text)
-    written = [p for p, _ in pending]
-    for p in gis:
-        from icing.outputs.gis import write_geopackage
 
-        written += write_geopackage(screenings, fc, p)
-    pictures = []  # (function, what, target); their folders are made before any is drawn
+def _beside(p):
+    """Return the files written beside the -o file: its summary, and a GeoPackage's styles."""
+    out = [(_sibling_json(p), "the summary beside -o")]
+    if p.suffix.lower() == ".gpkg":
+        out += [(p.with_suffix(".qml"), "the QGIS style beside -o")]
+        out += [(p.with_suffix(".sld"), "the SLD style beside -o")]
+    return out
+
+
+def _main_output(screenings, fc, p):
+    """Return the -o file (GeoJSON, KML or GeoPackage) and the files beside it."""
+    kind = p.suffix.lower()
+    side = {k: v for k, v in fc.items() if k not in ("type", "features")}
+    texts = [_text(json.dumps(side, indent=1, allow_nan=False))]
+    if kind == ".gpkg":
+        from icing.outputs.gis import geopackage_writer, qml_text, sld_text
+
+        main = geopackage_writer(screenings, fc)
+        texts += [_text(qml_text()), _text(sld_text())]
+    elif kind == ".kml":
+        from icing.outputs.gis import kml_text
+
+        main = _text(kml_text(screenings))
+    else:
+        main = _text(json.dumps(fc, indent=1, allow_nan=False))
+    return [(p, main, "-o")] + [
+        (q, write, role) for (q, role), write in zip(_beside(p), texts, strict=True)
+    ]
+
+
+def _pictures(screenings, plot, map_, report, section_axis):
+    """Return the pictures and the report: (target, writer of a temporary file, role)."""
+    out = []
     if plot:
         from icing.outputs.plot import plot_cross_section
 
         plot = Path(plot)
-        names = [s.route_name for s in screenings]
-        for s in screenings:
-            tag = _safe(s.route_name)
-            if names.count(s.route_name) > 1:
-                tag += "-" + s.summary.get("departure_time", "").replace(":", "")[:15]
-            target = (
-                plot if len(screenings) == 1 else plot.with_name(f"{plot.stem}-{tag}{plot.suffix}")
-            )
-            pictures.append((partial(plot_cross_section, axis=section_axis), s, target))
+        draw = partial(plot_cross_section, axis=section_axis)
+        for s, target in zip(screenings, _plot_names(screenings, plot), strict=True):
+            out.append((target, partial(_draw, draw, s), "--plot"))
     if map_:
         from icing.outputs.plot import plot_route_map
 
-        pictures.append((plot_route_map, screenings, Path(map_)))
+        out.append((Path(map_), partial(_draw, plot_route_map, screenings), "--map"))
     if report:
         from icing.outputs.report import write_report
 
-        pictures.append(
-            (partial(write_report, section_axis=section_axis), screenings, Path(report))
-        )
-    for _, _, target in pictures:
-        target.parent.mkdir(parents=True, exist_ok=True)
-    for fn, what, target in pictures:  # each writes atomically
-        written.append(fn(what, target))
-    return fc, written
+        draw = partial(write_report, section_axis=section_axis)
+        out.append((Path(report), partial(_draw, draw, screenings), "--report"))
+    return out
+
+
+def _draw(draw, what, tmp):
+    draw(what, tmp)
+
+
+def _plot_names(screenings, plot):
+    """One picture per route: ``STEM-<route>[-<departure>]``, never two at one name."""
+    if len(screenings) == 1:
+        return [plot]
+    names = [s.route_name for s in screenings]
+    out, used = [], set()
+    for s in screenings:
+        tag = _safe(s.route_name)
+        if names.count(s.route_name) > 1:
+            tag += "-" + s.summary.get("departure_time", "").replace(":", "")[:15]
+        target, k = plot.with_name(f"{plot.stem}-{tag}{plot.suffix}"), 1
+        while target in used:  # names that differ only in characters dropped by _safe
+            k += 1
+            target = plot.with_name(f"{plot.stem}-{tag}-{k}{plot.suffix}")
+        used.add(target)
+        out.append(target)
+    return out
 
 
 def _safe(name: str) -> str:

@@ -24,7 +24,7 @@ from icing.route.fields import (
     _route_fields,
     _tas_kt,
 )
-from icing.route.model import Waypoint, check_position
+from icing.route.model import Waypoint, check_position, check_waypoint_count
 
 __all__ = ["CSV_SETTINGS", "read_csv_routes"]
 
@@ -188,6 +188,7 @@ def read_csv_routes(text, *, path=None):
     declared = _route_fields(settings, path=path, where="")
     routes = []
     for key, items in groups.items():
+        check_waypoint_count(len(items), path=path, where=f"route {key!r}" if key else None)
         wps = [
             _csv_waypoint(row, i, f"line {lineno}", path, settings.get("altitude_reference"))
             for i, (lineno, row) in enumerate(items)

@@ -15,6 +15,7 @@ from icing.errors import RouteError
 from icing.route.model import (
     ALTITUDE_REFERENCES,
     Route,
+    check_airspeed_kt,
     check_altitude,
     check_number,
     check_waypoints,
@@ -65,8 +66,10 @@ def _hold_min(value, *, path, where):
 
 
 def _tas_kt(value, *, path, where):
-    """Return the true airspeed of a waypoint's leg [kt], None when not given."""
-    return _optional_number(value, "tas_kt", path=path, where=where, low=0.0, high=2000.0)
+    """Return the true airspeed of a waypoint's leg [kt] (0: a hover), None when not given."""
+    if value is None or (isinstance(value, str) and not value.strip()):
+        return None
+    return check_airspeed_kt(value, "tas_kt", path=path, where=where, hover_ok=True)
 
 
 def _flight_level_m(value, *, path, where):
@@ -165,14 +168,7 @@ def _route_fields(props, *, path, where):
             where=p + "departure_time",
             what="departure_time",
         ),
-        true_airspeed_kt=_optional_number(
-            props.get("true_airspeed_kt"),
-            "true_airspeed_kt",
-            path=path,
-            where=p + "true_airspeed_kt",
-            low=0.0,
-            high=2000.0,
-        ),
+        true_airspeed_kt=_airspeed(props.get("true_airspeed_kt"), path=path, where=p),
         ground_elevation_m=_optional_number(
             props.get("ground_elevation_m"),
             "ground_elevation_m",
@@ -182,6 +178,14 @@ def _route_fields(props, *, path, where):
             high=9000.0,
         ),
         airframe=_optional_name(props.get("airframe"), path=path, where=p + "airframe"),
+    )
+
+
+def _airspeed(value, *, path, where):
+    if value is None or (isinstance(value, str) and not value.strip()):
+        return None
+    return check_airspeed_kt(
+        value, "true_airspeed_kt", path=path, where=where + "true_airspeed_kt"
     )
 
 

@@ -10,6 +10,9 @@ from __future__ import annotations
 
 import xml.etree.ElementTree as ET
 
+import defusedxml
+import defusedxml.ElementTree as SafeET
+
 from icing.errors import RouteError
 from icing.route.fields import (
     _DEFAULT_ALTITUDE,
@@ -21,7 +24,7 @@ from icing.route.fields import (
     _route_fields,
     _tas_kt,
 )
-from icing.route.model import Waypoint, check_position
+from icing.route.model import Waypoint, check_position, check_waypoint_count
 
 __all__ = ["GPX_EXTENSION_NS", "read_gpx_routes"]
 
@@ -32,16 +35,28 @@ _GPX_NS = ("http://www.topografix.com/GPX/1/1", "http://www.topografix.com/GPX/1
 
 
 def read_gpx_routes(text, *, path=None):
-    """Read the routes of a GPX 1.1 text (see the module docstring)."""
-    head = text[:4096].upper()
-    if "<!DOCTYPE" in head or "<!ENTITY" in head:
-        raise RouteError(
-            "GPX with a DOCTYPE or entity declarations is refused",
-            path=path,
-            fix="remove the <!DOCTYPE ...> declaration",
-        )
+    """Read the routes of a GPX 1.1 text (see the module docstring).
+
+    The XML goes through ``defusedxml`` with DTDs forbidden: a ``<!DOCTYPE>`` (and so
+    any entity declaration or external reference) anywhere in the file is refused.
+    """
     try:
-        root = ET.fromstring(text)
+        # forbid_dtd: a DOCTYPE anywhere in the file is refused, so no entity (internal,
+        # external or nested) is ever declared, let alone expanded
+        root = SafeET.fromstring(text, forbid_dtd=True)
+    except defusedxml.DefusedXmlException as err:
+        what = {
+            "DTDForbidden": "a <!DOCTYPE> declaration",
+            "EntitiesForbidden": "an <!ENTITY> declaration",
+            "ExternalReferenceForbidden": "an external reference",
+        }.get(type(err).__name__, "a DTD construct")
+        found = text.upper().find("<!DOCTYPE")
+        raise RouteError(
+            f"GPX with {what} is refused (entities and DTDs are never read)",
+            path=path,
+            where=None if found < 0 else f"line {text.count(chr(10), 0, found) + 1}",
+            fix="remove the <!DOCTYPE ...> and <!ENTITY ...> declarations (GPX needs none)",
+        ) from None
     except ET.ParseError as err:
         line, col = err.position
         raise RouteError(
@@ -94,6 +109,7 @@ def _extensions(el, q):
 
 
 def _gpx_route(el, points, q, path, where, point_tag):
+    check_waypoint_count(len(points), path=path, where=where)
     ext = _extensions(el, q)
     ref = _reference(
         ext.get("altitude_reference"), path=path, where=f"{where} extensions altitude_reference"

@@ -28,7 +28,13 @@ __all__ = [
     "check_position",
     "check_altitude",
     "check_waypoints",
+    "check_airspeed_kt",
+    "check_waypoint_count",
     "warn_plausibility",
+    "MAX_WAYPOINTS",
+    "MAX_FLIGHT_HOURS",
+    "AIRSPEED_RANGE_KT",
+    "HIGHEST_ALTITUDE_M",
 ]
 
 #: The altitude references a route may use: metres above mean sea level, metres
@@ -36,10 +42,28 @@ __all__ = [
 ALTITUDE_REFERENCES = ("msl", "agl", "pressure")
 
 _GEOD = Geod(ellps="WGS84")
-# metre inputs above these look like feet (common practice, no source):
-_FEET_LIKE_M = 20_000.0  # no icing-relevant flight above ~65,000 ft
-_FEET_LIKE_AGL_M = 1_500.0  # drone-class (AGL) routes stay far below 5,000 ft AGL
+
+# Plausibility limits of a route; a value outside is refused in one line naming the slip.
+#: The highest altitude accepted [m] (about 65,600 ft): supercooled liquid does not
+#: survive below -40 C, which the standard atmosphere reaches near 7.5 km, and no flight
+#: this tool serves goes above 20 km; metres above it are feet given as metres.
+HIGHEST_ALTITUDE_M = 20_000.0
+_FEET_LIKE_AGL_M = 1_500.0  # drone-class (AGL) routes stay far below 5,000 ft AGL: warn
 _LOWEST_M = -1_000.0  # below the lowest land surface (Dead Sea, ~-430 m)
+#: True airspeeds accepted [kt]: below 1 kt a 1 km leg takes over half an hour (a
+#: fraction or a unit slip; a hover is a hold, not a slow leg); above 700 kt an aircraft
+#: is supersonic at every altitude where icing occurs (the speed of sound is at least
+#: ~573 kt below 11 km, ICAO standard atmosphere).
+AIRSPEED_RANGE_KT = (1.0, 700.0)
+#: The most waypoints of one route: a planned route has tens to hundreds; 20,000 is a
+#: 1 Hz recorded track of 5.5 h. Each waypoint is a sample, and samples size the work.
+MAX_WAYPOINTS = 20_000
+#: The longest timeline of one route [h]: the longest flights last under a day and
+#: forecasts used for planning reach a few days; a longer span is a date slip.
+MAX_FLIGHT_HOURS = 72.0
+# waypoint times implying more ground speed are refused (common practice, no source:
+# no subsonic aircraft with the strongest jet-stream tail wind reaches 1,000 kt)
+_IMPOSSIBLE_GROUND_SPEED_KT = 1_000.0
 _EPOCH = datetime(1970, 1, 1, tzinfo=UTC)
 
 
@@ -276,16 +300,67 @@ def check_altitude(altitude_m, reference, *, path=None, where=None, given_in_met
             where=where,
             fix="check the altitude and its unit",
         )
-    if given_in_metres:
-        limit = _FEET_LIKE_AGL_M if reference == "agl" else _FEET_LIKE_M
-        if altitude_m > limit:
-            place = ": ".join(str(p) for p in (path, where) if p)
-            warn_plausibility(
-                f"{place}: altitude {altitude_m:g} m {reference.upper()} is above "
-                f"{limit:g} m; it looks like feet given as metres (positions "
-                "carry metres; use altitude_ft for feet)"
-            )
+    if altitude_m > HIGHEST_ALTITUDE_M:
+        unit = "m" if given_in_metres else "m (from the feet or flight level given)"
+        slip = (
+            "it looks like feet given as metres (positions carry metres; use altitude_ft)"
+            if given_in_metres
+            else "check the value and its unit"
+        )
+        raise RouteError(
+            f"altitude {altitude_m:g} {unit} {reference.upper()} is above "
+            f"{HIGHEST_ALTITUDE_M:g} m (65,600 ft), where no icing-relevant flight goes; {slip}",
+            path=path,
+            where=where,
+            fix="give the altitude in metres, or use altitude_ft / flight_level",
+        )
+    if given_in_metres and reference == "agl" and altitude_m > _FEET_LIKE_AGL_M:
+        place = ": ".join(str(p) for p in (path, where) if p)
+        warn_plausibility(
+            f"{place}: altitude {altitude_m:g} m AGL is above {_FEET_LIKE_AGL_M:g} m; it "
+            "looks like feet given as metres (positions carry metres; use altitude_ft for feet)"
+        )
     return altitude_m
+
+
+def check_airspeed_kt(value, what, *, path=None, where=None, hover_ok=False):
+    """Return a true airspeed [kt] within :data:`AIRSPEED_RANGE_KT`, else raise RouteError.
+
+    ``hover_ok`` accepts exactly 0 (a hover waypoint's own speed, used only during its hold).
+    """
+    kt = check_number(value, what, path=path, where=where)
+    low, high = AIRSPEED_RANGE_KT
+    if hover_ok and kt == 0.0:
+        return kt
+    if kt < low:
+        raise RouteError(
+            f"{what} {kt:g} kt is below {low:g} kt (a 1 km leg would take over half an hour); "
+            "a fraction or a unit slip?",
+            path=path,
+            where=where,
+            fix=f"give the true airspeed in knots, {low:g}..{high:g} (hover with hold_min)",
+        )
+    if kt > high:
+        raise RouteError(
+            f"{what} {kt:g} kt is above {high:g} kt (supersonic wherever icing occurs); "
+            "km/h or another unit given as knots?",
+            path=path,
+            where=where,
+            fix=f"give the true airspeed in knots, {low:g}..{high:g}",
+        )
+    return kt
+
+
+def check_waypoint_count(n, *, path=None, where=None):
+    """Refuse a route of more than :data:`MAX_WAYPOINTS` waypoints (each is a sample)."""
+    if n > MAX_WAYPOINTS:
+        raise RouteError(
+            f"route has {n} points, above the limit of {MAX_WAYPOINTS} per route",
+            path=path,
+            where=where,
+            fix="thin the track (a point every few hundred metres is plenty: the route is "
+            "sampled every 1 km or 20 s anyway) or split it into several routes",
+        )
 
 
 def _where_waypoint(i, w):
@@ -314,13 +389,14 @@ def check_waypoints(route, *, path=None, where_of=None):
             where=where_of(0),
             fix="give at least two waypoints, or hold_min > 0 for a hover",
         )
+    check_waypoint_count(len(wps), path=path)
     refs = [w.altitude_reference for w in wps]
     for i, w in enumerate(wps):
         check_position(w.lat, w.lon, path=path, where=where_of(i))
         check_altitude(w.altitude_m, w.altitude_reference, path=path, where=where_of(i))
         check_number(w.hold_min, "hold_min", path=path, where=where_of(i), low=0.0, high=24 * 60.0)
         if w.tas_kt is not None:
-            check_number(w.tas_kt, "tas_kt", path=path, where=where_of(i), low=0.0, high=2000.0)
+            check_airspeed_kt(w.tas_kt, "tas_kt", path=path, where=where_of(i), hover_ok=True)
         if w.time is not None:
             parse_time(w.time, path=path, where=where_of(i))
         if refs[i] != refs[0]:
@@ -338,7 +414,9 @@ def check_waypoints(route, *, path=None, where_of=None):
             fix="use one altitude reference per route",
         )
     if route.true_airspeed_kt is not None:
-        check_number(route.true_airspeed_kt, "true_airspeed_kt", path=path, low=0.0, high=2000.0)
+        check_airspeed_kt(
+            route.true_airspeed_kt, "true_airspeed_kt", path=path, where="true_airspeed_kt"
+        )
     if route.departure_time is not None:
         dep = parse_time(route.departure_time, path=path, where="departure_time")
         if wps[0].time is not None and parse_time(wps[0].time) != dep:
@@ -368,3 +446,29 @@ def check_waypoints(route, *, path=None, where_of=None):
                     where=where_of(b),
                     fix="times must increase along the route",
                 )
+            _check_leg_time(wps, a, b, cum[b] - cum[a], moving, path=path, where=where_of(b))
+        first, last = parse_time(wps[timed[0]].time), parse_time(wps[timed[-1]].time)
+        span_h = (last - first).total_seconds() / 3600.0
+        if span_h > MAX_FLIGHT_HOURS:
+            raise RouteError(
+                f"the waypoint times span {span_h:.0f} h (from {format_time(first)} to "
+                f"{format_time(last)}), above the limit of {MAX_FLIGHT_HOURS:g} h; a date slip?",
+                path=path,
+                where=where_of(timed[-1]),
+                fix="check the dates of the waypoint times",
+            )
+
+
+def _check_leg_time(wps, a, b, distance_m, moving_s, *, path, where):
+    """Refuse waypoint times that imply more than 1,000 kt over the ground (a time slip)."""
+    if moving_s <= 0:
+        return
+    kt = distance_m / moving_s / (1852.0 / 3600.0)
+    if kt > _IMPOSSIBLE_GROUND_SPEED_KT:
+        raise RouteError(
+            f"the times of {wps[a].name} and {wps[b].name} imply {kt:.0f} kt over the ground "
+            f"(no aircraft reaches {_IMPOSSIBLE_GROUND_SPEED_KT:g} kt); an hour or date slip?",
+            path=path,
+            where=where,
+            fix="check the waypoint times (and their zone)",
+        )

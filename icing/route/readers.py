@@ -59,7 +59,8 @@ from icing.route.fields import (
     _tas_kt,
 )
 from icing.route.gpxroutes import GPX_EXTENSION_NS, read_gpx_routes
-from icing.route.model import Waypoint, check_number, check_position
+from icing.route.model import Waypoint, check_number, check_position, check_waypoint_count
+from icing.untrusted import MAX_ROUTE_FILE_BYTES, parse_json, read_input_bytes
 
 __all__ = [
     "load_routes",
@@ -109,11 +110,9 @@ def read_routes(path, *, altitude_ft=None, flight_level=None):
 
 def _read_routes(path):
     p = Path(path)
-    if not p.exists():
-        raise RouteError("file not found", path=path, fix="check the path")
-    if p.is_dir():
-        raise RouteError("is a directory, not a route file", path=path, fix=_FORMAT_FIX)
-    raw = p.read_bytes()
+    raw = read_input_bytes(
+        p, limit=MAX_ROUTE_FILE_BYTES, error=RouteError, what="route file", fix=_FORMAT_FIX
+    )
     encoding = "utf-16" if raw[:2] in (b"\xff\xfe", b"\xfe\xff") else "utf-8-sig"
     try:
         text = raw.decode(encoding)
@@ -123,6 +122,12 @@ def _read_routes(path):
             path=path,
             fix=_FORMAT_FIX,
         ) from None
+    if "\x00" in text:
+        raise RouteError(
+            f"NUL byte at character {text.index(chr(0))}: a binary file, not a route file",
+            path=path,
+            fix=_FORMAT_FIX,
+        )
     text = text.lstrip("\ufeff")
     if not text.strip():
         raise RouteError("file is empty", path=path, fix=_FORMAT_FIX)
@@ -160,15 +165,7 @@ def _looks_like_csv(text):
 
 def read_geojson_routes(text, *, path=None):
     """Read the routes of a GeoJSON text (see the module docstring)."""
-    try:
-        obj = json.loads(text)
-    except json.JSONDecodeError as err:
-        raise RouteError(
-            f"malformed JSON: {err.msg}",
-            path=path,
-            where=f"line {err.lineno} column {err.colno}",
-            fix="check the JSON syntax",
-        ) from None
+    obj = parse_json(text, path=path, error=RouteError)
     if not isinstance(obj, dict) or "type" not in obj:
         raise RouteError(
             "not a GeoJSON object (no 'type' member)",
@@ -209,8 +206,10 @@ def read_geojson_routes(text, *, path=None):
     if kind == "Feature":
         geom, _ = _feature_parts(obj, path=path, where="")
         if geom.get("type") not in ("LineString", "MultiLineString"):
-            if geom.get("type") == "Point":
-                return _default_names([_points_route([obj], {}, path)], path)
+            if geom.get("type") == "Point":  # a hover: the feature is the route too
+                own = obj.get("properties")
+                own = own if isinstance(own, dict) else {}
+                return _default_names([_points_route([obj], own, path)], path)
             raise _wrong_geometry(geom.get("type"), path, "geometry")
         return _default_names([_line_route(obj, {}, path, "")], path)
     if kind in ("LineString", "MultiLineString"):
@@ -339,6 +338,8 @@ def _line_coordinates(geom, *, path, where):
 
 
 def _same_point(a, b):
+    if not (isinstance(a, list) and isinstance(b, list)):
+        return False  # not positions: the position check names them
     try:
         return (
             float(a[1]) == float(b[1])
@@ -357,6 +358,7 @@ def _line_route(f, defaults, path, where, bare=False):
     cw = p + "geometry.coordinates" if not bare else "coordinates"
     coords = _line_coordinates(geom, path=path, where=cw)
     n = len(coords)
+    check_waypoint_count(n, path=path, where=cw)
     ref = _reference(props.get("altitude_reference"), path=path, where=pp + "altitude_reference")
     times = _parallel(props, "times", n, path=path, where=pp)
     holds = _parallel(props, "hold_min", n, path=path, where=pp)
@@ -379,6 +381,7 @@ def _line_route(f, defaults, path, where, bare=False):
 
 
 def _points_route(features, defaults, path):
+    check_waypoint_count(len(features), path=path, where="features")
     ref = _reference(
         defaults.get("altitude_reference"), path=path, where="properties.altitude_reference"
     )

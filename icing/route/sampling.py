@@ -36,10 +36,18 @@ from pyproj import Geod
 
 from icing.constants import FT, KT
 from icing.errors import RouteError
-from icing.route.model import check_number, check_waypoints, parse_time, warn_plausibility
+from icing.route.model import (
+    check_airspeed_kt,
+    check_number,
+    check_waypoints,
+    parse_time,
+    warn_plausibility,
+)
 
 __all__ = [
     "GROUND_SPEED_FLOOR",
+    "MAX_SAMPLES",
+    "STEP_LIMITS",
     "RouteSamples",
     "sample_route",
 ]
@@ -50,7 +58,17 @@ __all__ = [
 GROUND_SPEED_FLOOR = 0.25
 
 _GEOD = Geod(ellps="WGS84")
-_MAX_SAMPLES = 2_000_000
+#: The most samples of one route: more than a 15,000 km flight needs at the default
+#: 1 km step (a day's hold at 20 s is 4,320). Each sample is a forecast column
+#: diagnosed and read off on the whole altitude curtain for every candidate profile,
+#: about 75 kB of working memory while it is screened (20,000 samples measured at
+#: 1.5 GB and 15 s), so samples size the work and the memory of a run.
+MAX_SAMPLES = 20_000
+#: The finest sampling steps accepted, by argument: finer than 10 m, 1 s or 10 ft
+#: resolves nothing a forecast holds (its cells are kilometres wide and tens of metres
+#: deep) and only multiplies the work. Coarser steps only lower the work (a caller may
+#: switch a criterion off with a huge step); the command line states its own bounds.
+STEP_LIMITS = {"step_km": 0.01, "max_step_s": 1.0, "max_step_ft": 10.0}
 _EPOCH = datetime(1970, 1, 1, tzinfo=UTC)
 # waypoint times implying more ground speed look wrong (common practice, no source:
 # subsonic aircraft with a jet-stream tail wind stay below ~750 kt)
@@ -138,8 +156,9 @@ def _interleave(a, b):
 
 
 def _check_step(value, what):
+    low = STEP_LIMITS[what]
     return check_number(
-        value, what, where=what, low=1e-9, high=1e12, fix=f"give {what} as a positive number"
+        value, what, where=what, low=low, high=1e12, fix=f"give {what} of at least {low:g}"
     )
 
 
@@ -249,13 +268,11 @@ def _waypoint_arrays(route, departure):
 def _waypoint_tas(route, tas_kt, default_tas_kt):
     """Return the true airspeed leaving each waypoint [m/s], NaN where unknown."""
 
-    def speed_kt(value, what):
-        return (
-            None if value is None else check_number(value, what, where=what, low=0.0, high=2000.0)
-        )
+    def speed_kt(value, what, where):
+        return None if value is None else check_airspeed_kt(value, what, where=where)
 
-    tas_arg = speed_kt(tas_kt, "tas_kt")
-    tas_default = speed_kt(default_tas_kt, "default_tas_kt")
+    tas_arg = speed_kt(tas_kt, "tas_kt", "tas_kt (--tas-kt)")
+    tas_default = speed_kt(default_tas_kt, "default_tas_kt", "the airframe's true_airspeed_kt")
     tas_wp = np.array([np.nan if w.tas_kt is None else w.tas_kt for w in route.waypoints])
     tas_route = route.true_airspeed_kt
     if tas_arg is not None:
@@ -340,7 +357,7 @@ def _parts(x):
 def _subdivide(route, wp, legs, step_m, step_z, step_s):
     """How many parts each leg and hold is cut into, and which sample belongs where."""
     nl, hold = legs["nl"], wp["hold"]
-    n = (
+    parts = (
         np.maximum.reduce(
             [
                 np.ones(nl),
@@ -348,19 +365,25 @@ def _subdivide(route, wp, legs, step_m, step_z, step_s):
                 _parts(np.abs(legs["dz"]) / step_z),
                 _parts(legs["duration"] / step_s),
             ]
-        ).astype(np.int64)
+        )
         if nl
-        else np.zeros(0, dtype=np.int64)
+        else np.zeros(0)
     )
-    m = np.where(hold > 0, np.maximum(2, _parts(hold / step_s)), 0).astype(np.int64)
+    held = np.where(hold > 0, np.maximum(2.0, _parts(hold / step_s)), 0.0)
+    # counted in floats first: no integer overflow, whatever the steps and speeds
+    count = float(np.sum(np.where(hold > 0, held + 1.0, 1.0)) + np.sum(parts - 1.0))
+    if not count <= MAX_SAMPLES:
+        hours = (np.nansum(legs["duration"]) + hold.sum()) / 3600.0
+        raise RouteError(
+            f"route {route.name!r} would give {count:.3g} samples ({hours:.3g} h of flight "
+            f"at the airspeeds given), above the limit of {MAX_SAMPLES} per route",
+            path=route.source,
+            fix="check the true airspeed (knots); else use a larger step_km / max_step_s / "
+            "max_step_ft, or split the route",
+        )
+    n, m = parts.astype(np.int64), held.astype(np.int64)
     block = np.where(hold > 0, m + 1, 1)
     total = int(block.sum() + (n - 1).sum())
-    if total > _MAX_SAMPLES:
-        raise RouteError(
-            f"route {route.name!r} would give {total} samples",
-            path=route.source,
-            fix="use a larger step_km / max_step_s / max_step_ft",
-        )
     # samples: block 0, interior of leg 0, block 1, ..., block nw-1
     counts = _interleave(block, n - 1)
     seg = np.repeat(np.arange(counts.size), counts)

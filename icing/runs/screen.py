@@ -179,6 +179,7 @@ def screen_route(
         _flight_altitudes(samples, vref, best(state["height"])[:, -1], grid["flight"], ground)
     )
     _speeds_and_reasons(at, best(tas_ms)[:, -1], best(notes)[:, -1], samples, route)
+    at["gap_reason"] = _ground_gap_reason(at["gap_reason"], samples, ground)
     curtain = Curtain(
         distance_km=at["distance_km"],
         altitudes_m=alts_m,
@@ -405,6 +406,14 @@ def _band_step_ft(band):
         if depth / step >= 6:
             return step
     return 25.0
+
+
+def _ground_gap_reason(reason, samples, ground):
+    """Name the gap of an AGL sample over unknown ground: the fix is a ground elevation."""
+    if samples.altitude_reference != "agl":
+        return reason
+    unknown = (reason == "missing-values") & ~np.isfinite(np.asarray(ground, float))
+    return np.where(unknown, "surface-height-unknown", reason)
 
 
 def _flight_altitudes(samples, vref, level_height_m, target_flight, ground):
