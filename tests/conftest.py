@@ -615,3 +615,108 @@ def screening_scenario():
         FREEZING_LEVEL_FT=FREEZING_LEVEL_FT,
         GAP_KM=GAP_KM,
     )
+
+
+# ---------------------------------------------------------------------------- service
+
+
+def _free_port() -> int:
+    import socket
+
+    with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+@pytest.fixture(scope="session")
+def service_catalog(tmp_path_factory):
+    """A catalogue folder for ``icing serve``: the demo grid and the profile fixture."""
+    import shutil
+    from pathlib import Path
+
+    from icing.forecast import demo_forecast_path
+
+    folder = tmp_path_factory.mktemp("catalogue")
+    shutil.copy(demo_forecast_path(), folder / "skerrow-demo.nc")
+    repo = Path(__file__).resolve().parents[1]
+    shutil.copy(repo / "fixtures" / "skerrow-profiles.json", folder / "skerrow-profiles.json")
+    return folder
+
+
+@pytest.fixture(scope="session")
+def service_key(tmp_path_factory):
+    """A key file with one key: ``path``, ``name``, ``key`` and the ``headers`` that send it."""
+    from icing.service.keys import add_key
+
+    path = tmp_path_factory.mktemp("keys") / "api-keys.txt"
+    key = add_key(path, "dispatch-test")
+    return SimpleNamespace(
+        path=path, name="dispatch-test", key=key, headers={"Authorization": f"Bearer {key}"}
+    )
+
+
+@pytest.fixture(scope="session")
+def live_service(service_catalog, service_key, tmp_path_factory):
+    """A real ``icing serve`` (uvicorn) on a free loopback port: keys on, 2 workers, no rate limit.
+
+    Yields ``url``, ``headers`` (with the key), ``pid``, ``access_log`` (its stdout file)
+    and ``process``; stopped with SIGTERM (a graceful stop) at the end of the session.
+    """
+    import os
+    import subprocess
+    import sys
+    import time
+    import urllib.request
+
+    logs = tmp_path_factory.mktemp("live-service")
+    port = _free_port()
+    cmd = [
+        sys.executable,
+        "-m",
+        "icing",
+        "serve",
+        "--catalog",
+        str(service_catalog),
+        "--port",
+        str(port),
+        "--api-keys",
+        str(service_key.path),
+        "--workers",
+        "2",
+        "--rate-limit",
+        "0",
+    ]
+    out = open(logs / "access.jsonl", "wb")  # noqa: SIM115 - closed at teardown
+    err = open(logs / "server.log", "wb")  # noqa: SIM115
+    env = dict(os.environ, PYTHONWARNINGS="ignore")
+    proc = subprocess.Popen(cmd, stdout=out, stderr=err, env=env)
+    url = f"http://127.0.0.1:{port}"
+    deadline = time.monotonic() + 90
+    while True:
+        try:
+            with urllib.request.urlopen(url + "/v1/health", timeout=2) as r:
+                if r.status == 200:
+                    break
+        except OSError:
+            pass
+        if proc.poll() is not None or time.monotonic() > deadline:
+            proc.kill()
+            raise RuntimeError((logs / "server.log").read_text()[-2000:])
+        time.sleep(0.2)
+    yield SimpleNamespace(
+        url=url,
+        headers=service_key.headers,
+        pid=proc.pid,
+        process=proc,
+        access_log=logs / "access.jsonl",
+        server_log=logs / "server.log",
+    )
+    if proc.poll() is None:
+        proc.terminate()
+        try:
+            proc.wait(30)
+        except subprocess.TimeoutExpired:
+            proc.kill()
+            proc.wait()
+    out.close()
+    err.close()
