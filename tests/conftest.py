@@ -655,39 +655,19 @@ def service_key(tmp_path_factory):
     )
 
 
-@pytest.fixture(scope="session")
-def live_service(service_catalog, service_key, tmp_path_factory):
-    """A real ``icing serve`` (uvicorn) on a free loopback port: keys on, 2 workers, no rate limit.
-
-    Yields ``url``, ``headers`` (with the key), ``pid``, ``access_log`` (its stdout file)
-    and ``process``; stopped with SIGTERM (a graceful stop) at the end of the session.
-    """
+def _start_service(folder, catalog, args):
+    """Start ``icing serve`` on a free loopback port; return once /v1/health answers."""
     import os
     import subprocess
     import sys
     import time
     import urllib.request
 
-    logs = tmp_path_factory.mktemp("live-service")
     port = _free_port()
-    cmd = [
-        sys.executable,
-        "-m",
-        "icing",
-        "serve",
-        "--catalog",
-        str(service_catalog),
-        "--port",
-        str(port),
-        "--api-keys",
-        str(service_key.path),
-        "--workers",
-        "2",
-        "--rate-limit",
-        "0",
-    ]
-    out = open(logs / "access.jsonl", "wb")  # noqa: SIM115 - closed at teardown
-    err = open(logs / "server.log", "wb")  # noqa: SIM115
+    cmd = [sys.executable, "-m", "icing", "serve", "--catalog", str(catalog)]
+    cmd += ["--port", str(port), *args]
+    out = open(folder / "access.jsonl", "wb")  # noqa: SIM115 - closed by the stopper
+    err = open(folder / "server.log", "wb")  # noqa: SIM115
     env = dict(os.environ, PYTHONWARNINGS="ignore")
     proc = subprocess.Popen(cmd, stdout=out, stderr=err, env=env)
     url = f"http://127.0.0.1:{port}"
@@ -701,22 +681,57 @@ def live_service(service_catalog, service_key, tmp_path_factory):
             pass
         if proc.poll() is not None or time.monotonic() > deadline:
             proc.kill()
-            raise RuntimeError((logs / "server.log").read_text()[-2000:])
+            raise RuntimeError((folder / "server.log").read_text()[-2000:])
         time.sleep(0.2)
-    yield SimpleNamespace(
+
+    def stop():
+        if proc.poll() is None:
+            proc.terminate()
+            try:
+                proc.wait(30)
+            except subprocess.TimeoutExpired:
+                proc.kill()
+                proc.wait()
+        out.close()
+        err.close()
+
+    return SimpleNamespace(
         url=url,
-        headers=service_key.headers,
         pid=proc.pid,
         process=proc,
-        access_log=logs / "access.jsonl",
-        server_log=logs / "server.log",
+        access_log=folder / "access.jsonl",
+        server_log=folder / "server.log",
+        stop=stop,
     )
-    if proc.poll() is None:
-        proc.terminate()
-        try:
-            proc.wait(30)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-            proc.wait()
-    out.close()
-    err.close()
+
+
+@pytest.fixture
+def start_service(tmp_path_factory):
+    """Start ``icing serve --catalog DIR ARGS...`` processes; each is stopped after the test.
+
+    ``start_service(catalog, *args)`` returns ``url``, ``pid``, ``process``,
+    ``access_log``, ``server_log`` and ``stop()`` (SIGTERM: a graceful stop).
+    """
+    started = []
+
+    def start(catalog, *args):
+        service = _start_service(tmp_path_factory.mktemp("service"), catalog, args)
+        started.append(service)
+        return service
+
+    yield start
+    for service in started:
+        service.stop()
+
+
+@pytest.fixture(scope="session")
+def live_service(service_catalog, service_key, tmp_path_factory):
+    """A real ``icing serve`` (uvicorn) on a free loopback port: keys on, 2 workers, no rate limit.
+
+    As ``start_service``, plus ``headers`` (with the key); stopped at the end of the session.
+    """
+    args = ["--api-keys", str(service_key.path), "--workers", "2", "--rate-limit", "0"]
+    service = _start_service(tmp_path_factory.mktemp("live-service"), service_catalog, args)
+    service.headers = service_key.headers
+    yield service
+    service.stop()

@@ -263,3 +263,18 @@ def test_serve_refuses_a_missing_catalogue_or_key_file(tmp_path, capsys):
     args = ["serve", "--catalog", str(tmp_path), "--api-keys", str(tmp_path / "k.txt")]
     assert main(args) == 2
     assert "serve-key add" in capsys.readouterr().err
+
+
+def test_forecast_store_opens_once_and_reopens_on_change(tmp_path):
+    from icing.service.jobs import ForecastStore
+
+    shutil.copy(PROFILES, tmp_path / "a.json")
+    shutil.copy(PROFILES, tmp_path / "b.json")
+    store = ForecastStore(max_open=1)
+    ref = {"id": "a.json", "paths": [str(tmp_path / "a.json")], "signature": (1,)}
+    first = store.get(ref)
+    assert store.get(ref) is first
+    assert store.get(dict(ref, signature=(2,))) is not first  # the file changed
+    again = store.get(dict(ref, signature=(2,)))
+    store.get({"id": "b.json", "paths": [str(tmp_path / "b.json")], "signature": (1,)})
+    assert store.get(dict(ref, signature=(2,))) is not again  # one kept open: reopened

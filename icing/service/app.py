@@ -380,6 +380,13 @@ def _openapi(app: FastAPI, config: ServiceConfig) -> dict:
         description=_DESCRIPTION.format(caution=CAUTION, limits=limits),
         routes=app.routes,
     )
+    for ops in doc.get("paths", {}).values():
+        for op in ops.values():
+            for status, response in op.get("responses", {}).items():
+                content = response.get("content", {})
+                if status != "200" and "application/geo+json" in content:
+                    # errors are plain JSON whatever the endpoint's result type
+                    content["application/json"] = content.pop("application/geo+json")
     if config.api_keys:
         doc.setdefault("components", {})["securitySchemes"] = {
             "bearer": {

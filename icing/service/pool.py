@@ -27,11 +27,12 @@ from __future__ import annotations
 import asyncio
 import logging
 import multiprocessing
+import os
 import signal
 import threading
 from concurrent.futures import ThreadPoolExecutor
 
-__all__ = ["Busy", "JobPool", "RunTimeout", "WorkerLost", "worker_main"]
+__all__ = ["Busy", "JobPool", "RunTimeout", "WorkerLost", "rss_mb", "worker_main"]
 
 log = logging.getLogger("icing.service")
 
@@ -46,6 +47,16 @@ _PRELOAD = [
     "icing.calc",
 ]
 _READY_TIMEOUT_S = 120.0
+
+
+def rss_mb(pid: int | str = "self") -> float | None:
+    """Resident memory of a process [MiB] (Linux ``/proc``; None elsewhere or when gone)."""
+    try:
+        with open(f"/proc/{pid}/statm") as fh:
+            pages = int(fh.read().split()[1])
+    except (OSError, ValueError, IndexError):
+        return None
+    return round(pages * os.sysconf("SC_PAGE_SIZE") / 2**20, 1)
 
 
 class Busy(Exception):
@@ -97,6 +108,10 @@ class _ProcessSlot:
             self.kill()
             raise RuntimeError("a worker process did not start")
 
+    @property
+    def pid(self):
+        return self.proc.pid
+
     def call(self, job: dict, timeout_s: float):
         self.conn.send(job)
         if not self.conn.poll(timeout_s):
@@ -130,6 +145,7 @@ class _InlineSlot:
         from icing.service.jobs import ForecastStore
 
         self.store = ForecastStore(max_open)
+        self.pid = None
 
     def call(self, job: dict, timeout_s: float):
         from icing.service.jobs import run_job
@@ -182,13 +198,16 @@ class JobPool:
         self._waiting = 0
         self._busy = 0
         self._closing = False
-        self._lock = threading.Lock()
+        self._all: set = set()  # every live slot, idle or busy
         self.counts = {"jobs": 0, "timeouts": 0, "workers_lost": 0, "refused_busy": 0}
 
     def _new_slot(self):
         if self.size == 0:
-            return _InlineSlot(self.max_open)
-        return _ProcessSlot(self._ctx, self.max_open)
+            slot = _InlineSlot(self.max_open)
+        else:
+            slot = _ProcessSlot(self._ctx, self.max_open)
+        self._all.add(slot)
+        return slot
 
     async def start(self) -> None:
         """Start the workers (and wait until each is ready)."""
@@ -206,13 +225,18 @@ class JobPool:
         log.info("job pool ready: %s, %d worker(s)", self.mode, self._slots)
 
     def stats(self) -> dict:
-        """Workers, busy and waiting requests, and counters."""
+        """Workers, busy and waiting requests, counters and resident memory [MiB]."""
+        workers = [rss_mb(s.pid) for s in list(self._all) if s.pid is not None]
         return {
             "mode": self.mode,
             "workers": self._slots,
             "busy": self._busy,
             "waiting": self._waiting,
             **self.counts,
+            "rss_mb": {
+                "server": rss_mb(),
+                "workers": None if None in workers else round(sum(workers), 1),
+            },
         }
 
     async def run(self, job: dict):
@@ -284,6 +308,7 @@ class JobPool:
 
     async def _replace(self, slot) -> None:
         loop = asyncio.get_running_loop()
+        self._all.discard(slot)
         await loop.run_in_executor(self._threads, slot.kill)
         delay = 0.5
         while not self._closing:

@@ -9,6 +9,7 @@ limit plus a margin), then the worker processes are stopped.
 from __future__ import annotations
 
 import logging
+import signal
 import sys
 
 from icing.caution import CAUTION
@@ -33,6 +34,10 @@ def setup_logging(level: str = "info") -> None:
     service.propagate = False
 
 
+def _exit_cleanly(signum, frame):
+    raise SystemExit(0)
+
+
 def serve(config: ServiceConfig, *, host: str, port: int, log_level: str = "info") -> None:
     """Serve until interrupted."""
     import uvicorn
@@ -48,6 +53,9 @@ def serve(config: ServiceConfig, *, host: str, port: int, log_level: str = "info
         file=sys.stderr,
         flush=True,
     )
+    # uvicorn stops gracefully on SIGTERM, then raises the signal again for the handler it
+    # found: make that a clean exit (status 0) rather than death by signal
+    signal.signal(signal.SIGTERM, _exit_cleanly)
     uvicorn.run(
         app,
         host=host,
