@@ -9,7 +9,9 @@ drawn by hand so that tests of pictures, avoidance and reports know where the
 answers must lie (the scenario is described at :func:`_make_screening`).
 
 Tests ask for them by fixture name: ``canonical_routes``, ``write_text``,
-``columns``, ``make_screening`` and ``screening_scenario``.
+``columns``, ``make_screening`` and ``screening_scenario``; the service's tests also
+use ``service_catalog``, ``service_key``, ``start_service`` and ``live_service`` (a
+real ``icing serve`` on a loopback port).
 """
 
 from __future__ import annotations
