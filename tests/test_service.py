@@ -310,7 +310,7 @@ def test_503_when_busy_past_the_run_time_or_forecast_unreadable(make_client, tmp
 
     shutil.copy(REPO / "fixtures" / "skerrow-profiles.json", tmp_path / "ok.json")
     (tmp_path / "broken.nc").write_bytes(b"CDF\x01 truncated")
-    c = make_client(catalog=tmp_path, queue_limit=0)
+    c = make_client(catalog=tmp_path, queue_limit=0, warm_up=False)
     r = c.post("/v1/screen", json=_screen(forecast="broken.nc"))
     assert r.status_code == 503 and r.json()["field"] == "forecast"
     assert str(tmp_path) not in r.text
@@ -328,7 +328,8 @@ def test_503_when_busy_past_the_run_time_or_forecast_unreadable(make_client, tmp
 
 
 def test_503_past_the_run_time_stops_the_worker_and_serves_on(make_client):
-    c = make_client(workers=1, run_timeout_s=0.05)  # the first run opens the forecast: slower
+    # without the warm-up the first run opens the forecast: slower than the limit
+    c = make_client(workers=1, run_timeout_s=0.05, warm_up=False)
     r = c.post("/v1/screen", json=_screen())
     assert r.status_code == 503 and "limit of 0.05 s" in _one_line(r)
     assert c.get("/v1/health").status_code == 200

@@ -38,7 +38,7 @@ from icing.service.models import (
     ProfileResponse,
     ScreenRequest,
 )
-from icing.service.pool import Busy, JobPool, RunTimeout, WorkerLost
+from icing.service.pool import FILE_LOCK, Busy, JobPool, RunTimeout, WorkerLost
 from icing.service.ratelimit import RateLimiter
 
 __all__ = ["create_app"]
@@ -311,11 +311,23 @@ against the forecasts of this server's catalogue.
 """
 
 
+async def _warm_up(catalogue, pool) -> None:
+    """Have every worker open the catalogue's forecasts, so first requests are not slowed."""
+    refs = [e.ref() for e in catalogue.entries() if e.available]
+    if not refs:
+        return
+    job = {"kind": "open", "refs": refs, "airframe": "light-piston"}
+    jobs = [pool.run(dict(job)) for _ in range(max(1, pool.size))]
+    results = await asyncio.gather(*jobs, return_exceptions=True)
+    failed = [r for r in results if isinstance(r, Exception) or r[0] != 200]
+    if failed:
+        log.warning("warm-up: %d worker(s) could not open every forecast", len(failed))
+
+
 def create_app(config: ServiceConfig) -> FastAPI:
     """Build the application for a configuration (the pool starts with the app)."""
     from icing.airframes import airframes_to_json, list_airframes
 
-    catalogue = Catalogue(config.catalog, min_interval_s=config.rescan_s)
     keyring = KeyRing(config.api_keys) if config.api_keys else None
     pool = JobPool(
         config.workers,
@@ -324,14 +336,19 @@ def create_app(config: ServiceConfig) -> FastAPI:
         queue_timeout_s=config.queue_timeout_s,
         max_open=config.max_open,
     )
+    # one thread at a time reads forecast files in this process (inline computations too)
+    catalogue = Catalogue(config.catalog, min_interval_s=config.rescan_s, file_lock=FILE_LOCK)
 
     @asynccontextmanager
     async def lifespan(app):
         await asyncio.to_thread(catalogue.refresh, force=True)
         await pool.start()
+        warm = asyncio.create_task(_warm_up(catalogue, pool)) if config.warm_up else None
         try:
             yield
         finally:
+            if warm is not None:
+                warm.cancel()
             await pool.close()
 
     app = FastAPI(

@@ -20,6 +20,7 @@ domain, and in each worker before its next use).
 
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import json
 import logging
@@ -142,9 +143,13 @@ class Catalogue:
         Least time between two scans. [s]
     opener : callable
         ``opener(paths) -> Forecast`` (default :func:`icing.forecast.load_forecast`).
+    file_lock : lock, optional
+        Held while a forecast is opened: the netCDF and HDF5 C libraries must not be
+        entered by two threads at once, so a server that also computes on a thread
+        (the inline pool) shares its lock here.
     """
 
-    def __init__(self, directory, *, min_interval_s: float = 5.0, opener=None):
+    def __init__(self, directory, *, min_interval_s: float = 5.0, opener=None, file_lock=None):
         self.directory = Path(directory)
         if not self.directory.is_dir():
             raise InputError(
@@ -156,6 +161,7 @@ class Catalogue:
         if opener is None:
             from icing.forecast import load_forecast as opener
         self._opener = opener
+        self._file_lock = file_lock if file_lock is not None else contextlib.nullcontext()
         self.min_interval_s = float(min_interval_s)
         self._entries: dict[str, CatalogueEntry] = {}
         self._lock = threading.Lock()
@@ -211,8 +217,9 @@ class Catalogue:
 
     def _open(self, fid, paths, sig) -> CatalogueEntry:
         try:
-            forecast = self._opener(list(paths))
-            info = _describe(fid, forecast)
+            with self._file_lock:
+                forecast = self._opener(list(paths))
+                info = _describe(fid, forecast)
             log.info("catalogue: %s available (%s)", fid, info.get("kind"))
             return CatalogueEntry(fid, paths, sig, True, info)
         except InputError as err:

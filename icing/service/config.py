@@ -60,6 +60,9 @@ class ServiceConfig:
         Origins allowed by CORS; empty: CORS off.
     max_connections : int
         Most open connections; beyond it uvicorn answers 503.
+    warm_up : bool
+        At start, have every worker open the catalogue's forecasts and diagnose one
+        column of each, so the first requests do not pay for it.
     """
 
     catalog: Path
@@ -79,6 +82,7 @@ class ServiceConfig:
     max_open: int = 16
     cors_origins: tuple = ()
     max_connections: int = 256
+    warm_up: bool = True
 
     def limits(self) -> dict:
         """Return the limits a client meets (stated in ``/v1/health`` and the OpenAPI)."""

@@ -224,6 +224,8 @@ def run_job(job: dict, store: ForecastStore) -> tuple[int, bytes, str]:
                 payload, media = _screen(job, store), GEOJSON
             elif kind == "profile":
                 payload, media = _profile(job, store), JSON
+            elif kind == "open":  # warm-up: open the forecasts before the first request
+                payload, media = _warm(job, store), JSON
             elif kind == "sleep":  # for the tests of timeouts and crashes only
                 payload, media = _sleep(job), JSON
             else:
@@ -242,6 +244,18 @@ def run_job(job: dict, store: ForecastStore) -> tuple[int, bytes, str]:
         log.exception("request %s: internal error in a %s job", rid, kind)
         detail = f"internal error while computing (request {rid}; the server log has the details)"
         return 500, problem_body(detail), JSON
+
+
+def _warm(job, store) -> dict:
+    """Open each forecast and diagnose one column of it (loads what a first request would)."""
+    from icing.runs import diagnose_point
+
+    for ref in job["refs"]:
+        forecast = store.get(ref)
+        lon0, lat0, lon1, lat1 = forecast.bounds
+        lon = (lon0 + lon1) / 2 if lon0 <= lon1 else ((lon0 + lon1 + 360) / 2 + 180) % 360 - 180
+        diagnose_point(forecast, (lat0 + lat1) / 2, lon, airframe=job["airframe"])
+    return {"opened": len(job["refs"])}
 
 
 def _sleep(job):

@@ -13,9 +13,11 @@ are in DEVELOPERS.md, "The service"):
     imported the package, so a replacement is ready in a fraction of a second.
 ``inline``
     One computation at a time on a thread of the server process, sharing one
-    set of open forecasts (the lock around the computations keeps their tile
-    caches safe). Nothing can stop a computation that runs too long: its
-    client gets a 503 at the time limit and the next job waits for it.
+    set of open forecasts. One lock covers the computations and the opening of
+    files by the catalogue: it keeps the tile caches safe, and the netCDF and
+    HDF5 C libraries, which crash the process when two threads enter them.
+    Nothing can stop a computation that runs too long: its client gets a 503 at
+    the time limit and the next job waits for it.
 
 Either way at most ``queue_limit`` requests wait for a worker, each at most
 ``queue_timeout_s``; beyond that the request is refused at once (503 with
@@ -32,7 +34,7 @@ import signal
 import threading
 from concurrent.futures import ThreadPoolExecutor
 
-__all__ = ["Busy", "JobPool", "RunTimeout", "WorkerLost", "rss_mb", "worker_main"]
+__all__ = ["FILE_LOCK", "Busy", "JobPool", "RunTimeout", "WorkerLost", "rss_mb", "worker_main"]
 
 log = logging.getLogger("icing.service")
 
@@ -47,6 +49,12 @@ _PRELOAD = [
     "icing.calc",
 ]
 _READY_TIMEOUT_S = 120.0
+
+
+#: Held by inline computations and by the catalogue while it opens files: the netCDF and
+#: HDF5 C libraries crash the process when two threads enter them, so in one process one
+#: thread at a time reads forecast files (worker processes have each their own).
+FILE_LOCK = threading.Lock()
 
 
 def rss_mb(pid: int | str = "self") -> float | None:
@@ -139,18 +147,20 @@ class _ProcessSlot:
 
 
 class _InlineSlot:
-    """Computations on a thread of the server process, one at a time."""
+    """Computations on a thread of the server process, one at a time, under the file lock."""
 
-    def __init__(self, max_open: int):
+    def __init__(self, max_open: int, file_lock):
         from icing.service.jobs import ForecastStore
 
         self.store = ForecastStore(max_open)
         self.pid = None
+        self.file_lock = file_lock
 
     def call(self, job: dict, timeout_s: float):
         from icing.service.jobs import run_job
 
-        return run_job(job, self.store)
+        with self.file_lock:
+            return run_job(job, self.store)
 
     def kill(self) -> None:  # a thread cannot be stopped; it ends when its job does
         pass
@@ -199,11 +209,12 @@ class JobPool:
         self._busy = 0
         self._closing = False
         self._all: set = set()  # every live slot, idle or busy
+        self.file_lock = FILE_LOCK
         self.counts = {"jobs": 0, "timeouts": 0, "workers_lost": 0, "refused_busy": 0}
 
     def _new_slot(self):
         if self.size == 0:
-            slot = _InlineSlot(self.max_open)
+            slot = _InlineSlot(self.max_open, self.file_lock)
         else:
             slot = _ProcessSlot(self._ctx, self.max_open)
         self._all.add(slot)
@@ -293,8 +304,7 @@ class JobPool:
     def _release(self, slot, fut) -> None:
         """Give the slot back when its job is over, or replace a stopped or dead worker."""
         self._busy -= 1
-        if self._closing:  # the server is stopping: this worker is not needed again
-            threading.Thread(target=slot.stop, args=(1.0,), daemon=True).start()
+        if self._closing:  # the server is stopping: close() ends every worker
             return
         if fut.cancelled() or fut.exception() is None:
             self._idle.put_nowait(slot)
@@ -323,13 +333,22 @@ class JobPool:
             return
 
     async def close(self, grace_s: float = 5.0) -> None:
-        """Stop taking jobs, let idle workers end, stop the others."""
+        """Stop taking jobs, let idle workers end, stop busy ones, wait for the threads.
+
+        uvicorn has already let the requests in flight finish (graceful shutdown), so a
+        worker still busy here runs a warm-up or an abandoned job.
+        """
         self._closing = True
         loop = asyncio.get_running_loop()
-        stops = []
+        idle = []
         while self._idle is not None and not self._idle.empty():
-            slot = self._idle.get_nowait()
-            stops.append(loop.run_in_executor(self._threads, slot.stop, grace_s))
+            idle.append(self._idle.get_nowait())
+        busy = [s for s in list(self._all) if s not in idle]
+        stops = [loop.run_in_executor(self._threads, s.stop, grace_s) for s in idle]
+        stops += [loop.run_in_executor(self._threads, s.kill) for s in busy]
         await asyncio.gather(*stops, return_exceptions=True)
+        self._all.clear()
         if self._threads is not None:
-            self._threads.shutdown(wait=False, cancel_futures=True)
+            # inline: a computation cannot be stopped; it is waited for, as reading a file
+            # while the interpreter shuts down can crash it
+            await asyncio.to_thread(self._threads.shutdown, wait=True)
