@@ -128,49 +128,59 @@ class _Refused(Exception):
         self.status, self.detail, self.field, self.headers = status, detail, field, headers
 
 
-def _routes(app: FastAPI, config: ServiceConfig) -> None:
-    state = app.state
+async def _refresh(catalogue) -> None:
+    """Rescan the catalogue folder when a scan is due (off the event loop)."""
+    if catalogue.due():
+        await asyncio.to_thread(catalogue.refresh)
 
-    async def entry_for(forecast_id: str):
-        if state.catalogue.due():
-            await asyncio.to_thread(state.catalogue.refresh)
-        entry = state.catalogue.get(forecast_id)
-        if entry is None:
-            raise _Refused(
-                404,
-                f"forecast: no forecast {forecast_id!r} (fix: {_FIX['forecast']})",
-                "forecast",
-            )
-        if not entry.available:
-            reason = entry.info.get("reason", "")
-            raise _Refused(503, f"forecast: {forecast_id!r} is unavailable: {reason}", "forecast")
-        return entry
 
-    async def run(request: Request, job: dict) -> Response:
-        job.update(
-            request_id=request.state.request_id,
-            catalog_dir=str(config.catalog),
-            limits=config.limits(),
+async def _entry(state, forecast_id: str):
+    """Return the catalogue entry of a forecast id, or refuse with a 404 or 503."""
+    await _refresh(state.catalogue)
+    entry = state.catalogue.get(forecast_id)
+    if entry is None:
+        raise _Refused(
+            404,
+            f"forecast: no forecast {forecast_id!r} (fix: {_FIX['forecast']})",
+            "forecast",
         )
-        try:
-            status, body, media = await state.pool.run(job)
-        except Busy as err:
-            retry = str(int(err.retry_after_s))
-            return _problem(503, err.detail, None, headers={"Retry-After": retry})
-        except RunTimeout:
-            return _problem(
-                503,
-                f"the computation ran past the limit of {config.run_timeout_s:g} s and was "
-                "stopped (fix: send shorter or fewer routes)",
-                "route" if job["kind"] == "screen" else None,
-            )
-        except WorkerLost:
-            return _problem(
-                500,
-                f"the computation ended abruptly (request {job['request_id']}); the service "
-                "goes on (fix: report it with the request id)",
-            )
-        return Response(body, status_code=status, media_type=media)
+    if not entry.available:
+        reason = entry.info.get("reason", "")
+        raise _Refused(503, f"forecast: {forecast_id!r} is unavailable: {reason}", "forecast")
+    return entry
+
+
+async def _run(state, config: ServiceConfig, request: Request, job: dict) -> Response:
+    """Hand a job to the pool; answer its result, or a 503 / 500 in one line."""
+    job.update(
+        request_id=request.state.request_id,
+        catalog_dir=str(config.catalog),
+        limits=config.limits(),
+    )
+    try:
+        status, body, media = await state.pool.run(job)
+    except Busy as err:
+        retry = str(int(err.retry_after_s))
+        return _problem(503, err.detail, None, headers={"Retry-After": retry})
+    except RunTimeout:
+        return _problem(
+            503,
+            f"the computation ran past the limit of {config.run_timeout_s:g} s and was "
+            "stopped (fix: send shorter or fewer routes)",
+            "route" if job["kind"] == "screen" else None,
+        )
+    except WorkerLost:
+        return _problem(
+            500,
+            f"the computation ended abruptly (request {job['request_id']}); the service "
+            "goes on (fix: report it with the request id)",
+        )
+    return Response(body, status_code=status, media_type=media)
+
+
+def _catalogue_routes(app: FastAPI, config: ServiceConfig) -> None:
+    """Health, airframes and forecasts."""
+    state = app.state
 
     @app.get(
         "/v1/health",
@@ -179,8 +189,7 @@ def _routes(app: FastAPI, config: ServiceConfig) -> None:
         summary="Is the service up; its limits",
     )
     async def health():
-        if state.catalogue.due():
-            await asyncio.to_thread(state.catalogue.refresh)
+        await _refresh(state.catalogue)
         available = sum(e.available for e in state.catalogue.entries())
         return {
             "status": "ok" if available else "degraded",
@@ -210,9 +219,13 @@ def _routes(app: FastAPI, config: ServiceConfig) -> None:
         summary="The forecasts of the catalogue: ids, valid times, domains",
     )
     async def forecasts():
-        if state.catalogue.due():
-            await asyncio.to_thread(state.catalogue.refresh)
+        await _refresh(state.catalogue)
         return {"forecasts": [e.info for e in state.catalogue.entries()]}
+
+
+def _screening_routes(app: FastAPI, config: ServiceConfig) -> None:
+    """Screenings and profiles: each runs as a job in the pool."""
+    state = app.state
 
     @app.post(
         "/v1/screen",
@@ -230,7 +243,7 @@ def _routes(app: FastAPI, config: ServiceConfig) -> None:
         summary="Screen route(s) against a forecast for an airframe",
     )
     async def screen(body: ScreenRequest, request: Request):
-        entry = await entry_for(body.forecast)
+        entry = await _entry(state, body.forecast)
         positions = count_positions(body.route)
         if positions > config.max_positions:
             raise _Refused(
@@ -250,7 +263,7 @@ def _routes(app: FastAPI, config: ServiceConfig) -> None:
         }
         if job["depart"] is not None:
             job["depart"] += "Z"
-        return await run(request, job)
+        return await _run(state, config, request, job)
 
     @app.post(
         "/v1/profile",
@@ -260,7 +273,7 @@ def _routes(app: FastAPI, config: ServiceConfig) -> None:
         summary="One forecast column, level by level, for an airframe",
     )
     async def profile(body: ProfileRequest, request: Request):
-        entry = await entry_for(body.forecast)
+        entry = await _entry(state, body.forecast)
         job = {
             "kind": "profile",
             "forecast": entry.ref(),
@@ -269,7 +282,7 @@ def _routes(app: FastAPI, config: ServiceConfig) -> None:
             "time": _utc_iso(body.time, "time"),
             "airframe": body.airframe,
         }
-        return await run(request, job)
+        return await _run(state, config, request, job)
 
 
 def _handlers(app: FastAPI) -> None:
@@ -365,7 +378,8 @@ def create_app(config: ServiceConfig) -> FastAPI:
     app.state.config = config
     app.state.airframes = airframes_to_json(list_airframes())
     app.state.hazards_schema = _hazards_schema()
-    _routes(app, config)
+    _catalogue_routes(app, config)
+    _screening_routes(app, config)
     _handlers(app)
     app.openapi = lambda: _openapi(app, config)
     limiter = RateLimiter(rate_per_s=config.rate_per_s, burst=config.burst)
