@@ -767,6 +767,10 @@ def build_parser() -> argparse.ArgumentParser:
     a = sub.add_parser("airframes", help="list the airframe presets and their collectors")
     a.add_argument("--json", action="store_true")
     a.set_defaults(func=cmd_airframes)
+
+    from icing.service.commands import add_service_commands  # serve, serve-key
+
+    add_service_commands(sub)
     return p
 
 

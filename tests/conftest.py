@@ -11,7 +11,9 @@ answers must lie (the scenario is described at :func:`_make_screening`).
 Tests ask for them by fixture name: ``canonical_routes``, ``write_text``,
 ``columns``, ``make_screening`` and ``screening_scenario``; ``real_data`` (the
 folder of real model files, origin and licence in its README.md) and
-``screen_cli`` (runs ``icing screen`` on a route of our own over them).
+``screen_cli`` (runs ``icing screen`` on a route of our own over them); the
+service's tests also use ``service_catalog``, ``service_key``, ``start_service`` and
+``live_service`` (a real ``icing serve`` on a loopback port).
 """
 
 from __future__ import annotations
@@ -664,3 +666,123 @@ def screen_cli(tmp_path):
         return code, fc, rows
 
     return run
+
+
+# ---------------------------------------------------------------------------- service
+
+
+def _free_port() -> int:
+    import socket
+
+    with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+@pytest.fixture(scope="session")
+def service_catalog(tmp_path_factory):
+    """A catalogue folder for ``icing serve``: the demo grid and the profile fixture."""
+    import shutil
+    from pathlib import Path
+
+    from icing.forecast import demo_forecast_path
+
+    folder = tmp_path_factory.mktemp("catalogue")
+    shutil.copy(demo_forecast_path(), folder / "skerrow-demo.nc")
+    repo = Path(__file__).resolve().parents[1]
+    shutil.copy(repo / "fixtures" / "skerrow-profiles.json", folder / "skerrow-profiles.json")
+    return folder
+
+
+@pytest.fixture(scope="session")
+def service_key(tmp_path_factory):
+    """A key file with one key: ``path``, ``name``, ``key`` and the ``headers`` that send it."""
+    from icing.service.keys import add_key
+
+    path = tmp_path_factory.mktemp("keys") / "api-keys.txt"
+    key = add_key(path, "dispatch-test")
+    return SimpleNamespace(
+        path=path, name="dispatch-test", key=key, headers={"Authorization": f"Bearer {key}"}
+    )
+
+
+def _start_service(folder, catalog, args):
+    """Start ``icing serve`` on a free loopback port; return once /v1/health answers."""
+    import os
+    import subprocess
+    import sys
+    import time
+    import urllib.request
+
+    port = _free_port()
+    cmd = [sys.executable, "-m", "icing", "serve", "--catalog", str(catalog)]
+    cmd += ["--port", str(port), *args]
+    out = open(folder / "access.jsonl", "wb")  # noqa: SIM115 - closed by the stopper
+    err = open(folder / "server.log", "wb")  # noqa: SIM115
+    env = dict(os.environ, PYTHONWARNINGS="ignore")
+    proc = subprocess.Popen(cmd, stdout=out, stderr=err, env=env)
+    url = f"http://127.0.0.1:{port}"
+    deadline = time.monotonic() + 90
+    while True:
+        try:
+            with urllib.request.urlopen(url + "/v1/health", timeout=2) as r:
+                if r.status == 200:
+                    break
+        except OSError:
+            pass
+        if proc.poll() is not None or time.monotonic() > deadline:
+            proc.kill()
+            raise RuntimeError((folder / "server.log").read_text()[-2000:])
+        time.sleep(0.2)
+
+    def stop():
+        if proc.poll() is None:
+            proc.terminate()
+            try:
+                proc.wait(30)
+            except subprocess.TimeoutExpired:
+                proc.kill()
+                proc.wait()
+        out.close()
+        err.close()
+
+    return SimpleNamespace(
+        url=url,
+        pid=proc.pid,
+        process=proc,
+        access_log=folder / "access.jsonl",
+        server_log=folder / "server.log",
+        stop=stop,
+    )
+
+
+@pytest.fixture
+def start_service(tmp_path_factory):
+    """Start ``icing serve --catalog DIR ARGS...`` processes; each is stopped after the test.
+
+    ``start_service(catalog, *args)`` returns ``url``, ``pid``, ``process``,
+    ``access_log``, ``server_log`` and ``stop()`` (SIGTERM: a graceful stop).
+    """
+    started = []
+
+    def start(catalog, *args):
+        service = _start_service(tmp_path_factory.mktemp("service"), catalog, args)
+        started.append(service)
+        return service
+
+    yield start
+    for service in started:
+        service.stop()
+
+
+@pytest.fixture(scope="session")
+def live_service(service_catalog, service_key, tmp_path_factory):
+    """A real ``icing serve`` (uvicorn) on a free loopback port: keys on, 2 workers, no rate limit.
+
+    As ``start_service``, plus ``headers`` (with the key); stopped at the end of the session.
+    """
+    args = ["--api-keys", str(service_key.path), "--workers", "2", "--rate-limit", "0"]
+    service = _start_service(tmp_path_factory.mktemp("live-service"), service_catalog, args)
+    service.headers = service_key.headers
+    yield service
+    service.stop()
