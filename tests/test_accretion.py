@@ -2,15 +2,15 @@
 
 Sources of the check values:
 - Recovery temperature T_r = T + r V^2 / (2 c_p): energy equation of adiabatic
-  deceleration; REFERENCES.md gives 100 m/s -> +5.0 K, 150 m/s -> +11.2 K [D, derived].
+  deceleration; docs/references.md gives 100 m/s -> +5.0 K, 150 m/s -> +11.2 K [D, derived].
 - Messinger (1953) balance in the form of Anderson (2004), NASA/CR-2004-212875, as
-  quoted in REFERENCES.md (from memory there): n0 = (c_w/Lf)(phi + theta/b). Checked
+  quoted in docs/references.md (from memory there): n0 = (c_w/Lf)(phi + theta/b). Checked
   here two ways: the Anderson form recomputed by hand, and the energy balance it
   comes from (residual zero).
-- Stagnation Nusselt number Nu = 1.14 Re^0.5 Pr^0.4 (REFERENCES.md, from memory).
-- Rime density: Makkonen & Stallabrass form, Macklin (1962) fit (REFERENCES.md, from
+- Stagnation Nusselt number Nu = 1.14 Re^0.5 Pr^0.4 (docs/references.md, from memory).
+- Rime density: Makkonen & Stallabrass form, Macklin (1962) fit (docs/references.md, from
   memory there); expected numbers *derived from the published fits* by hand.
-- Korolev et al. (2003): 0.01 g/m3 in-cloud threshold (REFERENCES.md [V]).
+- Korolev et al. (2003): 0.01 g/m3 in-cloud threshold (docs/references.md [V]).
 """
 
 from __future__ import annotations
@@ -41,7 +41,7 @@ from icing.constants import CP_AIR, CP_WATER, EPSILON, LF0, LV0, PRANDTL_AIR, T0
 # ---------------------------------------------------------------- recovery temperature
 @pytest.mark.parametrize("v, rise", [(100.0, 5.0), (150.0, 11.2)])
 def test_recovery_temperature_rise(v, rise):
-    # REFERENCES.md [D]: V^2/(2 cp); tolerance 0.05 K: the derived values are printed
+    # docs/references.md [D]: V^2/(2 cp); tolerance 0.05 K: the derived values are printed
     # to 0.1 K (cp = 1004.67 J/kg/K here gives 4.98 and 11.20 K)
     assert float(acc.recovery_temperature(263.15, v) - 263.15) == pytest.approx(rise, abs=0.05)
 
@@ -249,7 +249,7 @@ def test_ice_type_convention():
 
 
 def test_rate_severity_on_the_aim_scale():
-    # earlier AIM edition (REFERENCES.md [V, secondary]): trace < 6, light 6-25,
+    # earlier AIM edition (docs/references.md [V, secondary]): trace < 6, light 6-25,
     # moderate 25-75, severe > 75 mm/h
     rates = [0.0, 0.1, 5.99, 6.0, 24.9, 25.0, 74.9, 75.0, 500.0]
     assert acc.rate_severity(rates).tolist() == [0, 1, 1, 2, 2, 3, 3, 4, 4]

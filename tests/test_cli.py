@@ -1,4 +1,4 @@
-"""The ``icing`` command: exit codes, outputs, bad input (DESIGN.md 3.1).
+"""The ``icing`` command: exit codes, outputs, bad input (docs/contracts.md, section 1).
 
 Contract tests on the demo scenario (invented data; no physics value is checked here).
 """

@@ -38,7 +38,7 @@ def test_threshold_near_freezing_is_the_warm_cap():
 @pytest.mark.parametrize("temperature_c", [-10.0, -20.0, -30.0])
 def test_ice_saturated_water_subsaturated_air_is_not_liquid_cloud(temperature_c):
     # from memory: ice-saturated air is ~91/82/75 % RH over water at -10/-20/-30 C
-    # (DESIGN.md; Rogers & Yau 1989 table 2.1, from memory). Air 3 % RH above ice
+    # (Rogers & Yau 1989 table 2.1, from memory). Air 3 % RH above ice
     # saturation but below water saturation: an ice cloud, not liquid.
     t = temperature_c + T0
     rh = float(thermo.ice_saturation_relative_humidity(t)) + 0.03
@@ -159,7 +159,7 @@ def test_deep_layer_lwc_stays_bounded():
 
 
 def test_ice_nuclei_formulas():
-    # published formulas (REFERENCES.md [V]): Fletcher (1962) 1e-2 exp(0.6 dT) /m3 at -20 C
+    # published formulas (docs/references.md [V]): Fletcher (1962) 1e-2 exp(0.6 dT) /m3 at -20 C
     assert float(clouds.ice_nuclei_concentration(253.15, model="fletcher62")) == pytest.approx(
         1e-2 * np.exp(12.0)
     )

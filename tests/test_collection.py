@@ -2,14 +2,14 @@
 
 Sources of the check values:
 - Langmuir & Blodgett (1946), AAF Tech. Rep. 5418: the fits of E and beta0 with the
-  modified inertia parameter, as quoted in REFERENCES.md (from memory there; the
+  modified inertia parameter, as quoted in docs/references.md (from memory there; the
   definitions checked by derivation). Expected numbers below are *derived from the
   published fit* by hand (math module), not read from a table.
 - Finstad, Lozowski & Gates (1988), J. Atmos. Oceanic Technol. 5, 160: the fit of E,
-  as quoted in REFERENCES.md (from memory there); expected numbers *derived from the
+  as quoted in docs/references.md (from memory there); expected numbers *derived from the
   published fit* by hand.
 - Finstad, Lozowski & Makkonen (1988), J. Atmos. Sci. 45, 4008: the MVD alone errs by
-  ~0.02 in E against the spectrum (REFERENCES.md [V]).
+  ~0.02 in E against the spectrum (docs/references.md [V]).
 """
 
 from __future__ import annotations
@@ -116,7 +116,7 @@ def test_finstad_k1_phi100_value():
 
 
 def test_finstad_near_zero_below_k_017():
-    # published statement (REFERENCES.md): E ~ 0 below K ~ 0.17 (fit clipped at 0 there)
+    # published statement (docs/references.md): E ~ 0 below K ~ 0.17 (fit clipped at 0 there)
     assert float(col.collision_efficiency_finstad88(0.16, 100.0)) == 0.0
     assert float(col.collision_efficiency_finstad88(0.25, 100.0)) > 0.0
 

@@ -108,7 +108,8 @@ def test_lwc_nonnegative_and_none_below_homogeneous_freezing(columns):
 
 
 def test_model_liquid_larger_wins_and_is_never_added(columns):
-    # DESIGN.md rule (conservative screening): the larger of model and diagnosed liquid,
+    # the project's rule (conservative screening; docs/references.md, cloud liquid): the
+    # larger of model and diagnosed liquid,
     # never their sum, with its basis
     col = columns.supercooled_stratiform_deck()
     lots = dict(col, cloud_liquid=np.where(col["cloud_liquid"] > 0, 1.5e-3, 0.0))

@@ -59,7 +59,7 @@ def _screen(forecast, case, feet, airframe):
 def test_supercooled_stratiform_deck_light_aircraft(forecast, feet, words):
     # Supercooled stratiform cloud at -5 to -10 C with LWC 0.1-0.4 g/m3 and MVD 15-25 um
     # accretes rime or mixed ice at light-to-moderate rates on an unprotected light
-    # aircraft (FAA AIM 7-1-22 severity definitions; REFERENCES.md rate anchors); the
+    # aircraft (FAA AIM 7-1-22 severity definitions; docs/references.md rate anchors); the
     # liquid starts at the saturated base (Bolton 1980 condensation level), so the
     # lowest few hundred feet of the deck hold little of it.
     s = _screen(forecast, "stratiform-deck", feet, "light-piston")

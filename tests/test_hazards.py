@@ -1,6 +1,6 @@
 """Segment merging, RFC 7946 geometry and summaries (icing.hazards).
 
-These are contract tests (DESIGN.md 3.4, RFC 7946), not physics checks: the
+These are contract tests (docs/contracts.md, section 4, RFC 7946), not physics checks: the
 per-sample values are made up for the test.
 """
 
@@ -82,7 +82,7 @@ def _screening(severity):
 
 
 def test_short_severe_stretch_is_not_hidden():
-    # DESIGN.md 3.4: a change of severity starts a new segment
+    # docs/contracts.md, section 4: a change of severity starts a new segment
     at = _at([2, 2, 2, 4, 2, 2])
     assert segment_samples(at) == [(0, 3), (3, 4), (4, 6)]
 

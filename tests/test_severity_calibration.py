@@ -7,7 +7,7 @@ equipment or flight diversion is necessary"), severe (the equipment "fails to re
 or control the hazard"; ice aft of protected areas). They are applied as
 ``icing.calc.severity`` states: the rate word from the catch on the collector as if
 unprotected, mapped on an earlier AIM edition's representative rates "on the outer
-wing" (trace < 6 mm/h, light 6-25, moderate 25-75, severe > 75 mm/h; REFERENCES.md
+wing" (trace < 6 mm/h, light 6-25, moderate 25-75, severe > 75 mm/h; docs/references.md
 [V, secondary]); protection and the ice tolerance decide when the airframe no longer
 copes; SLD aft of protected areas raises the word; supercooled liquid at or below
 0 C is never "none".

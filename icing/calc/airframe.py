@@ -62,7 +62,7 @@ References
    surface as a function of air speed, J. Aeronaut. Sci. 20, 29-42.
 .. [And04] Anderson, D. N. (2004), Manual of scaling methods, NASA/CR-2004-212875.
 .. [MS84] Makkonen, L. & Stallabrass, J. R. (1984/1987), rime density
-   experiments (form as quoted from memory in REFERENCES.md).
+   experiments (form as quoted from memory in docs/references.md).
 .. [Mac62] Macklin, W. C. (1962), The density and structure of ice formed by
    accretion, QJRMS 88, 30-50.
 .. [Kor03] Korolev, A. V. et al. (2003), Microphysical characterization of mixed-

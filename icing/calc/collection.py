@@ -152,7 +152,7 @@ def modified_inertia_parameter(k, phi):
 
     References
     ----------
-    [LB46]_; the form as quoted in REFERENCES.md (from memory, definitions
+    [LB46]_; the form as quoted in docs/references.md (from memory, definitions
     checked by derivation).
 
     Examples
@@ -187,7 +187,7 @@ def collision_efficiency_langmuir46(k, phi):
 
     References
     ----------
-    [LB46]_ (fit quoted from memory in REFERENCES.md).
+    [LB46]_ (fit quoted from memory in docs/references.md).
 
     Examples
     --------
@@ -220,7 +220,7 @@ def stagnation_efficiency_langmuir46(k, phi):
 
     References
     ----------
-    [LB46]_ (fit quoted from memory in REFERENCES.md).
+    [LB46]_ (fit quoted from memory in docs/references.md).
 
     Examples
     --------
@@ -303,7 +303,7 @@ def collision_efficiency_finstad88(k, phi):
 
     References
     ----------
-    [FLG88]_ (fit as quoted from memory in REFERENCES.md; also used by ISO 12494
+    [FLG88]_ (fit as quoted from memory in docs/references.md; also used by ISO 12494
     and Makkonen 2000).
 
     Examples

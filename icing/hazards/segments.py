@@ -147,7 +147,7 @@ def build_segments(
     all_segments: bool = False,
     id_prefix: str = "",
 ) -> list[dict]:
-    """Merge samples into GeoJSON Feature dicts with the DESIGN.md 3.4 properties.
+    """Merge samples into GeoJSON Feature dicts with the docs/contracts.md, section 4 properties.
 
     Parameters
     ----------

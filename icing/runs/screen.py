@@ -1,6 +1,6 @@
 """The main job: screen a route against a forecast for an airframe.
 
-Order of work (DESIGN.md section 1): whole columns are brought to each sample
+Order of work: whole columns are brought to each sample
 (:meth:`Forecast.columns_at`), each column is diagnosed whole
 (:func:`icing.column.diagnose_columns`), and only then are the results read
 off at the flight altitude and on an altitude curtain for the cross-section and
