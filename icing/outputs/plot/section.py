@@ -172,7 +172,7 @@ def _candidate_runs(seg_props, join_km):
 
 
 def _draw_candidates(ax, seg_props, fr):
-    """Mark candidate ice-free altitudes; return True when any was drawn.
+    """Mark candidate altitudes with no icing diagnosed; return True when any was drawn.
 
     Every clear altitude of a stretch is a short tick at its middle; the nearest
     clear altitudes above and below are a dashed line across the stretch (one per
@@ -329,7 +329,7 @@ def plot_cross_section(
     dpi : float
         Resolution of PNG output. [1/in]
     candidates : bool
-        Draw the candidate ice-free altitudes from the segment properties.
+        Draw the candidate altitudes with no icing diagnosed from the segment properties.
     ylim_ft : (float, float), optional
         Altitude range shown. [ft] Default: the curtain's bottom to its top, or
         for low flights (drones) to three times the highest planned altitude,
@@ -708,7 +708,7 @@ def _candidate_handles():
             marker="_",
             markersize=9,
             markeredgewidth=1.6,
-            label="candidate ice-free altitude\n(check against official advisories)",
+            label="candidate altitude, no icing diagnosed\n(check against official advisories)",
         ),
         Line2D(
             [],

@@ -83,7 +83,7 @@ MAP_STYLE = {
 }
 #: Marker shape per severity on the flight path.
 MARKERS = {
-    codes.SEV_TRACE: "o",
+    codes.SEV_TRACE: "h",  # not a circle: an open circle marks a hold
     codes.SEV_LIGHT: "s",
     codes.SEV_MODERATE: "D",
     codes.SEV_SEVERE: "X",
