@@ -218,7 +218,8 @@ def _liquid_state(diag, tgt, ground):
     if ground is not None:
         g = np.asarray(ground, float)[:, None]
         with np.errstate(invalid="ignore"):
-            under = np.isfinite(g) & (s["height"] < g - 1.0)  # as a route's curtain
+            # the target itself: the read-off holds the lowest level's height below it
+            under = np.isfinite(g) & (tgt < g - 1.0)
         below, valid = below | under, valid & ~under
     with np.errstate(invalid="ignore"):
         liquid = valid & ((s["lwc"] >= IN_CLOUD_LWC) | (s["sld_lwc"] >= IN_CLOUD_LWC))

@@ -143,6 +143,8 @@ def _feature(result, t, b, c, geom):
         airframe=result.airframe,
         caution=CAUTION,
     )
+    if geom.geom_type == "Polygon":  # one geometry type per layer for GIS readers
+        geom = shapely.multipolygons([geom])
     return {"type": "Feature", "geometry": shapely.geometry.mapping(geom), "properties": props}
 
 

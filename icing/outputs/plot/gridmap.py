@@ -42,6 +42,8 @@ DISPLAY_CELLS = 400_000
 #: What each shade is, in drawing order (a larger rank wins when cells are merged).
 _RANKS = ("none", "below-ground", "gap", "trace", "light", "moderate", "severe")
 _COLOURS = ["#ffffff", GROUND, GAP_FILL] + [SEVERITY_COLOURS[k] for k in (1, 2, 3, 4)]
+#: Outside the forecast's grid (the axes' background).
+_OUTSIDE = "#dcdcdc"
 
 
 def _ranks(severity, coverage):
@@ -63,11 +65,11 @@ def _coarsen(a, f):
     return a.reshape(a.shape[0] // f, f, a.shape[1] // f, f).max(axis=(1, 3))
 
 
-def _corners(result, f):
+def _corners(result, x, f):
     """Cell-corner longitudes and latitudes (unwrapped), every ``f`` cells."""
     from icing.hazards.areas import cell_edges
 
-    xe, ye = cell_edges(result.x), cell_edges(result.y)
+    xe, ye = cell_edges(x), cell_edges(result.y)
     xe = np.r_[xe[::f], xe[-1]] if (xe.size - 1) % f else xe[::f]
     ye = np.r_[ye[::f], ye[-1]] if (ye.size - 1) % f else ye[::f]
     if result.crs is None:
@@ -80,7 +82,7 @@ def _corners(result, f):
     return np.unwrap(np.unwrap(np.asarray(lon), period=360.0, axis=1), period=360.0, axis=0), lat
 
 
-def plot_grid_map(result, t, b, path, *, figsize=(9.0, 6.5), dpi=110):
+def plot_grid_map(result, t, b, path, *, width_in=9.0, dpi=110):
     """Draw band ``b`` at valid time ``t`` of a grid run; write a PNG.
 
     Parameters
@@ -98,28 +100,40 @@ def plot_grid_map(result, t, b, path, *, figsize=(9.0, 6.5), dpi=110):
     """
     path, fmt = check_picture_path(path)
     sev, cov, sld = result.severity[t, b], result.coverage[t, b], result.sld[t, b]
+    x = np.asarray(result.x, float)
+    if result.periodic and result.crs is None:  # a global grid: drawn from -180 to 180
+        order = np.argsort(((x + 180.0) % 360.0) - 180.0, kind="stable")
+        x = ((x[order] + 180.0) % 360.0) - 180.0
+        sev, cov, sld = (np.asarray(a)[:, order] for a in (sev, cov, sld))
     f = max(1, int(np.ceil(np.sqrt(sev.size / DISPLAY_CELLS))))
     rank = _coarsen(_ranks(sev, cov), f)
-    lon, lat = _corners(result, f)
+    lon, lat = _corners(result, x, f)
     lon0 = float(np.median(lon))  # longitudes are continuous: coastlines go near them
-    fig = Figure(figsize=figsize)
+    coslat = max(np.cos(np.deg2rad(float(np.median(lat)))), 0.05)
+    extent = (float(lon.min()), float(lon.max()), float(lat.min()), float(lat.max()))
+    # the figure as tall as the map needs: 5.6 in wide, title above, caution below
+    map_h = float(
+        np.clip(5.6 * (extent[3] - extent[2]) / ((extent[1] - extent[0]) * coslat), 2.0, 7.0)
+    )
+    height = map_h + 1.9
+    fig = Figure(figsize=(width_in, height))
     FigureCanvasAgg(fig)
-    ax = fig.add_axes([0.08, 0.17, 0.62, 0.68])
+    ax = fig.add_axes([0.08, 1.0 / height, 5.6 / width_in, map_h / height])
+    ax.set_facecolor(_OUTSIDE)  # beyond the forecast's grid: no data, not "none"
     cmap = ListedColormap(_COLOURS)
     ax.pcolormesh(lon, lat, rank, cmap=cmap, vmin=-0.5, vmax=6.5, shading="flat", zorder=0.5)
     cx = 0.25 * (lon[:-1, :-1] + lon[1:, 1:] + lon[:-1, 1:] + lon[1:, :-1])
     cy = 0.25 * (lat[:-1, :-1] + lat[1:, 1:] + lat[:-1, 1:] + lat[1:, :-1])
     _hatch(ax, cx, cy, rank == 2, GAP_HATCH, GAP_HATCH_COLOUR)
     _hatch(ax, cx, cy, _coarsen(np.asarray(sld) > codes.SLD_NONE, f), "oo", SLD_COLOUR)
-    coslat = max(np.cos(np.deg2rad(float(np.median(lat)))), 0.05)
-    ax.set_xlim(float(lon.min()), float(lon.max()))
-    ax.set_ylim(float(lat.min()), float(lat.max()))
+    ax.set_xlim(*extent[:2])
+    ax.set_ylim(*extent[2:])
     ax.set_aspect(1.0 / coslat)
     _draw_coastlines(ax, lon0)
     _draw_graticule(ax)
-    _titles(fig, result, t, b, f)
+    _titles(fig, result, t, b, f, top=1.0 - 0.25 / height, step=0.3 / height)
     _legend(ax)
-    draw_caution(fig, figsize[0])
+    draw_caution(fig, width_in)
     return save(fig, path, fmt, dpi, tight=True)
 
 
@@ -134,12 +148,12 @@ def _hatch(ax, x, y, mask, hatch, colour):
         ax.contourf(x, y, m, levels=[0.5, 1.5], colors="none", hatches=[hatch], zorder=3)
 
 
-def _titles(fig, result, t, b, f):
+def _titles(fig, result, t, b, f, *, top, step):
     """Title (band, airframe) and subtitle (valid time, issue, what a shade means)."""
     issued = (result.provenance or {}).get("issue_time")
     fig.text(
         0.08,
-        0.965,
+        top,
         f"Icing for {result.airframe}, {result.bands.label(b)} MSL",
         fontsize=12,
         weight="bold",
@@ -149,7 +163,7 @@ def _titles(fig, result, t, b, f):
     note = "worst in the band" + (f", worst of each {f}x{f} cells" if f > 1 else "")
     fig.text(
         0.08,
-        0.925,
+        top - step,
         f"valid {result.time_text(t)}"
         + (f"; forecast issued {issued}" if issued else "")
         + f"; {note}",
@@ -167,6 +181,7 @@ def _legend(ax):
         Patch(facecolor="#ffffff", edgecolor="#555555", label="none diagnosed"),
         Patch(facecolor=GAP_FILL, edgecolor=GAP_HATCH_COLOUR, hatch=GAP_HATCH, label=GAP_LABEL),
         Patch(facecolor=GROUND, edgecolor="#555555", label="band below the ground"),
+        Patch(facecolor=_OUTSIDE, edgecolor="#555555", label="outside the forecast"),
         Patch(
             facecolor="none", edgecolor=SLD_COLOUR, hatch="oo", label="SLD (freezing drizzle/rain)"
         ),
