@@ -131,23 +131,22 @@ def parse_bands(text) -> Bands:
     where, fix = "--bands-ft", "write START:STOP:STEP, e.g. 0:20000:2000, or edges A,B,C"
     raw = str(text).strip()
     try:
-        if ":" in raw:
-            start, stop, step = (float(v) for v in raw.split(":"))
-            if not step > 0:
-                raise ValueError
-            n = int(np.floor((stop - start) / step + 1e-9))
-            if n > MAX_BANDS:
-                raise InputError(
-                    f"{raw!r} gives {n} bands, above the limit of {MAX_BANDS}",
-                    where=where,
-                    fix="use a larger step or a narrower range",
-                )
-            edges = [start + i * step for i in range(n + 1)]
-        else:
-            edges = [float(v) for v in raw.split(",")]
+        parts = [float(v) for v in raw.split(":" if ":" in raw else ",")]
     except ValueError:
         raise InputError(f"{raw!r} is not a set of band edges", where=where, fix=fix) from None
-    return _checked(edges, raw, where)
+    if ":" in raw:
+        if len(parts) != 3 or not parts[2] > 0:
+            raise InputError(f"{raw!r} is not START:STOP:STEP", where=where, fix=fix)
+        start, stop, step = parts
+        n = int(np.floor((stop - start) / step + 1e-9)) if np.isfinite(stop - start) else -1
+        if n > MAX_BANDS:
+            raise InputError(
+                f"{raw!r} gives {n} bands, above the limit of {MAX_BANDS}",
+                where=where,
+                fix="use a larger step or a narrower range",
+            )
+        parts = [start + i * step for i in range(n + 1)]
+    return _checked(parts, raw, where)
 
 
 def _checked(edges, raw, where):

@@ -35,11 +35,9 @@ def _client(address):
         ) from None
 
 
-def dask_results(job, blocks, address):
-    """Yield ``(block, products)`` as the cluster finishes them (any order)."""
+def dask_results(run_block, job, blocks, address):
+    """Yield ``run_block(job, block)`` for every block as the cluster finishes them (any order)."""
     from distributed import as_completed
-
-    from icing.runs.grid import run_block
 
     client = _client(address)
     try:
@@ -47,7 +45,9 @@ def dask_results(job, blocks, address):
         todo = iter(blocks)
         first = [b for _, b in zip(range(3 * threads), todo, strict=False)]
         remote_job = client.scatter(job, broadcast=True)
-        ac = as_completed([client.submit(run_block, remote_job, b, pure=False) for b in first])
+        ac = as_completed(
+            [client.submit(run_block, remote_job, b, pure=False) for b in first], loop=client.loop
+        )
         for fut in ac:
             block, prod = fut.result()
             fut.release()

@@ -316,7 +316,7 @@ def _results(forecast, job, blocks, options):
     if options.scheduler:
         from icing.runs._dask import dask_results
 
-        yield from dask_results(job, blocks, options.scheduler)
+        yield from dask_results(run_block, job, blocks, options.scheduler)
         return
     n = _workers(options.workers)
     if n == 1 or len(blocks) == 1:
