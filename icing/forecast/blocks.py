@@ -20,7 +20,14 @@ import numpy as np
 
 from icing.forecast.assemble import assemble_columns
 
-__all__ = ["Block", "BlockColumns", "plan_blocks", "read_block_columns", "cell_lonlat"]
+__all__ = [
+    "Block",
+    "BlockColumns",
+    "plan_blocks",
+    "read_block_columns",
+    "cell_lonlat",
+    "bound_file_caches",
+]
 
 
 @dataclass(frozen=True)
@@ -130,3 +137,44 @@ def cell_lonlat(source, ys=slice(None), xs=slice(None)):
     xx, yy = np.meshgrid(x, y)
     lon, lat = inv.transform(xx, yy)
     return np.asarray(lon, float), np.asarray(lat, float)
+
+
+def _raw_variables(field, seen):
+    """Yield the file variables behind a field (through regridded and derived fields)."""
+    if id(field) in seen:
+        return
+    seen.add(id(field))
+    raw = getattr(field, "raw", None)
+    if raw is not None:
+        yield raw
+    for inner in (getattr(field, "source", None), *getattr(field, "inputs", ())):
+        if inner is not None:
+            yield from _raw_variables(inner, seen)
+
+
+def bound_file_caches(forecast, *, chunks=1):
+    """Keep the HDF5 chunk cache of every NetCDF variable to ``chunks`` of its chunks.
+
+    The netCDF library gives each variable a cache of 64 MiB by default: reading a
+    continental file block by block fills every variable's cache in turn, so each
+    process grows by hundreds of MiB (measured: 300 MiB to 560 MiB over 60 blocks of a
+    0.5 M-column file). Blocks of rows are read in file order, so one chunk per
+    variable is all that is ever read again (the next block's rows in the same chunk).
+    GRIB files keep their own bounded cache (:mod:`icing.forecast.grib`).
+    """
+    from icing.forecast.netcdf import NETCDF_LOCK
+
+    seen, done = set(), set()
+    for src in forecast.sources:
+        for field in src.fields.values():
+            for raw in _raw_variables(field, seen):
+                var = getattr(raw, "nc_var", None)
+                if var is None or id(var) in done:
+                    continue
+                done.add(id(var))
+                with NETCDF_LOCK:
+                    shape = var.chunking()
+                    if shape == "contiguous" or not shape:
+                        continue
+                    size = int(np.prod(shape)) * var.dtype.itemsize * int(chunks)
+                    var.set_var_chunk_cache(size=max(size, 2**20))

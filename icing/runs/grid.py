@@ -119,7 +119,11 @@ def _forecast_of(job: GridJob):
         if key not in _OPEN:
             while len(_OPEN) >= 2:  # a long-lived dask worker may serve several runs
                 _OPEN.pop(next(iter(_OPEN)))
-            _OPEN[key] = load_forecast(list(job.paths), **dict(job.load))
+            from icing.forecast.blocks import bound_file_caches
+
+            forecast = load_forecast(list(job.paths), **dict(job.load))
+            bound_file_caches(forecast)
+            _OPEN[key] = forecast
         return _OPEN[key]
 
 
@@ -320,6 +324,9 @@ def _results(forecast, job, blocks, options):
         return
     n = _workers(options.workers)
     if n == 1 or len(blocks) == 1:
+        from icing.forecast.blocks import bound_file_caches
+
+        bound_file_caches(forecast)
         for block in blocks:
             yield block, block_products(forecast, block, job)
         return
