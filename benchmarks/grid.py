@@ -94,20 +94,35 @@ def _run(cmd, env=None):
 
 
 def _svp_baseline(path, repeats=3):
-    """Seconds of one saturation-vapour-pressure pass over every point of the file."""
+    """Seconds of one saturation-vapour-pressure pass over every point of the file.
+
+    Two ways, the faster one is the baseline (the stricter target): one call over the
+    whole (level, y, x) array (its 600 MB temporaries fault fresh pages in), and the
+    same pass in slices of about a million points (each in cache-friendly memory).
+    """
     import netCDF4
 
     from icing.calc.thermo import saturation_vapor_pressure
 
     with netCDF4.Dataset(path) as nc:
         t = np.asarray(nc["t"][0], dtype=float)  # (level, y, x), in memory for the pass
-    saturation_vapor_pressure(t[:, :2, :2])  # import and first-call costs out of the timing
-    times = []
-    for _ in range(repeats):
-        t0 = time.perf_counter()
-        saturation_vapor_pressure(t)
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times), t.size
+    saturation_vapor_pressure(t[:, :2, :2])  # first-call costs out of the timing
+    flat = t.reshape(-1)
+    step = 2**20
+
+    def sliced():
+        for i in range(0, flat.size, step):
+            saturation_vapor_pressure(flat[i : i + step])
+
+    out = {}
+    for name, fn in (("one call", lambda: saturation_vapor_pressure(t)), ("slices", sliced)):
+        times = []
+        for _ in range(repeats):
+            t0 = time.perf_counter()
+            fn()
+            times.append(time.perf_counter() - t0)
+        out[name] = statistics.median(times)
+    return out, t.size
 
 
 def _metpy_loop(path, n=100):
@@ -180,9 +195,11 @@ def main(argv=None):
     full_path, full_n = files["full"]
     for path, _ in files.values():  # the same file-cache state for every timed run
         subprocess.run(["cat", str(path)], stdout=subprocess.DEVNULL, check=True)
-    svp, points = _svp_baseline(full_path)
+    svp_ways, points = _svp_baseline(full_path)
+    svp = min(svp_ways.values())
     print(f"baseline: one saturation-vapour-pressure pass over {points / 1e6:.1f} M points "
-          f"{svp:.2f} s", flush=True)  # fmt: skip
+          f"{svp:.2f} s ({', '.join(f'{k} {v:.2f} s' for k, v in svp_ways.items())})",
+          flush=True)  # fmt: skip
     results = {}
     for name, (path, n) in files.items():
         out = work / f"out-{name}"
@@ -200,6 +217,7 @@ def main(argv=None):
         "columns": full_n,
         "levels": 40,
         "svp_pass_s": svp,
+        "svp_pass_ways_s": svp_ways,
         "grid_s": full["wall_s"],
         "ratio_to_svp": full["wall_s"] / svp,
         "peak_rss_gb": full["peak_rss_gb"],
