@@ -277,7 +277,7 @@ def band_products(diag, airframe, bands: Bands, *, ground=None) -> BandProducts:
 
 def _reduce(tgt, edges, known, above, sev, sld, rate, lwc, mvd):
     """Per band: worst severity and SLD, coverage, and the worst altitude's values."""
-    m = tgt.shape[0]
+    m, nt = tgt.shape
     nb = edges.size - 1
     out = {
         "severity": np.empty((nb, m), np.int8),
@@ -290,20 +290,32 @@ def _reduce(tgt, edges, known, above, sev, sld, rate, lwc, mvd):
     # rows are ascending: each band's targets are a short window of each row
     with np.errstate(invalid="ignore"):
         pos = np.stack([np.sum(tgt < e, axis=1) for e in edges], axis=1)  # (m, E)
-    rows = np.arange(m)[:, None]
+    flat = {
+        "known": known.reshape(-1),
+        "above": above.reshape(-1),
+        "sev": np.where(known, sev, -2).astype(np.int8).reshape(-1),
+        "sld": np.where(known, sld, codes.SLD_NONE).astype(np.int8).reshape(-1),
+        "rate": np.where(known, np.nan_to_num(rate, nan=-1.0), -1.0).reshape(-1),
+        "wet": np.where(known, np.nan_to_num(lwc, nan=-1.0), -1.0).reshape(-1),
+        "lwc": lwc.reshape(-1),
+        "mvd": mvd.reshape(-1),
+        "accretion_rate": (rate / 3.6e6).reshape(-1),
+    }
+    start = np.arange(m) * nt
     for b in range(nb):
-        width = int((pos[:, b + 1] - pos[:, b]).max()) + 1
-        j = np.minimum(pos[:, b : b + 1] + np.arange(width), tgt.shape[1] - 1)
-        inb = np.arange(width) <= (pos[:, b + 1] - pos[:, b])[:, None]
-        k = known[rows, j] & inb
-        a = above[rows, j] & inb
-        s_ = np.where(k, sev[rows, j], -2)
-        _band(out, b, k, a, s_, sld[rows, j], rate[rows, j], lwc[rows, j], mvd[rows, j])
+        n_in = pos[:, b + 1] - pos[:, b] + 1  # targets of the band in each row (both edges)
+        width = int(n_in.max())
+        idx = np.minimum(pos[:, b : b + 1] + np.arange(width), nt - 1) + start[:, None]
+        inb = np.arange(width) < n_in[:, None]
+        _band(out, b, idx, inb, flat)
     return BandProducts(**out)
 
 
-def _band(out, b, known, above, sev, sld, rate, lwc, mvd):
-    """Fill band ``b`` of ``out`` from its targets (m, K): ``sev`` is -2 where unknown."""
+def _band(out, b, idx, inb, flat):
+    """Fill band ``b`` of ``out`` from its targets ``idx`` (m, K) into the flat arrays."""
+    known = flat["known"].take(idx) & inb
+    above = flat["above"].take(idx) & inb
+    sev = np.where(inb, flat["sev"].take(idx), -2)
     worst = sev.max(axis=1)
     unknown = (above & ~known).any(axis=1)
     anything = above.any(axis=1)
@@ -314,11 +326,12 @@ def _band(out, b, known, above, sev, sld, rate, lwc, mvd):
         COVERAGE_BELOW_GROUND,
         np.where(gap, COVERAGE_GAP, np.where(unknown, COVERAGE_PARTIAL, COVERAGE_COMPLETE)),
     )
-    out["sld"][b] = np.where(gap, codes.GAP, np.where(known, sld, codes.SLD_NONE).max(axis=1))
-    # the worst altitude: severity, then accretion rate, then cloud liquid
-    r = np.where(known, np.nan_to_num(rate, nan=-1.0), -1.0)
-    w = np.where(known, np.nan_to_num(lwc, nan=-1.0), -1.0)
-    k = np.lexsort((w, r, sev), axis=-1)[:, -1][:, None]
-    for name, values in (("lwc", lwc), ("mvd", mvd), ("accretion_rate", rate / 3.6e6)):
-        v = np.take_along_axis(values, k, -1)[:, 0]
-        out[name][b] = np.where(gap, np.nan, v)
+    out["sld"][b] = np.where(gap, codes.GAP, np.where(inb, flat["sld"].take(idx), 0).max(axis=1))
+    # the worst altitude: severity, then accretion rate, then cloud liquid (the lowest of ties)
+    first = sev == worst[:, None]
+    rate = np.where(first, flat["rate"].take(idx), -2.0)
+    second = first & (rate == rate.max(axis=1)[:, None])
+    k = np.argmax(np.where(second, flat["wet"].take(idx), -2.0), axis=1)
+    pick = np.take_along_axis(idx, k[:, None], -1)[:, 0]
+    for name in ("lwc", "mvd", "accretion_rate"):
+        out[name][b] = np.where(gap, np.nan, flat[name].take(pick))
