@@ -58,17 +58,18 @@ def _bracket(zs, order, c, tz):
     neg_inf = (zs == -np.inf).sum(axis=-1)
     pos_inf = (zs == np.inf).sum(axis=-1)
     key = np.where(finite, zs, np.inf)
+    # the sorted finite levels, with +inf beyond each column's count: one gather a step
     flat = key.reshape(-1)
     base = c * nlev
+    n = n_fin[c]
     left = np.zeros(tz.shape, dtype=np.int64)
-    right = n_fin[c].astype(np.int64)
-    for _ in range(int(nlev).bit_length()):  # binary search, ceil(log2(L + 1)) steps
-        mid = (left + right) // 2
-        active = left < right
-        with np.errstate(invalid="ignore"):
-            at_or_below = flat[base + np.minimum(mid, nlev - 1)] <= tz
-        left = np.where(active & at_or_below, mid + 1, left)
-        right = np.where(active & ~at_or_below, mid, right)
+    step = 1 << max(int(nlev).bit_length() - 1, 0)
+    with np.errstate(invalid="ignore"):
+        while step:  # branchless binary search: the count of finite levels <= the target
+            cand = left + step
+            ok = (cand <= n) & (flat[base + np.minimum(cand, nlev) - 1] <= tz)
+            left = np.where(ok, cand, left)
+            step >>= 1
     with np.errstate(invalid="ignore"):
         above = left + np.where(np.isnan(tz), 0, neg_inf[c])
         above = above + np.where(tz == np.inf, pos_inf[c], 0)
