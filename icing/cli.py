@@ -105,6 +105,17 @@ _STEP = _bounded(0.01, 100.0, "km", "finer than 10 m resolves nothing; coarser s
 _RADIUS = _bounded(0.1, 500.0, "km", "a sounding represents tens of kilometres, not a continent")
 _TOLERANCE = _bounded(0.0, 72.0, "h", "a forecast older than three days is no forecast for now")
 _ALTITUDE_FT = _bounded(-1000.0, 65600.0, "ft", "from below the sea to 20 km")
+
+
+def _workers(text):
+    """Return ``--workers``: a whole number 1..256, else a one-line error."""
+    value = _bounded(1, 256, "processes", "one per core is enough; more only wait")(text)
+    if value != int(value):
+        raise argparse.ArgumentTypeError(f"{text} is not a whole number of processes")
+    return int(value)
+
+
+_WORKERS = _workers
 _FLIGHT_LEVEL = _bounded(-20.0, 656.0, "", "FL656 is 20 km; a flight level is hundreds of feet")
 
 
@@ -150,6 +161,11 @@ def _var_map(items):
 def _forecast(args):
     from icing.forecast import load_forecast
 
+    return load_forecast(_forecast_paths(args), **_forecast_kwargs(args))
+
+
+def _forecast_kwargs(args):
+    """``load_forecast`` keyword arguments from the forecast options."""
     kwargs = {}
     if getattr(args, "radius_km", None) is not None:
         kwargs["radius_km"] = args.radius_km
@@ -164,8 +180,7 @@ def _forecast(args):
     for option in ("member", "rh_convention"):  # gridded files: ensemble member, RH convention
         if getattr(args, option, None) is not None:
             kwargs[option] = getattr(args, option)
-    paths = _forecast_paths(args)
-    return load_forecast(paths, **kwargs)
+    return kwargs
 
 
 def _forecast_paths(args):
@@ -540,6 +555,102 @@ def cmd_profile(args) -> int:
     return EXIT_OK
 
 
+def cmd_grid(args) -> int:
+    from icing.airframes import load_airframe
+    from icing.hazards.bands import parse_bands
+    from icing.hazards.gridded import grid_features
+    from icing.outputs.write import grid_output_targets, write_grid_outputs
+    from icing.runs.grid import GridOptions, grid_forecast
+
+    _check_suffix(args.output, {".geojson", ".json"}, "-o/--output")
+    _check_suffix(args.netcdf, {".nc"}, "--netcdf")
+    bands = parse_bands(args.bands_ft)
+    inputs = [(p, "forecast file") for p in _forecast_paths(args)]
+    if Path(args.airframe).is_file():
+        inputs.append((args.airframe, "airframe file"))
+    targets = grid_output_targets(out_geojson=args.output, netcdf=args.netcdf, maps=args.maps)
+    check_targets(targets, inputs)
+    airframe = load_airframe(args.airframe)
+    times = None
+    if args.time:
+        import numpy as np
+
+        from icing.route import parse_time
+
+        t = parse_time(args.time, where="--time")
+        times = [np.datetime64(t.replace(tzinfo=None), "ms")]  # UTC
+    elif args.all_times:
+        times = "all"
+    forecast = _forecast(args)
+    bar = sys.stderr.isatty()
+    result = grid_forecast(
+        forecast,
+        airframe=airframe,
+        options=GridOptions(
+            bands=bands, times=times, workers=args.workers, scheduler=args.scheduler
+        ),
+        column_options=_column_options(args),
+        load_options=_forecast_kwargs(args),
+        progress=_counter("gridding", "blocks") if bar else None,
+    )
+    features = grid_features(result, progress=_counter("outlining", "maps") if bar else None)
+    fc, written = write_grid_outputs(
+        result,
+        out_geojson=args.output,
+        netcdf=args.netcdf,
+        maps=args.maps,
+        inputs=inputs,
+        features=features,
+    )
+    print(grid_table(result))
+    print(CAUTION)
+    for p in written if len(written) <= 12 else written[:2]:
+        print(f"wrote {p}", file=sys.stderr)
+    if len(written) > 12:
+        print(f"wrote {len(written) - 2} maps in {args.maps}", file=sys.stderr)
+    return EXIT_OK
+
+
+def _counter(what, unit):
+    """Return a progress callback drawing ``what [####....] done/total unit`` on stderr."""
+
+    def draw(done, total):
+        width = 30
+        fill = int(width * done / max(total, 1))
+        end = "\n" if done == total else ""
+        bar = "#" * fill + "." * (width - fill)
+        print(f"\r{what} [{bar}] {done}/{total} {unit}", end=end, file=sys.stderr, flush=True)
+
+    return draw
+
+
+def grid_table(result) -> str:
+    """One line per valid time and band: the worst severity and the share of cells by kind."""
+    import numpy as np
+
+    head = f"{'valid time':<21} {'band [ft MSL]':<16} {'worst':<9} {'icing':>7} "
+    head += f"{'severe':>7} {'SLD':>7} {'gap':>7} {'below ground':>13}"
+    rows = [head]
+    nt, nb = result.severity.shape[:2]
+    for t in range(nt):
+        for b in range(nb):
+            sev = np.asarray(result.severity[t, b])
+            cov = np.asarray(result.coverage[t, b])
+            n = max(sev.size, 1)
+            worst = int(sev.max()) if (sev >= 0).any() else codes.GAP
+            word = codes.SEVERITY[worst] if worst >= 0 else "unknown"
+
+            def pct(mask, n=n):
+                return f"{100.0 * np.count_nonzero(mask) / n:6.1f}%"
+
+            rows.append(
+                f"{result.time_text(t):<21} {result.bands.label(b):<16} {word:<9} "
+                f"{pct(sev >= 1)} {pct(sev == 4)} {pct(np.asarray(result.sld[t, b]) > 0)} "
+                f"{pct((sev == codes.GAP) & (cov != 3))} {pct(cov == 3):>13}"
+            )
+    return "\n".join(rows)
+
+
 def cmd_airframes(args) -> int:
     from icing.airframes import airframes_to_json, format_airframes, list_airframes
 
@@ -611,6 +722,54 @@ def _screen_parser(sub, forecast_args):
     _output_args(s)
     _condition_args(s)
     s.set_defaults(func=cmd_screen)
+
+
+def _grid_parser(sub, forecast_args):
+    """Add the ``grid`` subcommand and its options."""
+    g = sub.add_parser(
+        "grid",
+        help="the icing hazard over the whole forecast, by altitude band (GIS overlays)",
+        description="Grid the icing hazard over a whole gridded forecast for a named airframe, "
+        "by altitude band: GeoJSON polygons (-o), CF NetCDF (--netcdf), PNG maps (--maps). Exit "
+        "codes: 0 done, 2 bad input, 1 internal error.",
+    )
+    forecast_args(g)
+    g.add_argument(
+        "--airframe", "-a", required=True, help="airframe preset name or TOML file (required)"
+    )
+    g.add_argument(
+        "--bands-ft",
+        default="0:20000:2000",
+        metavar="START:STOP:STEP|A,B,...",
+        help="altitude bands [ft MSL] (default 0:20000:2000; at most 100 bands)",
+    )
+    when = g.add_mutually_exclusive_group()
+    when.add_argument(
+        "--time", default=None, metavar="ISO8601", help="the valid time (default: the first)"
+    )
+    when.add_argument("--all-times", action="store_true", help="every valid time of the forecast")
+    g.add_argument(
+        "-o", "--output", required=True, metavar="OUT.geojson", help="icing and gap polygons"
+    )
+    g.add_argument(
+        "--netcdf", default=None, metavar="OUT.nc", help="CF-1.8 NetCDF of the products"
+    )
+    g.add_argument("--maps", default=None, metavar="DIR", help="one PNG map per band and time")
+    g.add_argument(
+        "--scheduler",
+        default=None,
+        metavar="ADDRESS",
+        help="run the blocks on this dask.distributed scheduler (tcp://HOST:PORT; needs the "
+        "grid extra; its workers must see the forecast files at the same paths)",
+    )
+    g.add_argument(
+        "--workers",
+        type=_WORKERS,
+        default=None,
+        metavar="N",
+        help="worker processes (default: one per core; 1 runs in this process)",
+    )
+    g.set_defaults(func=cmd_grid)
 
 
 def _output_args(s):
@@ -763,6 +922,8 @@ def build_parser() -> argparse.ArgumentParser:
     )
     pr.add_argument("--json", action="store_true", help="print one JSON object")
     pr.set_defaults(func=cmd_profile)
+
+    _grid_parser(sub, forecast_args)
 
     a = sub.add_parser("airframes", help="list the airframe presets and their collectors")
     a.add_argument("--json", action="store_true")

@@ -430,15 +430,14 @@ def adiabatic_lwc_gradient(pressure, temperature):
     >>> round(float(adiabatic_lwc_gradient(90000.0, 273.15)) * 1e6, 2)
     1.61
     """
-    from metpy.constants import nounit as mc
-
+    lv = thermo.METPY_CONSTANTS["Lv"]  # MetPy's, as in its moist lapse rate
     p = np.asarray(pressure, dtype=float)
     t = np.asarray(temperature, dtype=float)
     with np.errstate(invalid="ignore", divide="ignore"):
         dt_dlnp = thermo._moist_lapse_rate_lnp(np.log(p), t)
         dt_dz = -dt_dlnp * G / (RD * t)  # hydrostatic: d ln p / dz = -g / (Rd T)
         rs = thermo.saturation_mixing_ratio(p, t)
-        drs_dz = rs * (mc.Lv / (RV * t**2) * dt_dz + G / (RD * t))
+        drs_dz = rs * (lv / (RV * t**2) * dt_dz + G / (RD * t))
         return -thermo.air_density(p, t) * drs_dz
 
 

@@ -556,6 +556,9 @@ def collection_table(model="finstad88", shape=2.0, n_bins=7):
     (901, 185, 2)
     """
     fn = _model(model)
+    cached = _cached_table(model, shape, n_bins)
+    if cached is not None:
+        return cached
     lk = _grid(TABLE_LOG_K)
     lp = TABLE_LOG_PHI
     k = np.repeat(10.0**lk, lp.size)
@@ -564,8 +567,74 @@ def collection_table(model="finstad88", shape=2.0, n_bins=7):
     with np.errstate(invalid="ignore", divide="ignore"):
         e, b = _spectrum_kernel(k, phi, ratios, fractions, fn)
     table = np.stack([e, b], axis=-1).reshape(lk.size, lp.size, 2)
+    _store_table(table, model, shape, n_bins)
     table.setflags(write=False)
     return table
+
+
+def _table_path(model, shape, n_bins):
+    """Return where a built table is kept between runs (None: no cache folder).
+
+    The name carries a digest of the code that builds the table (this module and the
+    droplet spectra) and of its grid, so a change of either builds it afresh.
+    ``ICING_CACHE_DIR`` names the folder (empty: no cache); default the user's cache
+    folder (``XDG_CACHE_HOME`` or ``~/.cache``), ``icing`` in it.
+    """
+    import hashlib
+    import os
+    from pathlib import Path
+
+    folder = os.environ.get("ICING_CACHE_DIR")
+    if folder is None:
+        base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+        folder = os.path.join(base, "icing")
+    if not folder:
+        return None
+    here = Path(__file__).resolve().parent
+    h = hashlib.sha256()
+    for name in ("collection.py", "droplets.py"):
+        h.update((here / name).read_bytes())
+    h.update(repr((TABLE_LOG_K, TABLE_LOG_PHI.tolist(), model, float(shape), n_bins)).encode())
+    return Path(folder) / f"collection-table-{h.hexdigest()[:24]}.npy"
+
+
+def _cached_table(model, shape, n_bins):
+    """Return the table built by an earlier run (read-only), or None."""
+    try:
+        path = _table_path(model, shape, n_bins)
+        if path is None or not path.is_file():
+            return None
+        table = np.load(path, allow_pickle=False)
+    except (OSError, ValueError):
+        return None
+    if table.shape != (_grid(TABLE_LOG_K).size, TABLE_LOG_PHI.size, 2):
+        return None
+    table.setflags(write=False)
+    return table
+
+
+def _store_table(table, model, shape, n_bins):
+    """Keep a built table for later runs (written whole, then renamed; errors ignored).
+
+    Building it takes about a quarter of a second, several times a route's
+    screening; reading it back a few milliseconds.
+    """
+    import os
+    import uuid
+
+    try:
+        path = _table_path(model, shape, n_bins)
+        if path is None:
+            return
+        path.parent.mkdir(parents=True, exist_ok=True)
+        tmp = path.with_name(f".{path.name}.{os.getpid()}.{uuid.uuid4().hex[:8]}.npy")
+        try:
+            np.save(tmp, table, allow_pickle=False)
+            os.replace(tmp, path)
+        finally:
+            tmp.unlink(missing_ok=True)
+    except OSError:
+        pass  # a read-only home: build the table again next time
 
 
 def _grid(spec):

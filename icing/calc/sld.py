@@ -434,11 +434,9 @@ def diagnose_sld(
     # blocks of columns along the first axis bound the memory of the temporaries
     rows = max(1, _BLOCK_LEVELS // max(1, int(np.prod(shape[1:]))))
     if len(shape) == 1 or shape[0] <= rows:
-        return _diagnose_block(args, tau)
+        return _diagnose_rows(args, tau)
     parts = [
-        _diagnose_block(
-            {k: (None if v is None else v[i : i + rows]) for k, v in args.items()}, tau
-        )
+        _diagnose_rows({k: (None if v is None else v[i : i + rows]) for k, v in args.items()}, tau)
         for i in range(0, shape[0], rows)
     ]
     return SLDDiagnosis(
@@ -447,6 +445,54 @@ def diagnose_sld(
             for f in dataclasses.fields(SLDDiagnosis)
         }
     )
+
+
+def _diagnose_rows(a, drizzle_time_scale_s):
+    """Diagnose a block, sorting the levels only of the columns that need it.
+
+    A column needs its levels reordered when an unusable level (below the ground, or
+    missing) lies under a usable one; a block of a mountainous grid has a few such
+    columns among many that do not. Those are diagnosed apart, so the others keep
+    their levels in place (no sort, no gathers); columns are independent, so the
+    result is the same as one diagnosis of the whole block.
+    """
+    shape = np.broadcast_shapes(*(np.shape(v) for v in (a["pressure"], a["temperature"])))
+    if len(shape) != 2:
+        return _diagnose_block(a, drizzle_time_scale_s)
+    key = np.where(_usable_levels(a, shape), a["height"], np.inf)
+    need = ~np.all(key[:, 1:] >= key[:, :-1], axis=1)
+    n_need = int(np.count_nonzero(need))
+    if n_need in (0, shape[0]):
+        return _diagnose_block(a, drizzle_time_scale_s)
+    parts = []
+    for rows in (np.flatnonzero(~need), np.flatnonzero(need)):
+        sub = {
+            k: (None if v is None else np.broadcast_to(v, _full(k, shape))[rows])
+            for k, v in a.items()
+        }
+        parts.append((rows, _diagnose_block(sub, drizzle_time_scale_s)))
+    out = {}
+    for f in dataclasses.fields(SLDDiagnosis):
+        first = getattr(parts[0][1], f.name)
+        arr = np.empty((shape[0],) + first.shape[1:], dtype=first.dtype)
+        for rows, d in parts:
+            arr[rows] = getattr(d, f.name)
+        out[f.name] = arr
+    return SLDDiagnosis(**out)
+
+
+def _full(name, shape):
+    """Return the shape of argument ``name`` in a block shaped ``shape`` (no levels: columns)."""
+    return shape[:-1] if name in ("precipitation_rate_mm_h", "hydrometeors_given") else shape
+
+
+def _usable_levels(a, shape):
+    """Levels with valid, finite pressure, temperature and height, above the ground."""
+    p_in, t_in, z_in = a["pressure"], a["temperature"], a["height"]
+    valid_in = _level_array(a["valid"], shape, True, bool)
+    below_in = _level_array(a["below_ground"], shape, False, bool)
+    finite = np.isfinite(p_in) & np.isfinite(t_in) & np.isfinite(z_in) & (p_in > 0)
+    return valid_in & finite & ~below_in
 
 
 def _diagnose_block(a, drizzle_time_scale_s):
@@ -487,10 +533,8 @@ def _sorted_block(a):
     """
     p_in, t_in, z_in = a["pressure"], a["temperature"], a["height"]
     shape = p_in.shape
-    valid_in = _level_array(a["valid"], shape, True, bool)
     below_in = _level_array(a["below_ground"], shape, False, bool)
-    finite = np.isfinite(p_in) & np.isfinite(t_in) & np.isfinite(z_in) & (p_in > 0)
-    usable_in = valid_in & finite & ~below_in
+    usable_in = _usable_levels(a, shape)
     key = np.where(usable_in, z_in, np.inf)
     if np.all(key[..., 1:] >= key[..., :-1]):
         order = inverse = None
@@ -589,7 +633,9 @@ def _rain_sizes(a, b, model_rain, q_rain):
     if a["rain"] is None:  # no model rain anywhere: the rate's spectrum everywhere
         ra_lwc, ra_mvd = lwc_mp, d0_mp
     else:
-        d0_model = marshall_palmer_from_lwc(np.where(model_rain, q_rain, np.nan))[0]
+        d0_model = np.full(shape, np.nan)
+        at = np.nonzero(model_rain)  # sized only where there is rain
+        d0_model[at] = marshall_palmer_from_lwc(q_rain[at])[0]
         ra_lwc = np.where(model_rain, q_rain, lwc_mp)
         ra_mvd = np.where(model_rain, d0_model, d0_mp)
     ra_dmax = np.maximum(np.minimum(_DMAX_OVER_D0 * ra_mvd, FZRA_DMAX), ra_mvd)

@@ -1,8 +1,11 @@
-"""Thermodynamics: a thin, unit-free layer over :mod:`metpy.calc`.
+"""Thermodynamics: a thin, unit-free layer agreeing with :mod:`metpy.calc`.
 
 Plain numpy arrays in, plain numpy arrays out, SI units (K, Pa, kg/kg, m).
-Saturation vapour pressures come from MetPy (Ambaum 2020 formulation), so the
-package shares one saturation law; the rest are closed forms cited below.
+Saturation vapour pressures follow MetPy's formulation (Ambaum 2020) with MetPy's
+constants (:data:`METPY_CONSTANTS`), transcribed line for line so that the package
+shares one saturation law with MetPy without loading MetPy's calc module and pint
+(about a second of start-up); the tests check the two agree. The rest are closed
+forms cited below.
 """
 
 from __future__ import annotations
@@ -12,6 +15,7 @@ import numpy as np
 from icing.constants import CP_AIR, EPSILON, LAPSE_STD, LV0, P0_STD, RD, RV, T0_STD, G
 
 __all__ = [
+    "METPY_CONSTANTS",
     "saturation_vapor_pressure",
     "saturation_mixing_ratio",
     "vapor_pressure_from_specific_humidity",
@@ -36,8 +40,40 @@ __all__ = [
 ]
 
 
+#: MetPy's constants (``metpy.constants.nounit``, MetPy 1.7) used by the transcriptions
+#: below, to the last bit so that they agree with MetPy (checked in the tests):
+#: gas constants [J kg-1 K-1], latent heats at ``T0`` [J kg-1], heat capacities
+#: [J kg-1 K-1], ``T0`` [K] the triple point, ``sat_pressure_0c`` [Pa].
+METPY_CONSTANTS = {
+    "Rd": 287.04749097718457,
+    "Rv": 461.52311572606084,
+    "Lv": 2500840.0,
+    "Ls": 2834540.0,
+    "Cp_d": 1004.6662184201462,
+    "Cp_l": 4219.400000000001,
+    "Cp_v": 1860.078011865639,
+    "Cp_i": 2090.0,
+    "epsilon": 0.6219569100577033,
+    "T0": 273.16,
+    "sat_pressure_0c": 611.2,
+}
+
+
+def _ambaum(t, latent_0, cp_condensed):
+    """Ambaum (2020) saturation over water (eq. 13) or ice (eq. 17), as MetPy writes it."""
+    c = METPY_CONSTANTS
+    latent_heat = latent_0 - (cp_condensed - c["Cp_v"]) * (t - c["T0"])  # eq. 15 / 18
+    heat_power = (cp_condensed - c["Cp_v"]) / c["Rv"]
+    exp_term = (latent_0 / c["T0"] - latent_heat / t) / c["Rv"]
+    return c["sat_pressure_0c"] * (c["T0"] / t) ** heat_power * np.exp(exp_term)
+
+
 def saturation_vapor_pressure(temperature, *, phase="liquid"):
-    """Saturation vapour pressure over plane water or ice, MetPy (Ambaum 2020).
+    """Saturation vapour pressure over plane water or ice (Ambaum 2020, as MetPy).
+
+    ``e_s = e_s0 (T0 / T)^((c_pl - c_pv) / R_v) exp((L_0 / T0 - L(T) / T) / R_v)``
+    with ``L(T) = L_0 - (c_pl - c_pv)(T - T0)`` (eqs. 13 and 15; over ice eqs. 17
+    and 18 with ``L_s`` and ``c_pi``), MetPy's constants (:data:`METPY_CONSTANTS`).
 
     Parameters
     ----------
@@ -53,28 +89,22 @@ def saturation_vapor_pressure(temperature, *, phase="liquid"):
 
     References
     ----------
-    Ambaum, M. H. P. (2020), QJRMS 146, 4252-4258, via ``metpy.calc``.
+    Ambaum, M. H. P. (2020), QJRMS 146, 4252-4258; MetPy's
+    ``metpy.calc.saturation_vapor_pressure``, transcribed.
 
     Examples
     --------
     >>> round(float(saturation_vapor_pressure(273.16)), 1)
     611.2
     """
-    import metpy.calc as mpcalc
-
     t = np.asarray(temperature, dtype=float)
     if phase not in ("liquid", "solid"):
         raise ValueError(f"unknown phase {phase!r}; expected 'liquid' or 'solid'")
-    kernel = getattr(mpcalc.saturation_vapor_pressure, "_nounit", None)
+    c = METPY_CONSTANTS
     with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
-        if kernel is not None:
-            # MetPy's unit-free kernel: the same law without pint's per-call cost,
-            # which dominates on large grids (x20 on 4e6 values).
-            return np.asarray(kernel(t, phase=phase), dtype=float)
-        from metpy.units import units
-
-        es = mpcalc.saturation_vapor_pressure(units.Quantity(t, "K"), phase=phase)
-        return np.asarray(es.m_as("Pa"))
+        if phase == "liquid":
+            return np.asarray(_ambaum(t, c["Lv"], c["Cp_l"]), dtype=float)
+        return np.asarray(_ambaum(t, c["Ls"], c["Cp_i"]), dtype=float)
 
 
 def saturation_mixing_ratio(pressure, temperature, *, phase="liquid"):
@@ -138,13 +168,11 @@ def dewpoint_from_vapor_pressure(vapor_pressure):
     >>> round(float(dewpoint_from_vapor_pressure(611.2)), 3)
     273.16
     """
-    import metpy.calc as mpcalc
-    from metpy.units import units
-
     e = np.asarray(vapor_pressure, dtype=float)
     with np.errstate(invalid="ignore", divide="ignore"):
         e_ok = np.where(e > 0, e, np.nan)
-        td = np.asarray(mpcalc.dewpoint(units.Quantity(e_ok, "Pa")).m_as("K"))
+        val = np.log(e_ok / METPY_CONSTANTS["sat_pressure_0c"])  # MetPy's dewpoint, as written
+        td = 273.15 + 243.5 * val / (17.67 - val)
         for _ in range(3):  # Newton steps on the saturation law (not a level loop)
             es = saturation_vapor_pressure(td)
             lv = LV0 - 2370.0 * (td - 273.15)
@@ -334,11 +362,10 @@ def _moist_lapse_rate_lnp(lnp, temperature):
 
     The formula of MetPy's ``moist_lapse`` with MetPy's constants, so the two agree.
     """
-    from metpy.constants import nounit as mc
-
+    c = METPY_CONSTANTS
     rs = saturation_mixing_ratio(np.exp(lnp), temperature)
-    return (mc.Rd * temperature + mc.Lv * rs) / (  # Bakhshaii & Stull (2013) via MetPy
-        mc.Cp_d + mc.Lv * mc.Lv * rs * mc.epsilon / (mc.Rd * temperature**2)
+    return (c["Rd"] * temperature + c["Lv"] * rs) / (  # Bakhshaii & Stull (2013) via MetPy
+        c["Cp_d"] + c["Lv"] * c["Lv"] * rs * c["epsilon"] / (c["Rd"] * temperature**2)
     )
 
 

@@ -237,6 +237,26 @@ class GridForecast(Forecast):
             vals = np.take(vals, self._order, axis=1 if fld.timed else 0)
         return vals
 
+    def read_block(self, key, time_index, ys, xs):
+        """Read one field on a window of the grid at one valid time, straight from the file.
+
+        Returns the block ``(level, y, x)`` (levelled fields, levels surface first) or
+        ``(y, x)``, in SI, float64. Not cached: a grid run reads each block once.
+        """
+        fi, lt = self._time_map[int(time_index)]
+        fld = self.sources[fi].fields[key]
+        vals = self._read_field(fld, slice(lt, lt + 1) if fld.timed else None, ys, xs)
+        return vals[0] if fld.timed else vals
+
+    def column_keys(self, *, wind=False):
+        """Return the variables a column is assembled from (the winds only when asked for)."""
+        return [k for k in self._keys(None) if wind or k not in ("wind_u", "wind_v")]
+
+    @property
+    def column_spec(self):
+        """What the columns' values are, for :func:`icing.forecast.assemble.assemble_columns`."""
+        return self._spec
+
     def _corner_values(self, keys, iy, ix, it0, it1):
         """Corner columns (n, 2 times, 2 y, 2 x[, level]) of each key, read by tiles."""
         n = iy[0].size

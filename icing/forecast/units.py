@@ -25,6 +25,7 @@ __all__ = [
     "linear",
     "conversion_of",
     "is_dimension",
+    "KNOWN_UNITS",
 ]
 
 #: the SI (or unit-named) target of each variable key; "height"-like keys also
@@ -106,9 +107,51 @@ def units_of(var):
 
 
 def _ureg():
-    from metpy.units import units
+    from metpy.units import units  # pint: only for spellings not in KNOWN_UNITS
 
     return units
+
+
+#: The dimension of each target unit of :func:`linear` and :func:`is_dimension`.
+_TARGET_DIMENSION = {
+    "K": "temperature",
+    "1": "1",
+    "m": "length",
+    "Pa": "pressure",
+    "m/s": "speed",
+    "mm/h": "speed",
+    "m2 s-2": "specific energy",
+    "Pa/s": "pressure tendency",
+    "kg m-2 s-1": "mass flux",
+}
+
+#: Spellings (after :data:`UNIT_ALIASES`) -> (dimension, {target: (scale, offset)}):
+#: pint's results for them, so that most files never load pint (tests compare).
+KNOWN_UNITS = {
+    "K": ("temperature", {"K": (1.0, 0.0)}),
+    "degC": ("temperature", {"K": (1.0, 273.15)}),
+    "%": ("1", {"1": (0.01, 0.0)}),
+    "1": ("1", {"1": (1.0, 0.0)}),
+    "kg kg-1": ("1", {"1": (1.0, 0.0)}),
+    "g kg-1": ("1", {"1": (0.001, 0.0)}),
+    "m": ("length", {"m": (1.0, 0.0)}),
+    "km": ("length", {"m": (1000.0, 0.0)}),
+    "m2 s-2": ("specific energy", {"m2 s-2": (1.0, 0.0)}),
+    "Pa": ("pressure", {"Pa": (1.0, 0.0)}),
+    "hPa": ("pressure", {"Pa": (100.0, 0.0)}),
+    "mbar": ("pressure", {"Pa": (100.0, 0.0)}),
+    "Pa s-1": ("pressure tendency", {"Pa/s": (1.0, 0.0)}),
+    "hPa s-1": ("pressure tendency", {"Pa/s": (100.0, 0.0)}),
+    "m s-1": ("speed", {"m/s": (1.0, 0.0), "mm/h": (3600000.0, 0.0)}),
+    "cm s-1": ("speed", {"m/s": (0.01, 0.0), "mm/h": (36000.0, 0.0)}),
+    "mm h-1": ("speed", {"m/s": (2.7777777777777776e-07, 0.0), "mm/h": (1.0, 0.0)}),
+    "kg m-2 s-1": ("mass flux", {"kg m-2 s-1": (1.0, 0.0)}),
+}
+
+
+def _known(units_str):
+    """Return the :data:`KNOWN_UNITS` entry of a spelling (after the aliases), or None."""
+    return KNOWN_UNITS.get(UNIT_ALIASES.get(units_str, units_str))
 
 
 def quantity(units_str, *, path, name):
@@ -128,6 +171,9 @@ def quantity(units_str, *, path, name):
 
 def is_dimension(units_str, reference) -> bool:
     """Tell whether ``units_str`` parses to the dimensionality of ``reference`` (e.g. "Pa")."""
+    known = _known(units_str)
+    if known is not None and reference in _TARGET_DIMENSION:
+        return known[0] == _TARGET_DIMENSION[reference]
     try:
         q = quantity(units_str, path=None, name="")
     except ForecastError:
@@ -138,6 +184,12 @@ def is_dimension(units_str, reference) -> bool:
 
 def linear(units_str, target, *, path, name):
     """Return (scale, offset) with si = raw * scale + offset, or None if not convertible."""
+    known = _known(units_str)
+    if known is not None and target in _TARGET_DIMENSION:
+        if target in known[1]:
+            return known[1][target]
+        if known[0] != _TARGET_DIMENSION[target]:
+            return None
     ureg = _ureg()
     q0 = quantity(units_str, path=path, name=name)
     try:

@@ -42,7 +42,44 @@ def _vertical_coordinate(diag, reference):
     return np.asarray(diag.height, float)
 
 
-def read_off(diag, column_index, target, *, reference="msl"):
+def _bracket(zs, order, c, tz):
+    """Levels around each target on the sorted coordinate ``zs`` (m, L), without (S, L) copies.
+
+    Returns ``(lo, hi, z_lo, z_hi, z_min, i_lo, i_hi)``: positions in the sorted
+    levels, their coordinates, the lowest level's coordinate and the levels'
+    indices in the diagnosis. ``lo`` counts the levels at or below the target
+    (less one, clipped), exactly as a comparison with every level would: a
+    binary search over each column's finite levels (sorted first), plus the
+    infinite ones that compare as at or below it.
+    """
+    m, nlev = zs.shape
+    finite = np.isfinite(zs)
+    n_fin = finite.sum(axis=-1)
+    neg_inf = (zs == -np.inf).sum(axis=-1)
+    pos_inf = (zs == np.inf).sum(axis=-1)
+    key = np.where(finite, zs, np.inf)
+    # the sorted finite levels, with +inf beyond each column's count: one gather a step
+    flat = key.reshape(-1)
+    base = c * nlev
+    n = n_fin[c]
+    left = np.zeros(tz.shape, dtype=np.int64)
+    step = 1 << max(int(nlev).bit_length() - 1, 0)
+    with np.errstate(invalid="ignore"):
+        while step:  # branchless binary search: the count of finite levels <= the target
+            cand = left + step
+            ok = (cand <= n) & (flat[base + np.minimum(cand, nlev) - 1] <= tz)
+            left = np.where(ok, cand, left)
+            step >>= 1
+    with np.errstate(invalid="ignore"):
+        above = left + np.where(np.isnan(tz), 0, neg_inf[c])
+        above = above + np.where(tz == np.inf, pos_inf[c], 0)
+    lo = np.clip(above - 1, 0, nlev - 2) % nlev
+    hi = (lo + 1) % nlev
+    zf, of = zs.reshape(-1), order.reshape(-1)
+    return lo, hi, zf[base + lo], zf[base + hi], zf[base], of[base + lo], of[base + hi]
+
+
+def read_off(diag, column_index, target, *, reference="msl", fields=None):
     """Read diagnosed column fields off at target altitudes.
 
     Parameters
@@ -55,6 +92,10 @@ def read_off(diag, column_index, target, *, reference="msl"):
         Target height MSL [m] (``reference="msl"``) or pressure [Pa]
         (``reference="pressure"``).
     reference : {"msl", "pressure"}
+    fields : collection of str, optional
+        Only these outputs (``valid``, ``below_ground`` and ``height`` always come);
+        default all. A grid run reads a few fields at every altitude first and the
+        rest only where there is liquid.
 
     Returns
     -------
@@ -73,31 +114,31 @@ def read_off(diag, column_index, target, *, reference="msl"):
     c = np.where(present, ci, 0)
     tgt = np.asarray(target, float)
     tz = -np.log(tgt) if reference == "pressure" else tgt
-    col_z = zs[c]  # S + (L,)
-    with np.errstate(invalid="ignore"):
-        above = np.sum(col_z <= tz[..., None], axis=-1)  # number of levels at or below
-    lo = np.clip(above - 1, 0, nlev - 2)
-    hi = lo + 1
-    z_lo = np.take_along_axis(col_z, lo[..., None], -1)[..., 0]
-    z_hi = np.take_along_axis(col_z, hi[..., None], -1)[..., 0]
+    lo, hi, z_lo, z_hi, z_min, i_lo, i_hi = _bracket(zs, order, c, tz)
     with np.errstate(invalid="ignore", divide="ignore"):
         w = np.clip((tz - z_lo) / (z_hi - z_lo), 0.0, 1.0)
-    inside = present & np.isfinite(tz) & (tz >= z_lo) & (tz <= z_hi)
-    # Between the ground and the lowest forecast level the lowest level's values hold,
-    # over a limited depth only (a model's lowest level is its near-surface air).
-    z_min = col_z[..., 0]
-    depth = np.log(1.0 + _EXTRAPOLATE_M / 8000.0) if reference == "pressure" else _EXTRAPOLATE_M
-    near_base = present & np.isfinite(tz) & (tz < z_min) & (tz >= z_min - depth) & (lo == 0)
+        inside = present & np.isfinite(tz) & (tz >= z_lo) & (tz <= z_hi)
+        # Between the ground and the lowest forecast level the lowest level's values hold,
+        # over a limited depth only (a model's lowest level is its near-surface air).
+        depth = (
+            np.log(1.0 + _EXTRAPOLATE_M / 8000.0) if reference == "pressure" else _EXTRAPOLATE_M
+        )
+        near_base = present & np.isfinite(tz) & (tz < z_min) & (tz >= z_min - depth) & (lo == 0)
     inside = inside | near_base
-    i_lo = np.take_along_axis(order[c], lo[..., None], -1)[..., 0]
-    i_hi = np.take_along_axis(order[c], hi[..., None], -1)[..., 0]
+    f_lo, f_hi = c * nlev + i_lo, c * nlev + i_hi
 
     def pick(field):
         a = np.asarray(field)
-        return a[c, i_lo], a[c, i_hi]
+        if a.shape != (m, nlev):
+            a = np.broadcast_to(a, (m, nlev))
+        a = a.reshape(-1)
+        return a[f_lo], a[f_hi]
 
+    want = None if fields is None else set(fields)
     out = {}
     for name in _LINEAR:
+        if want is not None and name not in want and not (name == "lwc" and "cloud" in want):
+            continue
         a, b = pick(getattr(diag, name))
         a = np.asarray(a, float)
         b = np.asarray(b, float)
@@ -108,30 +149,40 @@ def read_off(diag, column_index, target, *, reference="msl"):
         else:
             a = np.nan_to_num(a, nan=0.0) if name.startswith(("lwc", "sld_lwc")) else a
             b = np.nan_to_num(b, nan=0.0) if name.startswith(("lwc", "sld_lwc")) else b
-        out[name] = a + w * (b - a)
-    pa, pb = pick(diag.pressure)
-    out["pressure"] = np.exp(np.log(pa) + w * (np.log(pb) - np.log(pa)))
+        with np.errstate(invalid="ignore"):
+            out[name] = a + w * (b - a)
+    if want is None or "pressure" in want:
+        pa, pb = pick(diag.pressure)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            out["pressure"] = np.exp(np.log(pa) + w * (np.log(pb) - np.log(pa)))
     ha, hb = pick(diag.height)
-    out["height"] = ha + w * (hb - ha)
-    sa, sb = pick(diag.sld_class)
-    # GAP (-1) marks an unusable level; validity is carried by ``valid`` below
-    out["sld_class"] = np.maximum(np.maximum(sa, sb), codes.SLD_NONE)
-    mu = np.broadcast_to(np.asarray(getattr(diag, "spectrum_shape", 2.0), float), z.shape)
-    mu_a, mu_b = pick(mu)
-    out["spectrum_shape"] = np.where(
-        np.isfinite(mu_a), mu_a, np.where(np.isfinite(mu_b), mu_b, 2.0)
-    )
-    ba, bb = pick(diag.basis)
-    la, lb = pick(diag.lwc)
-    out["basis"] = np.where(np.nan_to_num(la) >= np.nan_to_num(lb), ba, bb)
+    with np.errstate(invalid="ignore"):
+        out["height"] = ha + w * (hb - ha)
+    if want is None or "sld_class" in want:
+        sa, sb = pick(diag.sld_class)
+        # GAP (-1) marks an unusable level; validity is carried by ``valid`` below
+        out["sld_class"] = np.maximum(np.maximum(sa, sb), codes.SLD_NONE)
+    if want is None or "spectrum_shape" in want:
+        mu = np.broadcast_to(np.asarray(getattr(diag, "spectrum_shape", 2.0), float), z.shape)
+        mu_a, mu_b = pick(mu)
+        out["spectrum_shape"] = np.where(
+            np.isfinite(mu_a), mu_a, np.where(np.isfinite(mu_b), mu_b, 2.0)
+        )
+    if want is None or "basis" in want:
+        ba, bb = pick(diag.basis)
+        la, lb = pick(diag.lwc)
+        out["basis"] = np.where(np.nan_to_num(la) >= np.nan_to_num(lb), ba, bb)
     va, vb = pick(diag.valid)
     ga, gb = pick(diag.below_ground)
     out["below_ground"] = present & (ga & ((w < 0.5) | gb))
     out["valid"] = inside & va & vb & ~out["below_ground"]
-    out["cloud"] = out["lwc"] >= IN_CLOUD_LWC
+    if "lwc" in out:
+        out["cloud"] = out["lwc"] >= IN_CLOUD_LWC
     # flags: glaciated by the model only where both levels are; possible drizzle where
     # either is (a stated possibility is never interpolated away)
     for name, both in (("model_glaciated", True), ("possible_drizzle", False)):
+        if want is not None and name not in want:
+            continue
         flag = getattr(diag, name, None)
         if flag is None:
             out[name] = np.zeros(out["valid"].shape, bool)

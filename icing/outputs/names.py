@@ -97,6 +97,9 @@ LABELS = {
     "candidate_altitudes_ft": "candidate altitudes [ft MSL]",
     "vertical_options": "nearest candidate altitudes above and below",
     "gap_reason": "why not screened",
+    # grid features (icing grid)
+    "valid_time": "valid time [UTC]",
+    "coverage": "band coverage",
     "note": "note",
     # per-sample CSV
     "index": "sample",

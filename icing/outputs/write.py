@@ -17,7 +17,7 @@ from icing.hazards.segments import feature_collection
 from icing.outputs.atomic import write_together
 from icing.outputs.table import samples_csv
 
-__all__ = ["write_outputs", "output_targets"]
+__all__ = ["write_outputs", "output_targets", "write_grid_outputs", "grid_output_targets"]
 
 
 def _sibling_json(path: Path) -> Path:
@@ -170,3 +170,64 @@ def _plot_names(screenings, plot):
 
 def _safe(name: str) -> str:
     return "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in name).strip("-") or "route"
+
+
+def grid_output_targets(*, out_geojson, netcdf=None, maps=None):
+    """Return ``(path, role)`` of the files a grid run writes that are known before it runs.
+
+    The maps' own names depend on the valid times and bands; their folder must not
+    be a file.
+    """
+    out = [(Path(out_geojson), "-o")]
+    if netcdf:
+        out.append((Path(netcdf), "--netcdf"))
+    if maps and Path(maps).exists() and not Path(maps).is_dir():
+        from icing.errors import InputError
+
+        raise InputError(
+            "--maps names a file, not a folder", path=maps, fix="give a folder for the maps"
+        )
+    return out
+
+
+def grid_map_name(result, t, b) -> str:
+    """File name of the map of band ``b`` at valid time ``t``: ``icing-<time>-<band>ft.png``."""
+
+    def ft(v):
+        return f"{'m' if v < 0 else ''}{abs(v):05.0f}"
+
+    lo, hi = result.bands.bounds_ft(b)
+    when = result.time_text(t).replace("-", "").replace(":", "")[:13] + "Z"
+    return f"icing-{when}-{ft(lo)}-{ft(hi)}ft.png"
+
+
+def write_grid_outputs(result, *, out_geojson, netcdf=None, maps=None, inputs=(), features=None):
+    """Write a grid run's GeoJSON, NetCDF and maps, all together or none.
+
+    ``features`` are the polygons when already built
+    (:func:`icing.hazards.gridded.grid_features`). Returns the FeatureCollection and
+    the paths written; outputs at an input's path or at each other's are refused
+    before anything is written.
+    """
+    from icing.hazards.gridded import grid_feature_collection
+
+    fc = grid_feature_collection(result, features)
+    # compact: a grid's polygons are large, and GIS readers do not need the indentation
+    text = json.dumps(fc, separators=(",", ":"), allow_nan=False)
+    files = [(Path(out_geojson), _text(text), "-o")]
+    if netcdf:
+        from icing.outputs.gridnc import write_grid_netcdf
+
+        files.append((Path(netcdf), partial(write_grid_netcdf, result), "--netcdf"))
+    if maps:
+        from icing.outputs.plot.gridmap import plot_grid_map
+
+        nt, nb = result.severity.shape[:2]
+        for t in range(nt):
+            for b in range(nb):
+                draw = partial(plot_grid_map, result, t, b)
+                files.append((Path(maps) / grid_map_name(result, t, b), draw, "--maps"))
+    given = [(p, "input file") if isinstance(p, (str, Path)) else tuple(p) for p in inputs]
+    files_in = [(f, "forecast file") for f in (result.provenance or {}).get("files") or []]
+    written = write_together(files, inputs=given + files_in)
+    return fc, written

@@ -1,0 +1,205 @@
+"""The grid products as CF-1.8 NetCDF (``icing grid --netcdf``).
+
+Dimensions (time, altitude, y, x) on the forecast's own grid: its coordinates and,
+for projected grids, its CF ``grid_mapping`` (variable ``crs``) with the cell
+centres' latitude and longitude as auxiliary coordinates. ``altitude`` is the middle
+of each band [m MSL] with the band's edges as its ``bounds``.
+
+How a coverage gap reads: ``severity`` and ``sld`` are int8 flags whose
+``_FillValue`` is -1, so -1 (a coverage gap: no usable forecast data, or a band
+wholly below the ground) is read as missing, never as a class: xarray decodes it to
+NaN (``mask_and_scale=False`` shows the -1), netCDF4 masks it, GDAL reports it as the
+band's nodata value. ``coverage`` says which kind of gap (or a partial band). The
+float fields are NaN where not covered. Written slice by slice from the run's arrays,
+so the memory stays one (y, x) slice.
+"""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+
+from icing._version import __version__
+from icing.caution import CAUTION
+
+__all__ = ["write_grid_netcdf", "FLAGS"]
+
+#: int8 flag variables: (values, meanings, long name).
+FLAGS = {
+    "severity": (
+        (0, 1, 2, 3, 4),
+        "none trace light moderate severe",
+        "worst icing severity in the altitude band for the airframe",
+    ),
+    "sld": (
+        (0, 1, 2),
+        "none freezing_drizzle freezing_rain",
+        "worst supercooled-large-drop class in the altitude band",
+    ),
+    "coverage": (
+        (0, 1, 2, 3),
+        "complete partial gap below_ground",
+        "how much of the band above the ground was diagnosed",
+    ),
+}
+
+#: float32 fields: (units, long name, CF standard name or None).
+FIELDS = {
+    "lwc": (
+        "kg m-3",
+        "cloud liquid water content at the band's worst altitude",
+        "mass_concentration_of_cloud_liquid_water_in_air",
+    ),
+    "mvd": ("m", "median volume diameter of the cloud drops at the band's worst altitude", None),
+    "accretion_rate": (
+        "m s-1",
+        "ice accretion rate on the airframe's worst collector at the band's worst altitude",
+        None,
+    ),
+}
+
+_COMMENTS = {
+    "severity": "-1 (_FillValue) is a coverage gap: no usable forecast data, or the band "
+    "wholly below the ground (see coverage); never 'none'",
+    "sld": "-1 (_FillValue) is a coverage gap, as for severity",
+    "coverage": "partial: part of the band above the ground could not be diagnosed, the "
+    "severity is that of the rest (at least); gap: no part could, or the rest shows no "
+    "icing; below_ground: the whole band is under the surface",
+}
+
+
+def _coordinates(nc, result):
+    """Dimensions, time, altitude (with bounds) and the grid's coordinates and mapping."""
+    nt, nb, ny, nx = result.severity.shape
+    for name, size in (("time", nt), ("altitude", nb), ("y", ny), ("x", nx), ("nv", 2)):
+        nc.createDimension(name, size)
+    t = nc.createVariable("time", "f8", ("time",))
+    t.setncatts({"standard_name": "time", "units": "seconds since 1970-01-01 00:00:00"})
+    t.calendar = "proleptic_gregorian"
+    t[:] = np.asarray(result.times).astype("datetime64[s]").astype(np.int64).astype(float)
+    edges = result.bands.edges_m
+    a = nc.createVariable("altitude", "f8", ("altitude",))
+    a.setncatts(
+        {
+            "standard_name": "altitude",
+            "long_name": "middle of the altitude band above mean sea level",
+            "units": "m",
+            "positive": "up",
+            "axis": "Z",
+            "bounds": "altitude_bnds",
+            "band_edges_ft": np.asarray(result.bands.edges_ft, float),
+        }
+    )
+    a[:] = 0.5 * (edges[:-1] + edges[1:])
+    nc.createVariable("altitude_bnds", "f8", ("altitude", "nv"))[:] = np.column_stack(
+        [edges[:-1], edges[1:]]
+    )
+    _horizontal(nc, result)
+
+
+def _horizontal(nc, result):
+    """Write the grid's x/y and, for projected grids, its mapping and the cells' lat/lon."""
+    x = nc.createVariable("x", "f8", ("x",))
+    y = nc.createVariable("y", "f8", ("y",))
+    crs = nc.createVariable("crs", "i4", ())
+    if result.crs is None:
+        x.setncatts({"standard_name": "longitude", "units": "degrees_east", "axis": "X"})
+        y.setncatts({"standard_name": "latitude", "units": "degrees_north", "axis": "Y"})
+        crs.setncatts(
+            {
+                "grid_mapping_name": "latitude_longitude",
+                "semi_major_axis": 6378137.0,
+                "inverse_flattening": 298.257223563,
+            }
+        )
+        x[:], y[:] = result.x, result.y
+        return
+    for v, axis in ((x, "x"), (y, "y")):
+        v.setncatts(
+            {"standard_name": f"projection_{axis}_coordinate", "units": "m", "axis": axis.upper()}
+        )
+    x[:], y[:] = result.x, result.y
+    attrs = {k: v for k, v in (result.grid_mapping or {}).items() if v is not None}
+    crs.setncatts(
+        {k: (np.asarray(v) if isinstance(v, (list, tuple)) else v) for k, v in attrs.items()}
+    )
+    crs.crs_wkt = result.crs.to_wkt()
+    from icing.forecast.blocks import cell_lonlat
+
+    lon, lat = cell_lonlat(result)
+    for name, values, std, units in (
+        ("lat", lat, "latitude", "degrees_north"),
+        ("lon", lon, "longitude", "degrees_east"),
+    ):
+        v = nc.createVariable(name, "f8", ("y", "x"))
+        v.setncatts({"standard_name": std, "units": units})
+        v[:] = values
+
+
+def _variables(nc, result):
+    """Create the product variables (int8 flags, float32 fields), empty."""
+    dims = ("time", "altitude", "y", "x")
+    ny, nx = result.severity.shape[2:]
+    common = {"grid_mapping": "crs"}
+    if result.crs is not None:
+        common["coordinates"] = "lat lon"
+    chunks = (1, 1, ny, nx)
+    out = {}
+    for name, (values, meanings, long_name) in FLAGS.items():
+        fill = -1 if name != "coverage" else False
+        v = nc.createVariable(
+            name, "i1", dims, zlib=True, complevel=1, chunksizes=chunks, fill_value=fill
+        )
+        v.setncatts(
+            {
+                "long_name": long_name,
+                "flag_values": np.asarray(values, np.int8),
+                "flag_meanings": meanings,
+                "valid_range": np.asarray([0, values[-1]], np.int8),
+                "comment": _COMMENTS[name],
+                "cell_methods": "altitude: maximum",
+                **common,
+            }
+        )
+        out[name] = v
+    for name, (units, long_name, standard) in FIELDS.items():
+        v = nc.createVariable(
+            name, "f4", dims, zlib=True, complevel=1, chunksizes=chunks, fill_value=np.nan
+        )
+        attrs = {"units": units, "long_name": long_name, **common}
+        if standard:
+            attrs["standard_name"] = standard
+        v.setncatts(attrs)
+        out[name] = v
+    return out
+
+
+def write_grid_netcdf(result, path):
+    """Write a :class:`icing.hazards.gridded.GridResult` as CF-1.8 NetCDF at ``path``."""
+    import netCDF4
+
+    from icing.forecast.netcdf import NETCDF_LOCK
+
+    with NETCDF_LOCK, netCDF4.Dataset(path, "w", format="NETCDF4") as nc:
+        nc.set_auto_mask(False)
+        nc.setncatts(
+            {
+                "Conventions": "CF-1.8",
+                "title": f"In-flight icing hazard for {result.airframe}, by altitude band",
+                "source": f"icing {__version__}",
+                "airframe": result.airframe,
+                "caution": CAUTION,
+                "provenance": json.dumps(result.provenance, default=str),
+                "assumptions": json.dumps(result.assumptions, default=str),
+            }
+        )
+        _coordinates(nc, result)
+        variables = _variables(nc, result)
+        nt, nb = result.severity.shape[:2]
+        for name, v in variables.items():
+            a = getattr(result, name)
+            for t in range(nt):
+                for b in range(nb):
+                    v[t, b] = np.asarray(a[t, b])
+    return path

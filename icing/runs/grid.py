@@ -1,0 +1,385 @@
+"""The whole forecast for GIS overlays (``icing grid``): block by block, on every core.
+
+Order of work, per block of the grid (:func:`icing.forecast.blocks.plan_blocks`):
+whole columns read straight from the file (no interpolation: every grid column is a
+column), assembled as a route's columns are, diagnosed whole
+(:func:`icing.calc.diagnose_columns`), then reduced at once to the products of each
+altitude band (:func:`icing.hazards.bands.band_products`: the same read-off, speed
+schedule and collector physics as ``screen`` and ``profile``). Only the small
+products leave a block (int8 classes, float32 fields), so memory follows the block
+size, never the grid size; the products of the whole grid go into arrays on disk
+when they are large.
+
+Where the blocks run (measured in ``benchmarks/grid.py``; see DEVELOPERS.md):
+
+- by default a pool of worker processes, one per core (``workers``); each opens the
+  forecast files itself. Processes, not threads: the HDF5 and ecCodes libraries are
+  not thread-safe, so the forecast layer serialises every call into them under one
+  lock per process, and threads would wait for each other's reads (and hold the GIL
+  in the many small numpy steps of the column physics);
+- ``workers=1`` runs them here, one after the other;
+- ``scheduler="tcp://host:port"`` sends them to an existing dask.distributed cluster
+  (the ``grid`` extra), whose workers open the files by the same paths.
+"""
+
+from __future__ import annotations
+
+import os
+import threading
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from icing import codes
+from icing.errors import ForecastError, InputError
+from icing.hazards.bands import COVERAGE_GAP, PRODUCT_DTYPES, Bands, band_products, parse_bands
+from icing.hazards.gridded import PRODUCTS, GridResult
+
+__all__ = ["GridOptions", "GridJob", "grid_forecast", "run_block", "DEFAULT_BANDS_FT"]
+
+#: The default bands: every 2,000 ft from the sea to 20,000 ft (where aircraft ice).
+DEFAULT_BANDS_FT = "0:20000:2000"
+#: Products larger than this live in arrays on disk (the memory stays the blocks'). [bytes]
+_IN_MEMORY_BYTES = 64 * 2**20
+#: Blocks waiting for or in a worker, per worker: enough to keep it busy, few in memory.
+_IN_FLIGHT_PER_WORKER = 3
+
+
+@dataclass(frozen=True)
+class GridOptions:
+    """Choices of a grid run (stated in the outputs' provenance and assumptions).
+
+    Attributes
+    ----------
+    bands : Bands
+        The altitude bands [ft MSL] (default every 2,000 ft to 20,000 ft).
+    times : None, "all" or sequence of datetime64
+        Valid times gridded: the first (None), every one ("all"), or these (each
+        must be one of the forecast's valid times).
+    workers : int or None
+        Worker processes; None: one per core; 1: in this process.
+    scheduler : str or None
+        Address of a dask.distributed scheduler to run the blocks on instead.
+    block_columns : int
+        Most grid columns in one block (the column physics holds a block at once).
+    """
+
+    bands: Bands = field(default_factory=lambda: parse_bands(DEFAULT_BANDS_FT))
+    times: object = None
+    workers: int | None = None
+    scheduler: str | None = None
+    block_columns: int = 4000
+
+    def describe(self) -> dict:
+        """Return the options as a JSON-serialisable dict."""
+        return {
+            "bands": self.bands.describe(),
+            "block_columns": self.block_columns,
+            "runs_on": (
+                f"dask.distributed scheduler {self.scheduler}"
+                if self.scheduler
+                else f"{_workers(self.workers)} worker process(es)"
+            ),
+        }
+
+
+@dataclass(frozen=True)
+class GridJob:
+    """What every worker needs to compute any block (small, picklable)."""
+
+    paths: tuple
+    """The forecast files."""
+    load: tuple
+    """``load_forecast`` keyword arguments as sorted (name, value) pairs."""
+    airframe: object
+    """The Airframe."""
+    bands: Bands
+    """The altitude bands."""
+    column_options: object
+    """The ColumnOptions."""
+
+
+def _workers(workers):
+    return max(1, int(workers if workers is not None else (os.cpu_count() or 1)))
+
+
+# ---------------------------------------------------------------- worker side
+
+_OPEN = {}  # (paths, load) -> forecast, in each worker process
+_OPEN_LOCK = threading.Lock()
+
+
+def _forecast_of(job: GridJob):
+    """Return the job's forecast, opened once per process (a dask worker's threads share it)."""
+    from icing.forecast import load_forecast
+
+    key = (job.paths, job.load)
+    with _OPEN_LOCK:
+        if key not in _OPEN:
+            while len(_OPEN) >= 2:  # a long-lived dask worker may serve several runs
+                _OPEN.pop(next(iter(_OPEN)))
+            from icing.forecast.blocks import bound_file_caches
+
+            forecast = load_forecast(list(job.paths), **dict(job.load))
+            bound_file_caches(forecast)
+            _OPEN[key] = forecast
+        return _OPEN[key]
+
+
+def block_products(forecast, block, job: GridJob):
+    """Return the band products of one block (see the module docstring)."""
+    from icing.calc.column import diagnose_columns
+    from icing.forecast.blocks import read_block_columns
+
+    bc = read_block_columns(forecast, block)
+    diag = diagnose_columns(**bc.columns, options=job.column_options)
+    ground = bc.columns.get("surface_height")
+    return band_products(diag, job.airframe, job.bands, ground=ground)
+
+
+def run_block(job: GridJob, block):
+    """Compute one block in this process: ``(block, BandProducts)`` (dask tasks call this)."""
+    with warnings.catch_warnings():  # the reader's warnings were shown once, by the run
+        warnings.simplefilter("ignore")
+        return block, block_products(_forecast_of(job), block, job)
+
+
+_POOL_JOB = None
+
+
+def _init_pool_worker(job):
+    global _POOL_JOB
+    _POOL_JOB = job
+    warnings.simplefilter("ignore")
+    _forecast_of(job)  # open the files once, before the first block
+
+
+def _pool_block(block):
+    return run_block(_POOL_JOB, block)
+
+
+# ---------------------------------------------------------------- the run
+
+
+def grid_forecast(
+    forecast,
+    *,
+    airframe,
+    options: GridOptions | None = None,
+    column_options=None,
+    load_options=None,
+    progress=None,
+) -> GridResult:
+    """Grid the icing hazard over a whole forecast for one airframe.
+
+    Parameters
+    ----------
+    forecast : GridForecast or path or list of paths
+        The forecast (``icing.load_forecast``) or its files.
+    airframe : Airframe or str
+        Preset name, airframe TOML file or :class:`icing.airframes.Airframe`.
+    options : GridOptions, optional
+        Bands, valid times, workers or a dask scheduler, block size.
+    column_options : ColumnOptions, optional
+        Column-physics choices (air mass, ...).
+    load_options : dict, optional
+        ``load_forecast`` keywords the files were read with (``var_map``, ``member``,
+        ``rh_convention``): worker processes open the files again with them.
+    progress : callable, optional
+        ``progress(done, total)`` after each block.
+
+    Returns
+    -------
+    GridResult
+        Arrays (time, band, y, x) of severity, SLD class, coverage, LWC, MVD and
+        accretion rate, with the provenance and the assumptions.
+    """
+    from icing.airframes import load_airframe
+    from icing.calc.column import ColumnOptions
+    from icing.forecast import load_forecast
+    from icing.forecast.blocks import plan_blocks
+
+    options = options or GridOptions()
+    column_options = column_options or ColumnOptions()
+    load_options = dict(load_options or {})
+    if not hasattr(forecast, "columns_at"):
+        forecast = load_forecast(forecast, **load_options)
+    _check_gridded(forecast)
+    if not hasattr(airframe, "collectors"):
+        airframe = load_airframe(airframe)
+    times = _time_indices(forecast, options.times)
+    src = forecast.sources[0]
+    chunk = max(1, min(int(options.block_columns), int(column_options.chunk_columns)))
+    blocks = plan_blocks(src.y.size, src.x.size, times, columns=chunk)
+    job = GridJob(
+        tuple(str(p) for p in forecast.files),
+        tuple(sorted(load_options.items())),
+        airframe,
+        options.bands,
+        column_options,
+    )
+    store, scratch = _store(len(times), options.bands.count, src.y.size, src.x.size)
+    position = {t: i for i, t in enumerate(times)}
+    done = 0
+    for block, prod in _results(forecast, job, blocks, options):
+        _put(store, position[block.time_index], block, prod)
+        done += 1
+        if progress is not None:
+            progress(done, len(blocks))
+    return GridResult(
+        airframe=airframe.name,
+        bands=options.bands,
+        times=np.asarray(forecast.valid_times)[times],
+        x=np.asarray(src.x, float),
+        y=np.asarray(src.y, float),
+        crs=src.crs,
+        grid_mapping=src.grid_mapping,
+        periodic=bool(getattr(forecast, "periodic", False)),
+        provenance=_provenance(forecast, times),
+        assumptions=_assumptions(column_options, options, airframe),
+        scratch=scratch,
+        **store,
+    )
+
+
+def _check_gridded(forecast):
+    if getattr(forecast, "kind", None) != "grid":
+        files = getattr(forecast, "files", None) or [None]
+        raise ForecastError(
+            "icing grid needs a gridded forecast; profile and sounding files are points",
+            path=files[0],
+            where="--forecast",
+            fix="give GRIB, NetCDF or WRF files, or use `icing profile` / `icing screen`",
+        )
+
+
+def _time_indices(forecast, times):
+    """Return the indices of the valid times to grid (see :class:`GridOptions`)."""
+    vt = np.asarray(forecast.valid_times).astype("datetime64[ms]")
+    if times is None:
+        return [0]
+    if isinstance(times, str) and times == "all":
+        return list(range(vt.size))
+    out = []
+    for t in times:
+        t = np.datetime64(t, "ms")
+        hit = np.flatnonzero(vt == t)
+        if hit.size == 0:
+            from icing.forecast.columns import iso_time
+
+            listed = ", ".join(iso_time(v) for v in vt[:6]) + (" ..." if vt.size > 6 else "")
+            raise InputError(
+                f"{iso_time(t)} is not a valid time of the forecast",
+                where="--time",
+                fix=f"give one of its valid times ({listed}) or --all-times",
+            )
+        out.append(int(hit[0]))
+    return sorted(set(out))
+
+
+def _store(nt, nb, ny, nx):
+    """Arrays for the whole grid's products: in memory, or on disk when large."""
+    shape = (nt, nb, ny, nx)
+    fill = {
+        "severity": codes.GAP,
+        "sld": codes.GAP,
+        "coverage": COVERAGE_GAP,
+        "lwc": np.nan,
+        "mvd": np.nan,
+        "accretion_rate": np.nan,
+    }
+    dtypes = {k: PRODUCT_DTYPES[k] for k in fill}
+    total = sum(np.dtype(d).itemsize for d in dtypes.values()) * int(np.prod(shape))
+    scratch = None
+    if total > _IN_MEMORY_BYTES:
+        import tempfile
+
+        scratch = tempfile.TemporaryDirectory(prefix="icing-grid-")
+    store = {}
+    for name, dtype in dtypes.items():
+        if scratch is None:
+            store[name] = np.full(shape, fill[name], dtype=dtype)
+        else:
+            path = os.path.join(scratch.name, f"{name}.npy")
+            store[name] = np.lib.format.open_memmap(path, mode="w+", dtype=dtype, shape=shape)
+            store[name][...] = fill[name]
+    return store, scratch
+
+
+def _put(store, t, block, prod):
+    """Write a block's products (band, m) into the grid's arrays."""
+    ny, nx = block.shape
+    for name in store:
+        a = getattr(prod, name)
+        store[name][t, :, block.ys, block.xs] = a.reshape(a.shape[0], ny, nx)
+
+
+def _results(forecast, job, blocks, options):
+    """``(block, products)`` pairs from wherever the blocks run."""
+    if options.scheduler:
+        from icing.runs._dask import dask_results
+
+        yield from dask_results(run_block, job, blocks, options.scheduler)
+        return
+    n = _workers(options.workers)
+    if n == 1 or len(blocks) == 1:
+        from icing.forecast.blocks import bound_file_caches
+
+        bound_file_caches(forecast)
+        for block in blocks:
+            yield block, block_products(forecast, block, job)
+        return
+    yield from _pool_results(job, blocks, n)
+
+
+def _pool_results(job, blocks, n):
+    """Run the blocks on ``n`` worker processes (started from a clean fork server)."""
+    import multiprocessing as mp
+    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+
+    ctx = mp.get_context("forkserver")
+    ctx.set_forkserver_preload(["icing.runs.grid"])
+    todo = iter(blocks)
+    with ProcessPoolExecutor(
+        n, mp_context=ctx, initializer=_init_pool_worker, initargs=(job,)
+    ) as pool:
+        pending = set()
+        for block in todo:
+            pending.add(pool.submit(_pool_block, block))
+            if len(pending) >= n * _IN_FLIGHT_PER_WORKER:
+                break
+        while pending:
+            done, pending = wait(pending, return_when=FIRST_COMPLETED)
+            for fut in done:
+                yield fut.result()
+                nxt = next(todo, None)
+                if nxt is not None:
+                    pending.add(pool.submit(_pool_block, nxt))
+
+
+def _provenance(forecast, times):
+    prov = dict(forecast.describe())
+    vt = np.asarray(forecast.valid_times)
+    from icing.forecast.columns import iso_time
+
+    prov["valid_times_gridded"] = [iso_time(vt[t]) for t in times]
+    prov["columns"] = "every grid column, read from the file (no interpolation)"
+    return prov
+
+
+def _assumptions(column_options, options, airframe):
+    from icing.calc.airframe import assumptions as collector_assumptions
+
+    return {
+        "column": column_options.describe(),
+        "collectors": collector_assumptions(),
+        "airframe": airframe.describe(),
+        "grid": options.describe(),
+        "products": dict(PRODUCTS),
+        "airspeed": "the airframe's level-flight speed schedule at each altitude, in the "
+        "forecast's air (as icing profile)",
+        "altitude_reference_note": "every altitude is above mean sea level (feet MSL); the "
+        "part of a band below the ground is left out, a band wholly below it is a gap "
+        "(below-ground)",
+    }

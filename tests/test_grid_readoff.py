@@ -1,0 +1,74 @@
+"""The read-off's level search, as a grid run uses it at every altitude of every column.
+
+``icing.hazards.readoff._bracket`` finds the levels around each target with a binary
+search over each column's sorted finite levels; the reference here counts the levels
+at or below each target by comparing with every level (what the read-off did before,
+with (targets, levels) temporaries). Both must give the same levels for every input,
+ties, NaN and infinite coordinates included: a regression check of the search, not of
+physics.
+"""
+
+import numpy as np
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from icing.hazards.readoff import _bracket, read_off
+
+
+def _reference(zs, order, c, tz):
+    nlev = zs.shape[1]
+    col_z = zs[c]
+    with np.errstate(invalid="ignore"):
+        above = np.sum(col_z <= tz[..., None], axis=-1)
+    lo = np.clip(above - 1, 0, nlev - 2) % nlev
+    hi = (lo + 1) % nlev
+    pick = np.take_along_axis
+    return (
+        lo,
+        hi,
+        pick(col_z, lo[..., None], -1)[..., 0],
+        pick(col_z, hi[..., None], -1)[..., 0],
+        col_z[..., 0],
+        pick(order[c], lo[..., None], -1)[..., 0],
+        pick(order[c], hi[..., None], -1)[..., 0],
+    )
+
+
+_VALUES = st.sampled_from([np.nan, np.inf, -np.inf, 0.0, 100.0, 100.0, 250.0, 1e4, -5.0])
+
+
+@settings(max_examples=200, deadline=None)
+@given(
+    st.integers(1, 6),
+    st.integers(1, 9),
+    st.data(),
+)
+def test_bracket_is_the_comparison_count(m, nlev, data):
+    floats = st.one_of(_VALUES, st.floats(-1e3, 2e4, allow_nan=False))
+    z = np.array(data.draw(st.lists(floats, min_size=m * nlev, max_size=m * nlev)), float)
+    z = z.reshape(m, nlev)
+    order = np.argsort(np.where(np.isfinite(z), z, np.inf), axis=-1)
+    zs = np.take_along_axis(z, order, -1)
+    k = data.draw(st.integers(1, 12))
+    c = np.array(data.draw(st.lists(st.integers(0, m - 1), min_size=k, max_size=k)))
+    tz = np.array(data.draw(st.lists(floats, min_size=k, max_size=k)), float)
+    got = _bracket(zs, order, c, tz)
+    want = _reference(zs, order, c, tz)
+    for g, w in zip(got, want, strict=True):
+        assert np.array_equal(g, w, equal_nan=np.asarray(g).dtype.kind == "f")
+
+
+def test_fields_subset_gives_the_same_values():
+    p = np.array([[100000.0, 90000.0, 80000.0, 70000.0]] * 3)
+    t = np.array([[275.0, 268.0, 262.0, 255.0]] * 3)
+    rh = np.array([[0.9, 1.0, 1.0, 0.5]] * 3)
+    from icing.calc.column import diagnose_columns
+
+    diag = diagnose_columns(p, t, relative_humidity=rh)
+    targets = np.array([[0.0, 500.0, 1500.0, 2500.0, np.nan]] * 3)
+    ci = np.broadcast_to(np.arange(3)[:, None], targets.shape)
+    full = read_off(diag, ci, targets)
+    part = read_off(diag, ci, targets, fields=("lwc", "sld_lwc"))
+    assert set(part) == {"lwc", "sld_lwc", "cloud", "height", "valid", "below_ground"}
+    for key, value in part.items():
+        assert np.array_equal(value, full[key], equal_nan=value.dtype.kind == "f")

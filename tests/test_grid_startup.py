@@ -1,0 +1,105 @@
+"""What keeps ``icing`` quick to start: transcriptions of MetPy and pint, the table cache.
+
+The saturation law and the unit conversions met in most files are our own
+transcriptions, so that a run does not load MetPy's calc module and pint (about a
+second); these tests hold them to the reference libraries they transcribe (MetPy,
+pint: the versions installed with the tests), exactly where the operations are the
+same, and the collection table read back from the cache to the one just built.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from icing.calc import thermo
+from icing.forecast import units
+
+
+def test_metpy_constants_are_metpys():
+    """Reference library: metpy.constants.nounit (MetPy 1.7); equal to the last bit."""
+    from metpy.constants import nounit as mc
+
+    for name, value in thermo.METPY_CONSTANTS.items():
+        assert float(getattr(mc, name)) == value, name
+
+
+@pytest.mark.parametrize("phase", ["liquid", "solid"])
+def test_saturation_vapor_pressure_is_metpys(phase):
+    """Reference library: metpy.calc.saturation_vapor_pressure (Ambaum 2020 eqs. 13 and
+    17); the same operations in the same order, so equal to the last bit."""
+    import metpy.calc as mpcalc
+
+    t = np.linspace(150.0, 330.0, 2001)
+    ours = thermo.saturation_vapor_pressure(t, phase=phase)
+    theirs = mpcalc.saturation_vapor_pressure._nounit(t, phase=phase)
+    np.testing.assert_array_equal(ours, theirs)
+
+
+def test_dewpoint_first_guess_is_metpys():
+    """Reference library: metpy.calc.dewpoint (the Bolton-type closed form MetPy writes);
+    after the Newton steps the inverse is exact: e_s(Td(e)) = e to 1e-9."""
+    from metpy.calc import dewpoint
+    from metpy.units import units as u
+
+    e = np.linspace(10.0, 5000.0, 500)
+    val = np.log(e / 611.2)
+    np.testing.assert_array_equal(
+        273.15 + 243.5 * val / (17.67 - val), dewpoint(u.Quantity(e, "Pa")).m_as("K")
+    )
+    td = thermo.dewpoint_from_vapor_pressure(e)
+    np.testing.assert_allclose(thermo.saturation_vapor_pressure(td), e, rtol=1e-9)
+
+
+@pytest.mark.parametrize("spelling", sorted(units.KNOWN_UNITS))
+def test_known_units_are_pints(monkeypatch, spelling):
+    """Reference library: pint through MetPy's registry; every listed conversion and
+    dimension is what pint says."""
+    known = units.KNOWN_UNITS
+    monkeypatch.setattr(units, "KNOWN_UNITS", {})  # force pint
+    for target, conv in known[spelling][1].items():
+        assert units.linear(spelling, target, path=None, name="") == conv
+    for ref in ("Pa", "m"):
+        monkeypatch.setattr(units, "KNOWN_UNITS", {})
+        by_pint = units.is_dimension(spelling, ref)
+        monkeypatch.setattr(units, "KNOWN_UNITS", known)
+        assert units.is_dimension(spelling, ref) == by_pint
+
+
+def test_a_screening_loads_neither_metpy_nor_pint_calc(tmp_path):
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1]
+    code = (
+        "import sys; from icing.cli import main; main(['screen', sys.argv[1], '-f', "
+        "sys.argv[2], '-a', 'twin-turboprop']); "
+        "print(sorted(m for m in ('metpy', 'metpy.calc', 'matplotlib') if m in sys.modules))"
+    )
+    out = subprocess.run(
+        [sys.executable, "-c", code, str(root / "routes" / "regional-dispatch.geojson"),
+         str(root / "fixtures" / "skerrow-latlon.nc")],
+        capture_output=True, text=True, check=True,
+    ).stdout  # fmt: skip
+    assert out.strip().splitlines()[-1] == "[]"
+
+
+def test_collection_table_cache_gives_the_table_it_kept(tmp_path, monkeypatch):
+    from icing.calc import collection
+
+    monkeypatch.setenv("ICING_CACHE_DIR", str(tmp_path))
+    collection.collection_table.cache_clear()
+    try:
+        built = collection.collection_table("finstad88", 2.0, 7)
+        kept = list(tmp_path.glob("collection-table-*.npy"))
+        assert len(kept) == 1
+        collection.collection_table.cache_clear()
+        again = collection.collection_table("finstad88", 2.0, 7)
+        np.testing.assert_array_equal(built, again)
+        assert not again.flags.writeable
+        kept[0].write_bytes(b"not a table")  # a damaged file is built again, not trusted
+        collection.collection_table.cache_clear()
+        np.testing.assert_array_equal(collection.collection_table("finstad88", 2.0, 7), built)
+    finally:
+        collection.collection_table.cache_clear()
