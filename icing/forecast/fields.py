@@ -34,6 +34,7 @@ __all__ = [
     "NetcdfVariable",
     "read_netcdf4",
     "lazy_raw_array",
+    "at_member",
 ]
 
 
@@ -254,6 +255,24 @@ class DerivedField(Field):
                 for b, f in zip(blocks, self.inputs, strict=True)
             ]
         return self.func(*blocks, ys=ys, xs=xs)
+
+
+def at_member(fld: Field, dim: str, index: int) -> Field:
+    """Return the same field read at another index of a member dimension.
+
+    Every file variable behind the field (through level regridding and derived
+    quantities) that has ``dim`` is held at ``index`` instead; variables without
+    it (orography, a static field) are shared by every member.
+    """
+    if isinstance(fld, FileField):
+        if dim not in fld.raw.dims:
+            return fld
+        return replace(fld, fixed=tuple({**dict(fld.fixed), dim: int(index)}.items()))
+    if isinstance(fld, LevelRegridField):
+        return replace(fld, source=at_member(fld.source, dim, index))
+    if isinstance(fld, DerivedField):
+        return replace(fld, inputs=tuple(at_member(f, dim, index) for f in fld.inputs))
+    raise TypeError(f"cannot move a {type(fld).__name__} to another member")
 
 
 def lazy_raw_array(raw: RawVariable, shape):

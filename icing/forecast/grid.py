@@ -94,12 +94,23 @@ class GridForecast(Forecast):
         Samples interpolated at a time (bounded memory for grid-wide calls).
     cache : TileCache, optional
         Blocks kept between calls (shared by every thread using the forecast).
+    cache_tag : hashable, optional
+        Part of every cache key: forecasts sharing one cache (the members of an
+        ensemble) keep their blocks apart.
     """
 
     kind = "grid"
 
     def __init__(
-        self, sources, *, radius_km=50.0, time_tolerance_h=3.0, tile=None, chunk=8192, cache=None
+        self,
+        sources,
+        *,
+        radius_km=50.0,
+        time_tolerance_h=3.0,
+        tile=None,
+        chunk=8192,
+        cache=None,
+        cache_tag=None,
     ):
         ref = sources[0]
         for s in sources[1:]:
@@ -141,6 +152,7 @@ class GridForecast(Forecast):
         self.tile = int(tile or (max(8, min(64, hint)) if hint else 32))
         self.chunk = int(chunk)
         self.cache = cache if cache is not None else TileCache()
+        self.cache_tag = cache_tag
 
     @staticmethod
     def _ground_unknown(ref):
@@ -157,6 +169,18 @@ class GridForecast(Forecast):
             time_tolerance_h=self.time_tolerance_h,
             tile=tile or self.tile,
             chunk=chunk or self.chunk,
+        )
+
+    def with_cache(self, cache, tag):
+        """Return the same forecast reading through a shared cache under its own ``tag``."""
+        return GridForecast(
+            list(self.sources),
+            radius_km=self.radius_km,
+            time_tolerance_h=self.time_tolerance_h,
+            tile=self.tile,
+            chunk=self.chunk,
+            cache=cache,
+            cache_tag=tag,
         )
 
     @property
@@ -222,7 +246,8 @@ class GridForecast(Forecast):
             fld = self.sources[fi].fields[key]
             lo = min(lt for _, lt in pairs)
             tslice = slice(lo, max(lt for _, lt in pairs) + 1) if fld.timed else None
-            ck = (fi, key, ys.start, ys.stop, xkey, None if tslice is None else (lo, tslice.stop))
+            tkey = None if tslice is None else (lo, tslice.stop)
+            ck = (self.cache_tag, fi, key, ys.start, ys.stop, xkey, tkey)
             vals = self.cache.get_or_read(
                 ck, lambda f=fld, t=tslice: self._read_field(f, t, ys, xs)
             )
