@@ -165,3 +165,44 @@ def load_forecast_path():
     from icing.forecast import demo_forecast_path
 
     return demo_forecast_path()
+
+
+def _same_columns(fc, lat, lon, t):
+    """The members read together equal each member read alone (values and coverage)."""
+    joint = fc.member_columns_at(lat, lon, t)
+    alone = [m.forecast.columns_at(lat, lon, t) for m in fc.members]
+    for a, b in zip(joint, alone, strict=True):
+        assert set(a.columns) == set(b.columns)
+        for key in b.columns:
+            # 1e-12: the corner sums run in another order with a member axis (last bits)
+            assert np.allclose(a.columns[key], b.columns[key], rtol=1e-12, equal_nan=True), key
+            assert np.array_equal(np.isnan(a.columns[key]), np.isnan(b.columns[key])), key
+        assert np.array_equal(a.candidates, b.candidates) and np.array_equal(a.covered, b.covered)
+        assert list(a.gap_reason) == list(b.gap_reason)
+        for wa, wb in ((a.wind_u, b.wind_u), (a.wind_v, b.wind_v)):
+            assert (wa is None) == (wb is None)
+            assert wa is None or np.allclose(wa, wb, rtol=1e-12, equal_nan=True)
+    return joint
+
+
+def test_members_read_together_equal_each_member_read_alone(real_data, gfs_ensemble, tmp_path):
+    # GRIB1 (reference time, step) pairs, and GRIB2 with fields on their own levels, relative
+    # humidity converted from the GFS convention and cloud mixing ratio to a mass fraction
+    ecmwf = load_forecast(_ecmwf_members(real_data, tmp_path / "ens.grib"))
+    lat = np.array([50.0, 45.0, 10.0, -80.0])
+    lon = np.array([10.0, 12.5, 200.0, 0.0])
+    t = np.array(["2024-06-03T09:00", "2024-06-04T03:00", "2024-06-03T12:00", "2030-01-01"])
+    cols = _same_columns(ecmwf, lat, lon, t.astype("datetime64[ms]"))
+    assert cols[0].covered.tolist() == [True, True, True, False]  # the last: out of time
+    gfs = load_forecast(gfs_ensemble.grib)
+    lat, lon = np.array([43.0, 43.0, 60.0]), np.array([-88.0, -84.0, 100.0])
+    _same_columns(gfs, lat, lon, np.array(["2011-01-15T12:00"] * 3, dtype="datetime64[ms]"))
+    u, v = gfs.wind_at(lat, lon, 3000.0, np.array(["2011-01-15T12:00"] * 3, "datetime64[ms]"))
+    one = load_forecast(gfs_ensemble.gfs).wind_at(
+        lat, lon, 3000.0, np.array(["2011-01-15T12:00"] * 3, "datetime64[ms]")
+    )
+    assert np.allclose(u, one[0]) and np.allclose(v, one[1])  # the members share the real winds
+    assert np.allclose(
+        gfs.surface_height_at(lat, lon),
+        load_forecast(gfs_ensemble.gfs).surface_height_at(lat, lon),
+    )

@@ -61,11 +61,14 @@ class EnsembleForecast(Forecast):
     whole_source : GridSource, optional
         The first file with its member dimension (members from a member dimension):
         its ``dataset`` is the ensemble's internal structure with a ``member`` axis.
+    joint : MemberGridForecast, optional
+        The same members read together (members from a member dimension): the
+        members' columns, winds and ground come from it, one read for all.
     """
 
     kind = "ensemble"
 
-    def __init__(self, members, *, origin: str, whole_source=None):
+    def __init__(self, members, *, origin: str, whole_source=None, joint=None):
         members = tuple(members)
         if len(members) < 2:
             raise ForecastError(
@@ -81,6 +84,7 @@ class EnsembleForecast(Forecast):
         self.members = members
         self.origin = str(origin)
         self._whole_source = whole_source
+        self._joint = joint
         first = members[0].forecast
         self.radius_km = first.radius_km
         self.time_tolerance_h = first.time_tolerance_h
@@ -109,6 +113,8 @@ class EnsembleForecast(Forecast):
     def member_columns_at(self, lat, lon, time, *, fields=None) -> list:
         """Each member's :class:`ColumnSet` at the samples (see :meth:`Forecast.columns_at`)."""
         lat, lon, t = as_samples(lat, lon, time)
+        if self._joint is not None:
+            return self._joint.member_columns_at(lat, lon, t, fields=fields)
         return [m.forecast.columns_at(lat, lon, t, fields=fields) for m in self.members]
 
     def columns_at(self, lat, lon, time, **kwargs) -> ColumnSet:
@@ -127,6 +133,9 @@ class EnsembleForecast(Forecast):
         samples; the mean of the members' winds is that timing's wind.
         """
         lat, lon, t = as_samples(lat, lon, time)
+        if self._joint is not None:
+            u, v = self._joint.member_winds_at(lat, lon, altitude_m, t)
+            return u.mean(axis=0), v.mean(axis=0)
         us, vs = [], []
         for m in self.members:
             if m.forecast.has_wind:
@@ -139,6 +148,8 @@ class EnsembleForecast(Forecast):
 
     def surface_height_at(self, lat, lon):
         """Median of the members' surface heights [m] (NaN where no member knows it)."""
+        if self._joint is not None:
+            return self._joint.surface_height_at(lat, lon)
         heights = np.array([m.forecast.surface_height_at(lat, lon) for m in self.members], float)
         out = np.full(heights.shape[1:], np.nan)
         known = np.isfinite(heights).any(axis=0)

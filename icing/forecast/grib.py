@@ -15,7 +15,8 @@ it is defined by the individual-ensemble-forecast product templates 4.1 and 4.11
 (WMO Manual on Codes, code table 4.0), which also carry ``typeOfEnsembleForecast``
 (code table 4.6: 0/1 unperturbed high/low-resolution control, 2/3 negatively/
 positively perturbed, 4 multi-model) -- NCEP GEFS and ECMWF ENS GRIB2 code their
-members so; in GRIB1 by the centre's local definition (ECMWF local definition 1:
+members so (docs/references.md, [WMO306] and [ecCodes]); in GRIB1 by the centre's
+local definition (ECMWF local definition 1:
 ``marsType`` cf control, pf perturbed, with ``number``). Several numbers in a file
 make a ``number`` dimension: the member axis (one member with ``member=``).
 Products derived from the members (GRIB2 templates 4.2-4.7, 4.9, 4.10, 4.12-4.14:

@@ -327,8 +327,12 @@ class GridForecast(Forecast):
         ``fields`` limits the optional variables read (e.g. ``("wind_u", "wind_v")``).
         """
         lat, lon, t = as_samples(lat, lon, time)
-        n = lat.size
         vals, use, gap = self._interpolate(lat, lon, t, self._keys(fields))
+        return self._column_set(vals, use, gap, lat, lon, t)
+
+    def _column_set(self, vals, use, gap, lat, lon, t):
+        """Build the :class:`ColumnSet` of interpolated values at the samples ``use``."""
+        n = lat.size
         m = use.size
         cols = assemble_columns(vals, m, self._spec)
         good = np.ones(m, bool)

@@ -21,6 +21,7 @@ from icing.forecast.dataset import split_members
 from icing.forecast.ensemble import EnsembleForecast, EnsembleMember, member_label_of_files
 from icing.forecast.grib import read_grib_forecast
 from icing.forecast.grid import GridForecast
+from icing.forecast.membergrid import MemberGridForecast
 from icing.forecast.netcdf import read_netcdf_forecast
 from icing.forecast.points import ProfileForecast
 from icing.forecast.profiles import read_profiles_csv, read_profiles_json
@@ -307,7 +308,8 @@ def _member_dimension_ensemble(sources, radius_km, time_tolerance_h):
             cache_tag=i,
         )
         members.append(EnsembleMember(str(label), grid))
-    return EnsembleForecast(members, origin="member dimension", whole_source=ref)
+    joint = MemberGridForecast(sources, radius_km=radius_km, time_tolerance_h=time_tolerance_h)
+    return EnsembleForecast(members, origin="member dimension", whole_source=ref, joint=joint)
 
 
 def _check_member_count(count, path):

@@ -42,7 +42,7 @@ def _vertical_coordinate(diag, reference):
     return np.asarray(diag.height, float)
 
 
-def read_off(diag, column_index, target, *, reference="msl"):
+def read_off(diag, column_index, target, *, reference="msl", fields=None):
     """Read diagnosed column fields off at target altitudes.
 
     Parameters
@@ -55,6 +55,9 @@ def read_off(diag, column_index, target, *, reference="msl"):
         Target height MSL [m] (``reference="msl"``) or pressure [Pa]
         (``reference="pressure"``).
     reference : {"msl", "pressure"}
+    fields : collection of str, optional
+        Only these of the ``_LINEAR`` fields (``lwc`` always); the others are left out.
+        Default all.
 
     Returns
     -------
@@ -78,26 +81,28 @@ def read_off(diag, column_index, target, *, reference="msl"):
         above = np.sum(col_z <= tz[..., None], axis=-1)  # number of levels at or below
     lo = np.clip(above - 1, 0, nlev - 2)
     hi = lo + 1
-    z_lo = np.take_along_axis(col_z, lo[..., None], -1)[..., 0]
-    z_hi = np.take_along_axis(col_z, hi[..., None], -1)[..., 0]
+    del col_z  # the largest temporary: (targets, levels)
+    z_lo, z_hi = zs[c, lo], zs[c, hi]
     with np.errstate(invalid="ignore", divide="ignore"):
         w = np.clip((tz - z_lo) / (z_hi - z_lo), 0.0, 1.0)
     inside = present & np.isfinite(tz) & (tz >= z_lo) & (tz <= z_hi)
     # Between the ground and the lowest forecast level the lowest level's values hold,
     # over a limited depth only (a model's lowest level is its near-surface air).
-    z_min = col_z[..., 0]
+    z_min = zs[c, 0]
     depth = np.log(1.0 + _EXTRAPOLATE_M / 8000.0) if reference == "pressure" else _EXTRAPOLATE_M
     near_base = present & np.isfinite(tz) & (tz < z_min) & (tz >= z_min - depth) & (lo == 0)
     inside = inside | near_base
-    i_lo = np.take_along_axis(order[c], lo[..., None], -1)[..., 0]
-    i_hi = np.take_along_axis(order[c], hi[..., None], -1)[..., 0]
+    # flat indices of the two bracketing levels of every target, in file level order
+    f_lo = c * nlev + order[c, lo]
+    f_hi = c * nlev + order[c, hi]
 
     def pick(field):
-        a = np.asarray(field)
-        return a[c, i_lo], a[c, i_hi]
+        a = np.broadcast_to(np.asarray(field), (m, nlev)).reshape(-1)
+        return a[f_lo], a[f_hi]
 
     out = {}
-    for name in _LINEAR:
+    wanted = _LINEAR if fields is None else [n for n in _LINEAR if n in fields or n == "lwc"]
+    for name in wanted:
         a, b = pick(getattr(diag, name))
         a = np.asarray(a, float)
         b = np.asarray(b, float)

@@ -273,18 +273,50 @@ def _members_pass(members, tg, ground, ev, statistic):
     for m0 in range(0, n_members, per):
         m1 = min(n_members, m0 + per)
         ci = np.broadcast_to(cand[:, None, m0:m1, :], (n, rows, m1 - m0, k))
-        state = _state_at(members.diag, ci, tg["targets"], tg["vref"], ground)
-        tas = _target_airspeeds(ev.samples, ev.route, ev.airframe, ev.given, state)
-        result, s = icing_at(ev.airframe, state, tas)
-        kb = worst_over_candidates(s, result.accretion_rate_mm_h)  # (n, rows, m)
+        s, rate = _member_chunk(members.diag, ci, tg, ground, ev)
+        kb = worst_over_candidates(s, rate)  # (n, rows, m)
         kbest[..., m0:m1] = kb
         sev[..., m0:m1] = take_last(s, kb)
-        score[..., m0:m1] = np.nan_to_num(take_last(result.accretion_rate_mm_h, kb))
+        score[..., m0:m1] = take_last(rate, kb)
     red = reduce_members(sev, statistic, score=score, axis=-1)
     pick = red.statistic_member  # (n, rows)
     k_pick = np.take_along_axis(kbest, pick[..., None], -1)[..., 0]
     cols = cand[np.arange(n)[:, None], pick, k_pick]  # (n, rows)
     return cols[..., None], SimpleNamespace(reduction=red, member_severity=sev[:, -1, :])
+
+
+#: What the members' pass reads off everywhere (the rest only where there is water).
+_FIRST_READ = ("temperature", "lwc", "sld_lwc")
+
+
+def _member_chunk(diag, ci, tg, ground, ev):
+    """Severity and accretion rate of members' columns ``ci`` (n, rows, m, k) at the targets.
+
+    Where a usable state has no cloud liquid, drizzle or rain (no water to catch) the
+    word is "none" and no ice grows, without the collector physics; an unusable state
+    is ``codes.GAP``. Only the wet states (most of a curtain is dry air) are read off in
+    full and evaluated with :func:`icing_at`, exactly as a single forecast's are.
+    """
+    first = _state_at(diag, ci, tg["targets"], tg["vref"], ground, fields=_FIRST_READ)
+    tas = _target_airspeeds(ev.samples, ev.route, ev.airframe, ev.given, first)
+    valid = np.asarray(first["valid"], bool)
+    wet = valid & (
+        (np.nan_to_num(first["lwc"]) > 0)
+        | (np.nan_to_num(first["sld_lwc"]) > 0)
+        | (np.asarray(first["sld_class"]) > codes.SLD_NONE)
+    )
+    sev = np.where(valid, codes.SEV_NONE, codes.GAP).astype(np.int8)
+    rate = np.zeros(valid.shape)
+    if wet.any():
+        extra = (1,) * (ci.ndim - 2)
+        tgt = np.broadcast_to(tg["targets"].reshape(tg["targets"].shape + extra), ci.shape)
+        state = read_off(diag, ci[wet], tgt[wet], reference=tg["vref"])
+        state["valid"] = valid[wet]  # the ground check of the first read holds
+        state["below_ground"] = np.asarray(first["below_ground"])[wet]
+        result, s = icing_at(ev.airframe, state, tas[wet])
+        sev[wet] = s
+        rate[wet] = np.nan_to_num(result.accretion_rate_mm_h)
+    return sev, rate
 
 
 def _sample_coverage(members):
@@ -401,15 +433,16 @@ def _targets(samples, ground, airframe, options):
     return {"targets": targets, "alts_m": alts_m, "vref": vref, "flight": target_flight}
 
 
-def _state_at(diag, ci, targets, vref, ground):
+def _state_at(diag, ci, targets, vref, ground, fields=None):
     """Read the diagnosed columns ``ci`` off at the targets (fields shaped like ``ci``).
 
     ``ci`` is (n, a + 1, ...) (trailing axes: members, candidate columns); the
     targets (n, a + 1) are the same for each. Levels under the ground are unusable.
+    ``fields`` limits the fields read (:func:`icing.hazards.readoff.read_off`).
     """
     extra = (1,) * (ci.ndim - 2)
     tgt = np.broadcast_to(targets.reshape(targets.shape + extra), ci.shape)
-    state = read_off(diag, ci, tgt, reference=vref)
+    state = read_off(diag, ci, tgt, reference=vref, fields=fields)
     g = ground.reshape(ground.shape + (1,) * (ci.ndim - 1))
     with np.errstate(invalid="ignore"):
         under = np.isfinite(g) & (state["height"] < g - 1.0)

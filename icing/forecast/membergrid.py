@@ -1,0 +1,131 @@
+"""The members of files with a member dimension, read together.
+
+A :class:`MemberGridForecast` reads the same tiles as a :class:`GridForecast`, with a
+leading member axis: each block is one read across the file's member dimension
+(:func:`icing.forecast.fields.read_members`), and the samples are located, and the
+corners and times weighted, once for every member. What comes out is each member's
+:class:`~icing.forecast.columns.ColumnSet`, the same as the member's own
+``GridForecast`` gives (``tests/test_ensemble_forecast.py`` holds them equal).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from icing.errors import ForecastError
+from icing.forecast.columns import as_samples
+from icing.forecast.fields import read_members
+from icing.forecast.grid import GridForecast
+
+__all__ = ["MemberGridForecast"]
+
+
+class MemberGridForecast(GridForecast):
+    """Every member of files with a member dimension, read and interpolated together.
+
+    Parameters
+    ----------
+    sources : list of GridSource
+        The files (lead times), each with the same ``member_dim`` and ``members``.
+    **options
+        As :class:`GridForecast`.
+    """
+
+    kind = "grid-members"
+
+    def __init__(self, sources, **options):
+        super().__init__(sources, **options)
+        ref = sources[0]
+        self.member_dim = ref.member_dim
+        self.n_members = len(ref.members)
+
+    def _read_field(self, fld, tslice, ys, xs):
+        """Read a block of every member, levels surface first: (member, [time,] [level,] y, x)."""
+        vals = read_members(fld, self.member_dim, self.n_members, tslice, ys, xs)
+        if fld.levelled:
+            vals = np.take(vals, self._order, axis=2 if fld.timed else 1)
+        return np.ascontiguousarray(vals)
+
+    def _read_blocks(self, key, times, ys, xs):
+        """One field of every member on a block at the given valid-time indices.
+
+        Returns ``{time index: array}``, each (member, [level,] y, x).
+        """
+        out, by_file = {}, {}
+        for t in times:
+            fi, lt = self._time_map[int(t)]
+            by_file.setdefault(fi, []).append((int(t), lt))
+        xkey = (xs.start, xs.stop) if isinstance(xs, slice) else tuple(xs.tolist())
+        for fi, pairs in by_file.items():
+            fld = self.sources[fi].fields[key]
+            lo = min(lt for _, lt in pairs)
+            tslice = slice(lo, max(lt for _, lt in pairs) + 1) if fld.timed else None
+            tkey = None if tslice is None else (lo, tslice.stop)
+            ck = (self.cache_tag, "members", fi, key, ys.start, ys.stop, xkey, tkey)
+            vals = self.cache.get_or_read(
+                ck, lambda f=fld, t=tslice: self._read_field(f, t, ys, xs)
+            )
+            for t, lt in pairs:
+                out[t] = vals[:, lt - lo] if fld.timed else vals
+        return out
+
+    def member_columns_at(self, lat, lon, time, *, fields=None) -> list:
+        """Each member's :class:`ColumnSet` at the samples (one read for all members)."""
+        lat, lon, t = as_samples(lat, lon, time)
+        vals, use, gap = self._interpolate(lat, lon, t, self._keys(fields))
+        out = []
+        for j in range(self.n_members):
+            one = {
+                k: (v[:, j] if use.size else v) for k, v in vals.items()
+            }  # empty arrays are the same for every member
+            out.append(self._column_set(one, use, gap.copy(), lat, lon, t))
+        return out
+
+    def columns_at(self, lat, lon, time, **kwargs):
+        """Refused: every member has its own column (see :meth:`member_columns_at`)."""
+        raise ForecastError(
+            f"an ensemble of {self.n_members} members has no single column",
+            where="ensemble",
+            fix="pick one member with --member N",
+        )
+
+    def surface_height_at(self, lat, lon):
+        """Median of the members' surface heights [m] (first valid time); NaN where unknown."""
+        lat = np.atleast_1d(np.asarray(lat, dtype=float))
+        lon = np.atleast_1d(np.asarray(lon, dtype=float))
+        out = np.full(lat.shape, np.nan)
+        if "surface_height" not in self.sources[0].fields or lat.size == 0:
+            return out
+        t = np.full(lat.shape, self.valid_times[0])
+        vals, use, _ = self._interpolate(lat, lon, t, ["surface_height"])
+        known = np.isfinite(vals["surface_height"]).any(axis=1) if use.size else use
+        if use.size and known.any():
+            out[use[known]] = np.nanmedian(vals["surface_height"][known], axis=1)
+        return out
+
+    def member_winds_at(self, lat, lon, altitude_m, time):
+        """Wind (u, v) [m/s] of every member at the points, (member, n); 0 where unknown.
+
+        The nearest level by height, as :meth:`Forecast.wind_at` for one forecast.
+        """
+        lat, lon, t = as_samples(lat, lon, time)
+        alt = np.broadcast_to(np.asarray(altitude_m, dtype=float), lat.shape)
+        shape = (self.n_members,) + lat.shape
+        u, v = np.zeros(shape), np.zeros(shape)
+        if not self.has_wind or lat.size == 0:
+            return u, v
+        for j, cs in enumerate(self.member_columns_at(lat, lon, t, fields=("wind_u", "wind_v"))):
+            if cs.wind_u is None:
+                continue
+            col = cs.candidates[:, 0]
+            ok = col >= 0
+            c = np.where(ok, col, 0)
+            dz = np.abs(cs.columns["height"][c] - alt[:, None])
+            dz = np.where(np.isfinite(dz), dz, np.inf)
+            lev = np.argmin(dz, axis=-1)[:, None]
+            uu = np.take_along_axis(cs.wind_u[c], lev, -1)[:, 0]
+            vv = np.take_along_axis(cs.wind_v[c], lev, -1)[:, 0]
+            good = ok & np.isfinite(uu) & np.isfinite(vv) & np.isfinite(dz.min(axis=-1))
+            u[j] = np.where(good, uu, 0.0)
+            v[j] = np.where(good, vv, 0.0)
+        return u, v
