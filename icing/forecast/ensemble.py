@@ -206,7 +206,7 @@ class EnsembleForecast(Forecast):
         times = list(d.get("valid_times") or [])
         return {
             "member": m.label,
-            "files": list(d.get("files", [])),
+            "files": [Path(f).name for f in d.get("files", [])],  # names (the paths: files)
             "format": d.get("format"),
             "issue_time": d.get("issue_time"),
             "valid_time_range": [times[0], times[-1]] if times else [None, None],

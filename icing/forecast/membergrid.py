@@ -34,10 +34,18 @@ class MemberGridForecast(GridForecast):
     kind = "grid-members"
 
     def __init__(self, sources, **options):
-        super().__init__(sources, **options)
         ref = sources[0]
         self.member_dim = ref.member_dim
-        self.n_members = len(ref.members)
+        self.n_members = max(1, len(ref.members))
+        # samples interpolated at a time: the corner arrays of all members stay the size
+        # of a single forecast's (memory bounded whatever the member count)
+        options.setdefault("chunk", max(16, 8192 // self.n_members))
+        # tiles a member count times smaller in area: a block of every member holds
+        # about as many values as a single forecast's block
+        hint = ref.tile_hint
+        base = max(8, min(64, hint)) if hint else 32
+        options.setdefault("tile", max(8, int(base / self.n_members**0.5)))
+        super().__init__(sources, **options)
 
     def _read_field(self, fld, tslice, ys, xs):
         """Read a block of every member, levels surface first: (member, [time,] [level,] y, x)."""

@@ -234,7 +234,7 @@ def screen_route(
 #: Target points (samples x curtain rows x members x candidates) read off and evaluated
 #: in one vectorised pass; more members are evaluated in passes of this size, which
 #: bounds the memory (the read-off holds ~30 levels of ~20 fields per point).
-POINTS_PER_PASS = 2**18
+POINTS_PER_PASS = 2**17
 
 
 def _check_spread(options, forecast):
