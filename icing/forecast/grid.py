@@ -100,6 +100,8 @@ class GridForecast(Forecast):
     """
 
     kind = "grid"
+    #: Axis of the valid times in a block read (a leading member axis moves it to 1).
+    _time_axis = 0
 
     def __init__(
         self,
@@ -252,7 +254,7 @@ class GridForecast(Forecast):
                 ck, lambda f=fld, t=tslice: self._read_field(f, t, ys, xs)
             )
             for t, lt in pairs:
-                out[t] = vals[lt - lo] if fld.timed else vals
+                out[t] = vals[(slice(None),) * self._time_axis + (lt - lo,)] if fld.timed else vals
         return out
 
     def _read_field(self, fld, tslice, ys, xs):
@@ -380,8 +382,13 @@ class GridForecast(Forecast):
         t = np.full(lat.shape, self.valid_times[0])
         vals, use, _ = self._interpolate(lat, lon, t, ["surface_height"])
         if use.size:
-            out[use] = vals["surface_height"]
+            out[use] = self._one_value(vals["surface_height"])
         return out
+
+    @staticmethod
+    def _one_value(values):
+        """One value per sample of interpolated values (members reduce theirs)."""
+        return values
 
     def describe(self):
         """Provenance dict (files, kind, grid, times, variables and their names)."""

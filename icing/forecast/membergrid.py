@@ -32,6 +32,7 @@ class MemberGridForecast(GridForecast):
     """
 
     kind = "grid-members"
+    _time_axis = 1  # blocks are (member, [time,] [level,] y, x)
 
     def __init__(self, sources, **options):
         ref = sources[0]
@@ -54,29 +55,6 @@ class MemberGridForecast(GridForecast):
             vals = np.take(vals, self._order, axis=2 if fld.timed else 1)
         return np.ascontiguousarray(vals)
 
-    def _read_blocks(self, key, times, ys, xs):
-        """One field of every member on a block at the given valid-time indices.
-
-        Returns ``{time index: array}``, each (member, [level,] y, x).
-        """
-        out, by_file = {}, {}
-        for t in times:
-            fi, lt = self._time_map[int(t)]
-            by_file.setdefault(fi, []).append((int(t), lt))
-        xkey = (xs.start, xs.stop) if isinstance(xs, slice) else tuple(xs.tolist())
-        for fi, pairs in by_file.items():
-            fld = self.sources[fi].fields[key]
-            lo = min(lt for _, lt in pairs)
-            tslice = slice(lo, max(lt for _, lt in pairs) + 1) if fld.timed else None
-            tkey = None if tslice is None else (lo, tslice.stop)
-            ck = (self.cache_tag, "members", fi, key, ys.start, ys.stop, xkey, tkey)
-            vals = self.cache.get_or_read(
-                ck, lambda f=fld, t=tslice: self._read_field(f, t, ys, xs)
-            )
-            for t, lt in pairs:
-                out[t] = vals[:, lt - lo] if fld.timed else vals
-        return out
-
     def member_columns_at(self, lat, lon, time, *, fields=None) -> list:
         """Each member's :class:`ColumnSet` at the samples (one read for all members)."""
         lat, lon, t = as_samples(lat, lon, time)
@@ -97,18 +75,13 @@ class MemberGridForecast(GridForecast):
             fix="pick one member with --member N",
         )
 
-    def surface_height_at(self, lat, lon):
-        """Median of the members' surface heights [m] (first valid time); NaN where unknown."""
-        lat = np.atleast_1d(np.asarray(lat, dtype=float))
-        lon = np.atleast_1d(np.asarray(lon, dtype=float))
-        out = np.full(lat.shape, np.nan)
-        if "surface_height" not in self.sources[0].fields or lat.size == 0:
-            return out
-        t = np.full(lat.shape, self.valid_times[0])
-        vals, use, _ = self._interpolate(lat, lon, t, ["surface_height"])
-        known = np.isfinite(vals["surface_height"]).any(axis=1) if use.size else use
-        if use.size and known.any():
-            out[use[known]] = np.nanmedian(vals["surface_height"][known], axis=1)
+    @staticmethod
+    def _one_value(values):
+        """Return the members' median per sample (the ground); NaN where unknown."""
+        out = np.full(values.shape[0], np.nan)
+        known = np.isfinite(values).any(axis=1)
+        if known.any():
+            out[known] = np.nanmedian(values[known], axis=1)
         return out
 
     def member_winds_at(self, lat, lon, altitude_m, time):

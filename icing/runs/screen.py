@@ -217,18 +217,10 @@ def screen_route(
     )
     if red is not None:
         at.update(_flight_members(red, members))
-    return _assemble(
-        route,
-        airframe,
-        samples,
-        at,
-        curtain,
-        forecast,
-        column_options,
-        options,
-        segment_prefix,
-        members,
+    run = SimpleNamespace(
+        route=route, airframe=airframe, samples=samples, forecast=forecast, members=members
     )
+    return _assemble(run, at, curtain, column_options, options, segment_prefix)
 
 
 #: Target points (samples x curtain rows x members x candidates) read off and evaluated
@@ -451,21 +443,15 @@ def _state_at(diag, ci, targets, vref, ground, fields=None):
     return state
 
 
-def _assemble(
-    route,
-    airframe,
-    samples,
-    at,
-    curtain,
-    forecast,
-    column_options,
-    options,
-    segment_prefix,
-    members,
-):
-    """Build the screening once: segments with their candidate altitudes, then the summary."""
+def _assemble(run, at, curtain, column_options, options, segment_prefix):
+    """Build the screening once: segments with their candidate altitudes, then the summary.
+
+    ``run`` holds the route, airframe, samples, forecast and members of the screening.
+    """
     from icing.hazards.avoidance import CANDIDATE_WORDING, segment_candidates
     from icing.hazards.segments import build_segments, route_summary, segment_prefix_of
+
+    route, airframe, samples, forecast = run.route, run.airframe, run.samples, run.forecast
 
     limits = _altitude_limits(airframe, options)
     segments = build_segments(
@@ -515,7 +501,7 @@ def _assemble(
             for name, d in zip(samples.waypoint_names, samples.waypoint_distance_m, strict=True)
         ],
         provenance=_provenance(forecast, samples),
-        assumptions=_assumptions(column_options, options, forecast, airframe, limits, members),
+        assumptions=_assumptions(column_options, options, forecast, airframe, limits, run.members),
         ceiling_m=limits["ceiling_m"],
         max_agl_m=limits["max_agl_m"],
         candidates=candidates,
