@@ -245,3 +245,23 @@ def test_ensemble_outputs_write_and_validate(gfs_ensemble, tmp_path, capsys):
     html = (tmp_path / "r.html").read_text()
     assert "Screened with 4 members (forecasts of an ensemble)" in html
     assert "3 of 4 forecasts" in html or "0.75 at moderate means 3 of 4" in html
+
+
+def test_worst_statistic_is_the_icing_member_with_its_physics(gfs_ensemble, real_screening):
+    # the statistic's member is read off again for the outputs: with "worst" it is the
+    # control, so every physics value equals the real forecast's own screening
+    fc = load_forecast(gfs_ensemble.grib)
+    opts = ScreenOptions(member_statistic="worst")
+    ens = screen_route(gfs_ensemble.route, fc, airframe="light-piston", options=opts)
+    assert np.array_equal(ens.curtain.severity, real_screening.curtain.severity)
+    assert np.array_equal(ens.curtain.severity, ens.curtain.severity_worst_member)
+    for key in ("lwc_g_m3", "mvd_um", "accretion_rate_mm_h", "collection_efficiency"):
+        # 1e-9: the members' columns are interpolated with a member axis (last-bit sums)
+        assert np.allclose(
+            ens.at_flight[key], real_screening.at_flight[key], rtol=1e-9, equal_nan=True
+        )
+    kinds = [(f["properties"]["kind"], f["properties"]["severity"]) for f in ens.segments]
+    assert kinds == [
+        (f["properties"]["kind"], f["properties"]["severity"]) for f in real_screening.segments
+    ]
+    assert all(f["properties"]["member_statistic"] == "worst" for f in ens.segments)
