@@ -161,7 +161,10 @@ def _var_map(items):
 def _forecast(args):
     from icing.forecast import load_forecast
 
-    return load_forecast(_forecast_paths(args), **_forecast_kwargs(args))
+    kwargs = _forecast_kwargs(args)
+    if getattr(args, "ensemble", False):
+        return load_forecast(_ensemble_members(args), ensemble=True, **kwargs)
+    return load_forecast(_forecast_paths(args), **kwargs)
 
 
 def _forecast_kwargs(args):
@@ -183,10 +186,22 @@ def _forecast_kwargs(args):
     return kwargs
 
 
-def _forecast_paths(args):
-    """Return the forecast files given, globs expanded; at most :data:`MAX_FORECAST_FILES`."""
+def _ensemble_members(args):
+    """Return the members of ``--ensemble``: each file of one option, or each option.
+
+    ``--forecast a.grib2 b.nc c.grib2 --ensemble``: three members. ``--forecast a1 a2
+    --forecast b1 b2 --ensemble``: two members of two lead-time files each.
+    """
+    groups = [_expanded(group) for group in args.forecast]
+    if len(groups) == 1:
+        return [[p] for p in groups[0]]
+    return groups
+
+
+def _expanded(patterns):
+    """Return the files of one ``--forecast`` option, globs expanded in sorted order."""
     paths = []
-    for p in args.forecast:
+    for p in patterns:
         if any(ch in p for ch in "*?["):
             import glob
 
@@ -198,6 +213,12 @@ def _forecast_paths(args):
             paths.extend(found)
         else:
             paths.append(p)
+    return paths
+
+
+def _forecast_paths(args):
+    """Return the forecast files given, globs expanded; at most :data:`MAX_FORECAST_FILES`."""
+    paths = [p for group in args.forecast for p in _expanded(group)]
     if len(paths) > MAX_FORECAST_FILES:
         raise InputError(
             f"{len(paths)} forecast files, above the limit of {MAX_FORECAST_FILES}",
@@ -247,11 +268,18 @@ def _condition(args):
             where="--accept-gaps",
             fix="give --fail-on LEVEL or --fail-on-tolerance with it",
         )
+    if args.fail_on_fraction is not None and not args.fail_on:
+        raise InputError(
+            "--fail-on-fraction without --fail-on",
+            where="--fail-on-fraction",
+            fix="give --fail-on LEVEL with it",
+        )
     return Condition(
         fail_on=args.fail_on,
         fail_on_tolerance=args.fail_on_tolerance,
         fail_on_gap=args.fail_on_gap,
         accept_gaps=args.accept_gaps,
+        fail_on_fraction=args.fail_on_fraction,
     )
 
 
@@ -383,7 +411,13 @@ def cmd_screen(args) -> int:
         _require_airframes(routes)
         _check_route_airframes(routes)
     forecast = _forecast(args)
-    opts = ScreenOptions(step_km=args.step_km, all_segments=args.all_segments, condition=condition)
+    opts = ScreenOptions(
+        step_km=args.step_km,
+        all_segments=args.all_segments,
+        condition=condition,
+        member_statistic=args.member_statistic,
+        spread=args.spread,
+    )
     screenings = []
     for t in departures:
         screenings += screen_routes(
@@ -719,6 +753,7 @@ def _screen_parser(sub, forecast_args):
         metavar="N",
         help="flight level of routes drawn without altitudes (FL100: 10,000 ft pressure altitude)",
     )
+    _member_args(s)
     _output_args(s)
     _condition_args(s)
     s.set_defaults(func=cmd_screen)
@@ -772,6 +807,36 @@ def _grid_parser(sub, forecast_args):
     g.set_defaults(func=cmd_grid)
 
 
+def _member_args(s):
+    """Ensembles and parametric spread."""
+    from icing.runs.spread import SPREAD_CHOICES
+
+    s.add_argument(
+        "--ensemble",
+        action="store_true",
+        help="the forecast files are ensemble members: each file of one --forecast is a "
+        "member (different models, or time-lagged runs valid at the same times), or each "
+        "--forecast option is one member of several lead-time files",
+    )
+    s.add_argument(
+        "--member-statistic",
+        default="median",
+        metavar="median|worst|pNN",
+        help="ensembles and spreads: the statistic whose word is each segment's severity "
+        "(default median: the word at least half of the members reach; worst: any member; "
+        "p90: at least 10 %% of them); the worst member's word is always given beside it",
+    )
+    s.add_argument(
+        "--spread",
+        nargs="?",
+        const="all",
+        default=None,
+        metavar="CHOICES",
+        help="repeat the diagnosis over stated ranges of its uncertain choices and report "
+        f"them as members: all (default), or a comma list of {', '.join(SPREAD_CHOICES)}",
+    )
+
+
 def _output_args(s):
     s.add_argument(
         "-o",
@@ -807,6 +872,14 @@ def _condition_args(s):
         "part of a route that could not be screened meets it too, unless --accept-gaps",
     )
     s.add_argument(
+        "--fail-on-fraction",
+        type=_bounded(0.01, 1.0, "", "a fraction of the members, from 1 % to all of them"),
+        default=None,
+        metavar="F",
+        help="ensembles and spreads: --fail-on is met when at least this fraction of the "
+        "members reach the level somewhere on the route (default: the member statistic's word)",
+    )
+    s.add_argument(
         "--accept-gaps",
         action="store_true",
         help="coverage gaps do not meet the condition (the route's outcome is 'incomplete')",
@@ -837,11 +910,13 @@ def build_parser() -> argparse.ArgumentParser:
             "--forecast",
             "-f",
             nargs="+",
+            action="append",
             required=True,
             metavar="FILE",
             help="forecast file(s): GRIB1/GRIB2, CF or data-service NetCDF, WRF output, "
             "profile JSON/CSV, radiosonde soundings (Wyoming text/CSV, IGRA2); several files "
-            "(lead times, or a glob) form one forecast",
+            "(lead times, or a glob) form one forecast; a file with an ensemble member "
+            "dimension (GRIB number, NetCDF realization/member) is screened as an ensemble",
         )
         sp.add_argument(
             "--radius-km",
@@ -875,7 +950,8 @@ def build_parser() -> argparse.ArgumentParser:
             type=int,
             default=None,
             metavar="N",
-            help="ensemble member to read from a file with several (GRIB number)",
+            help="read one ensemble member of a file with several (GRIB number, NetCDF "
+            "realization/member) instead of screening them all",
         )
         sp.add_argument(
             "--rh-convention",

@@ -11,7 +11,9 @@ answers must lie (the scenario is described at :func:`_make_screening`).
 Tests ask for them by fixture name: ``canonical_routes``, ``write_text``,
 ``columns``, ``make_screening`` and ``screening_scenario``; ``real_data`` (the
 folder of real model files, origin and licence in its README.md) and
-``screen_cli`` (runs ``icing screen`` on a route of our own over them); the
+``screen_cli`` (runs ``icing screen`` on a route of our own over them);
+``gfs_ensemble`` (small ensembles built from the real GFS file: the real fields as
+the control member beside invented, dried members -- see :func:`gfs_ensemble`); the
 service's tests also use ``service_catalog``, ``service_key``, ``start_service`` and
 ``live_service`` (a real ``icing serve`` on a loopback port).
 """
@@ -786,3 +788,103 @@ def live_service(service_catalog, service_key, tmp_path_factory):
     service.headers = service_key.headers
     yield service
     service.stop()
+
+
+# ---------------------------------------------------------------------------- ensembles
+
+#: The real GFS GRIB2 file the ensembles are built from (tests/data/real/README.md).
+GFS_FILE = "gfs.t12z.pgrbf120.2p5deg.grib2"
+#: A route of our own over the GFS winter case (Great Lakes, 2011-01-15), where the real
+#: forecast holds icing at and around the flight altitude.
+LAKES_ROUTE = ((43.0, -88.0, 3000.0), (43.0, -84.0, 3000.0))
+LAKES_DEPARTURE = datetime(2011, 1, 15, 11, 30, tzinfo=UTC)
+#: The invented perturbation of the dried members: relative humidity 5 %, no cloud water.
+DRIED_RH_PCT = 5.0
+
+
+def _gfs_member_grib(path, members=4):
+    """Write the GFS file as a GRIB2 ensemble: number 0 the real fields, the others dried.
+
+    Each message is coded as an individual ensemble member (product template 4.1, or
+    4.11 for the time-averaged precipitation of template 4.8; ``perturbationNumber``,
+    ``numberOfForecastsInEnsemble``; ``typeOfEnsembleForecast`` 1 for the control, 3
+    for the perturbed members: WMO GRIB2 code tables 4.0 and 4.6). The dried members'
+    relative humidity (5 %) and cloud water (none) are invented test data.
+    """
+    import eccodes
+
+    eccodes.codes_grib_multi_support_on()
+    out = []
+    for number in range(members):
+        with open(REAL_DATA / GFS_FILE, "rb") as fh:
+            while (h := eccodes.codes_grib_new_from_file(fh)) is not None:
+                try:
+                    template = eccodes.codes_get(h, "productDefinitionTemplateNumber")
+                    eccodes.codes_set(
+                        h, "productDefinitionTemplateNumber", {0: 1, 8: 11}[template]
+                    )
+                    eccodes.codes_set(h, "typeOfEnsembleForecast", 1 if number == 0 else 3)
+                    eccodes.codes_set(h, "perturbationNumber", number)
+                    eccodes.codes_set(h, "numberOfForecastsInEnsemble", members)
+                    name = eccodes.codes_get(h, "shortName")
+                    if number and name in ("r", "clwmr"):
+                        n = eccodes.codes_get_size(h, "values")
+                        dried = DRIED_RH_PCT if name == "r" else 0.0
+                        eccodes.codes_set_values(h, np.full(n, dried))
+                    out.append(eccodes.codes_get_message(h))
+                finally:
+                    eccodes.codes_release(h)
+    Path(path).write_bytes(b"".join(out))
+    return Path(path)
+
+
+def _dried(ds):
+    """The invented dried member of an internal-structure dataset (see DRIED_RH_PCT)."""
+    out = ds.copy(deep=True)
+    out["relative_humidity"] = out["relative_humidity"] * 0 + DRIED_RH_PCT / 100.0
+    out["cloud_liquid"] = out["cloud_liquid"] * 0.0
+    return out
+
+
+@pytest.fixture(scope="session")
+def gfs_ensemble(tmp_path_factory):
+    """Small ensembles from the real GFS file (the perturbations are invented test data).
+
+    The control member is the real forecast unchanged; the other members are dried
+    (relative humidity 5 %, no cloud water), an invented perturbation of our own that
+    removes the cloud, so that where the control ices they do not: the member
+    arithmetic is then known exactly (never a physics check value). Written as
+    ``grib`` (four members on a GRIB2 ``number`` axis), ``netcdf`` (four members on a
+    CF ``realization`` axis), and one file per member for ``--ensemble``: ``control``,
+    ``dried``, and ``cropped`` (the control cut west of 86 W: the route's east end is
+    outside that member's grid). ``route`` and ``departure`` are the lakes route.
+    """
+    import xarray as xr
+
+    from icing.forecast import load_forecast
+
+    d = tmp_path_factory.mktemp("gfs-ensemble")
+    grib = _gfs_member_grib(d / "gfs-members.grib2")
+    ds = load_forecast(REAL_DATA / GFS_FILE).dataset.load()
+    dried = _dried(ds)
+    realization = xr.DataArray(
+        np.arange(4), dims="realization", attrs={"standard_name": "realization"}
+    )
+    ens = xr.concat([ds, dried, dried, dried], dim=realization, data_vars="all")
+    for key in ("surface_height",):  # static: no member axis
+        ens[key] = ds[key]
+    paths = {"grib": grib, "netcdf": d / "gfs-members.nc"}
+    ens.to_netcdf(paths["netcdf"])
+    for name, member in (("control", ds), ("dried", dried)):
+        paths[name] = d / f"gfs-{name}.nc"
+        member.to_netcdf(paths[name])
+    paths["cropped"] = d / "gfs-cropped.nc"
+    ds.sel(x=slice(None, 360.0 - 86.0)).to_netcdf(paths["cropped"])
+    route = Route(
+        "lakes shuttle",
+        tuple(Waypoint(f"L{i}", la, lo, z, "msl") for i, (la, lo, z) in enumerate(LAKES_ROUTE)),
+        departure_time=LAKES_DEPARTURE,
+    )
+    return SimpleNamespace(
+        **paths, route=route, departure=LAKES_DEPARTURE, gfs=REAL_DATA / GFS_FILE
+    )

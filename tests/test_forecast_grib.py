@@ -375,10 +375,17 @@ def _ensemble_file(real_data, tmp_path, members=(1, 2)):
     return path
 
 
-def test_ensemble_is_refused_with_how_to_pick_a_member(real_data, tmp_path, capsys):
+def test_ensemble_is_screened_as_its_members(real_data, tmp_path, screen_cli):
+    # a GRIB number axis forms members (docs/contracts.md, section 8)
     path = _ensemble_file(real_data, tmp_path)
-    err = _one_line_refusal(capsys, tmp_path, path)
-    assert "ensemble of 2 members" in err and "--member N" in err
+    code, fc, rows = screen_cli(
+        [[-100.0, 40.0, 3000.0], [-98.0, 40.0, 3000.0]],
+        path,
+        departure="2018-09-17T00:00:00Z",
+    )
+    assert code == 0 and all(r["members_covering"] == "2" for r in rows)
+    assert fc["summaries"][0]["members"] == 2
+    assert fc["provenance"]["kind"] == "ensemble" and fc["provenance"]["members"] == 2
 
 
 def test_one_member_of_an_ensemble_is_read_with_member(real_data, tmp_path, screen_cli):

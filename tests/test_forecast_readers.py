@@ -456,12 +456,12 @@ def test_model_levels_are_refused(tmp_path):
         load_forecast(_to_nc(ds, tmp_path))
 
 
-def test_extra_member_dimension_is_refused(tmp_path):
+def test_extra_member_dimension_forms_members(tmp_path):
+    # a member dimension forms an ensemble (docs/contracts.md, section 8)
     ds = _latlon_ds()
     ds["t"] = ds["t"].expand_dims(number=[0, 1]).copy()
-    with pytest.raises(ForecastError, match="extra dimension 'number'") as info:
-        load_forecast(_to_nc(ds, tmp_path))
-    assert "member" in info.value.fix
+    fc = load_forecast(_to_nc(ds, tmp_path))
+    assert fc.kind == "ensemble" and fc.labels == ("number 0", "number 1")
 
 
 def test_var_map_errors(tmp_path):

@@ -41,7 +41,7 @@ def test_checked_in_schema_is_the_generated_one():
         "run `python -m icing.outputs.schema` after changing icing/outputs/names.py"
     )
     doc = json.loads(schema_text())
-    assert doc["properties"]["schema_version"]["const"] == SCHEMA_VERSION == "1.1"
+    assert doc["properties"]["schema_version"]["const"] == SCHEMA_VERSION == "1.2"
 
 
 def test_every_output_key_is_listed_in_the_schema_with_its_label(run_outputs):

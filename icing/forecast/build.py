@@ -403,9 +403,10 @@ def build_grid_source(
     kinds = dimension_kinds(ds)
     lay = layout_of(ds, kinds, _require_temperature(ds, kinds, var_map, path), path, member)
     times, pairs, crs, grid, gm_attrs, y, x = _frame(ds, kinds, lay, path, notes)
-    members = [d for d in lay.other if ds.sizes[d] > 1]
+    members = [d for d in lay.other if ds.sizes[d] > 1 and d != lay.member_dim]
     for d in members:
         notes.append(f"ensemble member {member} of {ds.sizes[d]} read (dimension {d})")
+    values, labels = _members_of(ds, lay.member_dim, notes)
     vertical = kinds[lay.level_dim]
     found = _find_all(ds, kinds, lay, vertical, var_map, path)
     above_ground = _above_ground(ds, lay, vertical, found, path, notes)
@@ -436,5 +437,24 @@ def build_grid_source(
         height_above_ground=above_ground,
         notes=tuple(notes),
         tile_hint=int(min(chunks[-2:])) if chunks else None,
-        member=member if members else None,
+        member=member if members else (values[0] if values else None),
+        member_dim=lay.member_dim,
+        members=values,
+        member_labels=labels,
     )
+
+
+def _members_of(ds, member_dim, notes):
+    """Return the member values and labels of a file with a member dimension (``()`` without)."""
+    from icing.forecast.coords import member_values
+
+    if member_dim is None:
+        return (), ()
+    values = tuple(v.item() if hasattr(v, "item") else v for v in member_values(ds, member_dim))
+    label_var = f"{member_dim}_label"
+    if label_var in ds.variables and ds.variables[label_var].dims == (member_dim,):
+        labels = tuple(str(x) for x in np.asarray(ds.variables[label_var].values))
+    else:
+        labels = tuple(f"{member_dim} {v}" for v in values)
+    notes.append(f"ensemble of {len(values)} members along dimension {member_dim!r}")
+    return values, labels

@@ -23,6 +23,8 @@ from icing.forecast.units import linear, units_of
 __all__ = [
     "Layout",
     "MEMBER_DIMS",
+    "is_member_dim",
+    "member_values",
     "layout_of",
     "horizontal_dims",
     "valid_times",
@@ -52,6 +54,10 @@ class Layout:
     """Other dimensions held at one index (size 1, or the chosen ensemble member)."""
     step_dim: str | None = None
     """Forecast-step dimension beside ``time_dim`` ((reference time, step) files)."""
+    member_dim: str | None = None
+    """Ensemble-member dimension kept as a member axis (several members, none chosen);
+    ``other`` holds it at the first member, :func:`icing.forecast.dataset.split_members`
+    gives the others."""
 
 
 def horizontal_dims(ds, kinds, name, path):
@@ -70,22 +76,28 @@ def horizontal_dims(ds, kinds, name, path):
     return hy[0], hx[0]
 
 
-#: dimension names of ensemble members
+#: dimension names of ensemble members (GRIB ``number``, CF ``realization``, ...)
 MEMBER_DIMS = ("number", "member", "realization", "realisation", "ensemble", "ens")
 
 
+def is_member_dim(ds, d) -> bool:
+    """Whether a dimension holds ensemble members: by name, or CF ``standard_name`` realization."""
+    if d.lower() in MEMBER_DIMS:
+        return True
+    return d in ds.variables and ds.variables[d].attrs.get("standard_name") == "realization"
+
+
+def member_values(ds, d) -> np.ndarray:
+    """Return the member coordinate's values (0, 1, ... when the dimension has no coordinate)."""
+    return np.asarray(ds[d].values) if d in ds.variables else np.arange(ds.sizes[d])
+
+
 def _member_index(ds, d, member, tname, path):
-    """Index of the chosen member along an ensemble dimension; refuse without a choice."""
-    values = np.asarray(ds[d].values) if d in ds.variables else np.arange(ds.sizes[d])
-    shown = f"{values.min()}..{values.max()}" if values.dtype.kind in "iuf" else str(list(values))
+    """Index of the chosen member along an ensemble dimension (None: keep every member)."""
     if member is None:
-        raise ForecastError(
-            f"{tname!r} has an extra dimension {d!r}: an ensemble of {ds.sizes[d]} members; "
-            "screening ensembles is not available yet",
-            path=path,
-            where=f"variable {tname}",
-            fix=f"pick one member with --member N (N in {shown})",
-        )
+        return None
+    values = member_values(ds, d)
+    shown = f"{values.min()}..{values.max()}" if values.dtype.kind in "iuf" else str(list(values))
     hits = np.flatnonzero(values == member)
     if not hits.size:
         raise ForecastError(
@@ -98,14 +110,17 @@ def _member_index(ds, d, member, tname, path):
 
 
 def _other_dims(ds, tvar, skip, member, path):
-    other = {}
+    """Other dimensions held at one index, and the member dimension kept as a member axis."""
+    other, member_dim = {}, None
     for d in tvar.dims:
         if d in skip:
             continue
         if ds.sizes[d] == 1:
             other[d] = 0
-        elif d.lower() in MEMBER_DIMS:
-            other[d] = _member_index(ds, d, member, tvar.name, path)
+        elif is_member_dim(ds, d) and member_dim is None:
+            index = _member_index(ds, d, member, tvar.name, path)
+            other[d] = 0 if index is None else index
+            member_dim = d if index is None else None
         else:
             raise ForecastError(
                 f"{tvar.name!r} has an extra dimension {d!r} of size {ds.sizes[d]}",
@@ -113,7 +128,7 @@ def _other_dims(ds, tvar, skip, member, path):
                 where=f"variable {tvar.name}",
                 fix=f"select one {d} before screening (or one member with --member N)",
             )
-    return other
+    return other, member_dim
 
 
 def layout_of(ds, kinds, tname, path, member=None):
@@ -138,10 +153,10 @@ def layout_of(ds, kinds, tname, path, member=None):
             fix="give valid times along one dimension, or (reference time, step)",
         )
     skip = (x_dim, y_dim, level_dim, *time_dims, *step_dims)
-    other = _other_dims(ds, tvar, skip, member, path)
+    other, member_dim = _other_dims(ds, tvar, skip, member, path)
     time_dim = time_dims[0] if time_dims else None
     step_dim = step_dims[0] if step_dims else None
-    return Layout(tname, y_dim, x_dim, level_dim, time_dim, other, step_dim)
+    return Layout(tname, y_dim, x_dim, level_dim, time_dim, other, step_dim, member_dim)
 
 
 def _datetimes(values):

@@ -20,12 +20,19 @@ the columns says), relative humidity a fraction over plane water.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
 
-__all__ = ["GridSource", "grid_dataset", "profile_dataset", "DIMS", "CF_NAMES"]
+__all__ = [
+    "GridSource",
+    "grid_dataset",
+    "profile_dataset",
+    "split_members",
+    "DIMS",
+    "CF_NAMES",
+]
 
 #: the dimensions of the internal gridded structure, in order
 DIMS = ("time", "level", "y", "x")
@@ -74,7 +81,14 @@ class GridSource:
     tile_hint: int | None = None
     """The file's chunk size along y/x, a good tile size for reads."""
     member: int | None = None
-    """The ensemble member read (one member until ensembles are screened)."""
+    """The ensemble member the fields read (its value on the member dimension), or None."""
+    member_dim: str | None = None
+    """The file's member dimension when it holds several members and none was chosen:
+    the fields read the first; :func:`split_members` gives one source per member."""
+    members: tuple = ()
+    """The member values along ``member_dim`` (GRIB ``number``, CF ``realization`` ...)."""
+    member_labels: tuple = ()
+    """A name of each member for the outputs (e.g. ``"number 0 (control)"``)."""
 
     @property
     def dataset(self):
@@ -82,10 +96,42 @@ class GridSource:
         return grid_dataset(self)
 
 
-def _field_array(fld, shape):
-    """Wrap a :class:`Field` as a lazy xarray array (outer indexing, read on demand)."""
+def split_members(src: GridSource) -> list[GridSource]:
+    """One source per ensemble member of a file with a member dimension (else ``[src]``).
+
+    The members share the file, its discovery and its conversions; each reads its
+    own index of the member dimension (:func:`icing.forecast.fields.at_member`).
+    """
+    from icing.forecast.fields import at_member
+
+    if src.member_dim is None or len(src.members) < 2:
+        return [src]
+    out = []
+    for i, value in enumerate(src.members):
+        label = src.member_labels[i] if i < len(src.member_labels) else f"{src.member_dim} {value}"
+        out.append(
+            replace(
+                src,
+                fields={k: at_member(f, src.member_dim, i) for k, f in src.fields.items()},
+                member=value,
+                member_dim=None,
+                members=(value,),
+                member_labels=(label,),
+            )
+        )
+    return out
+
+
+def _field_array(fld, shape, member_dim=None):
+    """Wrap a :class:`Field` as a lazy xarray array (outer indexing, read on demand).
+
+    With ``member_dim`` the array has a leading member axis: each member index
+    reads the field at that index of the file's member dimension.
+    """
     from xarray.backends import BackendArray
     from xarray.core import indexing
+
+    from icing.forecast.fields import at_member
 
     class FieldArray(BackendArray):
         def __init__(self):
@@ -98,7 +144,18 @@ def _field_array(fld, shape):
             )
 
         def _read(self, key):
-            """Read the smallest block covering ``key`` and index it."""
+            """Read the smallest block covering ``key`` (member by member) and index it."""
+            if member_dim is None:
+                return self._read_one(fld, key)
+            picked = np.arange(shape[0])[key[0]]
+            blocks = [
+                self._read_one(at_member(fld, member_dim, int(i)), key[1:])
+                for i in np.atleast_1d(picked)
+            ]
+            return blocks[0] if np.ndim(picked) == 0 else np.stack(blocks)
+
+        def _read_one(self, fld, key):
+            """Read one member's block covering ``key`` and index it."""
             names = (["t"] if fld.timed else []) + (["l"] if fld.levelled else []) + ["y", "x"]
             reads, post = {}, []
             for name, k in zip(names, key, strict=True):
@@ -153,19 +210,25 @@ def grid_dataset(src: GridSource):
     }
     if src.issue_time is not None:
         coords["forecast_reference_time"] = ((), np.datetime64(src.issue_time, "ns"))
-    if src.member is not None:  # the member axis, one member wide until ensembles are screened
-        coords["member"] = ((), src.member, {"long_name": "ensemble member read"})
+    several = src.member_dim is not None and len(src.members) > 1
+    member_attrs = {"standard_name": "realization", "long_name": "ensemble member"}
+    if several:  # a member axis: each member reads its own index of the file's dimension
+        coords["member"] = ("member", np.asarray(src.members), member_attrs)
+        coords["member_label"] = ("member", np.asarray(src.member_labels, dtype=object))
+    elif src.member is not None:  # one member of an ensemble file
+        coords["member"] = ((), src.member, {**member_attrs, "long_name": "ensemble member read"})
+    sizes = {"time": src.times.size, "level": src.levels.size, "y": src.y.size, "x": src.x.size}
+    sizes["member"] = len(src.members)
     data = {}
     for key, fld in src.fields.items():
         dims = ("time",) * fld.timed + ("level",) * fld.levelled + ("y", "x")
-        shape = tuple(
-            {"time": src.times.size, "level": src.levels.size, "y": src.y.size, "x": src.x.size}[d]
-            for d in dims
-        )
+        member_dim = src.member_dim if several and _has_member(fld, src.member_dim) else None
+        dims = ("member",) * (member_dim is not None) + dims
+        shape = tuple(sizes[d] for d in dims)
         attrs = _variable_attrs(key, src.provenance.get(key, {}))
         if not geographic:
             attrs["grid_mapping"] = "crs"
-        data[key] = xr.Variable(dims, _field_array(fld, shape), attrs=attrs)
+        data[key] = xr.Variable(dims, _field_array(fld, shape, member_dim), attrs=attrs)
     if not geographic:
         data["crs"] = xr.Variable((), 0, attrs=dict(src.grid_mapping or {}))
     attrs = {
@@ -175,6 +238,19 @@ def grid_dataset(src: GridSource):
         "notes": "; ".join(src.notes),
     }
     return xr.Dataset(data, coords=coords, attrs=attrs)
+
+
+def _has_member(fld, dim) -> bool:
+    """Whether any file variable behind a field has the member dimension."""
+    from icing.forecast.fields import DerivedField, FileField, LevelRegridField
+
+    if isinstance(fld, FileField):
+        return dim in fld.raw.dims
+    if isinstance(fld, LevelRegridField):
+        return _has_member(fld.source, dim)
+    if isinstance(fld, DerivedField):
+        return any(_has_member(f, dim) for f in fld.inputs)
+    return False
 
 
 #: CF standard names of the internal variables

@@ -34,6 +34,8 @@ __all__ = [
     "NetcdfVariable",
     "read_netcdf4",
     "lazy_raw_array",
+    "at_member",
+    "read_members",
 ]
 
 
@@ -254,6 +256,77 @@ class DerivedField(Field):
                 for b, f in zip(blocks, self.inputs, strict=True)
             ]
         return self.func(*blocks, ys=ys, xs=xs)
+
+
+def at_member(fld: Field, dim: str, index: int) -> Field:
+    """Return the same field read at another index of a member dimension.
+
+    Every file variable behind the field (through level regridding and derived
+    quantities) that has ``dim`` is held at ``index`` instead; variables without
+    it (orography, a static field) are shared by every member.
+    """
+    if isinstance(fld, FileField):
+        if dim not in fld.raw.dims:
+            return fld
+        return replace(fld, fixed=tuple({**dict(fld.fixed), dim: int(index)}.items()))
+    if isinstance(fld, LevelRegridField):
+        return replace(fld, source=at_member(fld.source, dim, index))
+    if isinstance(fld, DerivedField):
+        return replace(fld, inputs=tuple(at_member(f, dim, index) for f in fld.inputs))
+    raise TypeError(f"cannot move a {type(fld).__name__} to another member")
+
+
+def read_members(fld: Field, dim: str, count: int, times, ys, xs) -> np.ndarray:
+    """Read a block of every member at once: ``(member, [time,] [level,] y, x)``.
+
+    One read of each file variable across the member dimension ``dim`` (``count``
+    members) instead of one read per member; variables without the dimension are
+    shared by every member. The conversions of derived fields broadcast over the
+    leading member axis.
+    """
+    if isinstance(fld, FileField):
+        if dim not in fld.raw.dims:
+            block = fld.read(times, ys, xs)
+            return np.broadcast_to(block, (count,) + block.shape)
+        return _file_members(fld, dim, times, ys, xs)
+    if isinstance(fld, LevelRegridField):
+        from icing.forecast.interp import apply_level_weights
+
+        vals = read_members(fld.source, dim, count, times, ys, xs)
+        return apply_level_weights(vals, fld.weights, axis=2 if fld.timed else 1)
+    if isinstance(fld, DerivedField):
+        blocks = [read_members(f, dim, count, times, ys, xs) for f in fld.inputs]
+        if fld.timed:
+            nt = next(b.shape[1] for b, f in zip(blocks, fld.inputs, strict=True) if f.timed)
+            blocks = [
+                b if f.timed else np.broadcast_to(b[:, None], (count, nt) + b.shape[1:])
+                for b, f in zip(blocks, fld.inputs, strict=True)
+            ]
+        return fld.func(*blocks, ys=ys, xs=xs)
+    return np.stack([at_member(fld, dim, i).read(times, ys, xs) for i in range(count)])
+
+
+def _file_members(fld, dim, times, ys, xs):
+    """Read a file variable's block across the member dimension (leading axis)."""
+    fixed = {d: i for d, i in fld.fixed if d != dim}
+    if fld.steps is not None:
+        step_dim, pairs = fld.steps
+        blocks = []
+        for ti, si in pairs[times]:
+            at = tuple({**fixed, fld.time_dim: ti, step_dim: si}.items())
+            one = replace(fld, steps=None, time_dim=None, fixed=at)
+            blocks.append(_file_members(one, dim, None, ys, xs))
+        return np.stack(blocks, axis=1)
+    idx = {fld.y_dim: ys, fld.x_dim: xs, **fixed, dim: slice(None)}
+    if fld.timed:
+        idx[fld.time_dim] = times
+    for d in fld.raw.dims:
+        if d not in idx and d != fld.level_dim:
+            idx[d] = 0
+    order = [dim] + [
+        d for d in (fld.time_dim, fld.level_dim, fld.y_dim, fld.x_dim) if d is not None
+    ]
+    return fld.raw.read(idx, order) * fld.scale + fld.offset
 
 
 def lazy_raw_array(raw: RawVariable, shape):

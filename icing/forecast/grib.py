@@ -6,10 +6,23 @@ type: each group becomes one raw variable with its own level set, so variables
 on other level sets are kept (relative humidity on 25 levels beside temperature
 on 26, vertical velocity and cloud water on 21). Valid times come from each
 field's validity date and time ((reference time, step) pairs become one valid-time
-axis; where two runs give the same valid time, the later run is kept). An
-ensemble ``number`` is the member axis: one member is read (``member=``), and a
-file with several members and no choice is refused in one line saying how to
-pick one. Values are decoded lazily, field by field, into a bounded cache.
+axis; where two runs give the same valid time, the later run is kept). Values are
+decoded lazily, field by field, into a bounded cache.
+
+Ensembles. ecCodes' ``number`` key (an alias of ``perturbationNumber``, with
+``totalNumber`` for ``numberOfForecastsInEnsemble``) numbers the members: in GRIB2
+it is defined by the individual-ensemble-forecast product templates 4.1 and 4.11
+(WMO Manual on Codes, code table 4.0), which also carry ``typeOfEnsembleForecast``
+(code table 4.6: 0/1 unperturbed high/low-resolution control, 2/3 negatively/
+positively perturbed, 4 multi-model) -- NCEP GEFS and ECMWF ENS GRIB2 code their
+members so (docs/references.md, [WMO306] and [ecCodes]); in GRIB1 by the centre's
+local definition (ECMWF local definition 1:
+``marsType`` cf control, pf perturbed, with ``number``). Several numbers in a file
+make a ``number`` dimension: the member axis (one member with ``member=``).
+Products derived from the members (GRIB2 templates 4.2-4.7, 4.9, 4.10, 4.12-4.14:
+ensemble mean and spread, cluster, probability, percentile and error fields; GRIB1
+ECMWF ``marsType`` em, es, ep) are not forecasts of the air: they are skipped and
+said, and a file holding nothing else is refused.
 
 The raw variables carry the GRIB identity as attributes (``GRIB_edition``,
 ``GRIB_discipline``, ``GRIB_parameterCategory``, ``GRIB_parameterNumber`` or
@@ -101,6 +114,9 @@ class _Field:
     reference: np.datetime64
     number: int | None
     grid: tuple
+    product: str = "forecast"
+    """"forecast", "control", "perturbed" (ensemble members) or "derived" (mean, spread,
+    probability ...: not a forecast of the air)."""
 
 
 def _identity(h):
@@ -202,7 +218,8 @@ def _scan_one(h, index, info, level_types, first_of_grid):
     grid = grid_signature(h)
     if grid not in first_of_grid:
         first_of_grid[grid] = index
-    number = _get(h, "number")
+    product = _product(h)
+    number = _get(h, "number") if product != "forecast" else None
     return _Field(
         offset=0,
         sub=0,
@@ -212,7 +229,44 @@ def _scan_one(h, index, info, level_types, first_of_grid):
         reference=_datetime(_get(h, "dataDate"), _get(h, "dataTime")),
         number=None if number is None else int(number),
         grid=grid,
+        product=product,
     )
+
+
+#: GRIB2 product templates (code table 4.0) of products derived from an ensemble's
+#: members: mean/spread (2, 12), clusters (3, 4, 13, 14), probabilities (5, 9),
+#: percentiles (6, 10), forecast errors (7)
+_DERIVED_TEMPLATES = {2, 3, 4, 5, 6, 7, 9, 10, 12, 13, 14}
+#: GRIB2 product templates of individual ensemble members (code table 4.0: 1, 11)
+_MEMBER_TEMPLATES = {1, 11}
+#: ECMWF GRIB1 ``marsType`` codes: control (cf), perturbed (pf), and derived products
+#: (em ensemble mean, es ensemble standard deviation, ep probability)
+_MARS_CONTROL, _MARS_PERTURBED, _MARS_DERIVED = 10, 11, {17, 18, 30}
+
+
+def _product(h):
+    """Return what a field is: a forecast, an ensemble member (control/perturbed), or derived.
+
+    Integer keys only (cheap): GRIB2 ``productDefinitionTemplateNumber`` with
+    ``typeOfEnsembleForecast`` (code table 4.6) for members; GRIB1 ``marsType`` of
+    ECMWF's local definition, else ``number`` where a local definition defines it.
+    """
+    if _get_int(h, "edition") == 2:
+        template = _get_int(h, "productDefinitionTemplateNumber")
+        if template in _DERIVED_TEMPLATES:
+            return "derived"
+        if template not in _MEMBER_TEMPLATES:
+            return "forecast"
+        kind = _get_int(h, "typeOfEnsembleForecast")
+        return "control" if kind in (0, 1) else "perturbed"
+    mars = _get_int(h, "marsType")
+    if mars in _MARS_DERIVED:
+        return "derived"
+    if mars == _MARS_CONTROL:
+        return "control"
+    if mars == _MARS_PERTURBED or (mars is None and _get_int(h, "number") is not None):
+        return "perturbed"
+    return "forecast"
 
 
 def scan(path, edition):
@@ -250,7 +304,17 @@ def scan(path, edition):
                 prev = offset
                 f = _scan_one(h, len(fields), info, level_types, first_of_grid)
                 fields.append(
-                    _Field(offset, sub, f.group, f.level, f.valid, f.reference, f.number, f.grid)
+                    _Field(
+                        offset,
+                        sub,
+                        f.group,
+                        f.level,
+                        f.valid,
+                        f.reference,
+                        f.number,
+                        f.grid,
+                        f.product,
+                    )
                 )
             finally:
                 eccodes.codes_release(h)
@@ -433,7 +497,11 @@ def _horizontal(grid):
 
 
 def _group_table(fields, keep, group, times, numbers, levels, has_level):
-    """Field index per (time, [number,] [level]) of one group; -1 where missing."""
+    """Field index per (time, [number,] [level]) of one group; -1 where missing.
+
+    With ``numbers`` (the group is an ensemble's) a field without a member number
+    has no place and is left out (the caller says so).
+    """
     shape = (
         (times.size,)
         + ((len(numbers),) if numbers else ())
@@ -442,12 +510,43 @@ def _group_table(fields, keep, group, times, numbers, levels, has_level):
     table = np.full(shape, -1)
     for i in keep:
         f = fields[i]
-        if f.group == group:
+        if f.group == group and (not numbers or f.number in numbers):
             pos = (int(np.searchsorted(times, f.valid)),)
             pos += (numbers.index(f.number),) if numbers else ()
             pos += (levels.index(f.level),) if has_level else ()
             table[pos] = i
     return table
+
+
+def _member_labels(fields, keep, numbers):
+    """Return a label per member number: ``"number 0 (control)"``, ``"number 3 (perturbed)"``."""
+    kind = {}
+    for i in keep:
+        f = fields[i]
+        if f.number is not None and f.number not in kind:
+            kind[f.number] = f.product
+    return [
+        f"number {n}" + (f" ({kind[n]})" if kind.get(n) in ("control", "perturbed") else "")
+        for n in numbers
+    ]
+
+
+def _without_derived(fields, keep, path, edition):
+    """Leave out the products derived from members (mean, spread ...); say so, or refuse."""
+    derived = [i for i in keep if fields[i].product == "derived"]
+    if not derived:
+        return keep, []
+    rest = [i for i in keep if fields[i].product != "derived"]
+    if not rest:
+        _refuse(
+            path,
+            edition,
+            "holds products derived from an ensemble (mean, spread, probabilities: GRIB2 "
+            "templates 4.2-4.14, ECMWF em/es/ep), not forecasts of the air",
+            "give the members themselves (control and perturbed forecasts) or a "
+            "deterministic forecast",
+        )
+    return rest, [f"{len(derived)} field(s) derived from an ensemble (mean, spread ...) skipped"]
 
 
 def _raw_dataset(gfile, fields, keep, info):
@@ -461,15 +560,19 @@ def _raw_dataset(gfile, fields, keep, info):
     times = np.array(sorted({fields[i].valid for i in keep}), dtype="datetime64[ms]")
     numbers = sorted({fields[i].number for i in keep if fields[i].number is not None})
     numbers = numbers if len(numbers) > 1 else []
-    groups = {}
+    groups, numbered = {}, set()
     for i in keep:
         groups.setdefault(fields[i].group, set()).add(fields[i].level)
+        if numbers and fields[i].number is not None:
+            numbered.add(fields[i].group)
     groups = {g: tuple(sorted(levels)) for g, levels in groups.items()}
     level_dims = _level_dims(groups)
     (ydim, xdim), coords = _horizontal(gfile.grid)
     coords["time"] = ("time", times.astype("datetime64[ns]"))
     if numbers:
-        coords["number"] = ("number", np.asarray(numbers), {"long_name": "ensemble member"})
+        attrs = {"long_name": "ensemble member (GRIB number)", "standard_name": "realization"}
+        coords["number"] = ("number", np.asarray(numbers), attrs)
+        coords["number_label"] = ("number", np.asarray(_member_labels(fields, keep, numbers)))
     for group, dim in level_dims.items():
         unit, attrs = _LEVEL_TYPES.get(group[1], (None, {"axis": "Z"}))
         attrs = {**attrs, "long_name": f"GRIB level type {group[1]}"}
@@ -478,8 +581,9 @@ def _raw_dataset(gfile, fields, keep, info):
     raws, data = {}, {}
     for group, levels in groups.items():
         dim = level_dims.get(group)
-        table = _group_table(fields, keep, group, times, numbers, levels, dim is not None)
-        dims = ("time",) + (("number",) if numbers else ()) + ((dim,) if dim else ())
+        nums = numbers if group in numbered else []
+        table = _group_table(fields, keep, group, times, nums, levels, dim is not None)
+        dims = ("time",) + (("number",) if nums else ()) + ((dim,) if dim else ())
         dims += (ydim, xdim)
         name = f"{info[group]['GRIB_shortName']}_{group[1]}"
         raws[name] = GribVariable(gfile, table, dims)
@@ -506,6 +610,8 @@ def read_grib_forecast(path, *, var_map=None, member=None, rh_convention=None):
     grid_key, notes = _choose_grid(fields, info, path, edition)
     on_grid = [f for f in fields if f.grid == grid_key]
     keep, run_notes = _latest_runs(on_grid)
+    keep, derived_notes = _without_derived(on_grid, keep, path, edition)
+    run_notes += derived_notes
     with ECCODES_LOCK:
         grid = _grid_of(path, fields[first_of_grid[grid_key]], edition)
     gfile = GribFile(path, on_grid, grid)

@@ -94,12 +94,25 @@ class GridForecast(Forecast):
         Samples interpolated at a time (bounded memory for grid-wide calls).
     cache : TileCache, optional
         Blocks kept between calls (shared by every thread using the forecast).
+    cache_tag : hashable, optional
+        Part of every cache key: forecasts sharing one cache (the members of an
+        ensemble) keep their blocks apart.
     """
 
     kind = "grid"
+    #: Axis of the valid times in a block read (a leading member axis moves it to 1).
+    _time_axis = 0
 
     def __init__(
-        self, sources, *, radius_km=50.0, time_tolerance_h=3.0, tile=None, chunk=8192, cache=None
+        self,
+        sources,
+        *,
+        radius_km=50.0,
+        time_tolerance_h=3.0,
+        tile=None,
+        chunk=8192,
+        cache=None,
+        cache_tag=None,
     ):
         ref = sources[0]
         for s in sources[1:]:
@@ -141,6 +154,7 @@ class GridForecast(Forecast):
         self.tile = int(tile or (max(8, min(64, hint)) if hint else 32))
         self.chunk = int(chunk)
         self.cache = cache if cache is not None else TileCache()
+        self.cache_tag = cache_tag
 
     @staticmethod
     def _ground_unknown(ref):
@@ -157,6 +171,18 @@ class GridForecast(Forecast):
             time_tolerance_h=self.time_tolerance_h,
             tile=tile or self.tile,
             chunk=chunk or self.chunk,
+        )
+
+    def with_cache(self, cache, tag):
+        """Return the same forecast reading through a shared cache under its own ``tag``."""
+        return GridForecast(
+            list(self.sources),
+            radius_km=self.radius_km,
+            time_tolerance_h=self.time_tolerance_h,
+            tile=self.tile,
+            chunk=self.chunk,
+            cache=cache,
+            cache_tag=tag,
         )
 
     @property
@@ -222,12 +248,13 @@ class GridForecast(Forecast):
             fld = self.sources[fi].fields[key]
             lo = min(lt for _, lt in pairs)
             tslice = slice(lo, max(lt for _, lt in pairs) + 1) if fld.timed else None
-            ck = (fi, key, ys.start, ys.stop, xkey, None if tslice is None else (lo, tslice.stop))
+            tkey = None if tslice is None else (lo, tslice.stop)
+            ck = (self.cache_tag, fi, key, ys.start, ys.stop, xkey, tkey)
             vals = self.cache.get_or_read(
                 ck, lambda f=fld, t=tslice: self._read_field(f, t, ys, xs)
             )
             for t, lt in pairs:
-                out[t] = vals[lt - lo] if fld.timed else vals
+                out[t] = vals[(slice(None),) * self._time_axis + (lt - lo,)] if fld.timed else vals
         return out
 
     def _read_field(self, fld, tslice, ys, xs):
@@ -322,8 +349,12 @@ class GridForecast(Forecast):
         ``fields`` limits the optional variables read (e.g. ``("wind_u", "wind_v")``).
         """
         lat, lon, t = as_samples(lat, lon, time)
-        n = lat.size
         vals, use, gap = self._interpolate(lat, lon, t, self._keys(fields))
+        return self._column_set(vals, use, gap, lat, lon, t)
+
+    def _column_set(self, vals, use, gap, lat, lon, t):
+        """Build the :class:`ColumnSet` of interpolated values at the samples ``use``."""
+        n = lat.size
         m = use.size
         cols = assemble_columns(vals, m, self._spec)
         good = np.ones(m, bool)
@@ -371,8 +402,13 @@ class GridForecast(Forecast):
         t = np.full(lat.shape, self.valid_times[0])
         vals, use, _ = self._interpolate(lat, lon, t, ["surface_height"])
         if use.size:
-            out[use] = vals["surface_height"]
+            out[use] = self._one_value(vals["surface_height"])
         return out
+
+    @staticmethod
+    def _one_value(values):
+        """One value per sample of interpolated values (members reduce theirs)."""
+        return values
 
     def describe(self):
         """Provenance dict (files, kind, grid, times, variables and their names)."""

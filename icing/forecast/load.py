@@ -17,15 +17,30 @@ from pathlib import Path
 
 from icing.errors import ForecastError
 from icing.forecast.columns import Forecast
+from icing.forecast.dataset import split_members
+from icing.forecast.ensemble import EnsembleForecast, EnsembleMember, member_label_of_files
 from icing.forecast.grib import read_grib_forecast
 from icing.forecast.grid import GridForecast
+from icing.forecast.membergrid import MemberGridForecast
 from icing.forecast.netcdf import read_netcdf_forecast
 from icing.forecast.points import ProfileForecast
 from icing.forecast.profiles import read_profiles_csv, read_profiles_json
 from icing.forecast.soundings import check_site_used, read_sounding, sounding_format
 from icing.forecast.table import ProfileTable
 
-__all__ = ["Reader", "READERS", "load_forecast", "demo_forecast_path", "recognise"]
+__all__ = [
+    "Reader",
+    "READERS",
+    "load_forecast",
+    "load_ensemble",
+    "demo_forecast_path",
+    "recognise",
+    "MAX_MEMBERS",
+]
+
+#: The most members of one ensemble: above the 51 of the largest operational global
+#: ensembles with room for multi-model sets; each member is diagnosed along the route.
+MAX_MEMBERS = 200
 
 _HEAD = 4096  # bytes a reader may look at to recognise its format
 
@@ -168,6 +183,7 @@ def load_forecast(
     member=None,
     rh_convention=None,
     sounding_site=None,
+    ensemble=False,
 ) -> Forecast:
     """Read one or several forecast files into one :class:`Forecast`.
 
@@ -192,7 +208,8 @@ def load_forecast(
         ``standard_name``, then by GRIB parameter, then by names and long names.
     member : int, optional
         The ensemble member to read from a file with several (GRIB ``number``,
-        NetCDF ``member``/``realization``/``number``).
+        NetCDF ``member``/``realization``/``number``). Without it such a file is an
+        ensemble: an :class:`~icing.forecast.ensemble.EnsembleForecast` of its members.
     rh_convention : str, optional
         What the files' relative humidity is relative to, when they do not say
         (:data:`icing.forecast.conventions.CONVENTIONS`: water, ifs-mixed, ncep-gfs,
@@ -200,11 +217,16 @@ def load_forecast(
     sounding_site : icing.forecast.soundings.SoundingSite, optional
         Radiosonde files: station position, elevation and launch time for files
         that do not give them (``--station``, ``--time``).
+    ensemble : bool
+        Each item of ``paths`` is one member (a path, or a list of the paths of
+        one member's lead times): see :func:`load_ensemble`.
 
     Returns
     -------
     Forecast
-        :class:`GridForecast` or :class:`ProfileForecast`.
+        :class:`GridForecast`, :class:`ProfileForecast`, or an
+        :class:`~icing.forecast.ensemble.EnsembleForecast` (``ensemble``, or files
+        with a member dimension).
 
     Raises
     ------
@@ -214,6 +236,16 @@ def load_forecast(
     """
     if isinstance(paths, (str, Path)):
         paths = [paths]
+    if ensemble:
+        return load_ensemble(
+            paths,
+            radius_km=radius_km,
+            time_tolerance_h=time_tolerance_h,
+            var_map=var_map,
+            member=member,
+            rh_convention=rh_convention,
+            sounding_site=sounding_site,
+        )
     paths = [Path(p) for p in paths]
     if not paths:
         raise ForecastError("no forecast file given", fix="give at least one forecast file")
@@ -224,6 +256,8 @@ def load_forecast(
     if readers[0].kind == "grid":
         opts = {"var_map": var_map, "member": member, "rh_convention": rh_convention}
         sources = [r.read(p, **opts) for r, p in zip(readers, paths, strict=True)]
+        if any(s.member_dim is not None for s in sources):
+            return _member_dimension_ensemble(sources, radius_km, time_tolerance_h)
         return GridForecast(sources, radius_km=radius_km, time_tolerance_h=time_tolerance_h)
     for option, value in (
         ("--var", var_map),
@@ -241,3 +275,107 @@ def load_forecast(
     return ProfileForecast(
         ProfileTable.concatenate(tables), radius_km=radius_km, time_tolerance_h=time_tolerance_h
     )
+
+
+def _member_dimension_ensemble(sources, radius_km, time_tolerance_h):
+    """Return the members of files with a member dimension: one GridForecast per member.
+
+    Every file (lead time) must hold the same members; member i of each file forms
+    member i. The members read through one shared tile cache (bounded as one forecast).
+    """
+    from icing.forecast.tiles import TileCache
+
+    ref = sources[0]
+    for s in sources[1:]:
+        if s.member_dim is None or tuple(s.members) != tuple(ref.members):
+            have = f"members {list(s.members)}" if s.member_dim else "one member"
+            raise ForecastError(
+                f"{have}, but {ref.path.name} holds members {list(ref.members)}",
+                path=s.path,
+                fix="give the lead times of one ensemble (the same members in every file), "
+                "or pick one member with --member N",
+            )
+    _check_member_count(len(ref.members), ref.path)
+    split = [split_members(s) for s in sources]
+    cache = TileCache()
+    members = []
+    for i, label in enumerate(ref.member_labels):
+        grid = GridForecast(
+            [parts[i] for parts in split],
+            radius_km=radius_km,
+            time_tolerance_h=time_tolerance_h,
+            cache=cache,
+            cache_tag=i,
+        )
+        members.append(EnsembleMember(str(label), grid))
+    joint = MemberGridForecast(sources, radius_km=radius_km, time_tolerance_h=time_tolerance_h)
+    return EnsembleForecast(members, origin="member dimension", whole_source=ref, joint=joint)
+
+
+def _check_member_count(count, path):
+    if count > MAX_MEMBERS:
+        raise ForecastError(
+            f"{count} members, above the limit of {MAX_MEMBERS}",
+            path=path,
+            fix="screen a subset of the members (one file per member with --ensemble)",
+        )
+
+
+def load_ensemble(members, **options) -> EnsembleForecast:
+    """Read several forecasts as the members of one ensemble (``--ensemble``).
+
+    Parameters
+    ----------
+    members : sequence
+        One item per member: a path, or a list of the paths of one member's lead
+        times. Members may be different models (grids, levels) or time-lagged runs
+        of one model valid at the same times; a file with a member dimension gives
+        all its members.
+    **options
+        As :func:`load_forecast` (radius, tolerance, variable names, ...).
+
+    Returns
+    -------
+    EnsembleForecast
+        Members named after their files; gridded members share one tile cache.
+
+    Raises
+    ------
+    ForecastError
+        Fewer than two members, a file given twice, or a member's own error.
+    """
+    from icing.forecast.tiles import TileCache
+
+    groups = [[p] if isinstance(p, (str, Path)) else list(p) for p in members]
+    seen = {}
+    for group in groups:
+        for p in group:
+            key = Path(p).resolve()
+            if key in seen:
+                raise ForecastError(
+                    "given twice as an ensemble member (one forecast would count twice)",
+                    path=p,
+                    fix="give each file once",
+                )
+            seen[key] = True
+    out, cache = [], TileCache()
+    for group in groups:
+        fc = load_forecast(group, **options)
+        name = member_label_of_files(group)
+        parts = (
+            [(f"{name}: {m.label}", m.forecast) for m in fc.members]
+            if isinstance(fc, EnsembleForecast)
+            else [(name, fc)]
+        )
+        for label, forecast in parts:
+            if isinstance(forecast, GridForecast):
+                forecast = forecast.with_cache(cache, len(out))
+            out.append(EnsembleMember(label, forecast))
+    if len(out) < 2:
+        raise ForecastError(
+            f"--ensemble with {len(out)} member",
+            path=groups[0][0] if groups and groups[0] else None,
+            fix="give two or more forecast files as members, or drop --ensemble",
+        )
+    _check_member_count(len(out), groups[0][0])
+    return EnsembleForecast(out, origin="files given as members")

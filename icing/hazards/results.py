@@ -59,12 +59,24 @@ class Curtain:
     """(n, a) stagnation thickness rate on the worst collector. [mm/h]"""
     ground_m: np.ndarray
     """(n,) surface elevation MSL under each sample (NaN where unknown). [m]"""
+    members: int = 1
+    """Number of members (ensembles and spreads; 1 for a single forecast). With
+    several, ``severity`` and the other fields are the statistic's member's."""
+    member_statistic: str | None = None
+    """The statistic whose word is ``severity`` (``"median"`` ...), None for one member."""
+    member_fraction: dict | None = None
+    """``{word: (n, a) array}``: fraction of the members with data at that word or
+    worse (NaN where no member has data); None for a single forecast."""
+    severity_worst_member: np.ndarray | None = None
+    """(n, a) the worst member's severity code (GAP where no member has data)."""
 
     def __post_init__(self):
         for f in fields(self):
             value = getattr(self, f.name)
             if isinstance(value, np.ndarray):
                 object.__setattr__(self, f.name, owned(value))
+            elif isinstance(value, dict):
+                object.__setattr__(self, f.name, _owned_tree(value))
 
 
 @dataclass(frozen=True)

@@ -77,9 +77,31 @@ def segment_samples(at_flight: dict) -> list[tuple[int, int]]:
         | (sld[1:] != sld[:-1])
         | (ice[1:] != ice[:-1])
     )
+    for key in _member_keys(at_flight):  # ensembles: the members' words and fractions
+        change[1:] |= key[1:] != key[:-1]
     starts = np.flatnonzero(change).tolist()
     bounds = [0] + starts + [n]
     return [(a, b) for a, b in zip(bounds[:-1], bounds[1:], strict=True) if b > a]
+
+
+def _member_keys(at_flight) -> list:
+    """Per-sample values whose change starts a new segment in an ensemble.
+
+    The worst member's word, how many members have data, and the band of each
+    member fraction (:func:`icing.hazards.ensemble.fraction_band`: none, quarters,
+    all), so a segment never hides a member's more severe stretch nor a material
+    change of the fractions. Empty for a single forecast.
+    """
+    if "member_fraction" not in at_flight:
+        return []
+    from icing.hazards.ensemble import fraction_band
+
+    keys = [
+        np.asarray(at_flight["severity_worst_member"]),
+        np.asarray(at_flight["members_covering"]),
+    ]
+    keys += [fraction_band(f) for f in at_flight["member_fraction"].values()]
+    return keys
 
 
 def segment_prefix_of(route_name: str) -> str:
@@ -169,9 +191,10 @@ def build_segments(
     n = len(samples.lat)
     kind_all = _kind(np.asarray(at_flight["severity"]), np.asarray(at_flight["covered"], bool))
     alt_msl = np.asarray(at_flight["altitude_msl_m"], float)
+    member_ice = _member_icing(at_flight)
     for k, (a, b) in enumerate(segment_samples(at_flight)):
         kind = kind_all[a]
-        if kind == KIND_CLEAR and not all_segments:
+        if kind == KIND_CLEAR and not (all_segments or member_ice[a]):
             continue
         end = min(b, n - 1)  # the segment reaches the next segment's first sample
         idx = slice(a, end + 1)
@@ -196,6 +219,8 @@ def build_segments(
             props["severity"] = codes.SEVERITY[codes.SEV_NONE]
             props["severity_rank"] = codes.SEV_NONE
             props["sld"] = "none"
+        if "member_fraction" in at_flight:
+            props.update(_member_properties(at_flight, slice(a, b)))
         features.append(
             {
                 "type": "Feature",
@@ -205,6 +230,63 @@ def build_segments(
             }
         )
     return features
+
+
+def _member_icing(at_flight):
+    """Per sample: some member ices where the statistic's word is "none" (ensembles).
+
+    Such no-icing stretches are always written: one member in four icing is worth
+    seeing even when the median says none.
+    """
+    n = len(np.asarray(at_flight["severity"]))
+    if "severity_worst_member" not in at_flight:
+        return np.zeros(n, bool)
+    return np.asarray(at_flight["severity_worst_member"]) >= codes.SEV_TRACE
+
+
+#: The most members named in a segment's ``member_gap_reason``.
+_GAP_MEMBERS_NAMED = 10
+
+
+def _member_properties(at_flight, sl):
+    """Ensemble properties of a segment: members, fractions, the worst member's word, gaps.
+
+    The fractions are the largest over the segment's samples (within a segment they
+    stay in one band, see :func:`_member_keys`); null where no member has data.
+    """
+    members = int(at_flight["members"])
+    covering = np.asarray(at_flight["members_covering"])[sl]
+    worst = np.asarray(at_flight["severity_worst_member"])[sl]
+    w = int(worst.max()) if worst.size else codes.GAP
+    props = {
+        "members": members,
+        "members_covering": int(covering.min()) if covering.size else 0,
+        "member_statistic": str(at_flight["member_statistic"]),
+        "member_fraction": None,
+        "severity_worst_member": None if w == codes.GAP else codes.SEVERITY[w],
+        "member_gap_reason": None,
+    }
+    if covering.size and covering.max() > 0:
+        props["member_fraction"] = {
+            word: _round(_stat(np.asarray(f)[sl], np.max), 3)
+            for word, f in at_flight["member_fraction"].items()
+        }
+    if covering.size and covering.min() < members:
+        props["member_gap_reason"] = _member_gap_text(at_flight, sl)
+    return props
+
+
+def _member_gap_text(at_flight, sl):
+    """Which members have no data on a segment, and why: "2 of 4 members: a (why); b (why)"."""
+    labels = np.asarray(at_flight["member_labels"], dtype=object)
+    reasons = np.asarray(at_flight["member_gap_reason"], dtype=object)[sl]  # (s, M)
+    sev = np.asarray(at_flight["member_severity"])[sl]  # (s, M)
+    parts = []
+    for j in np.flatnonzero((sev == codes.GAP).any(axis=0)):
+        why = sorted({str(r) for r in reasons[:, j] if r}) or ["missing-values"]
+        parts.append(f"{labels[j]} ({', '.join(why)})")
+    shown = "; ".join(parts[:_GAP_MEMBERS_NAMED]) + ("; ..." if len(parts) > 10 else "")
+    return f"{len(parts)} of {len(labels)} members without data on part or all of it: {shown}"
 
 
 def _range(values, scale=1.0, nd=0):
@@ -386,6 +468,9 @@ def route_summary(screening_like, *, airframe=None) -> dict:
         status = "partly screened: coverage gaps"
     else:
         status = "screened"
+    members = _ensemble_summary(af, dt, step_km) if "member_fraction" in af else {}
+    if members.get("member_gap_km") and status == "screened":
+        status = "partly screened: some members have coverage gaps"
     return {
         "route": screening_like.route_name,
         "airframe": screening_like.airframe_name,
@@ -415,7 +500,84 @@ def route_summary(screening_like, *, airframe=None) -> dict:
         "gap_minutes": _minutes(~covered, dt),
         "gap_count": sum(f["properties"]["kind"] == KIND_GAP for f in segments),
         "icing_segments": sum(f["properties"]["kind"] == KIND_ICING for f in segments),
+        **members,
     }
+
+
+def _ensemble_summary(af, dt, step_km):
+    """Return a route's ensemble results: members, the statistic, route fractions, each member.
+
+    ``member_fraction`` of a route: the fraction of the members with data on the
+    route whose worst word anywhere along it is that word or worse ("2 of 4 members
+    put moderate or worse somewhere on the route"). ``member_gap_km``: where at
+    least one member has no data (a gap of one member is a gap).
+    """
+    from icing.hazards.ensemble import FRACTION_WORDS, fractions_in_words
+
+    msev = np.asarray(af["member_severity"])  # (n, M)
+    members = int(af["members"])
+    route_worst = msev.max(axis=0) if msev.size else np.full(members, codes.GAP)
+    with_data = route_worst != codes.GAP
+    fractions = None
+    if with_data.any():
+        fractions = {
+            w: round(float(np.mean(route_worst[with_data] >= codes.severity_code(w))), 4)
+            for w in FRACTION_WORDS
+        }
+    worst = int(route_worst.max()) if with_data.any() else None
+    gap_any = (msev == codes.GAP).any(axis=1)
+    covering = np.asarray(af["members_covering"])
+    return {
+        "members": members,
+        "member_statistic": str(af["member_statistic"]),
+        "member_fraction": fractions,
+        "member_fraction_words": None
+        if fractions is None
+        else fractions_in_words(fractions, int(with_data.sum())) + " somewhere on the route",
+        "severity_worst_member": None if worst is None else codes.SEVERITY[worst],
+        "members_covering_min": int(covering.min()) if covering.size else 0,
+        "member_gap_km": round(float(np.sum(step_km[gap_any])), 2),
+        "member_gap_minutes": _minutes(gap_any, dt),
+        "member_coverage": _member_coverage(af, msev, dt, step_km),
+    }
+
+
+def _member_coverage(af, msev, dt, step_km):
+    """Per member: its worst word on the route and where it has no data (stretches in km)."""
+    labels = np.asarray(af["member_labels"], dtype=object)
+    reasons = np.asarray(af["member_gap_reason"], dtype=object)
+    dist = np.concatenate([[0.0], np.cumsum(step_km)[:-1]]) if step_km.size else step_km
+    out = []
+    for j, label in enumerate(labels):
+        gap = msev[:, j] == codes.GAP
+        stretches = []
+        for a, b in _runs(gap):
+            why = sorted({str(r) for r in reasons[a:b, j] if r}) or ["missing-values"]
+            stretches.append(
+                {
+                    "start_km": round(float(dist[a]), 2),
+                    "end_km": round(float(dist[b - 1] + step_km[b - 1]), 2),
+                    "reason": ", ".join(why),
+                }
+            )
+        worst = int(msev[~gap, j].max()) if (~gap).any() else None
+        out.append(
+            {
+                "member": str(label),
+                "worst_severity": None if worst is None else codes.SEVERITY[worst],
+                "gap_km": round(float(np.sum(step_km[gap])), 2),
+                "gap_minutes": _minutes(gap, dt),
+                "gaps": stretches,
+            }
+        )
+    return out
+
+
+def _runs(mask):
+    """Half-open index ranges of the True runs of a boolean array."""
+    m = np.concatenate([[False], np.asarray(mask, bool), [False]])
+    edges = np.flatnonzero(np.diff(m.astype(np.int8)))
+    return list(zip(edges[::2].tolist(), edges[1::2].tolist(), strict=True))
 
 
 def _ice_totals(af, dt, covered, airframe):

@@ -56,6 +56,18 @@ LABELS = {
     "candidate_altitudes": "candidate altitudes per icing stretch",
     "candidate_altitudes_wording": "candidate altitudes: how to read them",
     "caution": "caution",
+    # ensembles and spreads (route summaries and segments)
+    "members": "members",
+    "member_statistic": "member statistic giving the severity",
+    "member_fraction": "fraction of members at each severity or worse",
+    "member_fraction_words": "members at each severity or worse, in words",
+    "severity_worst_member": "worst member's icing",
+    "members_covering": "members with data",
+    "members_covering_min": "fewest members with data",
+    "member_gap_km": "some member without data [km]",
+    "member_gap_minutes": "some member without data [min]",
+    "member_coverage": "each member's worst icing and coverage gaps",
+    "member_gap_reason": "members without data, and why",
     # segments (GeoJSON / GeoPackage features)
     "segment_id": "segment",
     "from_waypoint": "from",
@@ -132,6 +144,10 @@ LABELS = {
     "freezing_fraction": "freezing fraction",
     "ice_density_kg_m3": "ice density [kg/m\u00b3]",
     "accretion_rate_mm_h": "ice growth [mm/h]",
+    "member_fraction_trace": "fraction of members at trace or worse",
+    "member_fraction_light": "fraction of members at light or worse",
+    "member_fraction_moderate": "fraction of members at moderate or worse",
+    "member_fraction_severe": "fraction of members at severe",
 }
 
 #: Deprecated keys, kept one release beside their new name: old key -> new key.

@@ -55,6 +55,10 @@ SEGMENT_COLUMNS = (
     "mvd_um_max",
     "accretion_mm",
     "candidate_altitudes_ft",
+    # ensembles and spreads only
+    "severity_worst_member",
+    "member_fraction",
+    "members_covering",
 )
 
 #: Columns of the summary table: what a reader needs first, nothing wider than the page.
@@ -430,6 +434,7 @@ def _route_section(s, i, pic, tmp, own):
         + (f", arrives {_e(_when(summ.get('arrival_time')))}" if summ else "")
         + "</p>",
         _holds(s),
+        _members_paragraph(summ, ((s.assumptions or {}).get("members") or {}).get("kind")),
     ]
     if pic:
         draw = partial(plot_cross_section, axis=pic["axis"])
@@ -439,7 +444,13 @@ def _route_section(s, i, pic, tmp, own):
             f'alt="{_e("cross-section of " + s.route_name)}"><figcaption>Severity '
             "along the route against altitude, with isotherms, cloud outline, SLD, "
             "coverage gaps, ground, planned flight path, holds and candidate altitudes."
-            "</figcaption></figure>"
+            + (
+                " Below it, the fraction of the members at light or worse and at moderate "
+                "or worse: the darker, the more forecasts agree."
+                if summ.get("members")
+                else ""
+            )
+            + "</figcaption></figure>"
         )
     parts.append(_candidates(s))
     parts.append(_segment_table(s, i))
@@ -465,6 +476,57 @@ def _route_section(s, i, pic, tmp, own):
         )
     parts.append("</section>")
     return "\n".join(p for p in parts if p)
+
+
+#: What the members of a run are, in words.
+_MEMBER_KINDS = {
+    "ensemble": "forecasts of an ensemble",
+    "spread": "variants of the diagnosis's uncertain choices on one forecast",
+}
+
+
+def _members_paragraph(summ, kind=None):
+    """How many members and which statistic, the fractions in plain words, each member."""
+    members = summ.get("members")
+    if not members:
+        return ""
+    stat = summ.get("member_statistic")
+    what = _MEMBER_KINDS.get(kind, "forecasts")
+    lines = [
+        f"Screened with {members} members ({what}); "
+        f"the severity shown is the {stat} member's word, with the worst member's beside "
+        "it. A fraction is a share of the members: 0.75 at moderate means 3 of 4 forecasts "
+        "put moderate or severe icing at that place. It is not a calibrated probability.",
+    ]
+    if summ.get("member_fraction_words"):
+        lines.append(
+            f"On this route: {summ['member_fraction_words']}; worst member: "
+            f"{summ.get('severity_worst_member') or 'unknown'}."
+        )
+    if summ.get("member_gap_km"):
+        lines.append(
+            f"{_num(summ['member_gap_km'])} km where at least one member has no data (a "
+            "coverage gap: unknown, not 'no icing')."
+        )
+    rows = "".join(
+        "<tr>"
+        + _cell(m.get("member"))
+        + _cell(m.get("worst_severity"), cls=_severity_class(m.get("worst_severity")))
+        + _cell(m.get("gap_km"))
+        + _cell("; ".join(f"{g['start_km']}-{g['end_km']} km: {g['reason']}" for g in m["gaps"]))
+        + "</tr>"
+        for m in summ.get("member_coverage") or []
+    )
+    head = "".join(
+        _cell(h, tag="th") for h in ("member", "worst icing", "no data [km]", "where, why")
+    )
+    return (
+        '<div class="members">'
+        + "".join(f"<p>{_e(t)}</p>" for t in lines)
+        + '<details><summary>Each member</summary><div class="scroll"><table '
+        f'class="members"><thead><tr>{head}</tr></thead><tbody>{rows}</tbody></table></div>'
+        "</details></div>"
+    )
 
 
 def _num(value):

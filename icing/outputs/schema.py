@@ -16,7 +16,14 @@ from icing import codes
 from icing._version import SCHEMA_VERSION
 from icing.outputs.names import DEPRECATED, LABELS
 
-__all__ = ["schema", "schema_text", "SCHEMA_PATH", "SUMMARY_TYPES", "SEGMENT_TYPES"]
+__all__ = [
+    "schema",
+    "schema_text",
+    "SCHEMA_PATH",
+    "SUMMARY_TYPES",
+    "SEGMENT_TYPES",
+    "MEMBER_KEYS",
+]
 
 SCHEMA_PATH = Path(__file__).resolve().parents[1] / "data" / "schemas" / "hazards-v1.json"
 
@@ -65,7 +72,33 @@ SUMMARY_TYPES = {
     "candidate_altitudes_ft": {"type": "array", "items": {"type": "object"}},
     "candidate_altitudes_wording": {"type": "string"},
     "caution": {"type": "string", "minLength": 40},
+    **{  # ensembles and spreads only (schema 1.2)
+        "members": {"type": "integer", "minimum": 2},
+        "member_statistic": {"type": "string"},
+        "member_fraction": {"oneOf": [{"type": "null"}, {"$ref": "#/$defs/member_fraction"}]},
+        "member_fraction_words": _STR,
+        "severity_worst_member": _SEV,
+        "members_covering_min": {"type": "integer", "minimum": 0},
+        "member_gap_km": {"type": "number", "minimum": 0},
+        "member_gap_minutes": {"type": "number", "minimum": 0},
+        "member_coverage": {"type": "array", "items": {"$ref": "#/$defs/member_coverage"}},
+    },
 }
+
+#: Summary and segment keys written for ensembles and spreads only (never required).
+MEMBER_KEYS = (
+    "members",
+    "member_statistic",
+    "member_fraction",
+    "member_fraction_words",
+    "severity_worst_member",
+    "members_covering",
+    "members_covering_min",
+    "member_gap_km",
+    "member_gap_minutes",
+    "member_coverage",
+    "member_gap_reason",
+)
 
 #: Segment (GeoJSON Feature) property keys and their JSON types.
 SEGMENT_TYPES = {
@@ -118,7 +151,41 @@ SEGMENT_TYPES = {
     "caution": {"type": "string", "minLength": 40},
     "gap_reason": {"type": "string"},
     "note": {"type": "string"},
+    **{  # ensembles and spreads only (schema 1.2)
+        "members": {"type": "integer", "minimum": 2},
+        "members_covering": {"type": "integer", "minimum": 0},
+        "member_statistic": {"type": "string"},
+        "member_fraction": {"oneOf": [{"type": "null"}, {"$ref": "#/$defs/member_fraction"}]},
+        "severity_worst_member": _SEV,
+        "member_gap_reason": _STR,
+    },
 }
+
+
+def _member_defs():
+    """Return the shared definitions of the ensemble keys."""
+    fraction = {"type": ["number", "null"], "minimum": 0, "maximum": 1}
+    return {
+        "member_fraction": {
+            "type": "object",
+            "description": "fraction of the members with data at each severity or worse",
+            "required": list(codes.SEVERITY[1:]),
+            "properties": {w: fraction for w in codes.SEVERITY[1:]},
+            "additionalProperties": False,
+        },
+        "member_coverage": {
+            "type": "object",
+            "required": ["member", "worst_severity", "gap_km", "gaps"],
+            "properties": {
+                "member": {"type": "string"},
+                "worst_severity": _SEV,
+                "gap_km": {"type": "number", "minimum": 0},
+                "gap_minutes": {"type": "number", "minimum": 0},
+                "gaps": {"type": "array", "items": {"type": "object"}},
+            },
+        },
+    }
+
 
 _SEGMENT_REQUIRED = [
     k
@@ -132,6 +199,7 @@ _SEGMENT_REQUIRED = [
         "severity_reasons",
     )
     and k not in ("gap_reason", "note")
+    and k not in MEMBER_KEYS
 ]
 _SUMMARY_REQUIRED = [
     "route",
@@ -231,7 +299,10 @@ def schema() -> dict:
         "reference is route_altitude_reference. Each key's title is the label people read in "
         "the terminal table, the report and the pictures. 1.1: per-route outcome, airframe, "
         "MSL altitudes with the route's own reference beside them, metres, severity_rank, "
-        "candidate_altitudes_ft (ice_free_altitudes_ft deprecated).",
+        "candidate_altitudes_ft (ice_free_altitudes_ft deprecated). 1.2: ensembles and "
+        "parametric spreads (members, member_fraction, member_statistic, "
+        "severity_worst_member, members_covering, member_coverage; written only when a run "
+        "has several members).",
         "type": "object",
         "required": [
             "type",
@@ -263,6 +334,7 @@ def schema() -> dict:
             },
         },
         "not": {"required": ["crs"]},
+        "$defs": _member_defs(),
         "x-csv-columns": _csv_columns(),
     }
 

@@ -87,6 +87,18 @@ def summary_table(summaries) -> str:
     rows = [[_summary_cell(s, k) for k in SUMMARY_COLUMNS] for s in summaries]
     lines = _grid(head, rows)
     for s in summaries:
+        if s.get("members"):
+            lines.append(
+                f"{s['route']}: {s['members']} members, severity by the "
+                f"{s.get('member_statistic')} member; "
+                f"{s.get('member_fraction_words') or 'no member has data'}; worst member "
+                f"{s.get('severity_worst_member') or 'unknown'}"
+                + (
+                    f"; {s['member_gap_km']:g} km where some member has no data"
+                    if s.get("member_gap_km")
+                    else ""
+                )
+            )
         if s.get("outcome") is not None or s.get("worst_severity") is None:
             lines.append(
                 f"{s['route']}: {OUTCOME_WORDS[s.get('outcome')]}: {s['outcome_reason']}"
@@ -194,7 +206,17 @@ SAMPLE_COLUMNS = [
     "tas_m_s",
     "severity_rank",
     "severity_reasons",
+    # added in schema 1.2: ensembles and spreads (empty for a single forecast)
+    "members_covering",
+    "severity_worst_member",
+    "member_fraction_trace",
+    "member_fraction_light",
+    "member_fraction_moderate",
+    "member_fraction_severe",
 ]
+
+#: The ensemble columns of the samples table (filled when a run has several members).
+_MEMBER_COLUMNS = SAMPLE_COLUMNS[SAMPLE_COLUMNS.index("members_covering") :]
 
 
 def _number(x):
@@ -247,12 +269,27 @@ def sample_table(screening) -> list[dict]:
             if gap
             else str(np.asarray(af.get("severity_reasons", [""] * n))[i]),
         }
+        row.update(_member_cells(af, i))
         for key in SAMPLE_COLUMNS:
             if key not in row:
                 v = af.get(key)
                 row[key] = "" if v is None or (gap and key == "accretion_mm") else _number(v[i])
         rows.append(row)
     return rows
+
+
+def _member_cells(af, i):
+    """Return the ensemble cells of sample ``i`` (empty without members; empty where unknown)."""
+    if "member_fraction" not in af:
+        return dict.fromkeys(_MEMBER_COLUMNS, "")
+    worst = int(af["severity_worst_member"][i])
+    out = {
+        "members_covering": int(af["members_covering"][i]),
+        "severity_worst_member": "" if worst == codes.GAP else codes.SEVERITY[worst],
+    }
+    for word, f in af["member_fraction"].items():
+        out[f"member_fraction_{word}"] = _number(f[i])
+    return out
 
 
 def samples_csv(screenings) -> str:

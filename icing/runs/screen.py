@@ -21,6 +21,7 @@ from icing.calc.airspeed import PHASE_LEVEL, PHASES
 from icing.calc.severity import NOTE_POSSIBLE_DRIZZLE, severity_reasons
 from icing.caution import CAUTION
 from icing.constants import FT, KT, T0
+from icing.hazards.ensemble import MemberStatistic, reduce_members
 from icing.hazards.outcome import Condition, route_outcome
 from icing.hazards.readoff import icing_at, read_off, take_last, worst_over_candidates
 from icing.hazards.results import Curtain, RouteScreening
@@ -51,6 +52,12 @@ class ScreenOptions:
         Step of the candidate-altitude search; default suited to the airframe's band
         (1,000 ft for aircraft; for drones a step giving about eight altitudes inside
         their height band, e.g. 50 ft within 400 ft). [ft]
+    member_statistic : str
+        Ensembles and spreads: the statistic whose word is ``severity``
+        (``"median"``, ``"worst"``, ``"pNN"``; :class:`icing.hazards.ensemble.MemberStatistic`).
+    spread : str or tuple or None
+        A parametric spread on a single forecast (``"all"`` or choices of
+        :data:`icing.runs.spread.SPREAD_CHOICES`); None for none.
     """
 
     step_km: float = 1.0
@@ -60,6 +67,11 @@ class ScreenOptions:
     all_segments: bool = False
     condition: Condition | None = None
     candidate_step_ft: float | None = None
+    member_statistic: str = "median"
+    spread: str | tuple | None = None
+
+    def __post_init__(self):
+        MemberStatistic.parse(self.member_statistic)  # refuses an unknown statistic
 
     def describe(self) -> dict:
         """Return the options as a JSON-serialisable dict."""
@@ -151,20 +163,28 @@ def screen_route(
         Samples, per-sample values at the flight altitude, the altitude curtain,
         GeoJSON segments (each with the caution) and the summary.
     """
-    from icing.calc.column import ColumnOptions, diagnose_columns
+    from icing.calc.column import ColumnOptions
+    from icing.runs.members import member_columns
+    from icing.runs.spread import spread_variants
 
     options = options or ScreenOptions()
     if step_km is not None:
         options = replace(options, step_km=step_km)
     column_options = column_options or ColumnOptions()
     route, forecast, airframe = _loaded(route, forecast, airframe)
+    _check_spread(options, forecast)
     timed, given = route_for_timing(route, airframe, tas_kt=tas_kt)
     samples = _sample(timed, forecast, airframe, options, tas_kt, departure)
-    colset = forecast.columns_at(samples.lat, samples.lon, samples.time)
-    diag = diagnose_columns(**colset.columns, options=column_options)
-    ground = _ground_height(route, samples, forecast, colset)
-    grid = _read_off_targets(samples, colset, diag, ground, airframe, options)
-    state, ci, alts_m, vref = grid["state"], grid["ci"], grid["alts_m"], grid["vref"]
+    spread = spread_variants(column_options, options.spread) if options.spread else None
+    members = member_columns(forecast, samples, column_options, spread=spread)
+    ground = _ground_height(route, samples, forecast, members.first)
+    tg = _targets(samples, ground, airframe, options)
+    ev = SimpleNamespace(samples=samples, route=route, airframe=airframe, given=given)
+    if members.count == 1:
+        ci, red = _candidate_columns(members, tg["targets"].shape[1]), None
+    else:
+        ci, red = _members_pass(members, tg, ground, ev, options.member_statistic)
+    state = _state_at(members.diag, ci, tg["targets"], tg["vref"], ground)
     tas_ms = _target_airspeeds(samples, route, airframe, given, state)
     result, sev = icing_at(airframe, state, tas_ms)
     notes = result.notes | np.where(state.get("possible_drizzle", False), NOTE_POSSIBLE_DRIZZLE, 0)
@@ -174,16 +194,17 @@ def screen_route(
         """Return the worst candidate's value, (n, a+1)."""
         return take_last(np.broadcast_to(a, sev.shape), kbest)
 
-    at = _at_flight(samples, colset, diag, state, result, best(sev), best, airframe, ci)
+    cover = _sample_coverage(members)
+    at = _at_flight(samples, cover, members.diag, state, result, best(sev), best, airframe, ci)
     at.update(
-        _flight_altitudes(samples, vref, best(state["height"])[:, -1], grid["flight"], ground)
+        _flight_altitudes(samples, tg["vref"], best(state["height"])[:, -1], tg["flight"], ground)
     )
     _speeds_and_reasons(at, best(tas_ms)[:, -1], best(notes)[:, -1], samples, route)
     at["gap_reason"] = _ground_gap_reason(at["gap_reason"], samples, ground)
     curtain = Curtain(
         distance_km=at["distance_km"],
-        altitudes_m=alts_m,
-        altitude_reference=vref,
+        altitudes_m=tg["alts_m"],
+        altitude_reference=tg["vref"],
         severity=best(sev)[:, :-1],
         below_ground=best(state["below_ground"])[:, :-1],
         temperature_c=best(state["temperature"])[:, :-1] - T0,
@@ -192,10 +213,139 @@ def screen_route(
         ice_type=best(result.ice_type)[:, :-1],
         accretion_rate_mm_h=best(result.accretion_rate_mm_h)[:, :-1],
         ground_m=ground,
+        **_curtain_members(red),
     )
-    return _assemble(
-        route, airframe, samples, at, curtain, forecast, column_options, options, segment_prefix
+    if red is not None:
+        at.update(_flight_members(red, members))
+    run = SimpleNamespace(
+        route=route, airframe=airframe, samples=samples, forecast=forecast, members=members
     )
+    return _assemble(run, at, curtain, column_options, options, segment_prefix)
+
+
+#: Target points (samples x curtain rows x members x candidates) read off and evaluated
+#: in one vectorised pass; more members are evaluated in passes of this size, which
+#: bounds the memory (the read-off holds ~30 levels of ~20 fields per point).
+POINTS_PER_PASS = 2**17
+
+
+def _check_spread(options, forecast):
+    """Refuse --spread on an ensemble: the fractions would mix forecasts and assumptions."""
+    if options.spread and hasattr(forecast, "member_columns_at"):
+        from icing.errors import InputError
+
+        raise InputError(
+            "--spread applies to a single forecast, not to an ensemble",
+            where="--spread",
+            fix="screen the ensemble, or the spread of one of its members (--member N)",
+        )
+
+
+def _candidate_columns(members, rows):
+    """Return the one member's candidate columns of every target, (n, rows, k)."""
+    cand = members.candidates[:, 0, :]
+    return np.broadcast_to(cand[:, None, :], (cand.shape[0], rows, cand.shape[1]))
+
+
+def _members_pass(members, tg, ground, ev, statistic):
+    """Evaluate every member at every target, reduce the member axis, pick the columns.
+
+    Members are evaluated together (in passes of :data:`POINTS_PER_PASS` target
+    points); each member keeps its worst candidate column. Returns the columns of
+    the statistic's member at each target, (n, rows, 1), and the reduction (with
+    each member's flight-altitude words, ``member_severity`` (n, member)).
+    """
+    cand = members.candidates  # (n, M, k)
+    n, n_members, k = cand.shape
+    rows = tg["targets"].shape[1]
+    sev = np.empty((n, rows, n_members), np.int8)
+    score = np.empty((n, rows, n_members), np.float32)
+    kbest = np.empty((n, rows, n_members), np.int64)
+    per = max(1, POINTS_PER_PASS // max(1, n * rows * k))
+    for m0 in range(0, n_members, per):
+        m1 = min(n_members, m0 + per)
+        ci = np.broadcast_to(cand[:, None, m0:m1, :], (n, rows, m1 - m0, k))
+        s, rate = _member_chunk(members.diag, ci, tg, ground, ev)
+        kb = worst_over_candidates(s, rate)  # (n, rows, m)
+        kbest[..., m0:m1] = kb
+        sev[..., m0:m1] = take_last(s, kb)
+        score[..., m0:m1] = take_last(rate, kb)
+    red = reduce_members(sev, statistic, score=score, axis=-1)
+    pick = red.statistic_member  # (n, rows)
+    k_pick = np.take_along_axis(kbest, pick[..., None], -1)[..., 0]
+    cols = cand[np.arange(n)[:, None], pick, k_pick]  # (n, rows)
+    return cols[..., None], SimpleNamespace(reduction=red, member_severity=sev[:, -1, :])
+
+
+#: What the members' pass reads off everywhere (the rest only where there is water).
+_FIRST_READ = ("temperature", "pressure", "lwc", "sld_lwc", "sld_class")
+
+
+def _member_chunk(diag, ci, tg, ground, ev):
+    """Severity and accretion rate of members' columns ``ci`` (n, rows, m, k) at the targets.
+
+    Where a usable state has no cloud liquid, drizzle or rain (no water to catch) the
+    word is "none" and no ice grows, without the collector physics; an unusable state
+    is ``codes.GAP``. Only the wet states (most of a curtain is dry air) are read off in
+    full and evaluated with :func:`icing_at`, exactly as a single forecast's are.
+    """
+    first = _state_at(diag, ci, tg["targets"], tg["vref"], ground, fields=_FIRST_READ)
+    tas = _target_airspeeds(ev.samples, ev.route, ev.airframe, ev.given, first)
+    valid = np.asarray(first["valid"], bool)
+    wet = valid & (
+        (np.nan_to_num(first["lwc"]) > 0)
+        | (np.nan_to_num(first["sld_lwc"]) > 0)
+        | (np.asarray(first["sld_class"]) > codes.SLD_NONE)
+    )
+    sev = np.where(valid, codes.SEV_NONE, codes.GAP).astype(np.int8)
+    rate = np.zeros(valid.shape)
+    if wet.any():
+        extra = (1,) * (ci.ndim - 2)
+        tgt = np.broadcast_to(tg["targets"].reshape(tg["targets"].shape + extra), ci.shape)
+        state = read_off(diag, ci[wet], tgt[wet], reference=tg["vref"])
+        state["valid"] = valid[wet]  # the ground check of the first read holds
+        state["below_ground"] = np.asarray(first["below_ground"])[wet]
+        result, s = icing_at(ev.airframe, state, tas[wet])
+        sev[wet] = s
+        rate[wet] = np.nan_to_num(result.accretion_rate_mm_h)
+    return sev, rate
+
+
+def _sample_coverage(members):
+    """Per sample: whether any member has a column, and why none has (members' reasons)."""
+    covered = members.covered.any(axis=1)
+    reason = np.full(covered.shape, "", dtype=object)
+    for i in np.flatnonzero(~covered):
+        reason[i] = ", ".join(sorted({str(r) for r in members.gap_reason[i] if r}))
+    return SimpleNamespace(covered=covered, gap_reason=reason)
+
+
+def _curtain_members(ens):
+    """Return the curtain's member fields (none for a single forecast)."""
+    if ens is None:
+        return {}
+    red = ens.reduction
+    return {
+        "members": red.members,
+        "member_statistic": red.statistic.name,
+        "member_fraction": {w: f[:, :-1] for w, f in red.member_fraction.items()},
+        "severity_worst_member": red.severity_worst_member[:, :-1],
+    }
+
+
+def _flight_members(ens, members):
+    """Per-sample member fields at the flight altitude (ensembles and spreads)."""
+    red = ens.reduction
+    return {
+        "members": red.members,
+        "member_labels": np.asarray(members.labels, dtype=object),
+        "member_statistic": red.statistic.name,
+        "members_covering": red.members_covering[:, -1].astype(np.int16),
+        "severity_worst_member": red.severity_worst_member[:, -1].astype(np.int8),
+        "member_fraction": {w: f[:, -1] for w, f in red.member_fraction.items()},
+        "member_severity": ens.member_severity,
+        "member_gap_reason": np.asarray(members.gap_reason, dtype=object),
+    }
 
 
 def _target_airspeeds(samples, route, airframe, given, state):
@@ -259,40 +409,49 @@ def _sample(route, forecast, airframe, options, tas_kt, departure):
     )
 
 
-def _read_off_targets(samples, colset, diag, ground, airframe, options):
-    """Read the diagnosed columns off on the curtain rows and at the flight altitude.
+def _targets(samples, ground, airframe, options):
+    """Vertical targets of every sample: the curtain rows, then the flight altitude.
 
-    Returns a dict: ``state`` (fields shaped (n, a + 1, k): a curtain rows, then
-    the flight altitude, k candidate columns), ``ci`` (the column of each), the
+    Returns a dict: ``targets`` (n, a + 1) heights [m] or pressures [Pa], the
     curtain ``alts_m``, the vertical reference ``vref`` and the ``flight`` targets.
     """
     from icing.calc.thermo import standard_atmosphere_pressure
 
     n = len(samples.lat)
-    covered = np.asarray(colset.covered, bool)
-    cand = np.where(covered[:, None], np.asarray(colset.candidates), -1)  # (n, k)
     target_flight, vref = _flight_targets(samples, ground)
     alts_m = _curtain_rows(airframe, options, ground)
     rows = standard_atmosphere_pressure(alts_m) if vref == "pressure" else alts_m
     targets = np.concatenate([np.broadcast_to(rows, (n, alts_m.size)), target_flight[:, None]], 1)
-    tgt = np.broadcast_to(targets[:, :, None], targets.shape + (cand.shape[1],))
-    ci = np.broadcast_to(cand[:, None, :], tgt.shape)
-    state = read_off(diag, ci, tgt, reference=vref)
+    return {"targets": targets, "alts_m": alts_m, "vref": vref, "flight": target_flight}
+
+
+def _state_at(diag, ci, targets, vref, ground, fields=None):
+    """Read the diagnosed columns ``ci`` off at the targets (fields shaped like ``ci``).
+
+    ``ci`` is (n, a + 1, ...) (trailing axes: members, candidate columns); the
+    targets (n, a + 1) are the same for each. Levels under the ground are unusable.
+    ``fields`` limits the fields read (:func:`icing.hazards.readoff.read_off`).
+    """
+    extra = (1,) * (ci.ndim - 2)
+    tgt = np.broadcast_to(targets.reshape(targets.shape + extra), ci.shape)
+    state = read_off(diag, ci, tgt, reference=vref, fields=fields)
+    g = ground.reshape(ground.shape + (1,) * (ci.ndim - 1))
     with np.errstate(invalid="ignore"):
-        under = np.isfinite(ground)[:, None, None] & (
-            state["height"] < ground[:, None, None] - 1.0
-        )
+        under = np.isfinite(g) & (state["height"] < g - 1.0)
     state["below_ground"] = state["below_ground"] | under
     state["valid"] = state["valid"] & ~under
-    return {"state": state, "ci": ci, "alts_m": alts_m, "vref": vref, "flight": target_flight}
+    return state
 
 
-def _assemble(
-    route, airframe, samples, at, curtain, forecast, column_options, options, segment_prefix
-):
-    """Build the screening once: segments with their candidate altitudes, then the summary."""
+def _assemble(run, at, curtain, column_options, options, segment_prefix):
+    """Build the screening once: segments with their candidate altitudes, then the summary.
+
+    ``run`` holds the route, airframe, samples, forecast and members of the screening.
+    """
     from icing.hazards.avoidance import CANDIDATE_WORDING, segment_candidates
     from icing.hazards.segments import build_segments, route_summary, segment_prefix_of
+
+    route, airframe, samples, forecast = run.route, run.airframe, run.samples, run.forecast
 
     limits = _altitude_limits(airframe, options)
     segments = build_segments(
@@ -342,7 +501,7 @@ def _assemble(
             for name, d in zip(samples.waypoint_names, samples.waypoint_distance_m, strict=True)
         ],
         provenance=_provenance(forecast, samples),
-        assumptions=_assumptions(column_options, options, forecast, airframe, limits),
+        assumptions=_assumptions(column_options, options, forecast, airframe, limits, run.members),
         ceiling_m=limits["ceiling_m"],
         max_agl_m=limits["max_agl_m"],
         candidates=candidates,
@@ -440,7 +599,7 @@ def _flight_altitudes(samples, vref, level_height_m, target_flight, ground):
     }
 
 
-def _at_flight(samples, colset, diag, state, result, sev_b, best, airframe, column_index):
+def _at_flight(samples, cover, diag, state, result, sev_b, best, airframe, column_index):
     """Per-sample values at the planned altitude (the last target column), for output."""
 
     def flight(a):
@@ -448,9 +607,9 @@ def _at_flight(samples, colset, diag, state, result, sev_b, best, airframe, colu
 
     sev = sev_b[:, -1]
     gap = sev == codes.GAP
-    covered = np.asarray(colset.covered, bool)
+    covered = np.asarray(cover.covered, bool)
     # why a sample is a gap: the forecast's reason, else no usable level at that altitude
-    reason = np.where(covered, "missing-values", np.asarray(colset.gap_reason, dtype=object))
+    reason = np.where(covered, "missing-values", np.asarray(cover.gap_reason, dtype=object))
     names = np.array([c.name for c in airframe.collectors], dtype=object)
     at = {
         "covered": ~gap,
@@ -551,8 +710,32 @@ def _provenance(forecast, samples):
     return prov
 
 
-def _assumptions(column_options, options, forecast, airframe, limits):
+def _member_assumptions(options, members):
+    """How the members were formed and reduced (ensembles and spreads)."""
+    from icing.hazards.ensemble import FRACTION_MEANING
+
+    statistic = MemberStatistic.parse(options.member_statistic)
+    return {
+        "kind": members.kind,
+        "members": members.count,
+        "member_list": list(members.details),
+        "statistic": statistic.name,
+        "statistic_meaning": statistic.describe(),
+        "severity": f"severity is the {statistic.name} member's word at each sample; "
+        "severity_worst_member the worst member's",
+        "member_fraction": FRACTION_MEANING,
+        "evaluation": "each member's whole columns diagnosed, read off and evaluated for the "
+        "airframe like a single forecast's, all members in one vectorised pass (passes of "
+        f"{POINTS_PER_PASS} target points); members are never blended into one column",
+        "route_timing": "one timing for every member, with the mean of the members' winds",
+        "candidate_altitudes": f"searched on the {statistic.name} member's words",
+    }
+
+
+def _assumptions(column_options, options, forecast, airframe, limits, members):
     out = {"column": column_options.describe(), "screening": options.describe()}
+    if members.count > 1:
+        out["members"] = _member_assumptions(options, members)
     out["screening"]["candidate_altitude_step_ft"] = limits["step_ft"]
     from icing.calc.airframe import assumptions as collector_assumptions
 

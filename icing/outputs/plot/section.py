@@ -21,6 +21,7 @@ from matplotlib.patches import Patch
 from icing import codes
 from icing.constants import FT
 from icing.errors import InputError
+from icing.outputs.plot.members import PANEL_WORDS, draw_member_panel
 from icing.outputs.plot.style import (
     CANDIDATE_COLOUR,
     CLOUD_COLOUR,
@@ -355,9 +356,11 @@ def plot_cross_section(
     below = np.asarray(cur.below_ground, dtype=bool)
     gap = (sev == codes.GAP) & ~below
     fr = _frame(cur, axis)
-    fig = Figure(figsize=figsize)
     pressure = getattr(cur, "altitude_reference", "msl") == "pressure"
-    ax = fig.add_axes([0.075, 0.27, 0.62 if pressure else 0.66, 0.56])
+    panels = PANEL_WORDS if getattr(cur, "member_fraction", None) else ()
+    figsize, rects = _layout(figsize, len(panels), 0.62 if pressure else 0.66)
+    fig = Figure(figsize=figsize)
+    ax = fig.add_axes(rects[0])
     _draw_severity(ax, fr, sev)
     _draw_gaps(ax, fr, gap)
     _draw_sld(ax, fr, np.asarray(cur.sld_class), below)
@@ -383,10 +386,39 @@ def plot_cross_section(
     _label_gaps(ax, fr, gap, y_bottom, y_top)
     _draw_axes(ax, pressure, list(getattr(screening, "waypoints", None) or []), fr.agl)
     _draw_time_axis(ax, screening)
-    _draw_titles(fig, screening, title)
+    _draw_titles(fig, screening, title, rects[0][1] + rects[0][3])
     _draw_legend(ax, pressure, have_candidates)
+    for i, word in enumerate(panels):
+        pax = fig.add_axes(rects[i + 1], sharex=ax)
+        draw_member_panel(pax, fr, cur, word, path=(fx, fy), legend=i == 0)
+        pax.set_ylim(y_bottom, y_top)
+        pax.set_xlabel("distance along the route [km]" if i == len(panels) - 1 else "", fontsize=8)
     draw_caution(fig, figsize[0])
     return save(fig, path, fmt, dpi, tight=True)
+
+
+#: Member panels [in]: height of one, room under the severity panel (its time axis),
+#: room between panels, room under the last one (axis label, caution).
+_PANEL_IN, _UNDER_MAIN_IN, _BETWEEN_IN, _BOTTOM_IN = 1.55, 1.45, 0.6, 1.15
+
+
+def _layout(figsize, panels, width):
+    """Figure size and axes rectangles: the severity panel, then the member panels below it.
+
+    Without member panels the single panel keeps its place; with them the figure
+    grows downwards by the panels and the room between them. Sizes in inches.
+    """
+    w, h = figsize
+    if not panels:
+        return (w, h), [[0.075, 0.27, width, 0.56]]
+    y, boxes = _BOTTOM_IN, []
+    for i in range(panels):  # from the bottom up
+        boxes.insert(0, (y, _PANEL_IN))
+        y += _PANEL_IN + (_UNDER_MAIN_IN if i == panels - 1 else _BETWEEN_IN)
+    total = y + 0.56 * h + 0.17 * h
+    rects = [[0.075, y / total, width, 0.56 * h / total]]
+    rects += [[0.075, b / total, width, hh / total] for b, hh in boxes]
+    return (w, total), rects
 
 
 def _frame(cur, axis):
@@ -612,18 +644,25 @@ def _draw_time_axis(ax, screening):
     sec.set_xlabel("planned time [UTC]", fontsize=8)
 
 
-def _draw_titles(fig, screening, title):
+def _draw_titles(fig, screening, title, top=0.83):
     """Title (route and airframe) and the subtitle with the flight's own times."""
     head = title or f"{screening.route_name} \u2014 {screening.airframe_name}"
     sub = "icing severity cross-section (reference collector)"
+    cur = screening.curtain
+    if getattr(cur, "members", 1) > 1:
+        sub = (
+            f"icing severity of the {cur.member_statistic} of {cur.members} members "
+            "(reference collector)"
+        )
     times = _flight_times(screening)
     if times:
         sub += f"; departs {times[0]}, arrives {times[1]}"
     issued = (getattr(screening, "provenance", None) or {}).get("issue_time")
     if issued:
         sub += f"; forecast issued {issued}"
-    fig.text(0.075, 0.965, head, fontsize=11, weight="bold", va="top", gid="title")
-    fig.text(0.075, 0.925, sub, fontsize=8, va="top", gid="subtitle")
+    h = fig.get_figheight()  # the titles stand a fixed distance above the panel [in]
+    fig.text(0.075, top + 0.918 / h, head, fontsize=11, weight="bold", va="top", gid="title")
+    fig.text(0.075, top + 0.646 / h, sub, fontsize=8, va="top", gid="subtitle")
 
 
 def _flight_times(screening):
