@@ -16,7 +16,7 @@ import numpy as np
 
 __all__ = ["gammaincinv", "beta", "gammainc"]
 
-#: Gamma(mu + 4) quantiles: (a, q) -> value, from scipy.special.gammaincinv (scipy 1.16).
+#: Gamma(mu + 4) quantiles: (a, q) -> value, from scipy.special.gammaincinv (scipy 1.17).
 #: a = 4.0 (exponential spectra), 15.3 (maritime, mu = 11.3), 5.37 + 4 (continental,
 #: mu = 5.37, as the float sum the callers form); q = 0.5, 0.999 and the 7 equal-mass
 #: bins (i + 1/2) / 7.
