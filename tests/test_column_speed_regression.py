@@ -227,3 +227,40 @@ def test_given_ice_saturation_changes_nothing():
         clouds.bridge_single_level_gaps(mask, rh, t, ice_saturation=f_i),
         clouds.bridge_single_level_gaps(mask, rh, t),
     )
+
+
+def _mixed_columns(n=1200, seed=11):
+    """The benchmark's columns, half of them dried out, with gaps, ground and rain (invented)."""
+    rng = np.random.default_rng(seed)
+    c = {k: np.array(v) for k, v in _make_columns(n, seed).items()}
+    dry = rng.random(n) < 0.5
+    c["relative_humidity"][dry] = np.minimum(c["relative_humidity"][dry], 0.5)
+    c["cloud_liquid"][dry] = 0.0
+    c["temperature"][rng.random(c["temperature"].shape) < 0.005] = np.nan
+    c["surface_pressure"] = rng.uniform(94000, 101500, n)
+    wet = rng.random(n) < 0.2
+    c["rain"] = np.where(wet[:, None] & (rng.random((n, 40)) < 0.3), 2e-4, 0.0)
+    c["snow"] = np.where(rng.random((n, 40)) < 0.02, 2e-4, 0.0)
+    c["precipitation_rate_mm_h"] = np.where(rng.random(n) < 0.1, 1.5, 0.0)
+    c["precipitation_rate_mm_h"][::97] = np.nan
+    return c
+
+
+@pytest.mark.parametrize("case", ["mixed", "bench", "gaps_top_down"])
+def test_sld_of_quiet_columns_equals_diagnosing_every_column(case, monkeypatch):
+    """Columns without cloud, hydrometeors or precipitation skip the SLD diagnosis.
+
+    They must get exactly what diagnosing them would give (bit for bit): the skip is a
+    shortcut, not a model.
+    """
+    from icing.calc import _column_sld
+
+    cols = _mixed_columns() if case == "mixed" else next(c for n, c, _ in _variants() if n == case)
+    fast = diagnose_columns(**cols)
+    if case == "mixed":
+        active = _column_sld._sld_possible(
+            {k: cols[k] for k in ("rain", "snow")}, fast.cloud, cols["precipitation_rate_mm_h"]
+        )
+        assert 0.2 < active.mean() < 0.9  # both paths are exercised
+    monkeypatch.setattr(_column_sld, "_sld_possible", lambda s, cloud, rate: cloud.any(-1) | True)
+    _assert_same(fast, diagnose_columns(**cols))

@@ -433,3 +433,31 @@ def test_combined_mvd_grows_with_the_large_drop_water(lb, f):
 
     # physical law: more water in the large drops moves the median up
     assert cmvd(2e-4, 20e-6, lb * f, 200e-6) > cmvd(2e-4, 20e-6, lb, 200e-6)
+
+
+def test_tabled_special_values_are_scipys():
+    """The tabled special-function values equal scipy's to the last bit (reference library).
+
+    ``icing.calc._special`` spares the scipy import for the named air masses; every
+    tabled value must be exactly scipy's, and the arguments the named air masses and
+    the SLD spectrum use must all be in the table.
+    """
+    from scipy import special as sp
+
+    from icing.calc import _special
+    from icing.calc.droplets import AIR_MASSES
+
+    for (a, q), value in _special._GAMMAINCINV.items():
+        assert value == float(sp.gammaincinv(a, q)), (a, q)
+    for (a, b), value in _special._BETA.items():
+        assert value == float(sp.beta(a, b)), (a, b)
+    q = (np.arange(7) + 0.5) / 7
+    for mu in [0.0] + [m.shape for m in AIR_MASSES.values()]:
+        for qq in (*q, 0.5, 0.999):
+            assert (mu + 4.0, float(qq)) in _special._GAMMAINCINV
+        assert np.array_equal(_special.gammaincinv(mu + 4.0, q), sp.gammaincinv(mu + 4.0, q))
+    for m in AIR_MASSES.values():
+        assert (1.5, m.k / 2.0) in _special._BETA
+    # outside the tables scipy answers
+    assert _special.gammaincinv(3.3, 0.5) == sp.gammaincinv(3.3, 0.5)
+    assert np.array_equal(_special.beta(1.5, np.array([0.2, 0.3])), sp.beta(1.5, [0.2, 0.3]))

@@ -9,6 +9,7 @@ from __future__ import annotations
 import copy
 import importlib.util
 import json
+import warnings
 from pathlib import Path
 
 import numpy as np
@@ -605,3 +606,116 @@ def test_one_member_of_a_netcdf_ensemble_with_member(tmp_path):
     np.testing.assert_allclose(one, ref + 1.0, rtol=1e-6)  # member 1 is member 0 + 1 K
     with pytest.raises(ForecastError, match="member 5 is not in"):
         load_forecast(path, member=5)
+
+
+# ------------------------------------------------------------ netCDF4 view vs xarray view
+
+_REPO = Path(__file__).resolve().parents[1]
+_REPO_NETCDF = sorted(  # the gridded ones (CF profile files are soundings)
+    p.relative_to(_REPO)
+    for folder in ("fixtures", "icing/data/demo", "tests/data/real")
+    for p in (_REPO / folder).glob("*.nc")
+    if "profile" not in p.name
+)
+
+
+def _sources(path, monkeypatch, *, through_xarray):
+    """The GridSources of ``path``, the metadata read through netCDF4 or through xarray."""
+    import icing.forecast.netcdf as ncmod
+
+    with monkeypatch.context() as m:
+        if through_xarray:
+            m.setattr(ncmod, "nc_view", lambda nc, lock: None)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return load_forecast(path).sources
+
+
+def _same_source(a, b):
+    """Two GridSources hold the same discovery, provenance, frame and field values."""
+    names = ("format", "provenance", "grid", "vertical", "height_above_ground", "notes")
+    names += ("tile_hint", "member", "member_dim", "members", "member_labels", "path")
+    for name in names:
+        assert getattr(a, name) == getattr(b, name), name
+    for name in ("times", "y", "x", "levels"):
+        assert np.array_equal(getattr(a, name), getattr(b, name)), name
+    assert a.issue_time == b.issue_time or (a.issue_time is None and b.issue_time is None)
+    assert (a.crs is None) == (b.crs is None) and (a.crs is None or a.crs == b.crs)
+    assert repr(a.grid_mapping) == repr(b.grid_mapping)
+    assert list(a.fields) == list(b.fields)
+    ys, xs = slice(0, min(a.y.size, 9)), slice(0, min(a.x.size, 9))
+    for key in a.fields:
+        va, vb = a.fields[key].read(slice(0, 1), ys, xs), b.fields[key].read(slice(0, 1), ys, xs)
+        assert np.array_equal(va, vb, equal_nan=True), key
+
+
+@pytest.mark.parametrize("rel", _REPO_NETCDF, ids=str)
+def test_netcdf4_view_reads_every_repository_file_as_xarray_does(rel, monkeypatch):
+    """Where the netCDF4 view serves, the forecast is the xarray view's, field for field.
+
+    The variable discovery reads a NetCDF file's metadata through netCDF4 alone (no
+    xarray import on a screening's path); files needing more of xarray's decoding
+    fall back to it. Either way the result must be the one xarray's view gives.
+    """
+    path = _REPO / rel
+    fast = _sources(path, monkeypatch, through_xarray=False)
+    slow = _sources(path, monkeypatch, through_xarray=True)
+    assert len(fast) == len(slow)
+    for a, b in zip(fast, slow, strict=True):
+        _same_source(a, b)
+
+
+def test_netcdf4_view_serves_the_cf_fixtures_and_refuses_what_needs_xarray(tmp_path):
+    """The view is used for the plain CF files and declines packed values and time spans."""
+    import netCDF4
+
+    from icing.forecast.ncview import nc_view
+    from icing.forecast.netcdf import NETCDF_LOCK
+
+    for rel in ("fixtures/skerrow-latlon.nc", "fixtures/skerrow-lcc.nc"):
+        with netCDF4.Dataset(_REPO / rel) as nc:
+            view = nc_view(nc, NETCDF_LOCK)
+            assert view is not None
+            ref = xr.open_dataset(_REPO / rel)
+            assert list(view.data_vars) == list(ref.data_vars)
+            assert set(view.coords) == set(ref.coords)
+            assert dict(view.sizes) == dict(ref.sizes)
+            for name in ref.variables:
+                assert view[name].dims == ref[name].dims, name
+                assert set(view[name].attrs) == set(ref[name].attrs), name
+                assert view[name].dtype == ref[name].dtype or name in ref.coords, name
+            ref.close()
+    ds = _latlon_ds()
+    packed = ds.copy()
+    packed["t"].encoding.update(
+        dtype="int16", scale_factor=0.01, add_offset=250.0, _FillValue=-32768
+    )
+    span = ds.assign(lead=("time", np.arange(ds.sizes["time"], dtype=float)))
+    span["lead"].attrs["units"] = "hours"
+    for name, case in (("packed.nc", packed), ("span.nc", span)):
+        p = _to_nc(case, tmp_path, name)
+        with netCDF4.Dataset(p) as nc:
+            assert nc_view(nc, NETCDF_LOCK) is None, name
+        load_forecast(p)  # read through xarray instead
+
+
+def test_netcdf4_view_masks_fill_values_and_decodes_times_as_xarray(tmp_path, monkeypatch):
+    """Fill values, integer promotion and CF times come out of both views alike."""
+    ds = _latlon_ds()
+    t = ds["t"].values.copy()
+    t[0, 0, 0, 0] = np.nan
+    ds["t"] = (ds["t"].dims, t, ds["t"].attrs)
+    ds["t"].encoding["_FillValue"] = -999.0
+    ds["time"].encoding.update(units="minutes since 2027-01-14T00:00:00Z", dtype="int32")
+    p = _to_nc(ds, tmp_path)
+    import netCDF4
+
+    from icing.forecast.ncview import nc_view
+    from icing.forecast.netcdf import NETCDF_LOCK
+
+    with netCDF4.Dataset(p) as nc:
+        assert nc_view(nc, NETCDF_LOCK) is not None  # the case is the view's own
+    fast = _sources(p, monkeypatch, through_xarray=False)
+    slow = _sources(p, monkeypatch, through_xarray=True)
+    for a, b in zip(fast, slow, strict=True):
+        _same_source(a, b)

@@ -30,8 +30,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from icing import codes
-from icing.calc import clouds, droplets, sld, thermo
+from icing.calc import clouds, droplets, thermo
 from icing.calc._column_input import _check_units, _prepare
+from icing.calc._column_sld import column_sld
 from icing.calc.column_options import ColumnOptions
 from icing.constants import CP_AIR, T0, T_HOMOGENEOUS, G
 from icing.errors import InputError
@@ -378,7 +379,7 @@ def _diagnose_core(s, cols, o):
         lwc, basis = _combine_liquid(lwc_model, lwc_diag, liquid_ok, air, all_air)
         number, mvd, shape = _droplets(lwc, liquid_ok, w_eff, sel, o)
         glac = _glaciation(s, o, p, t, rho, lwc, w, cloud, lay)
-        sld_out = _sld(
+        sld_out = column_sld(
             p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, f_ice, o
         )
         freezing = _freezing_level(t, z, air)
@@ -722,47 +723,3 @@ def _freezing_level(t, z, air):
     zb = np.take_along_axis(z[..., 1:], first, -1)[..., 0]
     frac = (ta - T0) / np.where(ta != tb, ta - tb, 1.0)
     return np.where(any_cross, za + frac * (zb - za), np.nan)
-
-
-def _sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, f_ice, o):
-    """Call :func:`icing.sld.diagnose_sld` on ground-up arrays; outputs keyed by field."""
-    res = sld.diagnose_sld(
-        p,
-        t,
-        z,
-        relative_humidity=rh,
-        cloud=cloud,
-        lwc=np.nan_to_num(lwc),
-        droplet_number=number,
-        cloud_top_temperature=lay.top_temperature,
-        cloud_top_height=lay.top_height,
-        cloud_base_height=lay.base_height,
-        precipitation_rate_mm_h=cols.get("precipitation_rate_mm_h"),
-        rain=s.get("rain"),
-        snow=s.get("snow"),
-        cloud_ice=s.get("cloud_ice"),
-        valid=valid,
-        below_ground=below,
-        drizzle_time_scale_s=o.drizzle_time_scale_s,
-        hydrometeors_given=_hydrometeors_given(present, p.shape[:-1]),
-        ice_saturation=f_ice,
-    )
-    return {
-        "sld_class": np.asarray(res.sld_class),
-        "sld_lwc": np.asarray(res.sld_lwc, float),
-        "sld_mvd": np.asarray(res.sld_mvd, float),
-        "sld_dmax": np.asarray(res.sld_dmax, float),
-        "possible_drizzle": np.asarray(res.possible_drizzle, bool),
-        "precip_type": np.asarray(res.precip_type),
-    }
-
-
-def _hydrometeors_given(present, shape):
-    """Per column: the model's rain or snow field was given (None: neither anywhere)."""
-    if "rain" not in present and "snow" not in present:
-        return None
-    given = np.zeros(shape, bool)
-    for k in ("rain", "snow"):
-        if k in present:
-            given |= present[k]
-    return given

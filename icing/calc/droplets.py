@@ -22,8 +22,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special
 
+from icing.calc import _special as special  # scipy.special, tabled for the usual runs
 from icing.calc.thermo import air_density, air_viscosity
 from icing.constants import RHO_WATER, G
 

@@ -57,9 +57,9 @@ import dataclasses
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special
 
 from icing import codes
+from icing.calc import _special as special  # scipy.special, tabled for the usual runs
 from icing.calc.bourgouin import (
     NA_PELLETS_OFFSET,
     NA_SLOPE,

@@ -1,7 +1,9 @@
 """CF-NetCDF, data-service NetCDF and WRF output: open lazily, hand to the common build.
 
-The file is opened with xarray (netCDF4, else h5netcdf) for its metadata and
-with netCDF4 directly for fast block reads. WRF output (recognised by its global
+The file is opened with netCDF4 for fast block reads; its metadata are read
+through the same handle (:func:`icing.forecast.ncview.nc_view`, decoded as xarray
+decodes) or, for the files that need more of xarray's decoding and for the files
+netCDF4 cannot open, through xarray (netCDF4, else h5netcdf). WRF output (recognised by its global
 attributes and variables) goes through :mod:`icing.forecast.wrf`; everything else
 straight to :func:`icing.forecast.build.build_grid_source`, which finds the
 variables and yields the internal structure.
@@ -15,6 +17,7 @@ from pathlib import Path
 from icing.errors import ForecastError
 from icing.forecast.build import build_grid_source
 from icing.forecast.fields import NetcdfVariable
+from icing.forecast.ncview import nc_view
 from icing.forecast.wrf import is_wrf, read_wrf_forecast
 
 __all__ = ["NETCDF_LOCK", "open_netcdf", "open_netcdf4", "read_netcdf_forecast"]
@@ -86,13 +89,17 @@ def raw_variables(ds, nc):
 def read_netcdf_forecast(path, *, var_map=None, member=None, rh_convention=None):
     """Read a CF-NetCDF (or data-service NetCDF) forecast into a GridSource.
 
-    The xarray view of the file serves the discovery; when netCDF4 can read the file
-    the view is closed afterwards (reads go through netCDF4, under :data:`NETCDF_LOCK`).
+    The discovery reads the netCDF4 view of the file where it serves (no xarray
+    import: a one-route screening starts 0.4 s sooner), else the xarray view, which
+    is closed afterwards when netCDF4 can read the file (reads go through netCDF4,
+    under :data:`NETCDF_LOCK`). WRF output always goes through xarray.
     """
     path = Path(path)
     with NETCDF_LOCK:
-        ds = open_netcdf(path)
         nc = open_netcdf4(path)
+        ds = None if nc is None else nc_view(nc, NETCDF_LOCK)
+        if ds is None or is_wrf(ds):
+            ds = open_netcdf(path)
         raw_of = raw_variables(ds, nc)
         try:
             if is_wrf(ds):
