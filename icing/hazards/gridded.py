@@ -27,6 +27,7 @@ __all__ = [
     "class_codes",
     "GAP_CLASSES",
     "PRODUCTS",
+    "MEMBER_PRODUCTS",
 ]
 
 #: The products, their dtypes and what each holds (written into every output).
@@ -40,6 +41,21 @@ PRODUCTS = {
     "mvd": "float32 [m]: median volume diameter of the cloud drops there (NaN where none)",
     "accretion_rate": "float32 [m s-1]: ice accretion rate on the airframe's worst collector "
     "there",
+}
+
+#: What an ensemble's cells hold beyond a single forecast's, or in another sense.
+MEMBER_PRODUCTS = {
+    "severity": "int8: the stated statistic's word (member_statistic) among the members "
+    "with data in the band (each member's word the worst in the band); -1 where no member "
+    "has data",
+    "sld, lwc, mvd, accretion_rate": "the statistic's member's, at its band's worst altitude",
+    "coverage": "int8: 0 every member covers the whole band above its ground, 1 partial "
+    "(some member lacks part or all of it: members_covering says how many have data), 2 no "
+    "member has data, 3 below every member's ground",
+    "severity_worst_member": "int8: the worst member's word; -1 where no member has data",
+    "members_covering": "int16: members with data in the band (0: a coverage gap)",
+    "member_fraction_<word>": "float32 0..1: fraction of the members with data at that word "
+    "or worse (trace, light, moderate, severe); NaN where no member has data",
 }
 
 #: Class codes of the cells that are not covered, and the gap reason each stands for.
@@ -93,6 +109,19 @@ class GridResult:
     """Column and collector physics, the bands and how they are read, the products."""
     scratch: object = field(default=None, repr=False)
     """Keeps the folder of disk-backed arrays alive while the result lives (or None)."""
+    members: int = 1
+    """Number of members (1: a single forecast; the member fields below are then None)."""
+    member_labels: tuple = ()
+    """The members' names, in member order."""
+    member_statistic: str | None = None
+    """The statistic whose word is ``severity`` (``"median"``, ``"worst"``, ``"pNN"``)."""
+    severity_worst_member: np.ndarray | None = None
+    """int8 worst member's word; ``codes.GAP`` where no member has data."""
+    members_covering: np.ndarray | None = None
+    """int16 members with data in the band (0 where none has)."""
+    member_fraction: dict | None = None
+    """``{word: float32 array}``: fraction of the members with data at that word or worse
+    (NaN where no member has data)."""
 
     def time_text(self, t) -> str:
         """ISO 8601 UTC text of valid time ``t`` (an index)."""
