@@ -15,7 +15,8 @@ folder of real model files, origin and licence in its README.md) and
 ``gfs_ensemble`` (small ensembles built from the real GFS file: the real fields as
 the control member beside invented, dried members -- see :func:`gfs_ensemble`); the
 service's tests also use ``service_catalog``, ``service_key``, ``start_service`` and
-``live_service`` (a real ``icing serve`` on a loopback port).
+``live_service`` (a real ``icing serve`` on a loopback port); the grid's tests use
+``check_grid_polygons`` (every polygon valid, MultiPolygon, counter-clockwise).
 """
 
 from __future__ import annotations
@@ -634,6 +635,38 @@ REAL_DATA = Path(__file__).resolve().parent / "data" / "real"
 def real_data():
     """The folder of real model files (tests/data/real; see its README.md)."""
     return REAL_DATA
+
+
+def _check_grid_polygons(fc):
+    """Every feature of a grid layer valid, MultiPolygon, exteriors CCW, inside -180..180."""
+    import shapely
+    from shapely.geometry import shape
+
+    kinds = ("icing", "coverage-gap", "member-fraction")
+    for f in fc["features"]:
+        g = shape(f["geometry"])
+        assert f["geometry"]["type"] == "MultiPolygon"
+        assert g.is_valid, shapely.is_valid_reason(g)
+        for p in g.geoms:
+            assert shapely.is_ccw(p.exterior)
+            assert not any(shapely.is_ccw(r) for r in p.interiors)
+        x0, y0, x1, y1 = g.bounds
+        assert -180.0 <= x0 <= x1 <= 180.0 and -90.0 <= y0 <= y1 <= 90.0
+        props = f["properties"]
+        assert props["kind"] in kinds
+        assert props["caution"] == CAUTION and props["airframe"] == fc["airframe"]
+        if props["kind"] == "icing":
+            assert props["severity"] in codes.SEVERITY[1:] and props["sld"] in codes.SLD_CLASSES
+        elif props["kind"] == "coverage-gap":
+            assert props["severity"] is None and props["gap_reason"]
+        else:
+            assert props["threshold"] and 1 <= props["fraction_class"] <= 5
+
+
+@pytest.fixture(scope="session")
+def check_grid_polygons():
+    """Check a grid FeatureCollection's polygons (valid, MultiPolygon, counter-clockwise)."""
+    return _check_grid_polygons
 
 
 @pytest.fixture

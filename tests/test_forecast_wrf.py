@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 import xarray as xr
 
+from icing import codes
 from icing.forecast import load_forecast
 
 FILE = "wrf_d01_allvars_cropped.nc"
@@ -48,6 +49,37 @@ def test_wrf_screens_on_model_levels_without_conversion(real_data, screen_cli):
     assert "T + 300 K" in var["temperature"]["converted"]
     assert "QVAPOR mixing ratio" in var["specific_humidity"]["converted"]
     assert "rotated to earth-relative" in var["wind_u"]["converted"]
+
+
+@pytest.mark.parametrize("reference", ["msl", "pressure"])
+def test_curtain_rows_under_the_plateau_are_ground_not_gaps(real_data, raw, reference):
+    """The terrain of the file (HGT, 4.5-5.5 km) lies under WRF's lowest mass level
+    (half an eta layer above it): curtain rows under it are below the ground, every
+    row above it is read (the same test of the target's own altitude as a grid band)."""
+    from datetime import UTC, datetime
+
+    from icing.route.model import Route, Waypoint
+    from icing.runs.screen import screen_route
+
+    fc = load_forecast(real_data / FILE)
+    alt = 7620.0  # FL250 or 25,000 ft MSL, over the plateau
+    route = Route(
+        "plateau hop",
+        (Waypoint("A", 29.3, 85.9, alt, reference), Waypoint("B", 30.7, 88.1, alt, reference)),
+        departure_time=datetime(2005, 9, 21, 2, tzinfo=UTC),
+    )
+    cur = screen_route(route, fc, airframe="light-piston").curtain
+    ground = np.asarray(cur.ground_m, float)[:, None]
+    hgt = raw["HGT"].values
+    assert np.nanmin(ground) >= hgt.min() - 1.0 and np.nanmax(ground) <= hgt.max() + 1.0
+    sev, below = np.asarray(cur.severity), np.asarray(cur.below_ground)
+    rows = np.broadcast_to(cur.altitudes_m[None, :], sev.shape)
+    if reference == "msl":
+        under, above = rows < ground - 1.0, rows > ground + 1.0
+    else:  # pressure altitudes: a margin for the real air against the standard atmosphere
+        under, above = rows < ground - 800.0, rows > ground + 800.0
+    assert under.sum() > 1000 and np.all(below[under]) and np.all(sev[under] == codes.GAP)
+    assert not below[above].any() and np.all(sev[above] >= codes.SEV_NONE)
 
 
 def test_temperature_from_perturbation_potential_temperature(raw, column):

@@ -39,26 +39,6 @@ def _run(forecast, bands=SMALL, **kw):
     return grid_forecast(forecast, airframe=kw.pop("airframe", "twin-turboprop"), options=opts)
 
 
-def _check_polygons(fc):
-    """Every feature valid, MultiPolygon, counter-clockwise exteriors, inside -180..180."""
-    for f in fc["features"]:
-        g = shape(f["geometry"])
-        assert f["geometry"]["type"] == "MultiPolygon"
-        assert g.is_valid, shapely.is_valid_reason(g)
-        for p in g.geoms:
-            assert shapely.is_ccw(p.exterior)
-            assert not any(shapely.is_ccw(r) for r in p.interiors)
-        x0, y0, x1, y1 = g.bounds
-        assert -180.0 <= x0 <= x1 <= 180.0 and -90.0 <= y0 <= y1 <= 90.0
-        props = f["properties"]
-        assert props["kind"] in ("icing", "coverage-gap")
-        assert props["caution"] and props["airframe"] == fc["airframe"]
-        if props["kind"] == "icing":
-            assert props["severity"] in codes.SEVERITY[1:] and props["sld"] in codes.SLD_CLASSES
-        else:
-            assert props["severity"] is None and props["gap_reason"]
-
-
 @pytest.fixture(scope="module")
 def latlon_result():
     return _run(LATLON, bands="0:20000:2000")
@@ -68,7 +48,7 @@ def latlon_result():
 
 
 @pytest.mark.parametrize("fixture", [LATLON, LCC], ids=["latlon", "lcc"])
-def test_grid_command_writes_all_three(tmp_path, capsys, fixture):
+def test_grid_command_writes_all_three(tmp_path, capsys, fixture, check_grid_polygons):
     out, nc, maps = tmp_path / "g.geojson", tmp_path / "g.nc", tmp_path / "maps"
     args = ["grid", "-f", str(fixture), "-a", "twin-turboprop", "-o", str(out), "--bands-ft",
             SMALL, "--netcdf", str(nc), "--maps", str(maps), "--workers", "1"]  # fmt: skip
@@ -76,7 +56,7 @@ def test_grid_command_writes_all_three(tmp_path, capsys, fixture):
     text = capsys.readouterr().out
     assert "CAUTION" in text and "0-5,000 ft" in text
     fc = json.loads(out.read_text())
-    _check_polygons(fc)
+    check_grid_polygons(fc)
     assert fc["caution"] and fc["provenance"]["files"] and fc["assumptions"]["products"]
     import pyogrio  # GDAL reads the polygons as one valid layer
 
@@ -109,13 +89,13 @@ def _check_netcdf(path, *, projected):
         assert raw.severity.dtype == np.int8 and raw.severity.attrs["_FillValue"] == -1
 
 
-def test_polygons_match_the_classes(latlon_result):
+def test_polygons_match_the_classes(latlon_result, check_grid_polygons):
     """The icing polygons of a band cover exactly the cells of their class (before
     simplification: here compared on areas, which simplification keeps within a cell
     per boundary)."""
     r = latlon_result
     fc = grid_feature_collection(r)
-    _check_polygons(fc)
+    check_grid_polygons(fc)
     t, b = 0, 3
     lo, hi = r.bands.bounds_ft(b)
     area = {}
@@ -227,11 +207,11 @@ def _single_cell(path, edges, j, i):
         "wrf_d01_allvars_cropped.nc",
     ],
 )
-def test_real_files(real_data, name):
+def test_real_files(real_data, name, check_grid_polygons):
     r = _run(real_data / name, bands="0:20000:10000")
     assert r.severity.shape[:2] == (1, 2)
     fc = grid_feature_collection(r)
-    _check_polygons(fc)
+    check_grid_polygons(fc)
     assert (r.severity >= 0).any()
     # a gap is never "none": every cell not covered says why
     assert np.all((r.severity == codes.GAP) == np.isin(r.coverage, [2, 3]))

@@ -208,6 +208,7 @@ def cmd_grid(args) -> int:
     """``icing grid``: the hazard over a whole forecast, by altitude band."""
     from icing.airframes import load_airframe
     from icing.hazards.bands import parse_bands
+    from icing.hazards.ensemble import MemberStatistic
     from icing.hazards.gridded import grid_features
     from icing.outputs.write import grid_output_targets, write_grid_outputs
     from icing.runs.grid import GridOptions, grid_forecast
@@ -215,6 +216,7 @@ def cmd_grid(args) -> int:
     _check_suffix(args.output, {".geojson", ".json"}, "-o/--output")
     _check_suffix(args.netcdf, {".nc"}, "--netcdf")
     bands = parse_bands(args.bands_ft)
+    MemberStatistic.parse(args.member_statistic)  # refused before any file is read
     inputs = [(p, "forecast file") for p in _forecast_paths(args)]
     if Path(args.airframe).is_file():
         inputs.append((args.airframe, "airframe file"))
@@ -237,13 +239,25 @@ def cmd_grid(args) -> int:
         forecast,
         airframe=airframe,
         options=GridOptions(
-            bands=bands, times=times, workers=args.workers, scheduler=args.scheduler
+            bands=bands,
+            times=times,
+            workers=args.workers,
+            scheduler=args.scheduler,
+            member_statistic=args.member_statistic,
+            spread=args.spread,
         ),
         column_options=_column_options(args),
         load_options=_forecast_kwargs(args),
         progress=_counter("gridding", "blocks") if bar else None,
     )
     features = grid_features(result, progress=_counter("outlining", "maps") if bar else None)
+    fractions = None
+    if result.members > 1:
+        from icing.hazards.gridded import member_fraction_features
+
+        fractions = member_fraction_features(
+            result, progress=_counter("outlining member fractions", "maps") if bar else None
+        )
     fc, written = write_grid_outputs(
         result,
         out_geojson=args.output,
@@ -251,6 +265,7 @@ def cmd_grid(args) -> int:
         maps=args.maps,
         inputs=inputs,
         features=features,
+        fractions=fractions,
     )
     print(grid_table(result))
     print(CAUTION)
@@ -275,12 +290,25 @@ def _counter(what, unit):
 
 
 def grid_table(result) -> str:
-    """One line per valid time and band: the worst severity and the share of cells by kind."""
+    """One line per valid time and band: the worst severity and the share of cells by kind.
+
+    An ensemble's table names its members and statistic first, and adds the share of
+    cells where any member ices ("any member").
+    """
     import numpy as np
 
+    ens = result.members > 1
     head = f"{'valid time':<21} {'band [ft MSL]':<16} {'worst':<9} {'icing':>7} "
     head += f"{'severe':>7} {'SLD':>7} {'gap':>7} {'below ground':>13}"
+    head += f" {'any member':>11}" if ens else ""
     rows = [head]
+    if ens:
+        rows.insert(
+            0,
+            f"{result.members} members; severity, icing, severe and SLD are the "
+            f"{result.member_statistic} member's; 'any member': cells where at least one "
+            "member ices",
+        )
     nt, nb = result.severity.shape[:2]
     for t in range(nt):
         for b in range(nb):
@@ -297,6 +325,11 @@ def grid_table(result) -> str:
                 f"{result.time_text(t):<21} {result.bands.label(b):<16} {word:<9} "
                 f"{pct(sev >= 1)} {pct(sev == 4)} {pct(np.asarray(result.sld[t, b]) > 0)} "
                 f"{pct((sev == codes.GAP) & (cov != 3))} {pct(cov == 3):>13}"
+                + (
+                    f" {pct(np.asarray(result.severity_worst_member[t, b]) >= 1):>11}"
+                    if ens
+                    else ""
+                )
             )
     return "\n".join(rows)
 

@@ -136,6 +136,7 @@ def _grid_parser(sub, forecast_args):
         metavar="N",
         help="worker processes (default: one per core; 1 runs in this process)",
     )
+    _member_args(g)
     g.set_defaults(func=cmd_grid)
 
 
@@ -154,9 +155,10 @@ def _member_args(s):
         "--member-statistic",
         default="median",
         metavar="median|worst|pNN",
-        help="ensembles and spreads: the statistic whose word is each segment's severity "
-        "(default median: the word at least half of the members reach; worst: any member; "
-        "p90: at least 10 %% of them); the worst member's word is always given beside it",
+        help="ensembles and spreads: the statistic whose word is each segment's (grid: "
+        "each cell's) severity (default median: the word at least half of the members reach; "
+        "worst: any member; p90: at least 10 %% of them); the worst member's word is always "
+        "given beside it",
     )
     s.add_argument(
         "--spread",

@@ -25,6 +25,7 @@ __all__ = [
     "BlockColumns",
     "plan_blocks",
     "read_block_columns",
+    "read_member_block_columns",
     "cell_lonlat",
     "bound_file_caches",
 ]
@@ -110,14 +111,43 @@ def read_block_columns(forecast, block: Block) -> BlockColumns:
         else:
             vals[key] = a.reshape(m)
     cols = assemble_columns(vals, m, forecast.column_spec)
+    return BlockColumns(block, cols, _usable(cols, forecast.humidity))
+
+
+def read_member_block_columns(forecast, block: Block) -> BlockColumns:
+    """Every member's columns of a block, members folded into the columns (member-major).
+
+    ``forecast`` reads every member at once (a
+    :class:`~icing.forecast.membergrid.MemberGridForecast`): one read of each field
+    across the file's member dimension. Column ``j * m + i`` is member ``j`` at cell
+    ``i`` of the block (``m = rows x columns``), assembled as a single forecast's.
+    """
+    ny, nx = block.shape
+    m = ny * nx
+    k = forecast.n_members
+    n_lev = forecast.levels.size
+    vals = {}
+    for key in forecast.column_keys():
+        a = np.asarray(forecast.read_block(key, block.time_index, block.ys, block.xs))
+        if a.ndim == 4:  # (member, level, y, x) -> (member * y * x, level)
+            vals[key] = np.ascontiguousarray(np.moveaxis(a.reshape(k, n_lev, m), 1, 2))
+            vals[key] = vals[key].reshape(k * m, n_lev)
+        else:  # (member, y, x); fields without the dimension were broadcast
+            vals[key] = np.ascontiguousarray(np.broadcast_to(a, (k, ny, nx))).reshape(k * m)
+    cols = assemble_columns(vals, k * m, forecast.column_spec)
+    return BlockColumns(block, cols, _usable(cols, forecast.humidity))
+
+
+def _usable(cols, humidity):
+    """Columns with at least one level of pressure, temperature, height and humidity."""
     with np.errstate(invalid="ignore"):
         ok = (
             np.isfinite(cols["pressure"])
             & np.isfinite(cols["temperature"])
             & np.isfinite(cols["height"])
-            & np.isfinite(cols[forecast.humidity])
+            & np.isfinite(cols[humidity])
         )
-    return BlockColumns(block, cols, ok.any(axis=1))
+    return ok.any(axis=1)
 
 
 def cell_lonlat(source, ys=slice(None), xs=slice(None)):

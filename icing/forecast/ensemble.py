@@ -100,6 +100,15 @@ class EnsembleForecast(Forecast):
         return tuple(m.label for m in self.members)
 
     @property
+    def joint(self):
+        """The members read together (files with a member dimension), or None.
+
+        A :class:`~icing.forecast.membergrid.MemberGridForecast`: a grid run reads
+        every member's block in one read of the file.
+        """
+        return self._joint
+
+    @property
     def dataset(self):
         """Return the internal structure (xarray Dataset).
 

@@ -55,6 +55,17 @@ class MemberGridForecast(GridForecast):
             vals = np.take(vals, self._order, axis=2 if fld.timed else 1)
         return np.ascontiguousarray(vals)
 
+    def read_block(self, key, time_index, ys, xs):
+        """Read one field on a window at one valid time for every member, straight from the file.
+
+        Returns ``(member, level, y, x)`` (levelled fields, levels surface first) or
+        ``(member, y, x)``, SI; one read across the member dimension (a grid run's block).
+        """
+        fi, lt = self._time_map[int(time_index)]
+        fld = self.sources[fi].fields[key]
+        vals = self._read_field(fld, slice(lt, lt + 1) if fld.timed else None, ys, xs)
+        return vals[:, 0] if fld.timed else vals
+
     def member_columns_at(self, lat, lon, time, *, fields=None) -> list:
         """Each member's :class:`ColumnSet` at the samples (one read for all members)."""
         lat, lon, t = as_samples(lat, lon, time)

@@ -39,6 +39,8 @@ __all__ = [
     "worst_member_severity",
     "member_ranking",
     "fraction_band",
+    "FRACTION_BAND_LABELS",
+    "SHOWN_FRACTION_WORDS",
     "reduce_members",
     "fractions_in_words",
 ]
@@ -207,6 +209,14 @@ def worst_member_severity(severity, axis=0):
 #: band. None (0), then quarters, then all (1); our choice, so that with four members
 #: every change of one member is a change of band.
 _BAND_EDGES = (0.25, 0.5, 0.75)
+
+
+#: What each band of :func:`fraction_band` holds, in words (legends, polygon labels).
+FRACTION_BAND_LABELS = ("none", "up to 1/4", "1/4 - 1/2", "1/2 - 3/4", "over 3/4", "all members")
+#: The thresholds whose fractions are drawn and outlined (cross-section panels, grid
+#: maps and polygons): the fractions of members at light or worse and at moderate or
+#: worse (every word's fraction is in the data outputs).
+SHOWN_FRACTION_WORDS = ("light", "moderate")
 
 
 def fraction_band(fraction):

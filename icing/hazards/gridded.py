@@ -19,14 +19,23 @@ from icing._version import __version__
 from icing.caution import CAUTION
 from icing.hazards.areas import class_polygons
 from icing.hazards.bands import COVERAGE_BELOW_GROUND, Bands
+from icing.hazards.ensemble import (
+    FRACTION_BAND_LABELS,
+    FRACTION_MEANING,
+    SHOWN_FRACTION_WORDS,
+    fraction_band,
+)
 
 __all__ = [
     "GridResult",
     "grid_features",
     "grid_feature_collection",
+    "member_properties",
+    "member_fraction_features",
     "class_codes",
     "GAP_CLASSES",
     "PRODUCTS",
+    "MEMBER_PRODUCTS",
 ]
 
 #: The products, their dtypes and what each holds (written into every output).
@@ -40,6 +49,21 @@ PRODUCTS = {
     "mvd": "float32 [m]: median volume diameter of the cloud drops there (NaN where none)",
     "accretion_rate": "float32 [m s-1]: ice accretion rate on the airframe's worst collector "
     "there",
+}
+
+#: What an ensemble's cells hold beyond a single forecast's, or in another sense.
+MEMBER_PRODUCTS = {
+    "severity": "int8: the stated statistic's word (member_statistic) among the members "
+    "with data in the band (each member's word the worst in the band); -1 where no member "
+    "has data",
+    "sld, lwc, mvd, accretion_rate": "the statistic's member's, at its band's worst altitude",
+    "coverage": "int8: 0 every member covers the whole band above its ground, 1 partial "
+    "(some member lacks part or all of it: members_covering says how many have data), 2 no "
+    "member has data, 3 below every member's ground",
+    "severity_worst_member": "int8: the worst member's word; -1 where no member has data",
+    "members_covering": "int16: members with data in the band (0: a coverage gap)",
+    "member_fraction_<word>": "float32 0..1: fraction of the members with data at that word "
+    "or worse (trace, light, moderate, severe); NaN where no member has data",
 }
 
 #: Class codes of the cells that are not covered, and the gap reason each stands for.
@@ -93,6 +117,19 @@ class GridResult:
     """Column and collector physics, the bands and how they are read, the products."""
     scratch: object = field(default=None, repr=False)
     """Keeps the folder of disk-backed arrays alive while the result lives (or None)."""
+    members: int = 1
+    """Number of members (1: a single forecast; the member fields below are then None)."""
+    member_labels: tuple = ()
+    """The members' names, in member order."""
+    member_statistic: str | None = None
+    """The statistic whose word is ``severity`` (``"median"``, ``"worst"``, ``"pNN"``)."""
+    severity_worst_member: np.ndarray | None = None
+    """int8 worst member's word; ``codes.GAP`` where no member has data."""
+    members_covering: np.ndarray | None = None
+    """int16 members with data in the band (0 where none has)."""
+    member_fraction: dict | None = None
+    """``{word: float32 array}``: fraction of the members with data at that word or worse
+    (NaN where no member has data)."""
 
     def time_text(self, t) -> str:
         """ISO 8601 UTC text of valid time ``t`` (an index)."""
@@ -105,6 +142,7 @@ def grid_features(result: GridResult, *, progress=None) -> list:
     One feature per (valid time, band, severity, SLD class) with icing (trace or
     worse) and one per (valid time, band, gap reason), each a Polygon or MultiPolygon
     in longitude and latitude. ``progress(done, total)`` is called after each slice.
+    An ensemble's features carry its member properties (:func:`member_properties`).
     """
     out = []
     nt, nb = result.severity.shape[:2]
@@ -115,18 +153,101 @@ def grid_features(result: GridResult, *, progress=None) -> list:
             polys = class_polygons(
                 cls, result.x, result.y, crs=result.crs, periodic=result.periodic, wanted=wanted
             )
-            out += [_feature(result, t, b, c, polys[c]) for c in sorted(polys)]
+            for c in sorted(polys):
+                f = _feature(result, t, b, c, polys[c])
+                if result.members > 1:
+                    f["properties"].update(member_properties(result, t, b, cls == c))
+                out.append(f)
             if progress is not None:
                 progress(t * nb + b + 1, nt * nb)
     return out
 
 
-def _feature(result, t, b, c, geom):
-    """One Feature of class ``c`` at time ``t`` in band ``b``."""
+def member_properties(result: GridResult, t, b, cells) -> dict:
+    """Return an ensemble's properties of a polygon over its ``cells`` (bool (y, x)) at (t, b).
+
+    ``members`` (how many), ``members_covering`` (the fewest members with data in
+    its cells), ``member_statistic``, ``severity_worst_member`` (the worst member's
+    word in its cells) and ``member_fraction`` (per word, the largest fraction in its
+    cells: a polygon is never shown milder than its worst cell, as a route segment
+    gives the largest over its samples); null where no member has data.
+    """
+    cells = np.asarray(cells, bool)
+    covering = np.asarray(result.members_covering[t, b])[cells]
+    worst = int(np.asarray(result.severity_worst_member[t, b])[cells].max(initial=codes.GAP))
+    fractions = {}
+    for word, frac in result.member_fraction.items():
+        f = np.asarray(frac[t, b])[cells]
+        f = f[np.isfinite(f)]
+        fractions[word] = round(float(f.max()), 4) if f.size else None
+    known = any(v is not None for v in fractions.values())
+    return {
+        "members": int(result.members),
+        "members_covering": int(covering.min()) if covering.size else 0,
+        "member_statistic": result.member_statistic,
+        "severity_worst_member": codes.SEVERITY[worst] if worst >= 0 else None,
+        "member_fraction": fractions if known else None,
+    }
+
+
+def member_fraction_features(result: GridResult, *, progress=None) -> list:
+    """Polygons of an ensemble's member fractions (the ``member-fraction`` layer).
+
+    Per (valid time, band, threshold) of :data:`SHOWN_FRACTION_WORDS` (light and
+    moderate), one feature per class of the fraction of members at that word or
+    worse (:func:`icing.hazards.ensemble.fraction_band`: up to 1/4, 1/4 - 1/2,
+    1/2 - 3/4, over 3/4, all members; a fraction of 0 is no feature), with
+    ``kind`` "member-fraction", ``threshold``, ``fraction_class`` (1..5),
+    ``fraction_class_label``, ``member_fraction_max`` (the largest in its cells) and
+    the member properties; and per (valid time, band) the coverage-gap features of
+    the main layer (no member has data, or the band under every member's ground), so
+    that the layer tells "no member" from "unknown" on its own.
+    """
+    out = []
+    nt, nb = result.severity.shape[:2]
+    for t in range(nt):
+        for b in range(nb):
+            gap = class_codes(result.severity[t, b], result.sld[t, b], result.coverage[t, b])
+            for i, word in enumerate(SHOWN_FRACTION_WORDS):
+                out += _fraction_slice(result, t, b, word, gap, gaps_too=i == 0)
+            if progress is not None:
+                progress(t * nb + b + 1, nt * nb)
+    return out
+
+
+def _fraction_slice(result, t, b, word, gap, *, gaps_too):
+    """Return the fraction features of one threshold at (t, b) (and the gaps with the first)."""
+    frac = np.asarray(result.member_fraction[word][t, b], float)
+    cls = np.where(gap >= 100, gap, fraction_band(frac)).astype(np.int16)
+    wanted = [c for c in np.unique(cls) if 1 <= c <= 5 or (gaps_too and c >= 100)]
+    polys = class_polygons(
+        cls, result.x, result.y, crs=result.crs, periodic=result.periodic, wanted=wanted
+    )
+    out = []
+    for c in sorted(polys):
+        props = None
+        if c < 100:
+            props = {
+                "kind": "member-fraction",
+                "threshold": word,
+                "fraction_class": int(c),
+                "fraction_class_label": FRACTION_BAND_LABELS[c],
+                "member_fraction_max": round(float(np.nanmax(frac[cls == c])), 4),
+            }
+        f = _feature(result, t, b, c, polys[c], props)
+        f["properties"].update(member_properties(result, t, b, cls == c))
+        out.append(f)
+    return out
+
+
+def _feature(result, t, b, c, geom, props=None):
+    """One Feature of class ``c`` at time ``t`` in band ``b`` (or of the ``props`` given)."""
     import shapely
 
     lo, hi = result.bands.bounds_ft(b)
-    if c in GAP_CLASSES:
+    if props is not None:
+        props = dict(props)
+    elif c in GAP_CLASSES:
         props = {"kind": "coverage-gap", "severity": None, "sld": None}
         props["gap_reason"] = GAP_CLASSES[c]
     else:
@@ -148,14 +269,28 @@ def _feature(result, t, b, c, geom):
     return {"type": "Feature", "geometry": shapely.geometry.mapping(geom), "properties": props}
 
 
-def grid_feature_collection(result: GridResult, features=None) -> dict:
-    """Return the RFC 7946 FeatureCollection of a grid run, with its provenance and caution."""
+def grid_feature_collection(result: GridResult, features=None, *, product="icing grid") -> dict:
+    """Return the RFC 7946 FeatureCollection of a grid run, with its provenance and caution.
+
+    ``product`` names the layer (``"icing grid member fractions"`` for the features of
+    :func:`member_fraction_features`). An ensemble's collection also carries
+    ``members``, ``member_labels``, ``member_statistic`` and the fractions' meaning.
+    """
     if features is None:
         features = grid_features(result)
+    extra = {}
+    if result.members > 1:
+        extra = {
+            "members": int(result.members),
+            "member_labels": list(result.member_labels),
+            "member_statistic": result.member_statistic,
+            "member_fraction_meaning": FRACTION_MEANING,
+        }
     return {
         "type": "FeatureCollection",
         "features": [_plain(f) for f in features],
-        "product": "icing grid",
+        "product": product,
+        **extra,
         "airframe": result.airframe,
         "valid_times": [result.time_text(t) for t in range(len(result.times))],
         "bands_ft": [list(result.bands.bounds_ft(b)) for b in range(result.bands.count)],

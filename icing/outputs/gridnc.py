@@ -12,6 +12,14 @@ NaN (``mask_and_scale=False`` shows the -1), netCDF4 masks it, GDAL reports it a
 band's nodata value. ``coverage`` says which kind of gap (or a partial band). The
 float fields are NaN where not covered. Written slice by slice from the run's arrays,
 so the memory stays one (y, x) slice.
+
+An ensemble (or a parametric spread) adds ``severity_worst_member`` (int8 flags as
+``severity``), ``members`` (int16: members with data in the band; 0 is a coverage
+gap) and ``member_fraction_trace|light|moderate|severe`` (float32, units "1": the
+fraction of the members with data at that word or worse; NaN where no member has
+data); ``severity`` is then the stated statistic's word (its ``member_statistic``
+attribute), and the global attributes give ``ensemble_members``, ``member_labels``
+and ``member_statistic``.
 """
 
 from __future__ import annotations
@@ -175,6 +183,76 @@ def _variables(nc, result):
     return out
 
 
+def _member_variables(nc, result):
+    """Create an ensemble's variables and state the statistic on ``severity`` (empty)."""
+    from icing.hazards.ensemble import FRACTION_MEANING, MemberStatistic
+
+    dims = ("time", "altitude", "y", "x")
+    ny, nx = result.severity.shape[2:]
+    common = {"grid_mapping": "crs"}
+    if result.crs is not None:
+        common["coordinates"] = "lat lon"
+    opts = {"zlib": True, "complevel": 1, "chunksizes": (1, 1, ny, nx)}
+    stat = MemberStatistic.parse(result.member_statistic)
+    sev = nc.variables["severity"]
+    sev.long_name = f"icing severity in the altitude band for the airframe: {stat.name} of the "
+    sev.long_name += f"{result.members} members"
+    sev.member_statistic = stat.name
+    sev.member_statistic_meaning = stat.describe()
+    method = {"median": " realization: median", "worst": " realization: maximum"}
+    sev.cell_methods = "altitude: maximum" + method.get(stat.name, "")
+    out = {}
+    worst = nc.createVariable("severity_worst_member", "i1", dims, fill_value=-1, **opts)
+    values, meanings, _ = FLAGS["severity"]
+    worst.setncatts(
+        {
+            "long_name": "worst icing severity of any member in the altitude band",
+            "flag_values": np.asarray(values, np.int8),
+            "flag_meanings": meanings,
+            "valid_range": np.asarray([0, values[-1]], np.int8),
+            "cell_methods": "altitude: maximum realization: maximum",
+            "comment": "-1 (_FillValue): no member has data here (a coverage gap)",
+            **common,
+        }
+    )
+    out["severity_worst_member"] = worst
+    count = nc.createVariable("members", "i2", dims, fill_value=False, **opts)
+    count.setncatts(
+        {
+            "long_name": "number of members with data in the altitude band",
+            "units": "1",
+            "valid_range": np.asarray([0, result.members], np.int16),
+            "members_in_ensemble": np.int16(result.members),
+            "comment": "0 is a coverage gap in every member (never 'none'); fewer than "
+            "members_in_ensemble: the fractions and the statistic are those of the members "
+            "with data",
+            **common,
+        }
+    )
+    out["members_covering"] = count
+    for word in result.member_fraction:
+        v = nc.createVariable(f"member_fraction_{word}", "f4", dims, fill_value=np.nan, **opts)
+        worse = "" if word == "severe" else " or worse"
+        v.setncatts(
+            {
+                "long_name": f"fraction of members at {word}{worse} icing in the altitude band",
+                "units": "1",
+                "valid_range": np.asarray([0.0, 1.0], np.float32),
+                "comment": FRACTION_MEANING + "; NaN where no member has data",
+                **common,
+            }
+        )
+        out[f"member_fraction:{word}"] = v
+    return out
+
+
+def _member_array(result, name):
+    """Return the result's array behind a variable (``member_fraction:<word>``: a fraction)."""
+    if name.startswith("member_fraction:"):
+        return result.member_fraction[name.split(":", 1)[1]]
+    return getattr(result, name)
+
+
 def write_grid_netcdf(result, path):
     """Write a :class:`icing.hazards.gridded.GridResult` as CF-1.8 NetCDF at ``path``."""
     import netCDF4
@@ -196,9 +274,18 @@ def write_grid_netcdf(result, path):
         )
         _coordinates(nc, result)
         variables = _variables(nc, result)
+        if result.members > 1:
+            nc.setncatts(
+                {
+                    "ensemble_members": np.int16(result.members),
+                    "member_labels": json.dumps(list(result.member_labels)),
+                    "member_statistic": result.member_statistic,
+                }
+            )
+            variables.update(_member_variables(nc, result))
         nt, nb = result.severity.shape[:2]
         for name, v in variables.items():
-            a = getattr(result, name)
+            a = _member_array(result, name)
             for t in range(nt):
                 for b in range(nb):
                     v[t, b] = np.asarray(a[t, b])

@@ -113,6 +113,10 @@ LABELS = {
     "valid_time": "valid time [UTC]",
     "coverage": "band coverage",
     "note": "note",
+    "threshold": "members at this word or worse",
+    "fraction_class": "class of the fraction of members (1 up to 1/4 .. 5 all)",
+    "fraction_class_label": "fraction of members",
+    "member_fraction_max": "largest fraction of members in the area",
     # per-sample CSV
     "index": "sample",
     "lat": "latitude [\u00b0]",

@@ -17,7 +17,13 @@ from icing.hazards.segments import feature_collection
 from icing.outputs.atomic import write_together
 from icing.outputs.table import samples_csv
 
-__all__ = ["write_outputs", "output_targets", "write_grid_outputs", "grid_output_targets"]
+__all__ = [
+    "write_outputs",
+    "output_targets",
+    "write_grid_outputs",
+    "grid_output_targets",
+    "member_fraction_path",
+]
 
 
 def _sibling_json(path: Path) -> Path:
@@ -201,20 +207,50 @@ def grid_map_name(result, t, b) -> str:
     return f"icing-{when}-{ft(lo)}-{ft(hi)}ft.png"
 
 
-def write_grid_outputs(result, *, out_geojson, netcdf=None, maps=None, inputs=(), features=None):
+def member_fraction_path(out_geojson) -> Path:
+    """Return the path of the member-fraction layer beside ``-o`` (an ensemble's grid).
+
+    >>> member_fraction_path("out/grid.geojson").as_posix()
+    'out/grid.member-fraction.geojson'
+    """
+    out = Path(out_geojson)
+    return out.with_name(f"{out.stem}.member-fraction{out.suffix}")
+
+
+def grid_member_map_name(result, t, b) -> str:
+    """File name of an ensemble's fractions map: the severity map's, ending ``-members.png``."""
+    return grid_map_name(result, t, b)[: -len(".png")] + "-members.png"
+
+
+def write_grid_outputs(
+    result, *, out_geojson, netcdf=None, maps=None, inputs=(), features=None, fractions=None
+):
     """Write a grid run's GeoJSON, NetCDF and maps, all together or none.
 
     ``features`` are the polygons when already built
-    (:func:`icing.hazards.gridded.grid_features`). Returns the FeatureCollection and
-    the paths written; outputs at an input's path or at each other's are refused
-    before anything is written.
+    (:func:`icing.hazards.gridded.grid_features`), ``fractions`` an ensemble's
+    member-fraction polygons (:func:`icing.hazards.gridded.member_fraction_features`),
+    written beside ``-o`` (:func:`member_fraction_path`) with a fractions map beside
+    each severity map. Returns the FeatureCollection and the paths written; outputs at
+    an input's path or at each other's are refused before anything is written.
     """
-    from icing.hazards.gridded import grid_feature_collection
+    from icing.hazards.gridded import grid_feature_collection, member_fraction_features
 
     fc = grid_feature_collection(result, features)
     # compact: a grid's polygons are large, and GIS readers do not need the indentation
     text = json.dumps(fc, separators=(",", ":"), allow_nan=False)
     files = [(Path(out_geojson), _text(text), "-o")]
+    if result.members > 1:
+        if fractions is None:
+            fractions = member_fraction_features(result)
+        layer = grid_feature_collection(result, fractions, product="icing grid member fractions")
+        files.append(
+            (
+                member_fraction_path(out_geojson),
+                _text(json.dumps(layer, separators=(",", ":"), allow_nan=False)),
+                "the member-fraction layer beside -o",
+            )
+        )
     if netcdf:
         from icing.outputs.gridnc import write_grid_netcdf
 
@@ -227,6 +263,12 @@ def write_grid_outputs(result, *, out_geojson, netcdf=None, maps=None, inputs=()
             for b in range(nb):
                 draw = partial(plot_grid_map, result, t, b)
                 files.append((Path(maps) / grid_map_name(result, t, b), draw, "--maps"))
+                if result.members > 1:
+                    from icing.outputs.plot.gridmembers import plot_grid_member_map
+
+                    draw = partial(plot_grid_member_map, result, t, b)
+                    name = grid_member_map_name(result, t, b)
+                    files.append((Path(maps) / name, draw, "--maps"))
     given = [(p, "input file") if isinstance(p, (str, Path)) else tuple(p) for p in inputs]
     files_in = [(f, "forecast file") for f in (result.provenance or {}).get("files") or []]
     written = write_together(files, inputs=given + files_in)

@@ -34,7 +34,7 @@ import numpy as np
 from icing import codes
 from icing.errors import ForecastError, InputError
 from icing.hazards.bands import COVERAGE_GAP, PRODUCT_DTYPES, Bands, band_products, parse_bands
-from icing.hazards.gridded import PRODUCTS, GridResult
+from icing.hazards.gridded import MEMBER_PRODUCTS, PRODUCTS, GridResult
 
 __all__ = ["GridOptions", "GridJob", "grid_forecast", "run_block", "DEFAULT_BANDS_FT"]
 
@@ -62,7 +62,14 @@ class GridOptions:
     scheduler : str or None
         Address of a dask.distributed scheduler to run the blocks on instead.
     block_columns : int
-        Most grid columns in one block (the column physics holds a block at once).
+        Most columns diagnosed at once: grid columns of a block, times the members of
+        an ensemble (the column physics holds a block at once).
+    member_statistic : str
+        Ensembles and spreads: the statistic whose word is each cell's severity
+        (``"median"``, ``"worst"``, ``"pNN"``; :class:`icing.hazards.ensemble.MemberStatistic`).
+    spread : str or None
+        A parametric spread of a single forecast (``"all"`` or choices of
+        :data:`icing.runs.spread.SPREAD_CHOICES`): its variants are the members.
     """
 
     bands: Bands = field(default_factory=lambda: parse_bands(DEFAULT_BANDS_FT))
@@ -70,6 +77,8 @@ class GridOptions:
     workers: int | None = None
     scheduler: str | None = None
     block_columns: int = 4000
+    member_statistic: str = "median"
+    spread: str | None = None
 
     def describe(self) -> dict:
         """Return the options as a JSON-serialisable dict."""
@@ -98,6 +107,8 @@ class GridJob:
     """The altitude bands."""
     column_options: object
     """The ColumnOptions."""
+    members: object = None
+    """The members (:class:`icing.runs.gridmembers.MemberPlan`), None for one forecast."""
 
 
 def _workers(workers):
@@ -119,18 +130,34 @@ def _forecast_of(job: GridJob):
         if key not in _OPEN:
             while len(_OPEN) >= 2:  # a long-lived dask worker may serve several runs
                 _OPEN.pop(next(iter(_OPEN)))
-            from icing.forecast.blocks import bound_file_caches
-
             forecast = load_forecast(list(job.paths), **dict(job.load))
-            bound_file_caches(forecast)
+            _bound_caches(forecast)
             _OPEN[key] = forecast
         return _OPEN[key]
+
+
+def _bound_caches(forecast):
+    """Bound the file caches of a forecast, or of every member of an ensemble."""
+    from icing.forecast.blocks import bound_file_caches
+
+    if getattr(forecast, "joint", None) is not None:
+        bound_file_caches(forecast.joint)
+    elif hasattr(forecast, "members"):
+        for m in forecast.members:
+            bound_file_caches(m.forecast)
+    else:
+        bound_file_caches(forecast)
 
 
 def block_products(forecast, block, job: GridJob):
     """Return the band products of one block (see the module docstring)."""
     from icing.calc.column import diagnose_columns
     from icing.forecast.blocks import read_block_columns
+
+    if job.members is not None:
+        from icing.runs.gridmembers import member_block_products
+
+        return member_block_products(forecast, block, job)
 
     bc = read_block_columns(forecast, block)
     diag = diagnose_columns(**bc.columns, options=job.column_options)
@@ -195,31 +222,21 @@ def grid_forecast(
         Arrays (time, band, y, x) of severity, SLD class, coverage, LWC, MVD and
         accretion rate, with the provenance and the assumptions.
     """
-    from icing.airframes import load_airframe
-    from icing.calc.column import ColumnOptions
-    from icing.forecast import load_forecast
     from icing.forecast.blocks import plan_blocks
 
     options = options or GridOptions()
-    column_options = column_options or ColumnOptions()
-    load_options = dict(load_options or {})
-    if not hasattr(forecast, "columns_at"):
-        forecast = load_forecast(forecast, **load_options)
-    _check_gridded(forecast)
-    if not hasattr(airframe, "collectors"):
-        airframe = load_airframe(airframe)
-    times = _time_indices(forecast, options.times)
-    src = forecast.sources[0]
-    chunk = max(1, min(int(options.block_columns), int(column_options.chunk_columns)))
-    blocks = plan_blocks(src.y.size, src.x.size, times, columns=chunk)
-    job = GridJob(
-        tuple(str(p) for p in forecast.files),
-        tuple(sorted(load_options.items())),
-        airframe,
-        options.bands,
-        column_options,
+    forecast, airframe, column_options, plan, job = _prepared(
+        forecast, airframe, options, column_options, load_options
     )
-    store, scratch = _store(len(times), options.bands.count, src.y.size, src.x.size)
+    times = _time_indices(forecast, options.times)
+    ref = _reference(forecast)
+    src = ref.sources[0]
+    chunk = max(1, min(int(options.block_columns), int(column_options.chunk_columns)))
+    cells = max(1, chunk // (plan.count if plan is not None else 1))
+    blocks = plan_blocks(src.y.size, src.x.size, times, columns=cells)
+    store, scratch = _store(
+        len(times), options.bands.count, src.y.size, src.x.size, members=plan is not None
+    )
     position = {t: i for i, t in enumerate(times)}
     done = 0
     for block, prod in _results(forecast, job, blocks, options):
@@ -235,15 +252,72 @@ def grid_forecast(
         y=np.asarray(src.y, float),
         crs=src.crs,
         grid_mapping=src.grid_mapping,
-        periodic=bool(getattr(forecast, "periodic", False)),
+        periodic=bool(getattr(ref, "periodic", False)),
         provenance=_provenance(forecast, times),
-        assumptions=_assumptions(column_options, options, airframe),
+        assumptions=_assumptions(column_options, options, airframe, plan),
         scratch=scratch,
-        **store,
+        **_member_fields(store, plan),
     )
 
 
+def _prepared(forecast, airframe, options, column_options, load_options):
+    """Open what is given by name; return the forecast, airframe, options, members, job."""
+    from icing.airframes import load_airframe
+    from icing.calc.column import ColumnOptions
+    from icing.forecast import load_forecast
+    from icing.runs.gridmembers import job_files, member_plan
+
+    column_options = column_options or ColumnOptions()
+    load_options = dict(load_options or {})
+    if not hasattr(forecast, "columns_at"):
+        forecast = load_forecast(forecast, **load_options)
+    _check_gridded(forecast)
+    if not hasattr(airframe, "collectors"):
+        airframe = load_airframe(airframe)
+    plan = member_plan(
+        forecast,
+        statistic=options.member_statistic,
+        spread=options.spread,
+        column_options=column_options,
+    )
+    paths, extra = job_files(forecast, plan)
+    job = GridJob(
+        paths,
+        tuple(sorted({**load_options, **extra}.items())),
+        airframe,
+        options.bands,
+        column_options,
+        plan,
+    )
+    return forecast, airframe, column_options, plan, job
+
+
+def _reference(forecast):
+    from icing.runs.gridmembers import reference_grid
+
+    return reference_grid(forecast)
+
+
+def _member_fields(store, plan):
+    """Return the GridResult keywords of the stores (member fractions gathered, the plan)."""
+    from icing.hazards.ensemble import FRACTION_WORDS
+    from icing.hazards.gridmembers import fraction_key
+
+    out = dict(store)
+    if plan is None:
+        return out
+    out["member_fraction"] = {w: out.pop(fraction_key(w)) for w in FRACTION_WORDS}
+    out.update(
+        members=plan.count,
+        member_labels=tuple(plan.labels),
+        member_statistic=plan.statistic.name,
+    )
+    return out
+
+
 def _check_gridded(forecast):
+    if hasattr(forecast, "member_columns_at"):
+        return  # an ensemble: every member is checked (runs.gridmembers.member_plan)
     if getattr(forecast, "kind", None) != "grid":
         files = getattr(forecast, "files", None) or [None]
         raise ForecastError(
@@ -278,7 +352,7 @@ def _time_indices(forecast, times):
     return sorted(set(out))
 
 
-def _store(nt, nb, ny, nx):
+def _store(nt, nb, ny, nx, *, members=False):
     """Arrays for the whole grid's products: in memory, or on disk when large."""
     shape = (nt, nb, ny, nx)
     fill = {
@@ -290,6 +364,11 @@ def _store(nt, nb, ny, nx):
         "accretion_rate": np.nan,
     }
     dtypes = {k: PRODUCT_DTYPES[k] for k in fill}
+    if members:  # an ensemble's cells: the worst member, the members with data, fractions
+        from icing.hazards.gridmembers import MEMBER_FILL, MEMBER_PRODUCT_DTYPES
+
+        fill.update(MEMBER_FILL)
+        dtypes.update(MEMBER_PRODUCT_DTYPES)
     total = sum(np.dtype(d).itemsize for d in dtypes.values()) * int(np.prod(shape))
     scratch = None
     if total > _IN_MEMORY_BYTES:
@@ -310,8 +389,9 @@ def _store(nt, nb, ny, nx):
 def _put(store, t, block, prod):
     """Write a block's products (band, m) into the grid's arrays."""
     ny, nx = block.shape
+    arrays = prod.arrays() if hasattr(prod, "arrays") else None
     for name in store:
-        a = getattr(prod, name)
+        a = arrays[name] if arrays is not None else getattr(prod, name)
         store[name][t, :, block.ys, block.xs] = a.reshape(a.shape[0], ny, nx)
 
 
@@ -324,9 +404,7 @@ def _results(forecast, job, blocks, options):
         return
     n = _workers(options.workers)
     if n == 1 or len(blocks) == 1:
-        from icing.forecast.blocks import bound_file_caches
-
-        bound_file_caches(forecast)
+        _bound_caches(forecast)
         for block in blocks:
             yield block, block_products(forecast, block, job)
         return
@@ -368,18 +446,21 @@ def _provenance(forecast, times):
     return prov
 
 
-def _assumptions(column_options, options, airframe):
+def _assumptions(column_options, options, airframe, plan=None):
     from icing.calc.airframe import assumptions as collector_assumptions
 
-    return {
+    out = {
         "column": column_options.describe(),
         "collectors": collector_assumptions(),
         "airframe": airframe.describe(),
         "grid": options.describe(),
-        "products": dict(PRODUCTS),
+        "products": dict(PRODUCTS) if plan is None else {**PRODUCTS, **MEMBER_PRODUCTS},
         "airspeed": "the airframe's level-flight speed schedule at each altitude, in the "
         "forecast's air (as icing profile)",
         "altitude_reference_note": "every altitude is above mean sea level (feet MSL); the "
         "part of a band below the ground is left out, a band wholly below it is a gap "
         "(below-ground)",
     }
+    if plan is not None:
+        out["members"] = plan.describe()
+    return out

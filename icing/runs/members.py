@@ -18,7 +18,7 @@ import numpy as np
 
 from icing import codes
 
-__all__ = ["MemberColumns", "member_columns", "join_diagnoses"]
+__all__ = ["MemberColumns", "member_columns", "join_diagnoses", "diagnose_grouped"]
 
 
 @dataclass(frozen=True)
@@ -116,28 +116,42 @@ def _stack(colsets, offsets):
 
 
 def _diagnose_groups(colsets, options):
-    """Diagnose the members' columns: one call per group of members with the same inputs.
+    """Diagnose the members' column sets (see :func:`diagnose_grouped`)."""
+    return diagnose_grouped([cs.columns for cs in colsets], options)
 
-    Returns the joined diagnosis and each member's column offset in it.
+
+def diagnose_grouped(column_dicts, options):
+    """Diagnose several members' columns: one call per group of members with the same inputs.
+
+    Parameters
+    ----------
+    column_dicts : sequence of dict
+        Each member's ``diagnose_columns`` keyword arrays, (m_i, level) and (m_i,).
+    options : ColumnOptions
+
+    Returns
+    -------
+    (ColumnDiagnosis, list of int)
+        The joined diagnosis (:func:`join_diagnoses`) and each member's first column in it.
     """
     from icing.calc.column import diagnose_columns
 
-    def signature(cs):
-        return tuple(sorted((k, np.asarray(v).shape[1:]) for k, v in cs.columns.items()))
+    def signature(cols):
+        return tuple(sorted((k, np.asarray(v).shape[1:]) for k, v in cols.items()))
 
     groups = {}
-    for j, cs in enumerate(colsets):
-        groups.setdefault(signature(cs), []).append(j)
-    diags, offsets, start = [], [0] * len(colsets), 0
+    for j, cols in enumerate(column_dicts):
+        groups.setdefault(signature(cols), []).append(j)
+    diags, offsets, start = [], [0] * len(column_dicts), 0
     for members in groups.values():
         cols = {
-            key: np.concatenate([np.asarray(colsets[j].columns[key]) for j in members])
-            for key in colsets[members[0]].columns
+            key: np.concatenate([np.asarray(column_dicts[j][key]) for j in members])
+            for key in column_dicts[members[0]]
         }
         diags.append(diagnose_columns(**cols, options=options))
         for j in members:
             offsets[j] = start
-            start += colsets[j].n_columns
+            start += len(np.asarray(column_dicts[j]["pressure"]))
     return join_diagnoses(diags), offsets
 
 

@@ -20,7 +20,7 @@ from icing import codes
 from icing.calc.airspeed import PHASE_LEVEL, PHASES
 from icing.calc.severity import NOTE_POSSIBLE_DRIZZLE, severity_reasons
 from icing.caution import CAUTION
-from icing.constants import FT, KT, T0
+from icing.constants import FT, KT, RD, T0, G
 from icing.hazards.ensemble import MemberStatistic, reduce_members
 from icing.hazards.outcome import Condition, route_outcome
 from icing.hazards.readoff import icing_at, read_off, take_last, worst_over_candidates
@@ -429,18 +429,47 @@ def _state_at(diag, ci, targets, vref, ground, fields=None):
     """Read the diagnosed columns ``ci`` off at the targets (fields shaped like ``ci``).
 
     ``ci`` is (n, a + 1, ...) (trailing axes: members, candidate columns); the
-    targets (n, a + 1) are the same for each. Levels under the ground are unusable.
-    ``fields`` limits the fields read (:func:`icing.hazards.readoff.read_off`).
+    targets (n, a + 1) are the same for each. Targets under the ground are unusable
+    and below-ground (:func:`_under_ground`). ``fields`` limits the fields read
+    (:func:`icing.hazards.readoff.read_off`).
     """
     extra = (1,) * (ci.ndim - 2)
     tgt = np.broadcast_to(targets.reshape(targets.shape + extra), ci.shape)
+    if fields is not None and vref == "pressure":
+        fields = tuple(dict.fromkeys((*fields, "pressure", "temperature")))
     state = read_off(diag, ci, tgt, reference=vref, fields=fields)
-    g = ground.reshape(ground.shape + (1,) * (ci.ndim - 1))
-    with np.errstate(invalid="ignore"):
-        under = np.isfinite(g) & (state["height"] < g - 1.0)
+    under = _under_ground(state, tgt, vref, ground.reshape(ground.shape + (1,) * (ci.ndim - 1)))
     state["below_ground"] = state["below_ground"] | under
     state["valid"] = state["valid"] & ~under
     return state
+
+
+def _under_ground(state, tgt, vref, g):
+    """Which targets (n, a + 1, ...) lie under the ground ``g`` [m MSL].
+
+    Curtain rows (every target but the last) by their own altitude, as a grid
+    band's (:mod:`icing.hazards.bands`): the height read off is held at the
+    column's lowest level under it, so a row under the terrain of a column whose
+    lowest level stands above the ground (terrain-following levels: WRF) would
+    otherwise read as a coverage gap instead of ground. A pressure row's altitude
+    under the lowest level comes from the hypsometric equation over the lowest
+    level's temperature (isothermal layer; Wallace & Hobbs 2006, eq. 3.29). The
+    flight altitude (the last target) is compared by the height read off: a route
+    at an airfield lower than the forecast's smoothed terrain keeps the lowest
+    level's near-surface values over the read-off's 300 m (``hazards.readoff``).
+    """
+    height = np.array(state["height"], float)
+    if vref == "pressure":
+        p_read, t_read = state["pressure"], state["temperature"]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            # dz = (Rd T / g) ln(p / p_lowest) under the lowest level (eq. 3.29, T constant)
+            depth = RD * t_read / G * np.log(tgt / p_read)
+            rows = np.where(tgt > p_read, height - depth, height)
+    else:
+        rows = tgt
+    height[:, :-1] = rows[:, :-1]
+    with np.errstate(invalid="ignore"):
+        return np.isfinite(g) & (height < g - 1.0)
 
 
 def _assemble(run, at, curtain, column_options, options, segment_prefix):

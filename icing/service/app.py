@@ -93,6 +93,8 @@ _FIX = {
     "lat": "give degrees north, -90..90",
     "lon": "give degrees east, -180..180",
     "accept_gaps": "give true or false",
+    "member_statistic": "give median, worst, or pNN with NN from 50 to 100",
+    "member": "give a member index from the forecast's members in GET /v1/forecasts",
 }
 
 
@@ -260,6 +262,7 @@ def _screening_routes(app: FastAPI, config: ServiceConfig) -> None:
             "depart": _utc_iso(body.depart, "depart"),
             "fail_on": body.fail_on,
             "accept_gaps": body.accept_gaps,
+            "member_statistic": body.member_statistic,
         }
         if job["depart"] is not None:
             job["depart"] += "Z"
@@ -281,6 +284,7 @@ def _screening_routes(app: FastAPI, config: ServiceConfig) -> None:
             "lon": body.lon,
             "time": _utc_iso(body.time, "time"),
             "airframe": body.airframe,
+            "member": body.member,
         }
         return await _run(state, config, request, job)
 

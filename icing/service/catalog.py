@@ -121,10 +121,15 @@ def _describe(forecast_id_: str, forecast) -> dict:
         "time_tolerance_h": desc.get("time_tolerance_h"),
         "bounds": [round(float(b), 6) for b in bounds],
     }
-    if desc.get("kind") == "grid":
+    if desc.get("kind") == "grid" or desc.get("member_kind") == "grid":
         info.update(vertical=desc.get("vertical"), levels=desc.get("levels"))
     else:
         info.update(profiles=desc.get("profiles"), radius_km=desc.get("radius_km"))
+    if hasattr(forecast, "member_columns_at"):  # an ensemble: its members, by index
+        info["members"] = [
+            {"index": i, "label": str(label)} for i, label in enumerate(forecast.labels)
+        ]
+        info["member_origin"] = desc.get("member_origin")
     return info
 
 

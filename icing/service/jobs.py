@@ -34,7 +34,12 @@ log = logging.getLogger("icing.service")
 JSON = "application/json"
 GEOJSON = "application/geo+json"
 # command-line flags named in the library's fixes, and the request field that does the same
-_FLAGS = {"--depart": "depart", "--airframe": "airframe", "--tas-kt": "true_airspeed_kt"}
+_FLAGS = {
+    "--depart": "depart",
+    "--airframe": "airframe",
+    "--tas-kt": "true_airspeed_kt",
+    "--member-statistic": "member_statistic",
+}
 
 
 def problem_body(detail: str, field: str | None = None) -> bytes:
@@ -169,16 +174,54 @@ def _screen(job, store) -> dict:
                 condition=Condition(
                     fail_on=job.get("fail_on"), accept_gaps=bool(job.get("accept_gaps"))
                 ),
+                member_statistic=job.get("member_statistic") or "median",
             ),
         )
     except InputError as err:
-        raise _input_error(err, "depart" if "depart" in str(err.fix or "") else "route") from None
+        raise _input_error(err, _field_of(err)) from None
     fc = feature_collection(screenings)
     fc["provenance"] = _public_provenance(fc["provenance"], job["forecast"])
     fc["outcome"] = verdict(
         fc["summaries"], fail_on=job.get("fail_on"), accept_gaps=bool(job.get("accept_gaps"))
     )
     return fc
+
+
+def _field_of(err: InputError) -> str:
+    """Return the request field a screening's input error concerns."""
+    if err.where == "--member-statistic":
+        return "member_statistic"
+    return "depart" if "depart" in str(err.fix or "") else "route"
+
+
+def _profiled_member(job, forecast):
+    """Return the forecast to profile and its member (None), or refuse in one line (422).
+
+    An ensemble has one column per member: the request names the member by its index
+    in ``GET /v1/forecasts``; a single forecast has no members to name.
+    """
+    member = job.get("member")
+    fid = job["forecast"]["id"]
+    if not hasattr(forecast, "member_columns_at"):
+        if member is None:
+            return forecast, None
+        raise JobError(
+            422,
+            f"member: forecast {fid!r} is a single forecast, not an ensemble (fix: drop member)",
+            "member",
+        )
+    count = len(forecast.members)
+    if member is None or not 0 <= int(member) < count:
+        what = "names no member" if member is None else f"has no member {member}"
+        raise JobError(
+            422,
+            f"member: forecast {fid!r} is an ensemble of {count} members and the request "
+            f"{what} (fix: give member, an index 0..{count - 1} from its members in "
+            "GET /v1/forecasts; POST /v1/screen screens every member)",
+            "member",
+        )
+    one = forecast.members[int(member)]
+    return one.forecast, {"index": int(member), "label": one.label, "members": count}
 
 
 def _profile(job, store) -> dict:
@@ -195,7 +238,10 @@ def _profile(job, store) -> dict:
     if t is None:
         t = np.asarray(forecast.valid_times)[0]
     options = ColumnOptions()
-    result = diagnose_point(forecast, job["lat"], job["lon"], t, airframe=airframe)
+    column, member = _profiled_member(job, forecast)
+    result = diagnose_point(column, job["lat"], job["lon"], t, airframe=airframe)
+    if member is not None:
+        result["member"] = member
     result.update(
         lat=job["lat"],
         lon=job["lon"],
@@ -253,15 +299,36 @@ def run_job(job: dict, store: ForecastStore) -> tuple[int, bytes, str]:
 
 
 def _warm(job, store) -> dict:
-    """Open each forecast and diagnose one column of it (loads what a first request would)."""
+    """Open each forecast and diagnose one column of it (loads what a first request would).
+
+    An ensemble diagnoses one column of its first member after reading every member's
+    column at that point (what a screening reads). A forecast that cannot be opened or
+    read is logged with its own reason and the others are still opened.
+    """
+    opened, failed = 0, []
+    for ref in job["refs"]:
+        try:
+            _warm_one(store.get(ref), job["airframe"])
+            opened += 1
+        except InputError as err:
+            log.warning("warm-up: forecast %s not opened: %s", ref["id"], err.one_line())
+            failed.append(ref["id"])
+    return {"opened": opened, "failed": failed}
+
+
+def _warm_one(forecast, airframe):
+    import numpy as np
+
     from icing.runs import diagnose_point
 
-    for ref in job["refs"]:
-        forecast = store.get(ref)
-        lon0, lat0, lon1, lat1 = forecast.bounds
-        lon = (lon0 + lon1) / 2 if lon0 <= lon1 else ((lon0 + lon1 + 360) / 2 + 180) % 360 - 180
-        diagnose_point(forecast, (lat0 + lat1) / 2, lon, airframe=job["airframe"])
-    return {"opened": len(job["refs"])}
+    lon0, lat0, lon1, lat1 = forecast.bounds
+    lon = (lon0 + lon1) / 2 if lon0 <= lon1 else ((lon0 + lon1 + 360) / 2 + 180) % 360 - 180
+    lat = (lat0 + lat1) / 2
+    if hasattr(forecast, "member_columns_at"):
+        t = np.asarray(forecast.valid_times)[:1]
+        forecast.member_columns_at(np.array([lat]), np.array([lon]), t)
+        forecast = forecast.members[0].forecast
+    diagnose_point(forecast, lat, lon, airframe=airframe)
 
 
 def _sleep(job):

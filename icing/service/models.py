@@ -162,6 +162,17 @@ class ScreenRequest(_Model):
         description="Coverage gaps do not meet fail_on (for callers who screen gaps by other "
         "means); such routes are 'incomplete'.",
     )
+    member_statistic: str | None = Field(
+        default=None,
+        pattern=r"^(median|worst|p(5[0-9]|[6-9][0-9]|100))$",
+        description="Ensemble forecasts (members in GET /v1/forecasts): the statistic whose "
+        "word is each segment's severity: median (default: the word at least half of the "
+        "members reach), worst (any member), or pNN with NN 50-100 (the word at least "
+        "100 - NN % of the members reach). The worst member's word and the fraction of "
+        "members at each word or worse are always given beside it. Ignored for a single "
+        "forecast.",
+        examples=["median"],
+    )
 
 
 class ProfileRequest(_Model):
@@ -203,6 +214,14 @@ class ProfileRequest(_Model):
         examples=["2027-01-14T12:00:00Z"],
     )
     airframe: AirframeName = Field(description="Airframe preset name.", examples=["light-piston"])
+    member: int | None = Field(
+        default=None,
+        ge=0,
+        le=199,
+        description="Ensemble forecasts only, and required for them: the member whose column "
+        "is shown, by its index in the forecast's members (GET /v1/forecasts). An ensemble "
+        "has one column per member, never a blend of them.",
+    )  # no example: the documented forecast is a single one, which refuses a member
 
 
 class HealthResponse(BaseModel):
@@ -249,7 +268,9 @@ class ForecastInfo(BaseModel):
     model_config = ConfigDict(extra="allow")
     id: str = Field(description="Stable id: name it in requests.", examples=["skerrow-demo.nc"])
     status: Literal["available", "unavailable"]
-    kind: str | None = Field(default=None, description="grid | profiles.", examples=["grid"])
+    kind: str | None = Field(
+        default=None, description="grid | profiles | ensemble.", examples=["grid"]
+    )
     issue_time: str | None = Field(default=None, examples=["2027-01-14T00:00:00Z"])
     valid_times: list[str] = Field(default_factory=list, examples=[["2027-01-14T06:00:00Z"]])
     valid_from: str | None = Field(default=None, examples=["2027-01-14T06:00:00Z"])
@@ -263,6 +284,13 @@ class ForecastInfo(BaseModel):
         examples=[[-31.0, 53.5, -17.0, 60.5]],
     )
     reason: str | None = Field(default=None, description="Why an unavailable forecast is so.")
+    members: list[dict[str, Any]] | None = Field(
+        default=None,
+        description="Ensembles only: the members, each {index, label} (GRIB number, NetCDF "
+        "realization...). POST /v1/screen screens them all; POST /v1/profile shows one "
+        "(its member field).",
+        examples=[[{"index": 0, "label": "number 0 (control)"}]],
+    )
 
 
 class ForecastsResponse(BaseModel):

@@ -161,6 +161,11 @@ def _titles(fig, result, t, b, f, *, top, step):
         gid="title",
     )
     note = "worst in the band" + (f", worst of each {f}x{f} cells" if f > 1 else "")
+    if getattr(result, "members", 1) > 1:  # an ensemble: the statistic's word
+        note += (
+            f"; the {result.member_statistic} of {result.members} members (fractions of "
+            "members: the map named -members.png)"
+        )
     fig.text(
         0.08,
         top - step,

@@ -16,6 +16,7 @@ from matplotlib.colors import BoundaryNorm, ListedColormap
 from matplotlib.patches import Patch
 
 from icing import codes
+from icing.hazards.ensemble import FRACTION_BAND_LABELS, SHOWN_FRACTION_WORDS
 from icing.outputs.plot.style import GAP_FILL, GAP_HATCH, GAP_HATCH_COLOUR, GROUND
 
 __all__ = ["FRACTION_COLOURS", "FRACTION_BANDS", "PANEL_WORDS", "draw_member_panel"]
@@ -27,9 +28,9 @@ FRACTION_COLOURS = ("#dcefe9", "#a9d6cb", "#6bb3a6", "#2f8478", "#0f4f49")
 #: edge, so 1 of 4 members falls in "up to 1/4").
 FRACTION_BANDS = (0.0, 0.25 + 1e-6, 0.5 + 1e-6, 0.75 + 1e-6, 1.0 - 1e-6, 1.0 + 1e-6)
 #: Legend text per band.
-_BAND_LABELS = ("up to 1/4", "1/4 - 1/2", "1/2 - 3/4", "over 3/4", "all members")
+_BAND_LABELS = FRACTION_BAND_LABELS[1:]
 #: The thresholds drawn, one panel each.
-PANEL_WORDS = ("light", "moderate")
+PANEL_WORDS = SHOWN_FRACTION_WORDS
 
 
 def draw_member_panel(ax, fr, curtain, word, *, path=None, legend=False):
