@@ -231,7 +231,7 @@ class HealthResponse(BaseModel):
     status: Literal["ok", "degraded"] = Field(
         description="'degraded' when no forecast is available."
     )
-    version: str = Field(description="Tool version.", examples=["0.1.0"])
+    version: str = Field(description="Tool version.", examples=["0.2.0"])
     schema_version: str = Field(description="Output schema version.", examples=["1.0"])
     forecasts_available: int = Field(description="Forecasts that can be used now.")
     auth: bool = Field(description="True when an API key is required (Authorization: Bearer).")
