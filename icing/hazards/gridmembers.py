@@ -34,6 +34,7 @@ from icing.hazards.bands import (
     COVERAGE_GAP,
     COVERAGE_PARTIAL,
     PRODUCT_DTYPES,
+    BandProducts,
 )
 from icing.hazards.ensemble import FRACTION_WORDS, reduce_members
 
@@ -70,21 +71,15 @@ MEMBER_FILL = {
 
 
 @dataclass(frozen=True)
-class MemberBandProducts:
-    """The band products of an ensemble's cells; arrays (band, column) as BandProducts."""
+class MemberBandProducts(BandProducts):
+    """The band products of an ensemble's cells; arrays (band, column) as BandProducts.
 
-    severity: np.ndarray
-    """int8: the statistic's word among the members with data; ``codes.GAP`` where none."""
-    sld: np.ndarray
-    """int8 SLD class of the statistic's member; ``codes.GAP`` where no member has data."""
-    coverage: np.ndarray
-    """int8 coverage code over the members (see the module docstring)."""
-    lwc: np.ndarray
-    """float32 cloud liquid of the statistic's member at its band's worst altitude. [kg m-3]"""
-    mvd: np.ndarray
-    """float32 cloud-drop median volume diameter there. [m]"""
-    accretion_rate: np.ndarray
-    """float32 accretion rate on the worst collector there. [m s-1]"""
+    The inherited products are the ensemble's: ``severity`` is the statistic's word
+    among the members with data (``codes.GAP`` where none has); ``sld``, ``lwc``,
+    ``mvd`` and ``accretion_rate`` are the statistic's member's; ``coverage`` is over
+    the members (see the module docstring).
+    """
+
     severity_worst_member: np.ndarray
     """int8 worst member's word; ``codes.GAP`` where no member has data."""
     members_covering: np.ndarray

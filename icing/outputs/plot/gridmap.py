@@ -35,7 +35,7 @@ from icing.outputs.plot.style import (
     save,
 )
 
-__all__ = ["plot_grid_map", "DISPLAY_CELLS"]
+__all__ = ["plot_grid_map", "drawn_columns", "DISPLAY_CELLS"]
 
 #: Most cells drawn; larger grids show the worst of each few cells.
 DISPLAY_CELLS = 400_000
@@ -82,6 +82,21 @@ def _corners(result, x, f):
     return np.unwrap(np.unwrap(np.asarray(lon), period=360.0, axis=1), period=360.0, axis=0), lat
 
 
+def drawn_columns(result, arrays):
+    """Return the grid's x and ``arrays`` (y, x) in the order they are drawn.
+
+    A global longitude-latitude grid is drawn from -180 to 180: its columns are put
+    in that order; any other grid is drawn as it is.
+    """
+    x = np.asarray(result.x, float)
+    arrays = [np.asarray(a) for a in arrays]
+    if result.periodic and result.crs is None:
+        order = np.argsort(((x + 180.0) % 360.0) - 180.0, kind="stable")
+        x = ((x[order] + 180.0) % 360.0) - 180.0
+        arrays = [a[:, order] for a in arrays]
+    return x, arrays
+
+
 def plot_grid_map(result, t, b, path, *, width_in=9.0, dpi=110):
     """Draw band ``b`` at valid time ``t`` of a grid run; write a PNG.
 
@@ -99,12 +114,9 @@ def plot_grid_map(result, t, b, path, *, width_in=9.0, dpi=110):
     pathlib.Path
     """
     path, fmt = check_picture_path(path)
-    sev, cov, sld = result.severity[t, b], result.coverage[t, b], result.sld[t, b]
-    x = np.asarray(result.x, float)
-    if result.periodic and result.crs is None:  # a global grid: drawn from -180 to 180
-        order = np.argsort(((x + 180.0) % 360.0) - 180.0, kind="stable")
-        x = ((x[order] + 180.0) % 360.0) - 180.0
-        sev, cov, sld = (np.asarray(a)[:, order] for a in (sev, cov, sld))
+    x, (sev, cov, sld) = drawn_columns(
+        result, (result.severity[t, b], result.coverage[t, b], result.sld[t, b])
+    )
     f = max(1, int(np.ceil(np.sqrt(sev.size / DISPLAY_CELLS))))
     rank = _coarsen(_ranks(sev, cov), f)
     lon, lat = _corners(result, x, f)

@@ -26,7 +26,7 @@ from matplotlib.patches import Patch
 from icing import codes
 from icing.hazards.bands import COVERAGE_BELOW_GROUND
 from icing.hazards.ensemble import FRACTION_BAND_LABELS, SHOWN_FRACTION_WORDS, fraction_band
-from icing.outputs.plot.gridmap import DISPLAY_CELLS, _coarsen, _corners, _hatch
+from icing.outputs.plot.gridmap import DISPLAY_CELLS, _coarsen, _corners, _hatch, drawn_columns
 from icing.outputs.plot.members import FRACTION_COLOURS
 from icing.outputs.plot.routemap import _draw_coastlines, _draw_graticule
 from icing.outputs.plot.style import (
@@ -77,15 +77,13 @@ def plot_grid_member_map(result, t, b, path, *, dpi=110):
     pathlib.Path
     """
     path, fmt = check_picture_path(path)
-    x = np.asarray(result.x, float)
-    cov = np.asarray(result.coverage[t, b])
-    covering = np.asarray(result.members_covering[t, b])
-    fractions = {w: np.asarray(result.member_fraction[w][t, b]) for w in SHOWN_FRACTION_WORDS}
-    if result.periodic and result.crs is None:  # a global grid: drawn from -180 to 180
-        order = np.argsort(((x + 180.0) % 360.0) - 180.0, kind="stable")
-        x = ((x[order] + 180.0) % 360.0) - 180.0
-        cov, covering = cov[:, order], covering[:, order]
-        fractions = {w: f[:, order] for w, f in fractions.items()}
+    words = SHOWN_FRACTION_WORDS
+    x, (cov, covering, *shown) = drawn_columns(
+        result,
+        (result.coverage[t, b], result.members_covering[t, b])
+        + tuple(result.member_fraction[w][t, b] for w in words),
+    )
+    fractions = dict(zip(words, shown, strict=True))
     f = max(1, int(np.ceil(np.sqrt(cov.size / DISPLAY_CELLS))))
     lon, lat = _corners(result, x, f)
     coslat = max(np.cos(np.deg2rad(float(np.median(lat)))), 0.05)
