@@ -509,3 +509,22 @@ def test_model_level_grib_is_refused_in_one_line(tmp_path, capsys):
     path.write_bytes(b"".join(msgs))
     err = _one_line_refusal(capsys, tmp_path, path)
     assert "GRIB2" in err and "hybrid" in err and "model levels" in err
+
+
+def test_profile_levels_without_data_are_unknown_not_zero(real_data):
+    """GFS gives cloud water and vertical velocity only up to 100 hPa (real NCEP GFS file,
+    origin in tests/data/real/README.md): the levels above are coverage gaps, and their
+    liquid, basis and ice type read unknown (null), never 0 or "none"."""
+    from icing import load_forecast
+    from icing.runs import diagnose_point
+
+    fc = load_forecast(real_data / "gfs.t12z.pgrbf120.2p5deg.grib2")
+    result = diagnose_point(fc, 45.0, -90.0, airframe="light-piston")
+    gaps = [lv for lv in result["levels"] if not lv["valid"] and not lv["below_ground"]]
+    assert [lv["pressure_hpa"] for lv in gaps] == [70.0, 50.0, 30.0, 20.0, 10.0]
+    for lv in gaps:
+        assert lv["severity"] == "coverage-gap" and lv["sld"] == "coverage-gap"
+        assert lv["lwc_g_m3"] is None and lv["basis"] == "coverage-gap"
+        assert lv["ice_type"] is None and lv["accretion_rate_mm_h"] is None
+    known = [lv for lv in result["levels"] if lv["valid"] and lv["severity"] == "none"]
+    assert known and all(lv["lwc_g_m3"] == 0.0 and lv["ice_type"] == "none" for lv in known)

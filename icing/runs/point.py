@@ -83,14 +83,17 @@ def diagnose_point(
 
 def _level_row(diag, c, i, k, icing):
     """One level of column ``c`` (candidate ``k``) as a JSON-able dict."""
+    unknown = not diag.valid[c, i] and not diag.below_ground[c, i]  # a coverage gap
     row = {
         "pressure_hpa": _r(diag.pressure[c, i] / 100.0, 2),
         "height_m": _r(diag.height[c, i], 1),
         "temperature_c": _r(diag.temperature[c, i] - T0, 2),
         "relative_humidity_pct": _r(diag.relative_humidity[c, i] * 100, 1),
         "cloud": bool(diag.cloud[c, i]),
-        "lwc_g_m3": _r(np.nan_to_num(diag.lwc[c, i]) * 1000, 4),
-        "basis": str(codes.words(diag.basis[c, i], codes.BASIS, gap="coverage-gap")),
+        "lwc_g_m3": None if unknown else _r(np.nan_to_num(diag.lwc[c, i]) * 1000, 4),
+        "basis": "coverage-gap"
+        if unknown
+        else str(codes.words(diag.basis[c, i], codes.BASIS, gap="coverage-gap")),
         "droplet_number_cm3": _r(diag.droplet_number[c, i] / 1e6, 1),
         "mvd_um": _r(diag.mvd[c, i] * 1e6, 2),
         "glaciation": _r(diag.glaciation[c, i], 3),
@@ -111,7 +114,7 @@ def _level_row(diag, c, i, k, icing):
     row.update(
         collection_efficiency=_r(res.collection_efficiency[k, i], 4),
         accretion_rate_mm_h=_r(res.accretion_rate_mm_h[k, i], 3),
-        ice_type=codes.ICE_TYPES[int(res.ice_type[k, i])],
+        ice_type=None if sev[k, i] == codes.GAP else codes.ICE_TYPES[int(res.ice_type[k, i])],
         severity=str(codes.words(sev[k, i], codes.SEVERITY, gap="coverage-gap")),
         tas_kt=_r(tas[k, i] / KT, 1),
         reasons=[] if sev[k, i] == codes.GAP else severity_reasons(notes, tas_kt=tas[k, i] / KT),
