@@ -338,3 +338,31 @@ def test_parse_bands():
     assert parse_bands("0:20000:2000").count == 10
     assert parse_bands("-1000,0,500").edges_ft == (-1000.0, 0.0, 500.0)
     assert parse_bands("0:5000:2000").edges_ft == (0.0, 2000.0, 4000.0)
+
+
+def test_a_hole_at_the_antimeridian_of_a_projected_grid_stays_inside_its_shell():
+    """A face with a hole on a Lambert grid centred on 180 (invented geometry; the
+    check is geometric): each ring is unwrapped from its own first point, so a hole
+    starting east of 180 came out a whole turn from a shell starting west of it
+    ("hole lies outside shell"), and the cut at 180 failed on it."""
+    from pyproj import CRS
+
+    from icing.hazards.areas import _projected_to_lonlat, class_polygons
+
+    crs = CRS.from_proj4("+proj=lcc +lat_1=42 +lat_2=42 +lat_0=42 +lon_0=180 +R=6371229")
+    xe = (np.arange(13) - 6.0) * 20_000.0  # cell edges: 180 E is edge 6
+    ye = (np.arange(9) - 4.0) * 20_000.0
+    shell = [(1, 1), (11, 1), (11, 7), (1, 7)]  # starts west of 180
+    hole = [(8, 3), (8, 5), (4, 5), (4, 3)]  # starts east of 180
+    face = shapely.Polygon(shell, [hole])
+    (lonlat,) = _projected_to_lonlat(np.array([face], dtype=object), xe, ye, crs)
+    assert lonlat.is_valid, shapely.is_valid_reason(lonlat)
+    assert lonlat.interiors[0].bounds[0] > lonlat.exterior.bounds[0]
+    # and through the whole path: icing round a clear block astride 180
+    codes_ = np.zeros((8, 12), int)
+    codes_[1:7, 1:11] = 1
+    codes_[3:5, 4:8] = 0
+    x, y = 0.5 * (xe[1:] + xe[:-1]), 0.5 * (ye[1:] + ye[:-1])
+    g = class_polygons(codes_, x, y, crs=crs, wanted=[1])[1]
+    full = class_polygons(np.where(codes_ == 0, 1, codes_), x, y, crs=crs, wanted=[1])[1]
+    assert g.is_valid and g.area < full.area

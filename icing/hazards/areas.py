@@ -192,7 +192,7 @@ def _projected_to_lonlat(faces, xe, ye, crs):
             py = np.interp(c[:, 1], np.arange(ye.size), ye)
             lon, lat = inv.transform(px, py)
             rings.append(_unwrapped_ring(np.asarray(lon, float), np.asarray(lat, float)))
-        out.append(shapely.Polygon(rings[0], rings[1:]))
+        out.append(shapely.Polygon(rings[0], [_beside(r, rings[0]) for r in rings[1:]]))
     return np.array(out, dtype=object)
 
 
@@ -205,6 +205,17 @@ def _unwrapped_ring(lon, lat):
         lon = np.r_[lon, lon[-1], lon[0]]
         lat = np.r_[lat, pole, pole]
     return np.column_stack([lon, lat])
+
+
+def _beside(hole, shell):
+    """Move a hole's ring by whole turns of longitude onto its shell's.
+
+    Each ring is unwrapped from its own first point, so near the antimeridian a hole
+    can come out a turn away from its shell (at -179.9 inside a shell at 180.1): an
+    invalid polygon ("hole lies outside shell") that the antimeridian cut cannot take.
+    """
+    turns = np.round((np.mean(shell[:, 0]) - np.mean(hole[:, 0])) / 360.0)
+    return hole + [360.0 * turns, 0.0] if turns else hole
 
 
 def _split_antimeridian(geom):
