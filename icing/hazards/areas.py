@@ -229,6 +229,8 @@ def _split_antimeridian(geom):
     k1 = int(np.floor((xmax + 180.0) / 360.0 - 1e-12))
     if k0 == k1 == 0:
         return geom
+    if not shapely.is_valid(geom):  # faces side by side in one multi-part: GEOS cuts valid ones
+        geom = shapely.make_valid(geom)
     pieces = []
     for k in range(k0, k1 + 1):
         box = shapely.box(-180.0 + 360.0 * k, -90.0, 180.0 + 360.0 * k, 90.0)
