@@ -45,7 +45,7 @@ from icing import codes
 from icing.calc.airspeed import PHASE_LEVEL
 from icing.constants import FT, IN_CLOUD_LWC
 from icing.errors import InputError
-from icing.hazards.readoff import icing_at, read_off
+from icing.hazards.readoff import icing_at, locate, read_located, subset
 
 __all__ = [
     "Bands",
@@ -212,7 +212,8 @@ def _liquid_state(diag, tgt, ground):
     """Read every target for its validity and liquid; return the pieces the bands need."""
     m = tgt.shape[0]
     ci = np.broadcast_to(np.arange(m)[:, None], tgt.shape)
-    s = read_off(diag, ci, tgt, fields=("lwc", "sld_lwc", "sld_class"))
+    at = locate(diag, ci, tgt)  # once: the liquid targets are read again from it
+    s = read_located(diag, at, fields=("lwc", "sld_lwc", "sld_class"))
     below, valid = s["below_ground"], s["valid"]
     if ground is not None:
         g = np.asarray(ground, float)[:, None]
@@ -222,17 +223,17 @@ def _liquid_state(diag, tgt, ground):
         below, valid = below | under, valid & ~under
     with np.errstate(invalid="ignore"):
         liquid = valid & ((s["lwc"] >= IN_CLOUD_LWC) | (s["sld_lwc"] >= IN_CLOUD_LWC))
-    return s, ci, below, valid, liquid
+    return s, at, below, valid, liquid
 
 
-def _icing_where_liquid(diag, airframe, tgt, ci, liquid, valid):
+def _icing_where_liquid(diag, airframe, tgt, located, liquid, valid):
     """Severity, accretion rate [mm/h] and cloud MVD [m] at every target (m, T)."""
     sev = np.where(valid, codes.SEV_NONE, codes.GAP).astype(np.int8)
     rate = np.where(valid, 0.0, np.nan)
     mvd = np.full(tgt.shape, np.nan)
     at = np.nonzero(liquid)
     if at[0].size:
-        st = read_off(diag, ci[at], tgt[at])
+        st = read_located(diag, subset(located, at))
         st["valid"] = st["valid"] & valid[at]  # the ground test of _liquid_state
         tas = airframe.schedule.true_airspeed(
             PHASE_LEVEL, st["pressure"], st["temperature"], st["height"]
@@ -265,8 +266,8 @@ def band_products(diag, airframe, bands: Bands, *, ground=None) -> BandProducts:
         Arrays shaped (band, m); see the module docstring for what each holds.
     """
     tgt = _targets(diag.height, bands.edges_m)
-    s, ci, below, valid, liquid = _liquid_state(diag, tgt, ground)
-    sev, rate, mvd = _icing_where_liquid(diag, airframe, tgt, ci, liquid, valid)
+    s, located, below, valid, liquid = _liquid_state(diag, tgt, ground)
+    sev, rate, mvd = _icing_where_liquid(diag, airframe, tgt, located, liquid, valid)
     lwc = np.where(valid, s["lwc"], np.nan)
     sld = np.where(valid, s["sld_class"], codes.GAP)
     present = np.isfinite(tgt)
