@@ -45,6 +45,7 @@ from icing import codes
 from icing.calc.airspeed import PHASE_LEVEL
 from icing.constants import FT, IN_CLOUD_LWC
 from icing.errors import InputError
+from icing.hazards._compiled import compiled_kernels
 from icing.hazards.readoff import icing_at, locate, read_located, subset
 
 __all__ = [
@@ -212,7 +213,7 @@ def _liquid_state(diag, tgt, ground):
     """Read every target for its validity and liquid; return the pieces the bands need."""
     m = tgt.shape[0]
     ci = np.broadcast_to(np.arange(m)[:, None], tgt.shape)
-    at = locate(diag, ci, tgt)  # once: the liquid targets are read again from it
+    at = locate(diag, ci, tgt, compiled=True)  # once: the liquid targets are read again from it
     s = read_located(diag, at, fields=("lwc", "sld_lwc", "sld_class"))
     below, valid = s["below_ground"], s["valid"]
     if ground is not None:
@@ -277,7 +278,27 @@ def band_products(diag, airframe, bands: Bands, *, ground=None) -> BandProducts:
 
 
 def _reduce(tgt, edges, known, above, sev, sld, rate, lwc, mvd):
-    """Per band: worst severity and SLD, coverage, and the worst altitude's values."""
+    """Per band: worst severity and SLD, coverage, and the worst altitude's values.
+
+    In the compiled loop where numba is installed (:mod:`icing.hazards._compiled`),
+    else in numpy (:func:`_reduce_numpy`, the reference: the same values).
+    """
+    loops = compiled_kernels()
+    if loops is None:
+        return _reduce_numpy(tgt, edges, known, above, sev, sld, rate, lwc, mvd)
+    nb, m = edges.size - 1, tgt.shape[0]
+    classes = np.empty((3, nb, m), np.int8)
+    fields = np.empty((3, nb, m), np.float32)
+    args = [np.ascontiguousarray(a) for a in (tgt, edges, known, above, sev, sld, rate, lwc, mvd)]
+    loops.reduce_bands(*args, classes, fields)
+    names = ("severity", "sld", "coverage"), ("lwc", "mvd", "accretion_rate")
+    return BandProducts(
+        **dict(zip(names[0], classes, strict=True)), **dict(zip(names[1], fields, strict=True))
+    )
+
+
+def _reduce_numpy(tgt, edges, known, above, sev, sld, rate, lwc, mvd):
+    """:func:`_reduce` in numpy: each band a window of every row, all rows at once."""
     m, nt = tgt.shape
     nb = edges.size - 1
     out = {

@@ -14,6 +14,7 @@ import numpy as np
 from icing import codes
 from icing.calc.airframe import airframe_icing
 from icing.constants import IN_CLOUD_LWC
+from icing.hazards._compiled import compiled_kernels
 
 __all__ = [
     "read_off",
@@ -129,12 +130,14 @@ def _count_on_grid(zs, finite, c, tz):
     return np.where(nan, 0, left)
 
 
-def locate(diag, column_index, target, *, reference="msl"):
+def locate(diag, column_index, target, *, reference="msl", compiled=False):
     """Where each target stands in its column: the two levels around it and the weight.
 
     The first half of :func:`read_off` (same parameters); the result reads any fields
     with :func:`read_located`, and :func:`subset` keeps some of the targets (a grid run
     locates every altitude once, then reads the liquid ones again for the physics).
+    ``compiled``: search in the compiled loop where numba is installed (a grid run:
+    :mod:`icing.hazards._compiled`; the same values).
     """
     z = _vertical_coordinate(diag, reference)  # (m, L)
     m, nlev = z.shape
@@ -145,15 +148,16 @@ def locate(diag, column_index, target, *, reference="msl"):
     c = np.where(present, ci, 0)
     tgt = np.asarray(target, float)
     tz = -np.log(tgt) if reference == "pressure" else tgt
+    # Between the ground and the lowest forecast level the lowest level's values hold,
+    # over a limited depth only (a model's lowest level is its near-surface air).
+    depth = np.log(1.0 + _EXTRAPOLATE_M / 8000.0) if reference == "pressure" else _EXTRAPOLATE_M
+    loops = compiled_kernels() if compiled else None
+    if loops is not None:
+        return _locate_compiled(loops, zs, order, c, present, tz, depth)
     lo, hi, z_lo, z_hi, z_min, i_lo, i_hi = _bracket(zs, order, c, tz)
     with np.errstate(invalid="ignore", divide="ignore"):
         w = np.clip((tz - z_lo) / (z_hi - z_lo), 0.0, 1.0)
         inside = present & np.isfinite(tz) & (tz >= z_lo) & (tz <= z_hi)
-        # Between the ground and the lowest forecast level the lowest level's values hold,
-        # over a limited depth only (a model's lowest level is its near-surface air).
-        depth = (
-            np.log(1.0 + _EXTRAPOLATE_M / 8000.0) if reference == "pressure" else _EXTRAPOLATE_M
-        )
         near_base = present & np.isfinite(tz) & (tz < z_min) & (tz >= z_min - depth) & (lo == 0)
     return {
         "shape": (m, nlev),
@@ -162,6 +166,28 @@ def locate(diag, column_index, target, *, reference="msl"):
         "inside": inside | near_base,
         "f_lo": c * nlev + i_lo,
         "f_hi": c * nlev + i_hi,
+    }
+
+
+def _locate_compiled(loops, zs, order, c, present, tz, depth):
+    """:func:`locate` by the compiled loop (flat targets in, shaped arrays out)."""
+    shape = np.broadcast_shapes(c.shape, tz.shape)
+    flat = [np.ascontiguousarray(np.broadcast_to(a, shape)).reshape(-1) for a in (c, present, tz)]
+    w = np.empty(flat[0].size)
+    inside = np.empty(flat[0].size, bool)
+    f_lo = np.empty(flat[0].size, np.int64)
+    f_hi = np.empty(flat[0].size, np.int64)
+    order = np.ascontiguousarray(order, dtype=np.int64)
+    loops.locate(
+        zs, order, flat[0].astype(np.int64), *flat[1:], float(depth), w, inside, f_lo, f_hi
+    )
+    return {
+        "shape": zs.shape,
+        "present": flat[1].reshape(shape),
+        "w": w.reshape(shape),
+        "inside": inside.reshape(shape),
+        "f_lo": f_lo.reshape(shape),
+        "f_hi": f_hi.reshape(shape),
     }
 
 
