@@ -13,7 +13,7 @@ import numpy as np
 
 from icing.codes import GAP, SEV_NONE
 
-__all__ = ["locate", "reduce_bands"]
+__all__ = ["locate", "reduce_bands", "lerp", "validity"]
 
 #: ``icing.hazards.bands.COVERAGE`` codes (a test holds them equal).
 COMPLETE, PARTIAL, GAP_COVERAGE, BELOW_GROUND = range(4)
@@ -174,3 +174,31 @@ def reduce_bands(tgt, edges, known, above, sev, sld, rate, lwc, mvd, classes, fi
                 fields[0, b, r] = lwc[r, pick]
                 fields[1, b, r] = mvd[r, pick]
                 fields[2, b, r] = rate[r, pick] / 3.6e6
+
+
+@_jit
+def lerp(a, f_lo, f_hi, w, mode, out):
+    """Read ``a`` (flat levels) linearly at each target, as ``readoff.read_located``.
+
+    ``mode`` 0: as is; 1: NaN as 0 (``np.nan_to_num``, liquid); 2: a size missing at
+    one level takes the other level's.
+    """
+    for s in range(w.size):
+        x, y = a[f_lo[s]], a[f_hi[s]]
+        if mode == 1:
+            x, y = _finite_or(x, 0.0), _finite_or(y, 0.0)
+        elif mode == 2:
+            if not abs(x) < _INF:
+                x = y
+            if not abs(y) < _INF:
+                y = x
+        out[s] = x + w[s] * (y - x)
+
+
+@_jit
+def validity(level_valid, level_below, f_lo, f_hi, w, present, inside, valid, below):
+    """Below the ground and valid at each target, as ``readoff.read_located``."""
+    for s in range(w.size):
+        under = present[s] and level_below[f_lo[s]] and (w[s] < 0.5 or level_below[f_hi[s]])
+        below[s] = under
+        valid[s] = inside[s] and level_valid[f_lo[s]] and level_valid[f_hi[s]] and not under

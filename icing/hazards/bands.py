@@ -214,7 +214,7 @@ def _liquid_state(diag, tgt, ground):
     m = tgt.shape[0]
     ci = np.broadcast_to(np.arange(m)[:, None], tgt.shape)
     at = locate(diag, ci, tgt, compiled=True)  # once: the liquid targets are read again from it
-    s = read_located(diag, at, fields=("lwc", "sld_lwc", "sld_class"))
+    s = read_located(diag, at, fields=("lwc", "sld_lwc", "sld_class"), compiled=True)
     below, valid = s["below_ground"], s["valid"]
     if ground is not None:
         g = np.asarray(ground, float)[:, None]
@@ -234,7 +234,7 @@ def _icing_where_liquid(diag, airframe, tgt, located, liquid, valid):
     mvd = np.full(tgt.shape, np.nan)
     at = np.nonzero(liquid)
     if at[0].size:
-        st = read_located(diag, subset(located, at))
+        st = read_located(diag, subset(located, at), compiled=True)
         st["valid"] = st["valid"] & valid[at]  # the ground test of _liquid_state
         tas = airframe.schedule.true_airspeed(
             PHASE_LEVEL, st["pressure"], st["temperature"], st["height"]

@@ -226,8 +226,56 @@ def read_off(diag, column_index, target, *, reference="msl", fields=None):
     return read_located(diag, located, fields=fields)
 
 
-def read_located(diag, located, *, fields=None):
-    """Read fields off at targets located by :func:`locate` (see :func:`read_off`)."""
+def read_located(diag, located, *, fields=None, compiled=False):
+    """Read fields off at targets located by :func:`locate` (see :func:`read_off`).
+
+    ``compiled``: the linear fields and the validity in the compiled loops where numba
+    is installed (a grid run: :mod:`icing.hazards._compiled`; the same values).
+    """
+    loops = compiled_kernels() if compiled else None
+    if loops is not None:
+        return _read_compiled(loops, diag, located, fields)
+    return _read_numpy(diag, located, fields)
+
+
+_SIZES = ("mvd", "sld_mvd", "droplet_number", "glaciation")
+
+
+def _read_compiled(loops, diag, located, fields):
+    """:func:`read_located` with the linear fields and the validity in compiled loops."""
+    m, nlev = located["shape"]
+    w, f_lo, f_hi = (np.ascontiguousarray(located[k]).reshape(-1) for k in ("w", "f_lo", "f_hi"))
+    linear = [
+        n for n in _LINEAR if fields is None or n in fields or (n == "lwc" and "cloud" in fields)
+    ]
+    rest = _read_numpy(diag, located, fields, skip=set(linear) | {"height", "valid"})
+    out = {}
+    for name in (*linear, "height"):
+        a = np.asarray(getattr(diag, name))
+        if a.shape != (m, nlev):
+            a = np.broadcast_to(a, (m, nlev))
+        mode = 2 if name in _SIZES else 1 if name.startswith(("lwc", "sld_lwc")) else 0
+        got = np.empty(w.size)
+        loops.lerp(np.ascontiguousarray(a, dtype=float).reshape(-1), f_lo, f_hi, w, mode, got)
+        out[name] = got.reshape(located["w"].shape)
+    valid, below = np.empty(w.size, bool), np.empty(w.size, bool)
+    flags = [
+        np.ascontiguousarray(np.broadcast_to(a, (m, nlev)), dtype=bool).reshape(-1)
+        for a in (diag.valid, diag.below_ground)
+    ]
+    present, inside = (np.ascontiguousarray(located[k]).reshape(-1) for k in ("present", "inside"))
+    loops.validity(*flags, f_lo, f_hi, w, present, inside, valid, below)
+    out["valid"], out["below_ground"] = (
+        valid.reshape(located["w"].shape),
+        below.reshape(located["w"].shape),
+    )
+    if "lwc" in out:
+        out["cloud"] = out["lwc"] >= IN_CLOUD_LWC
+    return {**rest, **out}
+
+
+def _read_numpy(diag, located, fields, skip=()):
+    """:func:`read_located` in numpy (the reference); leaves out the fields in ``skip``."""
     m, nlev = located["shape"]
     w, f_lo, f_hi = located["w"], located["f_lo"], located["f_hi"]
 
@@ -243,10 +291,12 @@ def read_located(diag, located, *, fields=None):
     for name in _LINEAR:
         if want is not None and name not in want and not (name == "lwc" and "cloud" in want):
             continue
+        if name in skip:
+            continue
         a, b = pick(getattr(diag, name))
         a = np.asarray(a, float)
         b = np.asarray(b, float)
-        if name in ("mvd", "sld_mvd", "droplet_number", "glaciation"):
+        if name in _SIZES:
             # a size exists only where its population does: take the other level's size
             a = np.where(np.isfinite(a), a, b)
             b = np.where(np.isfinite(b), b, a)
@@ -259,9 +309,10 @@ def read_located(diag, located, *, fields=None):
         pa, pb = pick(diag.pressure)
         with np.errstate(invalid="ignore", divide="ignore"):
             out["pressure"] = np.exp(np.log(pa) + w * (np.log(pb) - np.log(pa)))
-    ha, hb = pick(diag.height)
-    with np.errstate(invalid="ignore"):
-        out["height"] = ha + w * (hb - ha)
+    if "height" not in skip:
+        ha, hb = pick(diag.height)
+        with np.errstate(invalid="ignore"):
+            out["height"] = ha + w * (hb - ha)
     if want is None or "sld_class" in want:
         sa, sb = pick(diag.sld_class)
         # GAP (-1) marks an unusable level; validity is carried by ``valid`` below
@@ -276,17 +327,18 @@ def read_located(diag, located, *, fields=None):
         ba, bb = pick(diag.basis)
         la, lb = pick(diag.lwc)
         out["basis"] = np.where(np.nan_to_num(la) >= np.nan_to_num(lb), ba, bb)
-    va, vb = pick(diag.valid)
-    ga, gb = pick(diag.below_ground)
-    out["below_ground"] = located["present"] & (ga & ((w < 0.5) | gb))
-    out["valid"] = located["inside"] & va & vb & ~out["below_ground"]
+    if "valid" not in skip:
+        va, vb = pick(diag.valid)
+        ga, gb = pick(diag.below_ground)
+        out["below_ground"] = located["present"] & (ga & ((w < 0.5) | gb))
+        out["valid"] = located["inside"] & va & vb & ~out["below_ground"]
     if "lwc" in out:
         out["cloud"] = out["lwc"] >= IN_CLOUD_LWC
-    _flags(diag, pick, want, out)
+    _flags(diag, pick, want, out, np.shape(w))
     return out
 
 
-def _flags(diag, pick, want, out):
+def _flags(diag, pick, want, out, shape):
     """Read the flags: glaciated by the model only where both levels are.
 
     Possible drizzle where either is (a stated possibility is never interpolated away).
@@ -296,7 +348,7 @@ def _flags(diag, pick, want, out):
             continue
         flag = getattr(diag, name, None)
         if flag is None:
-            out[name] = np.zeros(out["valid"].shape, bool)
+            out[name] = np.zeros(shape, bool)
             continue
         fa, fb = pick(np.asarray(flag, bool))
         out[name] = (fa & fb) if both else (fa | fb)
