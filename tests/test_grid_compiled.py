@@ -179,9 +179,27 @@ def test_band_products_compiled_are_the_numpy_products(monkeypatch):
     diag = diagnose_columns(**cols)
     airframe = load_airframe("twin-turboprop")
     edges = bands.parse_bands("0:20000:2000")
-    got = bands.band_products(diag, airframe, edges, ground=cols["surface_height"])
+    got = bands.band_products(diag, airframe, edges, ground=cols["surface_height"], compiled=True)
     _numpy_only(monkeypatch)
-    want = bands.band_products(diag, airframe, edges, ground=cols["surface_height"])
+    want = bands.band_products(diag, airframe, edges, ground=cols["surface_height"], compiled=True)
     assert np.any(got.severity > codes.SEV_NONE) and np.any(got.coverage == 3)
     for f in dataclasses.fields(want):
         _same(getattr(got, f.name), getattr(want, f.name), f.name)
+
+
+def test_a_large_grid_runs_the_loops_and_gives_the_same_grid(monkeypatch):
+    from pathlib import Path
+
+    from icing.runs import grid
+
+    fixture = Path(__file__).resolve().parents[1] / "fixtures" / "skerrow-latlon.nc"
+    options = grid.GridOptions(bands=bands.parse_bands("0:12000:3000"), workers=1)
+    small = grid.grid_forecast(fixture, airframe="twin-turboprop", options=options)
+    calls = []
+    monkeypatch.setattr(grid, "_COMPILED_MIN_COLUMNS", 1)  # the fixture counts as large
+    real = _loops.reduce_bands
+    monkeypatch.setattr(_loops, "reduce_bands", lambda *a: calls.append(1) or real(*a))
+    large = grid.grid_forecast(fixture, airframe="twin-turboprop", options=options)
+    assert calls  # the loops ran
+    for name in ("severity", "sld", "coverage", "lwc", "mvd", "accretion_rate"):
+        _same(getattr(large, name), getattr(small, name), name)
