@@ -1,17 +1,19 @@
 """The read-off's level search, as a grid run uses it at every altitude of every column.
 
 ``icing.hazards.readoff._bracket`` finds the levels around each target with a binary
-search over each column's sorted finite levels; the reference here counts the levels
-at or below each target by comparing with every level (what the read-off did before,
-with (targets, levels) temporaries). Both must give the same levels for every input,
-ties, NaN and infinite coordinates included: a regression check of the search, not of
-physics.
+search over each column's sorted finite levels, or, where the levels lie on a binary
+grid (heights read from float32 fields), with one search over exact integer keys of
+all columns; the reference here counts the levels at or below each target by
+comparing with every level (what the read-off did before, with (targets, levels)
+temporaries). All must give the same levels for every input, ties, NaN and infinite
+coordinates included: a regression check of the search, not of physics.
 """
 
 import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from icing.hazards import readoff
 from icing.hazards.readoff import _bracket, read_off
 
 
@@ -37,25 +39,54 @@ def _reference(zs, order, c, tz):
 _VALUES = st.sampled_from([np.nan, np.inf, -np.inf, 0.0, 100.0, 100.0, 250.0, 1e4, -5.0])
 
 
-@settings(max_examples=200, deadline=None)
-@given(
-    st.integers(1, 6),
-    st.integers(1, 9),
-    st.data(),
-)
-def test_bracket_is_the_comparison_count(m, nlev, data):
-    floats = st.one_of(_VALUES, st.floats(-1e3, 2e4, allow_nan=False))
-    z = np.array(data.draw(st.lists(floats, min_size=m * nlev, max_size=m * nlev)), float)
+def _draw_case(data, m, nlev, levels, targets):
+    """Levels (m, nlev) sorted as the read-off sorts them, and up to 12 targets."""
+    z = np.array(data.draw(st.lists(levels, min_size=m * nlev, max_size=m * nlev)), float)
     z = z.reshape(m, nlev)
     order = np.argsort(np.where(np.isfinite(z), z, np.inf), axis=-1)
     zs = np.take_along_axis(z, order, -1)
     k = data.draw(st.integers(1, 12))
     c = np.array(data.draw(st.lists(st.integers(0, m - 1), min_size=k, max_size=k)))
-    tz = np.array(data.draw(st.lists(floats, min_size=k, max_size=k)), float)
-    got = _bracket(zs, order, c, tz)
+    tz = np.array(data.draw(st.lists(targets, min_size=k, max_size=k)), float)
+    return zs, order, c, tz
+
+
+def _assert_reference(zs, order, c, tz):
     want = _reference(zs, order, c, tz)
-    for g, w in zip(got, want, strict=True):
+    for g, w in zip(_bracket(zs, order, c, tz), want, strict=True):
         assert np.array_equal(g, w, equal_nan=np.asarray(g).dtype.kind == "f")
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.integers(1, 6), st.integers(1, 9), st.data())
+def test_bracket_is_the_comparison_count(m, nlev, data):
+    floats = st.one_of(_VALUES, st.floats(-1e3, 2e4, allow_nan=False))
+    _assert_reference(*_draw_case(data, m, nlev, floats, floats))
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.integers(1, 6), st.integers(1, 9), st.data())
+def test_integer_key_search_is_the_comparison_count(m, nlev, data):
+    # levels on the grid (float32 values, as a file's heights), targets anywhere
+    f32 = st.floats(-1e3, 2e4, width=32).filter(lambda v: v == 0 or abs(v) >= 2**-10)
+    grid = st.one_of(_VALUES, f32, st.sampled_from([0.5, 2.0**-10, float(np.float32(8191.999))]))
+    floats = st.one_of(grid, st.floats(-1e3, 2e4, allow_nan=False))
+    zs, order, c, tz = _draw_case(data, m, nlev, grid, floats)
+    finite = np.isfinite(zs)
+    keyed = readoff._count_on_grid(zs, finite, c, tz)
+    assert keyed is not None  # every level drawn is on the grid
+    nlev = zs.shape[1]
+    searched = readoff._count_binary(zs, finite, finite.sum(axis=-1)[c], c * nlev, tz)
+    assert np.array_equal(keyed, searched)
+    _assert_reference(zs, order, c, tz)
+
+
+def test_levels_off_the_grid_are_searched_one_by_one():
+    zs = np.array([[0.1, 500.0, 1000.0]])  # 0.1 has no finite binary expansion
+    finite = np.isfinite(zs)
+    assert readoff._count_on_grid(zs, finite, np.zeros(1, int), np.array([0.1])) is None
+    lo = _bracket(zs, np.arange(3)[None, :], np.zeros(2, int), np.array([0.1, 0.0999]))[0]
+    assert lo.tolist() == [0, 0]
 
 
 def test_fields_subset_gives_the_same_values():

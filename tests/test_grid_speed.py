@@ -3,7 +3,9 @@
 Regression checks of code paths, not of physics (the physics tests are in test_sld.py
 and test_column.py): the SLD pass sorts the levels only of the columns that need it,
 and sizes rain only where there is rain; the results must be those of the whole block
-sorted together, to the last bit. Invented columns (a scenario of our own).
+sorted together, to the last bit. The saturation vapour pressures computed once per
+block and passed on must be the values each function computes itself. Invented
+columns (a scenario of our own).
 """
 
 from __future__ import annotations
@@ -57,3 +59,46 @@ def test_sld_sorting_only_the_columns_that_need_it_changes_nothing(monkeypatch):
         if isinstance(a, np.ndarray):
             assert np.array_equal(a, b, equal_nan=a.dtype.kind == "f"), f.name
     assert np.any(split.below_ground) and np.any(split.sld_class == 2)
+
+
+def test_saturation_passed_on_gives_the_values_computed_afresh():
+    # e_s over water and ice computed once for a block and indexed (as the column
+    # diagnosis passes them on) must be the values each function computes itself
+    from icing.calc import clouds, thermo
+
+    rng = np.random.default_rng(7)
+    t = rng.uniform(228.0, 285.0, (50, 30))
+    t[rng.random(t.shape) < 0.02] = np.nan
+    p = np.linspace(100000.0, 30000.0, 30) * np.ones((50, 1))
+    rh = rng.uniform(0.3, 1.05, t.shape)
+    es_w = thermo.saturation_vapor_pressure(t)
+    es_i = thermo.saturation_vapor_pressure(t, phase="solid")
+    sel = np.nonzero(rng.random(t.shape) < 0.4)
+
+    def same(a, b):
+        assert np.array_equal(a, b, equal_nan=True)
+
+    same(
+        thermo.specific_humidity_from_relative_humidity(p, t, rh, saturation=es_w),
+        thermo.specific_humidity_from_relative_humidity(p, t, rh),
+    )
+    same(
+        thermo.ice_saturation_relative_humidity(t, saturation=(es_w, es_i)),
+        thermo.ice_saturation_relative_humidity(t),
+    )
+    same(
+        clouds.adiabatic_lwc_gradient(p[sel], t[sel], saturation=es_w[sel]),
+        clouds.adiabatic_lwc_gradient(p[sel], t[sel]),
+    )
+    for ice in (es_i[sel], None):
+        same(
+            clouds.ice_crystal_mass_growth_rate(
+                t[sel], p[sel], 50e-6, saturation=(es_w[sel], ice)
+            ),
+            clouds.ice_crystal_mass_growth_rate(t[sel], p[sel], 50e-6),
+        )
+    args = (t[sel], p[sel], 2e-4, t[sel] - 5.0)
+    same(
+        clouds.glaciation_likelihood(*args, updraft=0.5, saturation=(es_w[sel], es_i[sel])),
+        clouds.glaciation_likelihood(*args, updraft=0.5),
+    )

@@ -403,7 +403,7 @@ def adiabatic_lwc(
         return np.where(np.isnan(lwc), np.nan, np.maximum(lwc, 0.0))
 
 
-def adiabatic_lwc_gradient(pressure, temperature):
+def adiabatic_lwc_gradient(pressure, temperature, *, saturation=None):
     """Rate of increase of adiabatic LWC with height, ``dLWC_ad/dz`` [kg m-4].
 
     ``dLWC/dz = -rho dr_s/dz``, ``dr_s/dz = r_s [Lv/(Rv T^2) dT/dz + g/(Rd T)]`` along
@@ -415,6 +415,9 @@ def adiabatic_lwc_gradient(pressure, temperature):
     ----------
     pressure, temperature : array_like
         Pressure [Pa] and temperature [K] of saturated air.
+    saturation : array_like, optional
+        Saturation vapour pressure over water at ``temperature`` when the caller
+        has it already (the same values, one pass fewer). [Pa]
 
     Returns
     -------
@@ -434,9 +437,9 @@ def adiabatic_lwc_gradient(pressure, temperature):
     p = np.asarray(pressure, dtype=float)
     t = np.asarray(temperature, dtype=float)
     with np.errstate(invalid="ignore", divide="ignore"):
-        dt_dlnp = thermo._moist_lapse_rate_lnp(np.log(p), t)
+        dt_dlnp = thermo._moist_lapse_rate_lnp(np.log(p), t, saturation)
         dt_dz = -dt_dlnp * G / (RD * t)  # hydrostatic: d ln p / dz = -g / (Rd T)
-        rs = thermo.saturation_mixing_ratio(p, t)
+        rs = thermo.saturation_mixing_ratio(p, t, saturation=saturation)
         drs_dz = rs * (lv / (RV * t**2) * dt_dz + G / (RD * t))
         return -thermo.air_density(p, t) * drs_dz
 
@@ -550,7 +553,7 @@ def ice_nuclei_concentration(temperature, *, model="meyers92", aerosol_per_cm3=1
         return np.where(inside, n, np.nan)
 
 
-def ice_crystal_mass_growth_rate(temperature, pressure, radius):
+def ice_crystal_mass_growth_rate(temperature, pressure, radius, *, saturation=None):
     """Diffusional mass growth of an ice crystal in water-saturated air [kg s-1].
 
     ``dm/dt = 4 pi C (S_i - 1) / (F_k + F_d)`` (Rogers & Yau 1989, eq. 9.4) with
@@ -564,6 +567,9 @@ def ice_crystal_mass_growth_rate(temperature, pressure, radius):
         [K], [Pa]. Zero growth at and above 0 degC.
     radius : array_like
         Crystal radius (the capacitance of a sphere). [m]
+    saturation : (array_like, array_like), optional
+        Saturation vapour pressures over water and over ice at ``temperature``
+        when the caller has them already (the same values, no pass). [Pa]
 
     Returns
     -------
@@ -581,8 +587,11 @@ def ice_crystal_mass_growth_rate(temperature, pressure, radius):
     """
     t = np.asarray(temperature, dtype=float)
     with np.errstate(invalid="ignore", divide="ignore"):
-        e_i = thermo.saturation_vapor_pressure(t, phase="solid")
-        s_i = thermo.saturation_vapor_pressure(t) / e_i
+        if saturation is None:
+            saturation = thermo.saturation_vapor_pressure(t), None
+        e_w, e_i = saturation
+        e_i = thermo.saturation_vapor_pressure(t, phase="solid") if e_i is None else e_i
+        s_i = e_w / e_i
         f_k = (LS0 / (RV * t) - 1.0) * LS0 / (thermo.air_conductivity(t) * t)  # R&Y 9.4
         f_d = RV * t / (e_i * thermo.vapor_diffusivity(t, pressure))
         rate = 4.0 * np.pi * np.asarray(radius, dtype=float) * (s_i - 1.0) / (f_k + f_d)
@@ -644,6 +653,7 @@ def glaciation_likelihood(
     ice_radius=50e-6,
     crystal_density=500.0,
     residence_time=3600.0,
+    saturation=None,
 ):
     """Likelihood [0..1] that the liquid at a level has been (or is being) glaciated.
 
@@ -680,6 +690,9 @@ def glaciation_likelihood(
         Typical crystal radius [m] and bulk density [kg m-3] (our choices).
     residence_time : float, optional
         Exposure time of the liquid to the ice. [s]
+    saturation : (array_like, array_like), optional
+        Saturation vapour pressures over water and over ice at ``temperature``
+        when the caller has them already (the same values, no pass). [Pa]
 
     Returns
     -------
@@ -703,8 +716,13 @@ def glaciation_likelihood(
         )
         crystal_mass = crystal_density * 4.0 / 3.0 * np.pi * ice_radius**3
         n_falling = np.maximum(np.asarray(ice_above, dtype=float), 0.0) * rho / crystal_mass
-        uptake = (n_primary + n_falling) * ice_crystal_mass_growth_rate(t, p, ice_radius)
-        supply = np.maximum(np.asarray(updraft, dtype=float), 0.0) * adiabatic_lwc_gradient(p, t)
+        uptake = (n_primary + n_falling) * ice_crystal_mass_growth_rate(
+            t, p, ice_radius, saturation=saturation
+        )
+        gradient = adiabatic_lwc_gradient(
+            p, t, saturation=None if saturation is None else saturation[0]
+        )
+        supply = np.maximum(np.asarray(updraft, dtype=float), 0.0) * gradient
         net = np.maximum(uptake - supply, 0.0)
         lwc = np.maximum(np.asarray(lwc, dtype=float), IN_CLOUD_LWC)
         likelihood = 1.0 - np.exp(-residence_time * net / lwc)

@@ -359,7 +359,8 @@ def _diagnose_core(s, cols, o):
     p, t = s["pressure"], s["temperature"]
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         s, present = _absent_per_column(s)
-        rh, q, hum = _humidity(s, p, t)
+        es_w = thermo.saturation_vapor_pressure(t)  # once: humidity, cloud, glaciation
+        rh, q, hum = _humidity(s, p, t, es_w)
         valid = _validity(s, p, t, hum)
         z = _heights(s, cols, p, t, q, valid)
         # a level without a height (e.g. a NaN surface anchor) cannot be placed: not valid
@@ -367,7 +368,9 @@ def _diagnose_core(s, cols, o):
         below = _below_ground(s, cols, p, z)
         rho = thermo.air_density(p, t, np.nan_to_num(q))
         lwc_model = _model_liquid(s, rho, o)
-        cloud, lay, valid, f_ice = _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below)
+        cloud, lay, valid, f_ice, es_i = _cloud_and_layers(
+            s, o, p, t, z, rh, lwc_model, valid, below, es_w
+        )
         air = valid & ~below
         all_air = bool(air.all())  # the usual case: nothing to mask
         liquid_ok = cloud & (t > T_HOMOGENEOUS)
@@ -378,7 +381,7 @@ def _diagnose_core(s, cols, o):
         lwc_diag = _diagnosed_liquid(p, t, z, q, rh, lay, sel, air, all_air, convective, o)
         lwc, basis = _combine_liquid(lwc_model, lwc_diag, liquid_ok, air, all_air)
         number, mvd, shape = _droplets(lwc, liquid_ok, w_eff, sel, o)
-        glac = _glaciation(s, o, p, t, rho, lwc, w, cloud, lay)
+        glac = _glaciation(s, o, p, t, rho, lwc, w, cloud, lay, (es_w, es_i))
         sld_out = column_sld(
             p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, f_ice, o
         )
@@ -467,14 +470,18 @@ def _in_air(x, air, all_air, fill):
     return x if all_air else np.where(air, x, fill)
 
 
-def _humidity(s, p, t):
-    """Relative humidity over water, specific humidity, and the humidity input itself."""
+def _humidity(s, p, t, es_w):
+    """Relative humidity over water, specific humidity, and the humidity input itself.
+
+    ``es_w``: the saturation vapour pressure over water at ``t``. [Pa]
+    """
     if "relative_humidity" in s:
         rh = s["relative_humidity"]
-        return rh, thermo.specific_humidity_from_relative_humidity(p, t, rh), rh
+        return rh, thermo.specific_humidity_from_relative_humidity(p, t, rh, saturation=es_w), rh
     if "dewpoint" in s:
         rh = thermo.relative_humidity_from_dewpoint(t, s["dewpoint"])
-        return rh, thermo.specific_humidity_from_relative_humidity(p, t, rh), s["dewpoint"]
+        q = thermo.specific_humidity_from_relative_humidity(p, t, rh, saturation=es_w)
+        return rh, q, s["dewpoint"]
     q = s["specific_humidity"]
     return thermo.relative_humidity_from_specific_humidity(p, t, q), q, q
 
@@ -536,19 +543,20 @@ def _model_liquid(s, rho, o):
     return lwc_model
 
 
-def _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below):
+def _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below, es_w):
     """Cloud mask, its layers, validity less the layers resting on missing levels.
 
     Also returns the water humidity of ice-saturated air (None when neither the
-    threshold nor the gap bridging needed it), reused by the SLD diagnosis.
+    threshold nor the gap bridging needed it), reused by the SLD diagnosis, and the
+    saturation vapour pressure over ice it was computed from (else None). ``es_w``:
+    the one over water at ``t``. [Pa]
     """
     air = valid & ~below
     # water RH of ice-saturated air: once for the threshold and the gap bridging
-    f_ice = (
-        thermo.ice_saturation_relative_humidity(t)
-        if o.bridge_single_level_gaps or o.rh_threshold_model == "ice-water-blend"
-        else None
-    )
+    f_ice = es_i = None
+    if o.bridge_single_level_gaps or o.rh_threshold_model == "ice-water-blend":
+        es_i = thermo.saturation_vapor_pressure(t, phase="solid")
+        f_ice = thermo.ice_saturation_relative_humidity(t, saturation=(es_w, es_i))
     cloud = clouds.cloud_mask(
         rh,
         t,
@@ -577,7 +585,7 @@ def _cloud_and_layers(s, o, p, t, z, rh, lwc_model, valid, below):
         bi = lay.base_index
         under_base = np.take_along_axis(lost, np.clip(bi - 1, 0, None), -1) & (bi >= 1)
         valid = valid & ~(cloud & under_base)
-    return cloud, lay, valid, f_ice
+    return cloud, lay, valid, f_ice, es_i
 
 
 def _diagnosed_liquid(p, t, z, q, rh, lay, sel, air, all_air, convective, o):
@@ -672,8 +680,12 @@ def _droplets(lwc, liquid_ok, w_eff, sel, o):
     return number, mvd, np.where(liquid_ok, am.shape, np.nan)
 
 
-def _glaciation(s, o, p, t, rho, lwc, w, cloud, lay):
-    """Glaciation likelihood at cloudy levels (NaN elsewhere)."""
+def _glaciation(s, o, p, t, rho, lwc, w, cloud, lay, saturation):
+    """Glaciation likelihood at cloudy levels (NaN elsewhere).
+
+    ``saturation``: the saturation vapour pressures over water and over ice at ``t``
+    (the one over ice may be None). [Pa]
+    """
     ice = np.zeros(p.shape)
     for k in ("cloud_ice", "snow"):
         if k in s:
@@ -700,6 +712,7 @@ def _glaciation(s, o, p, t, rho, lwc, w, cloud, lay):
             ice_radius=o.ice_crystal_radius_m,
             crystal_density=o.crystal_density_kg_m3,
             residence_time=o.glaciation_residence_time_s,
+            saturation=tuple(None if e is None else e[gsel] for e in saturation),
         )
     return glac
 

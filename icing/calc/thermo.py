@@ -107,7 +107,7 @@ def saturation_vapor_pressure(temperature, *, phase="liquid"):
         return np.asarray(_ambaum(t, c["Ls"], c["Cp_i"]), dtype=float)
 
 
-def saturation_mixing_ratio(pressure, temperature, *, phase="liquid"):
+def saturation_mixing_ratio(pressure, temperature, *, phase="liquid", saturation=None):
     """Saturation mixing ratio ``eps e_s / (p - e_s)`` [kg/kg].
 
     Parameters
@@ -118,13 +118,16 @@ def saturation_mixing_ratio(pressure, temperature, *, phase="liquid"):
         Air temperature. [K]
     phase : {"liquid", "solid"}
         Over water or over ice.
+    saturation : array_like, optional
+        ``saturation_vapor_pressure(temperature, phase=phase)`` when the caller has
+        it already (the same values, one pass fewer). [Pa]
 
     Examples
     --------
     >>> round(float(saturation_mixing_ratio(100000.0, 283.15)) * 1000, 2)
     7.72
     """
-    es = saturation_vapor_pressure(temperature, phase=phase)
+    es = saturation_vapor_pressure(temperature, phase=phase) if saturation is None else saturation
     p = np.asarray(pressure, dtype=float)
     es = np.minimum(es, 0.5 * p)  # guard: never above half the air pressure
     return EPSILON * es / (p - es)
@@ -147,9 +150,16 @@ def relative_humidity_from_specific_humidity(pressure, temperature, specific_hum
     return e / saturation_vapor_pressure(temperature)
 
 
-def specific_humidity_from_relative_humidity(pressure, temperature, relative_humidity):
-    """Specific humidity from relative humidity over water (fraction) [kg/kg]."""
-    e = np.asarray(relative_humidity, dtype=float) * saturation_vapor_pressure(temperature)
+def specific_humidity_from_relative_humidity(
+    pressure, temperature, relative_humidity, *, saturation=None
+):
+    """Specific humidity from relative humidity over water (fraction) [kg/kg].
+
+    ``saturation``, optional: ``saturation_vapor_pressure(temperature)`` when the
+    caller has it already (the same values, one pass fewer). [Pa]
+    """
+    es = saturation_vapor_pressure(temperature) if saturation is None else saturation
+    e = np.asarray(relative_humidity, dtype=float) * es
     p = np.asarray(pressure, dtype=float)
     return EPSILON * e / (p - (1.0 - EPSILON) * e)
 
@@ -330,7 +340,7 @@ def standard_atmosphere_height(pressure):
     return T0_STD / LAPSE_STD * (1.0 - (p / P0_STD) ** (RD * LAPSE_STD / G))
 
 
-def ice_saturation_relative_humidity(temperature):
+def ice_saturation_relative_humidity(temperature, *, saturation=None):
     """Relative humidity over water of air saturated over ice, ``e_si / e_sw`` [1].
 
     Equal to 1 at and above 0 degC (no ice saturation there); about 0.91, 0.82
@@ -340,6 +350,9 @@ def ice_saturation_relative_humidity(temperature):
     ----------
     temperature : array_like
         Air temperature. [K]
+    saturation : (array_like, array_like), optional
+        The saturation vapour pressures over water and over ice at ``temperature``
+        when the caller has them already (the same values, no pass). [Pa]
 
     Returns
     -------
@@ -353,17 +366,20 @@ def ice_saturation_relative_humidity(temperature):
     """
     t = np.asarray(temperature, dtype=float)
     with np.errstate(invalid="ignore"):
-        ratio = saturation_vapor_pressure(t, phase="solid") / saturation_vapor_pressure(t)
+        if saturation is None:
+            saturation = saturation_vapor_pressure(t), saturation_vapor_pressure(t, phase="solid")
+        ratio = saturation[1] / saturation[0]
         return np.where(t >= 273.15, 1.0, ratio)
 
 
-def _moist_lapse_rate_lnp(lnp, temperature):
+def _moist_lapse_rate_lnp(lnp, temperature, saturation=None):
     """``dT / d ln p`` of a saturated pseudo-adiabatic parcel [K] (Bakhshaii & Stull 2013).
 
-    The formula of MetPy's ``moist_lapse`` with MetPy's constants, so the two agree.
+    The formula of MetPy's ``moist_lapse`` with MetPy's constants, so the two agree;
+    ``saturation``: e_s over water at ``temperature`` where the caller has it. [Pa]
     """
     c = METPY_CONSTANTS
-    rs = saturation_mixing_ratio(np.exp(lnp), temperature)
+    rs = saturation_mixing_ratio(np.exp(lnp), temperature, saturation=saturation)
     return (c["Rd"] * temperature + c["Lv"] * rs) / (  # Bakhshaii & Stull (2013) via MetPy
         c["Cp_d"] + c["Lv"] * c["Lv"] * rs * c["epsilon"] / (c["Rd"] * temperature**2)
     )

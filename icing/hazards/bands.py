@@ -45,7 +45,8 @@ from icing import codes
 from icing.calc.airspeed import PHASE_LEVEL
 from icing.constants import FT, IN_CLOUD_LWC
 from icing.errors import InputError
-from icing.hazards.readoff import icing_at, read_off
+from icing.hazards._compiled import compiled_kernels
+from icing.hazards.readoff import icing_at, locate, read_located, subset
 
 __all__ = [
     "Bands",
@@ -208,11 +209,12 @@ def _targets(height, edges):
     return np.sort(both, axis=1)  # NaN sort last
 
 
-def _liquid_state(diag, tgt, ground):
+def _liquid_state(diag, tgt, ground, compiled):
     """Read every target for its validity and liquid; return the pieces the bands need."""
     m = tgt.shape[0]
     ci = np.broadcast_to(np.arange(m)[:, None], tgt.shape)
-    s = read_off(diag, ci, tgt, fields=("lwc", "sld_lwc", "sld_class"))
+    at = locate(diag, ci, tgt, compiled=compiled)  # once: the liquid ones are read again
+    s = read_located(diag, at, fields=("lwc", "sld_lwc", "sld_class"), compiled=compiled)
     below, valid = s["below_ground"], s["valid"]
     if ground is not None:
         g = np.asarray(ground, float)[:, None]
@@ -222,17 +224,17 @@ def _liquid_state(diag, tgt, ground):
         below, valid = below | under, valid & ~under
     with np.errstate(invalid="ignore"):
         liquid = valid & ((s["lwc"] >= IN_CLOUD_LWC) | (s["sld_lwc"] >= IN_CLOUD_LWC))
-    return s, ci, below, valid, liquid
+    return s, at, below, valid, liquid
 
 
-def _icing_where_liquid(diag, airframe, tgt, ci, liquid, valid):
+def _icing_where_liquid(diag, airframe, tgt, located, liquid, valid, compiled):
     """Severity, accretion rate [mm/h] and cloud MVD [m] at every target (m, T)."""
     sev = np.where(valid, codes.SEV_NONE, codes.GAP).astype(np.int8)
     rate = np.where(valid, 0.0, np.nan)
     mvd = np.full(tgt.shape, np.nan)
     at = np.nonzero(liquid)
     if at[0].size:
-        st = read_off(diag, ci[at], tgt[at])
+        st = read_located(diag, subset(located, at), compiled=compiled)
         st["valid"] = st["valid"] & valid[at]  # the ground test of _liquid_state
         tas = airframe.schedule.true_airspeed(
             PHASE_LEVEL, st["pressure"], st["temperature"], st["height"]
@@ -245,7 +247,7 @@ def _icing_where_liquid(diag, airframe, tgt, ci, liquid, valid):
     return sev, rate, mvd
 
 
-def band_products(diag, airframe, bands: Bands, *, ground=None) -> BandProducts:
+def band_products(diag, airframe, bands: Bands, *, ground=None, compiled=False) -> BandProducts:
     """Reduce diagnosed columns to the icing products of each altitude band.
 
     Parameters
@@ -258,6 +260,10 @@ def band_products(diag, airframe, bands: Bands, *, ground=None) -> BandProducts:
         The altitude bands [ft MSL].
     ground : array_like, shape (m,), optional
         Surface height under each column (NaN where unknown). [m]
+    compiled : bool, optional
+        Locate, read and reduce in the compiled loops where numba is installed
+        (:mod:`icing.hazards._compiled`; the same values). Worth it for large grids
+        only: importing numba and loading the loops costs about 0.3 s a process.
 
     Returns
     -------
@@ -265,18 +271,39 @@ def band_products(diag, airframe, bands: Bands, *, ground=None) -> BandProducts:
         Arrays shaped (band, m); see the module docstring for what each holds.
     """
     tgt = _targets(diag.height, bands.edges_m)
-    s, ci, below, valid, liquid = _liquid_state(diag, tgt, ground)
-    sev, rate, mvd = _icing_where_liquid(diag, airframe, tgt, ci, liquid, valid)
+    s, located, below, valid, liquid = _liquid_state(diag, tgt, ground, compiled)
+    sev, rate, mvd = _icing_where_liquid(diag, airframe, tgt, located, liquid, valid, compiled)
     lwc = np.where(valid, s["lwc"], np.nan)
     sld = np.where(valid, s["sld_class"], codes.GAP)
     present = np.isfinite(tgt)
     known = present & (sev >= codes.SEV_NONE)
     above = present & ~below
-    return _reduce(tgt, bands.edges_m, known, above, sev, sld, rate, lwc, mvd)
+    return _reduce(tgt, bands.edges_m, known, above, sev, sld, rate, lwc, mvd, compiled)
 
 
-def _reduce(tgt, edges, known, above, sev, sld, rate, lwc, mvd):
-    """Per band: worst severity and SLD, coverage, and the worst altitude's values."""
+def _reduce(tgt, edges, known, above, sev, sld, rate, lwc, mvd, compiled=True):
+    """Per band: worst severity and SLD, coverage, and the worst altitude's values.
+
+    ``compiled``: in the compiled loop where numba is installed
+    (:mod:`icing.hazards._compiled`), else in numpy (:func:`_reduce_numpy`, the
+    reference: the same values).
+    """
+    loops = compiled_kernels() if compiled else None
+    if loops is None:
+        return _reduce_numpy(tgt, edges, known, above, sev, sld, rate, lwc, mvd)
+    nb, m = edges.size - 1, tgt.shape[0]
+    classes = np.empty((3, nb, m), np.int8)
+    fields = np.empty((3, nb, m), np.float32)
+    args = [np.ascontiguousarray(a) for a in (tgt, edges, known, above, sev, sld, rate, lwc, mvd)]
+    loops.reduce_bands(*args, classes, fields)
+    names = ("severity", "sld", "coverage"), ("lwc", "mvd", "accretion_rate")
+    return BandProducts(
+        **dict(zip(names[0], classes, strict=True)), **dict(zip(names[1], fields, strict=True))
+    )
+
+
+def _reduce_numpy(tgt, edges, known, above, sev, sld, rate, lwc, mvd):
+    """:func:`_reduce` in numpy: each band a window of every row, all rows at once."""
     m, nt = tgt.shape
     nb = edges.size - 1
     out = {

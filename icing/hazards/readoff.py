@@ -14,8 +14,17 @@ import numpy as np
 from icing import codes
 from icing.calc.airframe import airframe_icing
 from icing.constants import IN_CLOUD_LWC
+from icing.hazards._compiled import compiled_kernels
 
-__all__ = ["read_off", "icing_at", "worst_over_candidates", "take_last"]
+__all__ = [
+    "read_off",
+    "locate",
+    "read_located",
+    "subset",
+    "icing_at",
+    "worst_over_candidates",
+    "take_last",
+]
 
 #: Depth below a column's lowest level over which its values are held (near-surface air). [m]
 _EXTRAPOLATE_M = 300.0
@@ -49,27 +58,18 @@ def _bracket(zs, order, c, tz):
     levels, their coordinates, the lowest level's coordinate and the levels'
     indices in the diagnosis. ``lo`` counts the levels at or below the target
     (less one, clipped), exactly as a comparison with every level would: a
-    binary search over each column's finite levels (sorted first), plus the
-    infinite ones that compare as at or below it.
+    search over each column's finite levels (sorted first), plus the infinite
+    ones that compare as at or below it.
     """
     m, nlev = zs.shape
     finite = np.isfinite(zs)
     n_fin = finite.sum(axis=-1)
     neg_inf = (zs == -np.inf).sum(axis=-1)
     pos_inf = (zs == np.inf).sum(axis=-1)
-    key = np.where(finite, zs, np.inf)
-    # the sorted finite levels, with +inf beyond each column's count: one gather a step
-    flat = key.reshape(-1)
     base = c * nlev
-    n = n_fin[c]
-    left = np.zeros(tz.shape, dtype=np.int64)
-    step = 1 << max(int(nlev).bit_length() - 1, 0)
-    with np.errstate(invalid="ignore"):
-        while step:  # branchless binary search: the count of finite levels <= the target
-            cand = left + step
-            ok = (cand <= n) & (flat[base + np.minimum(cand, nlev) - 1] <= tz)
-            left = np.where(ok, cand, left)
-            step >>= 1
+    left = _count_on_grid(zs, finite, c, tz)
+    if left is None:
+        left = _count_binary(zs, finite, n_fin[c], base, tz)
     with np.errstate(invalid="ignore"):
         above = left + np.where(np.isnan(tz), 0, neg_inf[c])
         above = above + np.where(tz == np.inf, pos_inf[c], 0)
@@ -77,6 +77,123 @@ def _bracket(zs, order, c, tz):
     hi = (lo + 1) % nlev
     zf, of = zs.reshape(-1), order.reshape(-1)
     return lo, hi, zf[base + lo], zf[base + hi], zf[base], of[base + lo], of[base + hi]
+
+
+def _count_binary(zs, finite, n, base, tz):
+    """Finite levels at or below each target: a branchless binary search per target."""
+    nlev = zs.shape[1]
+    # the sorted finite levels, with +inf beyond each column's count: one gather a step
+    flat = np.where(finite, zs, np.inf).reshape(-1)
+    left = np.zeros(tz.shape, dtype=np.int64)
+    step = 1 << max(int(nlev).bit_length() - 1, 0)
+    with np.errstate(invalid="ignore"):
+        while step:
+            cand = left + step
+            ok = (cand <= n) & (flat[base + np.minimum(cand, nlev) - 1] <= tz)
+            left = np.where(ok, cand, left)
+            step >>= 1
+    return left
+
+
+#: Levels on a grid of 2**-_GRID_BITS (every height above 2**-10 m read from a float32
+#: field is) are searched as exact integers, all columns in one sorted array. [m]
+_GRID_BITS = 33
+
+
+def _count_on_grid(zs, finite, c, tz):
+    """Finite levels at or below each target, as :func:`_count_binary` counts them.
+
+    Where every finite level is a whole multiple of ``2**-_GRID_BITS``, the levels
+    become exact integers (a power-of-two scaling), a level is at or below a target
+    exactly when its integer is at or below the target's scaled floor, and one
+    ``searchsorted`` over all columns (each lifted by its own stride, the non-finite
+    levels last in it) counts them. Returns None where that does not hold (levels off
+    the grid, or too large for 64-bit keys): the binary search then counts.
+    """
+    m = zs.shape[0]
+    scale = 2.0**_GRID_BITS
+    kz = np.where(finite, zs, 0.0) * scale
+    top = float(np.abs(kz).max(initial=0.0))
+    if not (top < 2.0**52 and np.array_equal(kz, np.floor(kz))):
+        return None
+    k = int(top) + 1  # level keys within [-(k - 1), k - 1]; targets clipped to [-k, k]
+    stride = 2 * k + 4
+    if stride * (m + 1) >= 2**62:
+        return None
+    lift = np.arange(m, dtype=np.int64)[:, None] * stride
+    keys = (np.where(finite, kz.astype(np.int64), k + 1) + lift).reshape(-1)
+    nan = np.isnan(tz)
+    with np.errstate(over="ignore"):
+        tk = np.clip(np.floor(np.where(nan, 0.0, tz) * scale), -k, k).astype(np.int64)
+    # each target meets only its own column's keys; the sentinels (k + 1) stay above it
+    left = np.searchsorted(keys, tk + lift[c, 0], side="right") - c * zs.shape[1]
+    return np.where(nan, 0, left)
+
+
+def locate(diag, column_index, target, *, reference="msl", compiled=False):
+    """Where each target stands in its column: the two levels around it and the weight.
+
+    The first half of :func:`read_off` (same parameters); the result reads any fields
+    with :func:`read_located`, and :func:`subset` keeps some of the targets (a grid run
+    locates every altitude once, then reads the liquid ones again for the physics).
+    ``compiled``: search in the compiled loop where numba is installed (a grid run:
+    :mod:`icing.hazards._compiled`; the same values).
+    """
+    z = _vertical_coordinate(diag, reference)  # (m, L)
+    m, nlev = z.shape
+    order = np.argsort(np.where(np.isfinite(z), z, np.inf), axis=-1)
+    zs = np.take_along_axis(z, order, -1)
+    ci = np.asarray(column_index)
+    present = ci >= 0
+    c = np.where(present, ci, 0)
+    tgt = np.asarray(target, float)
+    tz = -np.log(tgt) if reference == "pressure" else tgt
+    # Between the ground and the lowest forecast level the lowest level's values hold,
+    # over a limited depth only (a model's lowest level is its near-surface air).
+    depth = np.log(1.0 + _EXTRAPOLATE_M / 8000.0) if reference == "pressure" else _EXTRAPOLATE_M
+    loops = compiled_kernels() if compiled else None
+    if loops is not None:
+        return _locate_compiled(loops, zs, order, c, present, tz, depth)
+    lo, hi, z_lo, z_hi, z_min, i_lo, i_hi = _bracket(zs, order, c, tz)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w = np.clip((tz - z_lo) / (z_hi - z_lo), 0.0, 1.0)
+        inside = present & np.isfinite(tz) & (tz >= z_lo) & (tz <= z_hi)
+        near_base = present & np.isfinite(tz) & (tz < z_min) & (tz >= z_min - depth) & (lo == 0)
+    return {
+        "shape": (m, nlev),
+        "present": present,
+        "w": w,
+        "inside": inside | near_base,
+        "f_lo": c * nlev + i_lo,
+        "f_hi": c * nlev + i_hi,
+    }
+
+
+def _locate_compiled(loops, zs, order, c, present, tz, depth):
+    """:func:`locate` by the compiled loop (flat targets in, shaped arrays out)."""
+    shape = np.broadcast_shapes(c.shape, tz.shape)
+    flat = [np.ascontiguousarray(np.broadcast_to(a, shape)).reshape(-1) for a in (c, present, tz)]
+    w = np.empty(flat[0].size)
+    inside = np.empty(flat[0].size, bool)
+    f_lo = np.empty(flat[0].size, np.int64)
+    f_hi = np.empty(flat[0].size, np.int64)
+    order = np.ascontiguousarray(order, dtype=np.int64)
+    loops.locate(
+        zs, order, flat[0].astype(np.int64), *flat[1:], float(depth), w, inside, f_lo, f_hi
+    )
+    return {
+        "shape": zs.shape,
+        "present": flat[1].reshape(shape),
+        "w": w.reshape(shape),
+        "inside": inside.reshape(shape),
+        "f_lo": f_lo.reshape(shape),
+        "f_hi": f_hi.reshape(shape),
+    }
+
+
+def subset(located, at):
+    """Return the located targets ``at`` (an index or mask), as :func:`locate` gives them."""
+    return {k: (v if k == "shape" else v[at]) for k, v in located.items()}
 
 
 def read_off(diag, column_index, target, *, reference="msl", fields=None):
@@ -105,27 +222,62 @@ def read_off(diag, column_index, target, *, reference="msl", fields=None):
         log-linearly, ``valid`` (both levels valid, inside the column, column
         present) and ``below_ground``.
     """
-    z = _vertical_coordinate(diag, reference)  # (m, L)
-    m, nlev = z.shape
-    order = np.argsort(np.where(np.isfinite(z), z, np.inf), axis=-1)
-    zs = np.take_along_axis(z, order, -1)
-    ci = np.asarray(column_index)
-    present = ci >= 0
-    c = np.where(present, ci, 0)
-    tgt = np.asarray(target, float)
-    tz = -np.log(tgt) if reference == "pressure" else tgt
-    lo, hi, z_lo, z_hi, z_min, i_lo, i_hi = _bracket(zs, order, c, tz)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        w = np.clip((tz - z_lo) / (z_hi - z_lo), 0.0, 1.0)
-        inside = present & np.isfinite(tz) & (tz >= z_lo) & (tz <= z_hi)
-        # Between the ground and the lowest forecast level the lowest level's values hold,
-        # over a limited depth only (a model's lowest level is its near-surface air).
-        depth = (
-            np.log(1.0 + _EXTRAPOLATE_M / 8000.0) if reference == "pressure" else _EXTRAPOLATE_M
-        )
-        near_base = present & np.isfinite(tz) & (tz < z_min) & (tz >= z_min - depth) & (lo == 0)
-    inside = inside | near_base
-    f_lo, f_hi = c * nlev + i_lo, c * nlev + i_hi
+    located = locate(diag, column_index, target, reference=reference)
+    return read_located(diag, located, fields=fields)
+
+
+def read_located(diag, located, *, fields=None, compiled=False):
+    """Read fields off at targets located by :func:`locate` (see :func:`read_off`).
+
+    ``compiled``: the linear fields and the validity in the compiled loops where numba
+    is installed (a grid run: :mod:`icing.hazards._compiled`; the same values).
+    """
+    loops = compiled_kernels() if compiled else None
+    if loops is not None:
+        return _read_compiled(loops, diag, located, fields)
+    return _read_numpy(diag, located, fields)
+
+
+_SIZES = ("mvd", "sld_mvd", "droplet_number", "glaciation")
+
+
+def _read_compiled(loops, diag, located, fields):
+    """:func:`read_located` with the linear fields and the validity in compiled loops."""
+    m, nlev = located["shape"]
+    w, f_lo, f_hi = (np.ascontiguousarray(located[k]).reshape(-1) for k in ("w", "f_lo", "f_hi"))
+    linear = [
+        n for n in _LINEAR if fields is None or n in fields or (n == "lwc" and "cloud" in fields)
+    ]
+    rest = _read_numpy(diag, located, fields, skip=set(linear) | {"height", "valid"})
+    out = {}
+    for name in (*linear, "height"):
+        a = np.asarray(getattr(diag, name))
+        if a.shape != (m, nlev):
+            a = np.broadcast_to(a, (m, nlev))
+        mode = 2 if name in _SIZES else 1 if name.startswith(("lwc", "sld_lwc")) else 0
+        got = np.empty(w.size)
+        loops.lerp(np.ascontiguousarray(a, dtype=float).reshape(-1), f_lo, f_hi, w, mode, got)
+        out[name] = got.reshape(located["w"].shape)
+    valid, below = np.empty(w.size, bool), np.empty(w.size, bool)
+    flags = [
+        np.ascontiguousarray(np.broadcast_to(a, (m, nlev)), dtype=bool).reshape(-1)
+        for a in (diag.valid, diag.below_ground)
+    ]
+    present, inside = (np.ascontiguousarray(located[k]).reshape(-1) for k in ("present", "inside"))
+    loops.validity(*flags, f_lo, f_hi, w, present, inside, valid, below)
+    out["valid"], out["below_ground"] = (
+        valid.reshape(located["w"].shape),
+        below.reshape(located["w"].shape),
+    )
+    if "lwc" in out:
+        out["cloud"] = out["lwc"] >= IN_CLOUD_LWC
+    return {**rest, **out}
+
+
+def _read_numpy(diag, located, fields, skip=()):
+    """:func:`read_located` in numpy (the reference); leaves out the fields in ``skip``."""
+    m, nlev = located["shape"]
+    w, f_lo, f_hi = located["w"], located["f_lo"], located["f_hi"]
 
     def pick(field):
         a = np.asarray(field)
@@ -139,10 +291,12 @@ def read_off(diag, column_index, target, *, reference="msl", fields=None):
     for name in _LINEAR:
         if want is not None and name not in want and not (name == "lwc" and "cloud" in want):
             continue
+        if name in skip:
+            continue
         a, b = pick(getattr(diag, name))
         a = np.asarray(a, float)
         b = np.asarray(b, float)
-        if name in ("mvd", "sld_mvd", "droplet_number", "glaciation"):
+        if name in _SIZES:
             # a size exists only where its population does: take the other level's size
             a = np.where(np.isfinite(a), a, b)
             b = np.where(np.isfinite(b), b, a)
@@ -155,15 +309,16 @@ def read_off(diag, column_index, target, *, reference="msl", fields=None):
         pa, pb = pick(diag.pressure)
         with np.errstate(invalid="ignore", divide="ignore"):
             out["pressure"] = np.exp(np.log(pa) + w * (np.log(pb) - np.log(pa)))
-    ha, hb = pick(diag.height)
-    with np.errstate(invalid="ignore"):
-        out["height"] = ha + w * (hb - ha)
+    if "height" not in skip:
+        ha, hb = pick(diag.height)
+        with np.errstate(invalid="ignore"):
+            out["height"] = ha + w * (hb - ha)
     if want is None or "sld_class" in want:
         sa, sb = pick(diag.sld_class)
         # GAP (-1) marks an unusable level; validity is carried by ``valid`` below
         out["sld_class"] = np.maximum(np.maximum(sa, sb), codes.SLD_NONE)
     if want is None or "spectrum_shape" in want:
-        mu = np.broadcast_to(np.asarray(getattr(diag, "spectrum_shape", 2.0), float), z.shape)
+        mu = np.broadcast_to(np.asarray(getattr(diag, "spectrum_shape", 2.0), float), (m, nlev))
         mu_a, mu_b = pick(mu)
         out["spectrum_shape"] = np.where(
             np.isfinite(mu_a), mu_a, np.where(np.isfinite(mu_b), mu_b, 2.0)
@@ -172,24 +327,31 @@ def read_off(diag, column_index, target, *, reference="msl", fields=None):
         ba, bb = pick(diag.basis)
         la, lb = pick(diag.lwc)
         out["basis"] = np.where(np.nan_to_num(la) >= np.nan_to_num(lb), ba, bb)
-    va, vb = pick(diag.valid)
-    ga, gb = pick(diag.below_ground)
-    out["below_ground"] = present & (ga & ((w < 0.5) | gb))
-    out["valid"] = inside & va & vb & ~out["below_ground"]
+    if "valid" not in skip:
+        va, vb = pick(diag.valid)
+        ga, gb = pick(diag.below_ground)
+        out["below_ground"] = located["present"] & (ga & ((w < 0.5) | gb))
+        out["valid"] = located["inside"] & va & vb & ~out["below_ground"]
     if "lwc" in out:
         out["cloud"] = out["lwc"] >= IN_CLOUD_LWC
-    # flags: glaciated by the model only where both levels are; possible drizzle where
-    # either is (a stated possibility is never interpolated away)
+    _flags(diag, pick, want, out, np.shape(w))
+    return out
+
+
+def _flags(diag, pick, want, out, shape):
+    """Read the flags: glaciated by the model only where both levels are.
+
+    Possible drizzle where either is (a stated possibility is never interpolated away).
+    """
     for name, both in (("model_glaciated", True), ("possible_drizzle", False)):
         if want is not None and name not in want:
             continue
         flag = getattr(diag, name, None)
         if flag is None:
-            out[name] = np.zeros(out["valid"].shape, bool)
+            out[name] = np.zeros(shape, bool)
             continue
         fa, fb = pick(np.asarray(flag, bool))
         out[name] = (fa & fb) if both else (fa | fb)
-    return out
 
 
 def icing_at(airframe, state, airspeed):

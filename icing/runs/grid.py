@@ -24,6 +24,7 @@ Where the blocks run (measured in ``benchmarks/grid.py``; see DEVELOPERS.md):
 
 from __future__ import annotations
 
+import dataclasses
 import os
 import threading
 import warnings
@@ -44,6 +45,12 @@ DEFAULT_BANDS_FT = "0:20000:2000"
 _IN_MEMORY_BYTES = 64 * 2**20
 #: Blocks waiting for or in a worker, per worker: enough to keep it busy, few in memory.
 _IN_FLIGHT_PER_WORKER = 3
+#: Grids of at least this many columns (times x members x cells) use the compiled loops
+#: of the read-off and the bands where numba is installed: importing numba and loading
+#: the loops costs about 0.3 s a process and they save about 7 us a column (a
+#: 3,600-column block, measured in benchmarks/grid.py's case), so they pay from about
+#: 50,000 columns a worker.
+_COMPILED_MIN_COLUMNS = 200_000
 
 
 @dataclass(frozen=True)
@@ -109,6 +116,8 @@ class GridJob:
     """The ColumnOptions."""
     members: object = None
     """The members (:class:`icing.runs.gridmembers.MemberPlan`), None for one forecast."""
+    compiled: bool = False
+    """Use the compiled loops where numba is installed (large grids; the same values)."""
 
 
 def _workers(workers):
@@ -162,7 +171,7 @@ def block_products(forecast, block, job: GridJob):
     bc = read_block_columns(forecast, block)
     diag = diagnose_columns(**bc.columns, options=job.column_options)
     ground = bc.columns.get("surface_height")
-    return band_products(diag, job.airframe, job.bands, ground=ground)
+    return band_products(diag, job.airframe, job.bands, ground=ground, compiled=job.compiled)
 
 
 def run_block(job: GridJob, block):
@@ -234,6 +243,8 @@ def grid_forecast(
     chunk = max(1, min(int(options.block_columns), int(column_options.chunk_columns)))
     cells = max(1, chunk // (plan.count if plan is not None else 1))
     blocks = plan_blocks(src.y.size, src.x.size, times, columns=cells)
+    columns = len(times) * src.y.size * src.x.size * (plan.count if plan is not None else 1)
+    job = dataclasses.replace(job, compiled=columns >= _COMPILED_MIN_COLUMNS)
     store, scratch = _store(
         len(times), options.bands.count, src.y.size, src.x.size, members=plan is not None
     )

@@ -157,7 +157,7 @@ def member_block_products(forecast, block, job):
         bc = read_member_block_columns(joint, _at_time(forecast, joint, block))
         diag = _diagnose([bc.columns], job.column_options)
         ground = bc.columns.get("surface_height")
-        prod = band_products(diag, job.airframe, job.bands, ground=ground)
+        prod = band_products(diag, job.airframe, job.bands, ground=ground, compiled=job.compiled)
     elif plan.kind == "spread":
         prod = _spread_products(forecast, block, job)
     else:
@@ -193,7 +193,7 @@ def _spread_products(forecast, block, job):
     ground = bc.columns.get("surface_height")
     if ground is not None:
         ground = np.tile(np.asarray(ground, float), job.members.count)
-    return band_products(diag, job.airframe, job.bands, ground=ground)
+    return band_products(diag, job.airframe, job.bands, ground=ground, compiled=job.compiled)
 
 
 def _file_member_products(forecast, block, job):
@@ -213,7 +213,7 @@ def _file_member_products(forecast, block, job):
     ground = None
     if all("surface_height" in c for c in cols):
         ground = np.concatenate([np.asarray(c["surface_height"], float) for c in cols])
-    prod = band_products(diag, job.airframe, job.bands, ground=ground)
+    prod = band_products(diag, job.airframe, job.bands, ground=ground, compiled=job.compiled)
     if len(present) == job.members.count:
         return prod
     return _with_missing(prod, present, job.members.count, cells)

@@ -1,0 +1,49 @@
+"""Compiled loops of a grid run's read-off and band reduction (optional: numba).
+
+A grid run locates ~40 altitudes in every column and reduces them to bands; in numpy
+each step is a pass over the whole block, so these two steps cost as much as a tenth
+of the physics they serve. Where numba is installed (the ``grid`` extra) they run as
+one loop per target and one per column and band instead (:mod:`icing.hazards._loops`).
+The numpy functions (:func:`icing.hazards.readoff.locate`,
+:func:`icing.hazards.bands.band_products`) remain the reference: the loops do the same
+comparisons and the same IEEE operations in the same order (no fast-math), and the
+tests hold both paths equal to the last bit.
+
+Only the grid uses them: ``icing screen`` and ``icing profile`` read a few hundred
+targets, where importing numba (about 0.3 s) would cost more than it saves. The
+compiled code is kept between runs in the user's cache folder (``ICING_CACHE_DIR``,
+default ``~/.cache/icing``, ``numba`` in it) unless ``NUMBA_CACHE_DIR`` says otherwise;
+``ICING_COMPILED=0`` turns the loops off.
+"""
+
+from __future__ import annotations
+
+import functools
+import os
+
+__all__ = ["compiled_kernels"]
+
+
+@functools.lru_cache(maxsize=1)
+def compiled_kernels():
+    """Return the compiled loops (a namespace), or None without numba or when turned off."""
+    if os.environ.get("ICING_COMPILED", "1") == "0":
+        return None
+    _cache_folder()
+    try:  # optional heavy dependency (numba): only a grid run imports it, and only here
+        from icing.hazards import _loops
+    except ImportError:
+        return None
+    return _loops
+
+
+def _cache_folder():
+    """Point numba's cache at the user's icing cache folder (before numba is imported)."""
+    if "NUMBA_CACHE_DIR" in os.environ:
+        return
+    folder = os.environ.get("ICING_CACHE_DIR")
+    if folder is None:
+        base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+        folder = os.path.join(base, "icing")
+    if folder:
+        os.environ["NUMBA_CACHE_DIR"] = os.path.join(folder, "numba")
