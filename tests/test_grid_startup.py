@@ -103,3 +103,16 @@ def test_collection_table_cache_gives_the_table_it_kept(tmp_path, monkeypatch):
         np.testing.assert_array_equal(collection.collection_table("finstad88", 2.0, 7), built)
     finally:
         collection.collection_table.cache_clear()
+
+
+def test_one_cache_folder_for_the_table_and_the_compiled_loops(monkeypatch, tmp_path):
+    """ICING_CACHE_DIR names the folder, empty keeps nothing, default the user's cache."""
+    from icing.cachedir import cache_folder
+
+    monkeypatch.setenv("ICING_CACHE_DIR", str(tmp_path))
+    assert cache_folder() == tmp_path
+    monkeypatch.setenv("ICING_CACHE_DIR", "")
+    assert cache_folder() is None
+    monkeypatch.delenv("ICING_CACHE_DIR")
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path / "xdg"))
+    assert cache_folder() == tmp_path / "xdg" / "icing"

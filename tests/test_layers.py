@@ -23,6 +23,7 @@ RANKS = {
     "caution": 0,
     "_version": 0,
     "untrusted": 0,
+    "cachedir": 0,
     "calc": 1,
     "route": 2,
     "forecast": 2,

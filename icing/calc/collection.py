@@ -577,25 +577,23 @@ def _table_path(model, shape, n_bins):
 
     The name carries a digest of the code that builds the table (this module and the
     droplet spectra) and of its grid, so a change of either builds it afresh.
-    ``ICING_CACHE_DIR`` names the folder (empty: no cache); default the user's cache
-    folder (``XDG_CACHE_HOME`` or ``~/.cache``), ``icing`` in it.
+    The folder is :func:`icing.cachedir.cache_folder` (``ICING_CACHE_DIR``; empty: no
+    cache).
     """
     import hashlib
-    import os
     from pathlib import Path
 
-    folder = os.environ.get("ICING_CACHE_DIR")
+    from icing.cachedir import cache_folder
+
+    folder = cache_folder()
     if folder is None:
-        base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
-        folder = os.path.join(base, "icing")
-    if not folder:
         return None
     here = Path(__file__).resolve().parent
     h = hashlib.sha256()
     for name in ("collection.py", "droplets.py"):
         h.update((here / name).read_bytes())
     h.update(repr((TABLE_LOG_K, TABLE_LOG_PHI.tolist(), model, float(shape), n_bins)).encode())
-    return Path(folder) / f"collection-table-{h.hexdigest()[:24]}.npy"
+    return folder / f"collection-table-{h.hexdigest()[:24]}.npy"
 
 
 def _cached_table(model, shape, n_bins):

@@ -38,12 +38,9 @@ def compiled_kernels():
 
 
 def _cache_folder():
-    """Point numba's cache at the user's icing cache folder (before numba is imported)."""
-    if "NUMBA_CACHE_DIR" in os.environ:
-        return
-    folder = os.environ.get("ICING_CACHE_DIR")
-    if folder is None:
-        base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
-        folder = os.path.join(base, "icing")
-    if folder:
-        os.environ["NUMBA_CACHE_DIR"] = os.path.join(folder, "numba")
+    """Point numba's cache at the package's cache folder (before numba is imported)."""
+    from icing.cachedir import cache_folder
+
+    folder = cache_folder()
+    if "NUMBA_CACHE_DIR" not in os.environ and folder is not None:
+        os.environ["NUMBA_CACHE_DIR"] = str(folder / "numba")

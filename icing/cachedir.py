@@ -1,0 +1,23 @@
+"""Where the package keeps what it builds once and reuses between runs.
+
+The collection-efficiency table (:mod:`icing.calc.collection`) and the grid's compiled
+loops (:mod:`icing.hazards._compiled`) are kept in one folder: ``ICING_CACHE_DIR`` when
+set (empty: keep nothing), else ``icing`` in the user's cache folder
+(``XDG_CACHE_HOME`` or ``~/.cache``).
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+__all__ = ["cache_folder"]
+
+
+def cache_folder() -> Path | None:
+    """Return the package's cache folder, or None when ``ICING_CACHE_DIR`` is empty."""
+    folder = os.environ.get("ICING_CACHE_DIR")
+    if folder is None:
+        base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+        folder = os.path.join(base, "icing")
+    return Path(folder) if folder else None
