@@ -35,7 +35,7 @@ from icing.outputs.plot.style import (
     save,
 )
 
-__all__ = ["plot_grid_map", "drawn_columns", "DISPLAY_CELLS"]
+__all__ = ["plot_grid_map", "drawn_columns", "map_frame", "DISPLAY_CELLS"]
 
 #: Most cells drawn; larger grids show the worst of each few cells.
 DISPLAY_CELLS = 400_000
@@ -97,6 +97,18 @@ def drawn_columns(result, arrays):
     return x, arrays
 
 
+def map_frame(result, x, f):
+    """Return a map's cell corners (lon, lat), its aspect and its extent.
+
+    Each map cell is ``f`` x ``f`` grid cells; the aspect is the cosine of the map's
+    middle latitude; the extent is (west, east, south, north).
+    """
+    lon, lat = _corners(result, x, f)
+    coslat = max(np.cos(np.deg2rad(float(np.median(lat)))), 0.05)
+    extent = (float(lon.min()), float(lon.max()), float(lat.min()), float(lat.max()))
+    return lon, lat, coslat, extent
+
+
 def plot_grid_map(result, t, b, path, *, width_in=9.0, dpi=110):
     """Draw band ``b`` at valid time ``t`` of a grid run; write a PNG.
 
@@ -119,10 +131,8 @@ def plot_grid_map(result, t, b, path, *, width_in=9.0, dpi=110):
     )
     f = max(1, int(np.ceil(np.sqrt(sev.size / DISPLAY_CELLS))))
     rank = _coarsen(_ranks(sev, cov), f)
-    lon, lat = _corners(result, x, f)
+    lon, lat, coslat, extent = map_frame(result, x, f)
     lon0 = float(np.median(lon))  # longitudes are continuous: coastlines go near them
-    coslat = max(np.cos(np.deg2rad(float(np.median(lat)))), 0.05)
-    extent = (float(lon.min()), float(lon.max()), float(lat.min()), float(lat.max()))
     # the figure as tall as the map needs: 5.6 in wide, title above, caution below
     map_h = float(
         np.clip(5.6 * (extent[3] - extent[2]) / ((extent[1] - extent[0]) * coslat), 2.0, 7.0)

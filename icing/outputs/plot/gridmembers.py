@@ -26,7 +26,7 @@ from matplotlib.patches import Patch
 from icing import codes
 from icing.hazards.bands import COVERAGE_BELOW_GROUND
 from icing.hazards.ensemble import FRACTION_BAND_LABELS, SHOWN_FRACTION_WORDS, fraction_band
-from icing.outputs.plot.gridmap import DISPLAY_CELLS, _coarsen, _corners, _hatch, drawn_columns
+from icing.outputs.plot.gridmap import DISPLAY_CELLS, _coarsen, _hatch, drawn_columns, map_frame
 from icing.outputs.plot.members import FRACTION_COLOURS
 from icing.outputs.plot.routemap import _draw_coastlines, _draw_graticule
 from icing.outputs.plot.style import (
@@ -85,9 +85,7 @@ def plot_grid_member_map(result, t, b, path, *, dpi=110):
     )
     fractions = dict(zip(words, shown, strict=True))
     f = max(1, int(np.ceil(np.sqrt(cov.size / DISPLAY_CELLS))))
-    lon, lat = _corners(result, x, f)
-    coslat = max(np.cos(np.deg2rad(float(np.median(lat)))), 0.05)
-    extent = (float(lon.min()), float(lon.max()), float(lat.min()), float(lat.max()))
+    lon, lat, coslat, extent = map_frame(result, x, f)
     panel_w, width = 4.3, 11.5
     map_h = float(
         np.clip(panel_w * (extent[3] - extent[2]) / ((extent[1] - extent[0]) * coslat), 1.8, 5.5)
