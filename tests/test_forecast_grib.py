@@ -528,3 +528,29 @@ def test_profile_levels_without_data_are_unknown_not_zero(real_data):
         assert lv["ice_type"] is None and lv["accretion_rate_mm_h"] is None
     known = [lv for lv in result["levels"] if lv["valid"] and lv["severity"] == "none"]
     assert known and all(lv["lwc_g_m3"] == 0.0 and lv["ice_type"] == "none" for lv in known)
+
+
+ERA5_EDA = "era5_eda_members_2017-01-01T00Z.grib"
+
+
+def test_grib1_members_of_an_assimilation_ensemble_are_members(real_data):
+    """ERA5's ensemble of data assimilations (real ECMWF file, origin in
+    tests/data/real/README.md): ten analyses numbered 0-9 (marsType "an", not cf/pf).
+    They are members, never ten fields for one place of which the last was taken."""
+    from icing.forecast.grib import scan
+
+    fields = scan(real_data / ERA5_EDA, 1)[0]
+    assert {f.number for f in fields} == set(range(10))
+    assert {f.product for f in fields} == {"member"}
+
+
+def test_a_repeated_field_is_said_not_taken_for_an_earlier_run(real_data, tmp_path):
+    """A field repeated in a real file (ECMWF open data, origin in the README; the
+    repetition is ours): the first is kept and the provenance says so, instead of
+    calling the repeat a field of an earlier run."""
+    msgs = _messages(real_data / ECMWF, lambda h: True)
+    twice = tmp_path / "twice.grib"
+    twice.write_bytes(b"".join(msgs) + msgs[0])
+    notes = load_forecast(twice).describe()["notes"]
+    assert any("1 field(s) repeating another of the same run" in n for n in notes), notes
+    assert not any("earlier runs" in n for n in notes), notes

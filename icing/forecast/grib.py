@@ -266,6 +266,10 @@ def _product(h):
         return "control"
     if mars == _MARS_PERTURBED or (mars is None and _get_int(h, "number") is not None):
         return "perturbed"
+    if (_get_int(h, "numberOfForecastsInEnsemble") or 0) > 1 and _get_int(h, "number") is not None:
+        # members of another kind, e.g. ECMWF's ensemble of data assimilations (ERA5 EDA:
+        # analyses, marsType "an", numbered 0-9 out of 10)
+        return "member"
     return "forecast"
 
 
@@ -442,16 +446,27 @@ def _choose_grid(fields, info, path, edition):
 
 
 def _latest_runs(fields):
-    """One field per (group, level, valid time, member): the latest run's; notes."""
-    best = {}
+    """One field per (group, level, valid time, member): the latest run's; notes.
+
+    Fields of one run repeated at one place (a layer known here by its top only, or
+    a message given twice) keep the first, and the notes say how many were left.
+    """
+    best, repeats = {}, 0
     for i, f in enumerate(fields):
         key = (f.group, f.level, f.valid, f.number)
+        if key in best and f.reference == fields[best[key]].reference:
+            repeats += 1
         if key not in best or f.reference > fields[best[key]].reference:
             best[key] = i
-    dropped = len(fields) - len(best)
+    dropped = len(fields) - len(best) - repeats
     notes = (
         [f"{dropped} field(s) of earlier runs at the same valid time skipped"] if dropped else []
     )
+    if repeats:
+        notes.append(
+            f"{repeats} field(s) repeating another of the same run, level and valid time "
+            "skipped (the first kept)"
+        )
     return sorted(best.values()), notes
 
 
