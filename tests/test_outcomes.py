@@ -103,6 +103,23 @@ def test_partly_outside_fails_on_trace(capsys, partly_outside):
     assert code == 3 and s["outcome"] == "met" and "half" in err
 
 
+def test_samples_outside_the_forecast_have_no_values(capsys, partly_outside, tmp_path):
+    """An uncovered sample's forecast and physics cells are empty: the sampled state there
+    held values read at the grid's edge (temperature, 0.28 g/m3 of liquid, SLD 0.0)."""
+    samples = tmp_path / "s.csv"
+    code, _, _ = run(capsys, "screen", partly_outside, "-f", FORECAST, "--samples", samples)
+    assert code == 0
+    rows = _csv("".join(ln for ln in samples.read_text().splitlines(True) if ln[0] != "#"))
+    gaps = [r for r in rows if r["covered"] == "False"]
+    assert gaps and len(gaps) < len(rows)
+    physics = ("pressure_hpa", "temperature_c", "relative_humidity_pct", "lwc_g_m3",
+               "sld_lwc_g_m3", "glaciation", "mvd_um", "accretion_mm")  # fmt: skip
+    for r in gaps:
+        assert r["severity"] == "coverage-gap" and r["gap_reason"]
+        assert all(r[k] == "" for k in physics), {k: r[k] for k in physics}
+        assert r["lat"] and r["altitude_m"] and r["tas_m_s"]  # what the route says stays
+
+
 def test_clear_of_the_condition_is_not_met(capsys):
     code, out, _ = run(capsys, "screen", DISPATCH, "-f", FORECAST, "--fail-on", "severe", "--json")
     s = json.loads(out)["summaries"][0]

@@ -270,10 +270,10 @@ def sample_table(screening) -> list[dict]:
             else str(np.asarray(af.get("severity_reasons", [""] * n))[i]),
         }
         row.update(_member_cells(af, i))
-        for key in SAMPLE_COLUMNS:
+        for key in SAMPLE_COLUMNS:  # what the forecast and the physics say: unknown in a gap
             if key not in row:
                 v = af.get(key)
-                row[key] = "" if v is None or (gap and key == "accretion_mm") else _number(v[i])
+                row[key] = "" if v is None or gap else _number(v[i])
         rows.append(row)
     return rows
 
