@@ -115,8 +115,9 @@ class _Field:
     number: int | None
     grid: tuple
     product: str = "forecast"
-    """"forecast", "control", "perturbed" (ensemble members) or "derived" (mean, spread,
-    probability ...: not a forecast of the air)."""
+    """"forecast", "control", "perturbed", "member" (ensemble members; "member" when
+    neither control nor perturbed, e.g. an ensemble of analyses) or "derived" (mean,
+    spread, probability ...: not a forecast of the air)."""
 
 
 def _identity(h):
@@ -245,11 +246,12 @@ _MARS_CONTROL, _MARS_PERTURBED, _MARS_DERIVED = 10, 11, {17, 18, 30}
 
 
 def _product(h):
-    """Return what a field is: a forecast, an ensemble member (control/perturbed), or derived.
+    """Return what a field is: a forecast, an ensemble member, or derived.
 
     Integer keys only (cheap): GRIB2 ``productDefinitionTemplateNumber`` with
     ``typeOfEnsembleForecast`` (code table 4.6) for members; GRIB1 ``marsType`` of
-    ECMWF's local definition, else ``number`` where a local definition defines it.
+    ECMWF's local definition, else ``number`` where a local definition defines it
+    (with ``numberOfForecastsInEnsemble`` above 1 and another ``marsType``: "member").
     """
     if _get_int(h, "edition") == 2:
         template = _get_int(h, "productDefinitionTemplateNumber")
