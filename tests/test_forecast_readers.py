@@ -719,3 +719,59 @@ def test_netcdf4_view_masks_fill_values_and_decodes_times_as_xarray(tmp_path, mo
     slow = _sources(p, monkeypatch, through_xarray=True)
     for a, b in zip(fast, slow, strict=True):
         _same_source(a, b)
+
+
+# ------------------------------------------------------------ raw block reads
+
+
+def _every_variable_read_both_ways(path):
+    """Each variable of ``path`` read whole by netCDF4's decoding and by the raw read."""
+    import netCDF4
+
+    from icing.forecast.fields import plain_fill_values, read_netcdf4
+
+    with netCDF4.Dataset(path) as nc:
+        nc.set_auto_maskandscale(True)
+        for name, var in nc.variables.items():
+            if np.dtype(var.dtype).kind not in "fiu" or not var.dimensions:
+                continue
+            fills = plain_fill_values(var)
+            ref = read_netcdf4(var, {})
+            fast = ref if fills is None else read_netcdf4(var, {}, fills)
+            yield name, fills, ref, fast
+
+
+@pytest.mark.parametrize("rel", _REPO_NETCDF, ids=str)
+def test_raw_block_reads_mask_as_netcdf4_does(rel):
+    """Plain float variables read raw and masked by their fill values equal netCDF4's reads."""
+    for name, _, ref, fast in _every_variable_read_both_ways(_REPO / rel):
+        assert np.array_equal(ref, fast, equal_nan=True), name
+
+
+def test_raw_block_reads_honour_default_fill_and_missing_values(tmp_path):
+    """No _FillValue: the library's default fill is missing; missing_value lists; packed data.
+
+    netCDF4 masks a float variable's default fill value when it has no _FillValue,
+    every value of a ``missing_value`` list, and decodes packed variables: the raw
+    read must give the same, and must step aside for packed ones.
+    """
+    import netCDF4
+
+    path = tmp_path / "fills.nc"
+    with netCDF4.Dataset(path, "w") as nc:
+        nc.createDimension("x", 5)
+        a = nc.createVariable("a", "f4", ("x",), fill_value=False)
+        a[:] = np.array([1, netCDF4.default_fillvals["f4"], np.nan, 3, -1], "f4")
+        b = nc.createVariable("b", "f4", ("x",), fill_value=np.float32(np.nan))
+        b[:] = [1, 2, np.nan, 4, 5]
+        c = nc.createVariable("c", "f8", ("x",), fill_value=-999.0)
+        c.missing_value = np.array([-1.0, -2.0])
+        c[:] = [1, -999, -1, -2, 5]
+        d = nc.createVariable("d", "i2", ("x",), fill_value=-1)
+        d.scale_factor, d.add_offset = 0.5, 200.0
+        d[:] = np.ma.array([200.0, 201.0, 0.0, 202.5, 199.0], mask=[0, 0, 1, 0, 0])
+    got = {name: (fills, fast) for name, fills, _, fast in _every_variable_read_both_ways(path)}
+    assert np.isnan(got["a"][1][[1, 2]]).all() and got["a"][1][4] == -1.0
+    assert np.array_equal(got["c"][1], [1, np.nan, np.nan, np.nan, 5], equal_nan=True)
+    assert got["d"][0] is None  # packed: netCDF4 decodes it
+    assert np.array_equal(got["d"][1], [200.0, 201.0, np.nan, 202.5, 199.0], equal_nan=True)
