@@ -265,24 +265,27 @@ class CloudLayers:
     """Temperature of the highest cloudy level of the layer. [K]"""
 
 
-def _half_levels(values, *, log=False, above=True):
-    """Values half-way between neighbouring levels (below, above), edge levels kept.
+def _half_level(values, at, index, *, log=False, above=False):
+    """Values half-way between level ``index`` and its neighbour, at the points ``at``.
 
-    With ``above=False`` only the half levels below are computed (``None`` above).
+    ``at``: the row indices of the points (a tuple, as ``np.nonzero`` gives without its
+    last entry); ``index``: each point's level. The half level below (or ``above``) is
+    the mean of the two levels (of their logarithms with ``log``); a level at the edge,
+    or whose neighbour has no data, keeps its own value. Only the points asked for are
+    computed (a block's cloudy levels are a fraction of its levels).
     """
-    v = np.log(values) if log else values
-    mid = 0.5 * (v[..., 1:] + v[..., :-1])
-    below = np.concatenate([v[..., :1], mid], axis=-1)
-    # a neighbour without data: keep the level itself
-    below = np.where(np.isfinite(below), below, v)
-    if above:
-        above = np.concatenate([mid, v[..., -1:]], axis=-1)
-        above = np.where(np.isfinite(above), above, v)
-        if log:
-            above = np.exp(above)
-    else:
-        above = None
-    return (np.exp(below) if log else below), above
+    n = values.shape[-1]
+    lo = index if above else index - 1
+    hi = lo + 1
+    edge = (lo < 0) | (hi > n - 1)
+    own = values[at + (index,)]
+    v_lo = values[at + (np.clip(lo, 0, n - 1),)]
+    v_hi = values[at + (np.clip(hi, 0, n - 1),)]
+    if log:
+        own, v_lo, v_hi = np.log(own), np.log(v_lo), np.log(v_hi)
+    mid = 0.5 * (v_hi + v_lo)
+    out = np.where(edge | ~np.isfinite(mid), own, mid)
+    return np.exp(out) if log else out
 
 
 def cloud_layers(cloud, height, pressure, temperature):
@@ -326,27 +329,24 @@ def cloud_layers(cloud, height, pressure, temperature):
     end = cloud & ~np.concatenate([cloud[..., 1:], no], axis=-1)
     base_i = np.maximum.accumulate(np.where(start, idx, 0), axis=-1)
     top_i = np.flip(np.minimum.accumulate(np.flip(np.where(end, idx, n - 1), -1), axis=-1), -1)
-    with np.errstate(invalid="ignore"):
-        z_below, z_above = _half_levels(z)
-        p_below, _ = _half_levels(p, log=True, above=False)
-        t_below, _ = _half_levels(t, above=False)
-
     where = np.nonzero(cloud)  # only cloudy levels are looked up
     rows = where[:-1]
+    b_at, t_at = base_i[where], top_i[where]
 
-    def pick(a, i):
+    def pick(a, i, **half):
         out = np.full(cloud.shape, np.nan)
-        out[where] = a[rows + (i[where],)]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            out[where] = _half_level(a, rows, i, **half) if half else a[rows + (i,)]
         return out
 
     return CloudLayers(
         base_index=np.where(cloud, base_i, -1),
         top_index=np.where(cloud, top_i, -1),
-        base_height=pick(z_below, base_i),
-        top_height=pick(z_above, top_i),
-        base_pressure=pick(p_below, base_i),
-        base_temperature=pick(t_below, base_i),
-        top_temperature=pick(t, top_i),
+        base_height=pick(z, b_at, above=False),
+        top_height=pick(z, t_at, above=True),
+        base_pressure=pick(p, b_at, log=True),
+        base_temperature=pick(t, b_at, above=False),
+        top_temperature=pick(t, t_at),
     )
 
 

@@ -62,7 +62,7 @@ _DECODED_ATTRS = frozenset(
 
 
 def plain_fill_values(var):
-    """The values netCDF4 masks in a plain floating-point variable, or None if it decodes more.
+    """Return the values netCDF4 masks in a plain float variable (None if it decodes more).
 
     A float variable without packing (``scale_factor``, ``add_offset``, ``_Unsigned``)
     or valid-range attributes is masked by netCDF4 where it equals ``_FillValue`` (the
