@@ -366,3 +366,18 @@ def test_a_hole_at_the_antimeridian_of_a_projected_grid_stays_inside_its_shell()
     g = class_polygons(codes_, x, y, crs=crs, wanted=[1])[1]
     full = class_polygons(np.where(codes_ == 0, 1, codes_), x, y, crs=crs, wanted=[1])[1]
     assert g.is_valid and g.area < full.area
+
+
+def test_polygons_failing_while_the_netcdf_is_written_leave_nothing(tmp_path, latlon_result):
+    """The NetCDF is written while the polygons are built; if they fail, no file remains."""
+    from icing.outputs.write import write_grid_outputs
+
+    def fail():
+        raise RuntimeError("polygons failed")
+
+    out, nc = tmp_path / "g.geojson", tmp_path / "g.nc"
+    with pytest.raises(RuntimeError, match="polygons failed"):
+        write_grid_outputs(latlon_result, out_geojson=out, netcdf=nc, features=fail)
+    assert list(tmp_path.iterdir()) == []
+    fc, written = write_grid_outputs(latlon_result, out_geojson=out, netcdf=nc, features=list)
+    assert written == [out, nc] and fc["features"] == [] and out.exists() and nc.exists()

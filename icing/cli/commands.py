@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import sys
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 from icing import codes
@@ -250,23 +251,30 @@ def cmd_grid(args) -> int:
         load_options=_forecast_kwargs(args),
         progress=_counter("gridding", "blocks") if bar else None,
     )
-    features = grid_features(result, progress=_counter("outlining", "maps") if bar else None)
-    fractions = None
-    if result.members > 1:
-        from icing.hazards.gridded import member_fraction_features
-
-        fractions = member_fraction_features(
-            result, progress=_counter("outlining member fractions", "maps") if bar else None
+    # the polygons are built in a thread while the NetCDF is written (GEOS and the
+    # netCDF library both work outside the interpreter lock for most of it)
+    with ThreadPoolExecutor(max_workers=1) as pool:
+        features = pool.submit(
+            grid_features, result, progress=_counter("outlining", "maps") if bar else None
         )
-    fc, written = write_grid_outputs(
-        result,
-        out_geojson=args.output,
-        netcdf=args.netcdf,
-        maps=args.maps,
-        inputs=inputs,
-        features=features,
-        fractions=fractions,
-    )
+        fractions = None
+        if result.members > 1:
+            from icing.hazards.gridded import member_fraction_features
+
+            fractions = pool.submit(
+                member_fraction_features,
+                result,
+                progress=_counter("outlining member fractions", "maps") if bar else None,
+            ).result
+        fc, written = write_grid_outputs(
+            result,
+            out_geojson=args.output,
+            netcdf=args.netcdf,
+            maps=args.maps,
+            inputs=inputs,
+            features=features.result,
+            fractions=fractions,
+        )
     print(grid_table(result))
     print(CAUTION)
     for p in written if len(written) <= 12 else written[:2]:

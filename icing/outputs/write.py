@@ -228,33 +228,41 @@ def write_grid_outputs(
     """Write a grid run's GeoJSON, NetCDF and maps, all together or none.
 
     ``features`` are the polygons when already built
-    (:func:`icing.hazards.gridded.grid_features`), ``fractions`` an ensemble's
-    member-fraction polygons (:func:`icing.hazards.gridded.member_fraction_features`),
-    written beside ``-o`` (:func:`member_fraction_path`) with a fractions map beside
-    each severity map. Returns the FeatureCollection and the paths written; outputs at
-    an input's path or at each other's are refused before anything is written.
+    (:func:`icing.hazards.gridded.grid_features`), or a function returning them (a
+    future's ``result``: the NetCDF is then written first, while they are built);
+    ``fractions`` an ensemble's member-fraction polygons, or such a function
+    (:func:`icing.hazards.gridded.member_fraction_features`), written beside ``-o``
+    (:func:`member_fraction_path`) with a fractions map beside each severity map.
+    Returns the FeatureCollection and the paths written (in the order -o, the
+    member-fraction layer, --netcdf, the maps); outputs at an input's path or at each
+    other's are refused before anything is written.
     """
     from icing.hazards.gridded import grid_feature_collection, member_fraction_features
 
-    fc = grid_feature_collection(result, features)
-    # compact: a grid's polygons are large, and GIS readers do not need the indentation
-    text = json.dumps(fc, separators=(",", ":"), allow_nan=False)
-    files = [(Path(out_geojson), _text(text), "-o")]
+    built = {}
+
+    def collection(tmp):
+        fc = grid_feature_collection(result, features() if callable(features) else features)
+        built["fc"] = fc
+        # compact: a grid's polygons are large, and GIS readers do not need the indentation
+        _text(json.dumps(fc, separators=(",", ":"), allow_nan=False))(tmp)
+
+    def fraction_layer(tmp):
+        polys = fractions() if callable(fractions) else fractions
+        if polys is None:
+            polys = member_fraction_features(result)
+        layer = grid_feature_collection(result, polys, product="icing grid member fractions")
+        _text(json.dumps(layer, separators=(",", ":"), allow_nan=False))(tmp)
+
+    files = [(Path(out_geojson), collection, "-o")]
     if result.members > 1:
-        if fractions is None:
-            fractions = member_fraction_features(result)
-        layer = grid_feature_collection(result, fractions, product="icing grid member fractions")
-        files.append(
-            (
-                member_fraction_path(out_geojson),
-                _text(json.dumps(layer, separators=(",", ":"), allow_nan=False)),
-                "the member-fraction layer beside -o",
-            )
-        )
+        role = "the member-fraction layer beside -o"
+        files.append((member_fraction_path(out_geojson), fraction_layer, role))
     if netcdf:
         from icing.outputs.gridnc import write_grid_netcdf
 
-        files.append((Path(netcdf), partial(write_grid_netcdf, result), "--netcdf"))
+        # first: polygons still being built are waited for after it
+        files.insert(0, (Path(netcdf), partial(write_grid_netcdf, result), "--netcdf"))
     if maps:
         from icing.outputs.plot.gridmap import plot_grid_map
 
@@ -272,4 +280,6 @@ def write_grid_outputs(
     given = [(p, "input file") if isinstance(p, (str, Path)) else tuple(p) for p in inputs]
     files_in = [(f, "forecast file") for f in (result.provenance or {}).get("files") or []]
     written = write_together(files, inputs=given + files_in)
-    return fc, written
+    if netcdf:  # said in the order -o, its companion layer, --netcdf, the maps
+        written.insert(2 if result.members > 1 else 1, written.pop(0))
+    return built["fc"], written
