@@ -348,3 +348,22 @@ def test_shapes_and_broadcasting_as_the_reference():
     one = {k: (v[0, 0] if np.ndim(v) == 3 else v) for k, v in kw.items()}
     a1 = [a[0, 0] for a in args]
     _same_diagnosis(sld.diagnose_sld(*a1, **one), _sld_compiled.diagnose_sld_compiled(*a1, **one))
+
+
+def test_a_large_grid_asks_for_the_loops_and_screening_does_not(monkeypatch):
+    """The grid passes its ``compiled`` down; diagnose_columns keeps numpy by default."""
+    _kernel()
+    from icing.calc import _sld_loops
+    from icing.hazards.bands import parse_bands
+    from icing.runs import grid
+
+    calls = []
+    real = _sld_loops.diagnose_block
+    monkeypatch.setattr(_sld_loops, "diagnose_block", lambda *a: calls.append(1) or real(*a))
+    diagnose_columns(**_bench_columns(50, 1))
+    assert not calls  # screen and profile: the numpy path
+    fixture = REPO / "fixtures" / "skerrow-latlon.nc"
+    options = grid.GridOptions(bands=parse_bands("0:12000:3000"), workers=1)
+    monkeypatch.setattr(grid, "_COMPILED_MIN_COLUMNS", 1)  # the fixture counts as large
+    grid.grid_forecast(fixture, airframe="twin-turboprop", options=options)
+    assert calls
