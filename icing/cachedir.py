@@ -11,7 +11,7 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
-__all__ = ["cache_folder", "prepare_compiled"]
+__all__ = ["cache_folder", "prepare_compiled", "load_compiled"]
 
 
 def cache_folder() -> Path | None:
@@ -35,3 +35,16 @@ def prepare_compiled() -> bool:
     if "NUMBA_CACHE_DIR" not in os.environ and folder is not None:
         os.environ["NUMBA_CACHE_DIR"] = str(folder / "numba")
     return True
+
+
+def load_compiled(load):
+    """Return ``load()``, which imports a module of compiled loops, or None.
+
+    None when ``ICING_COMPILED=0`` or without numba (``load`` raising ImportError).
+    """
+    if not prepare_compiled():
+        return None
+    try:
+        return load()
+    except ImportError:
+        return None

@@ -25,7 +25,7 @@ import functools
 import numpy as np
 
 from icing import codes
-from icing.cachedir import prepare_compiled
+from icing.cachedir import load_compiled
 from icing.calc import bourgouin, droplets, sld, thermo, warm_rain
 from icing.constants import CP_AIR, RD, RHO_WATER, T0, G
 
@@ -35,12 +35,13 @@ __all__ = ["sld_kernel", "constants", "diagnose_sld_compiled"]
 @functools.lru_cache(maxsize=1)
 def sld_kernel():
     """Return the compiled loops (a namespace), or None without numba or when turned off."""
-    if not prepare_compiled():
-        return None
-    try:  # optional heavy dependency (numba): only a grid run imports it, and only here
-        from icing.calc import _sld_loops
-    except ImportError:
-        return None
+    return load_compiled(_import_loops)
+
+
+def _import_loops():
+    # optional heavy dependency (numba): only a grid run imports it, and only here
+    from icing.calc import _sld_loops
+
     return _sld_loops
 
 

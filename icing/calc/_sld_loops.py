@@ -159,14 +159,10 @@ def _max(a, b):
 
 @_jit
 def _nan_to_num(x):
-    """``np.nan_to_num`` of one number."""
-    if x != x:
+    """``np.nan_to_num`` of one number (NaN 0, infinities the largest finite numbers)."""
+    if math.isnan(x):
         return 0.0
-    if x == _INF:
-        return _BIG
-    if x == -_INF:
-        return -_BIG
-    return x
+    return max(-_BIG, min(x, _BIG))
 
 
 @_jit

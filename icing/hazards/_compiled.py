@@ -20,7 +20,7 @@ from __future__ import annotations
 
 import functools
 
-from icing.cachedir import prepare_compiled
+from icing.cachedir import load_compiled
 
 __all__ = ["compiled_kernels"]
 
@@ -28,10 +28,11 @@ __all__ = ["compiled_kernels"]
 @functools.lru_cache(maxsize=1)
 def compiled_kernels():
     """Return the compiled loops (a namespace), or None without numba or when turned off."""
-    if not prepare_compiled():
-        return None
-    try:  # optional heavy dependency (numba): only a grid run imports it, and only here
-        from icing.hazards import _loops
-    except ImportError:
-        return None
+    return load_compiled(_import_loops)
+
+
+def _import_loops():
+    # optional heavy dependency (numba): only a grid run imports it, and only here
+    from icing.hazards import _loops
+
     return _loops
