@@ -10,7 +10,7 @@ code's operations in the same order without fast-math, but numpy evaluates ``exp
 ``log`` and ``pow`` in its vectorised (SIMD) routines and the loops call the C
 library's, which may differ by a few units in the last place (2.2e-16 each); the
 drizzle growth (eight Runge-Kutta steps of ``pow``) and the sums of the Bourgouin
-areas carry a handful of those, far under 1e-12 (the largest seen: 3e-15).
+areas carry a handful of those, far under 1e-12 (the largest seen: 6e-15).
 Classes, types and flags are compared exactly. A class could differ only where a value
 compared with a threshold sits within that tolerance of it; of those values, only the
 drizzle content is an output, so a class may differ only at a level whose reference
