@@ -14,22 +14,34 @@ import numpy as np
 
 from icing import codes
 from icing.calc import sld
+from icing.calc._sld_compiled import diagnose_sld_compiled
 
 __all__ = ["column_sld"]
 
 
-def column_sld(p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, f_ice, o):
+def column_sld(
+    p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, f_ice, o, compiled=False
+):
     """Call :func:`icing.sld.diagnose_sld` on ground-up arrays; outputs keyed by field.
 
     Only the columns where SLD can arise are diagnosed (:func:`_sld_possible`); the
     others get the diagnosis's own answer for a column without cloud, hydrometeors or
     precipitation (:func:`_sld_quiet`), with no Bourgouin areas or drizzle to compute.
+    ``compiled``: diagnose in the compiled loops where numba is installed
+    (:mod:`icing.calc._sld_compiled`; the numpy path where they do not port the case).
     """
     rate = cols.get("precipitation_rate_mm_h")
     active = _sld_possible(s, cloud, rate)
     n_active = int(np.count_nonzero(active))
     given = _hydrometeors_given(present, p.shape[:-1])
     layer = (lay.top_temperature, lay.top_height, lay.base_height)
+    if compiled:
+        res = diagnose_sld_compiled(
+            p, t, z, **_sld_arguments(rh, cloud, lwc, number, layer, s, rate, valid, below,
+                                      given, f_ice, o), active=active,
+        )  # fmt: skip
+        if res is not None:
+            return _sld_fields(res)
     if n_active == active.size:
         return _sld_diagnosed(p, t, z, rh, cloud, lwc, number, layer, s, rate, valid, below,
                               given, f_ice, o)  # fmt: skip
@@ -100,26 +112,36 @@ def _sld_diagnosed(p, t, z, rh, cloud, lwc, number, layer, s, rate, valid, below
     ``layer``: the top temperature, top height and base height of each level's layer.
     """
     res = sld.diagnose_sld(
-        p,
-        t,
-        z,
-        relative_humidity=rh,
-        cloud=cloud,
-        lwc=np.nan_to_num(lwc),
-        droplet_number=number,
-        cloud_top_temperature=layer[0],
-        cloud_top_height=layer[1],
-        cloud_base_height=layer[2],
-        precipitation_rate_mm_h=rate,
-        rain=s.get("rain"),
-        snow=s.get("snow"),
-        cloud_ice=s.get("cloud_ice"),
-        valid=valid,
-        below_ground=below,
-        drizzle_time_scale_s=o.drizzle_time_scale_s,
-        hydrometeors_given=given,
-        ice_saturation=f_ice,
-    )
+        p, t, z, **_sld_arguments(rh, cloud, lwc, number, layer, s, rate, valid, below, given,
+                                  f_ice, o)
+    )  # fmt: skip
+    return _sld_fields(res)
+
+
+def _sld_arguments(rh, cloud, lwc, number, layer, s, rate, valid, below, given, f_ice, o):
+    """Return the keyword arguments of :func:`icing.sld.diagnose_sld` after p, T and z."""
+    return {
+        "relative_humidity": rh,
+        "cloud": cloud,
+        "lwc": np.nan_to_num(lwc),
+        "droplet_number": number,
+        "cloud_top_temperature": layer[0],
+        "cloud_top_height": layer[1],
+        "cloud_base_height": layer[2],
+        "precipitation_rate_mm_h": rate,
+        "rain": s.get("rain"),
+        "snow": s.get("snow"),
+        "cloud_ice": s.get("cloud_ice"),
+        "valid": valid,
+        "below_ground": below,
+        "drizzle_time_scale_s": o.drizzle_time_scale_s,
+        "hydrometeors_given": given,
+        "ice_saturation": f_ice,
+    }
+
+
+def _sld_fields(res):
+    """Return the fields of an :class:`icing.sld.SLDDiagnosis` that the columns keep."""
     return {
         "sld_class": np.asarray(res.sld_class),
         "sld_lwc": np.asarray(res.sld_lwc, float),

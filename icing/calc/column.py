@@ -165,6 +165,7 @@ def diagnose_columns(
     surface_pressure=None,
     surface_height=None,
     options=None,
+    compiled=False,
 ) -> ColumnDiagnosis:
     """Diagnose cloud, supercooled liquid, droplets, glaciation and SLD in columns.
 
@@ -196,6 +197,12 @@ def diagnose_columns(
         computed heights against ``surface_height``. [Pa], [m]
     options : ColumnOptions, optional
         Physics choices; ``ColumnOptions()`` by default.
+    compiled : bool, optional
+        Diagnose SLD in compiled loops where numba is installed
+        (:mod:`icing.calc._sld_compiled`: the same diagnosis, to within a few units in
+        the last place; the numpy path otherwise). Worth it for large grids only:
+        importing numba costs about 0.3 s a process. Not an assumption of the
+        physics, so not in ``assumptions``.
 
     Returns
     -------
@@ -250,7 +257,10 @@ def diagnose_columns(
     for start in range(0, max(n, 1), chunk):  # chunks of columns bound the memory
         sl = slice(start, min(start + chunk, n))
         out, exceed = _diagnose_sorted(
-            {k: v[sl] for k, v in flat.items()}, {k: v[sl] for k, v in cols.items()}, options
+            {k: v[sl] for k, v in flat.items()},
+            {k: v[sl] for k, v in cols.items()},
+            options,
+            compiled,
         )
         if n <= chunk:  # one chunk: its arrays are the result (views are copied, so the
             # diagnosis never aliases the caller's input arrays)
@@ -311,15 +321,16 @@ def _merge_warnings(exceed_lists):
     return clouds.appendix_c_warnings(counts)
 
 
-def _diagnose_sorted(flat, cols, options):
+def _diagnose_sorted(flat, cols, options, compiled=False):
     """Diagnose a chunk shaped (n, level); sorts levels ground-up and back."""
     p_in = flat["pressure"]
     with np.errstate(invalid="ignore"):
         step = np.diff(p_in, axis=-1)
         if np.all(step < 0):  # already ground-up everywhere (the usual case): no copy
-            return _diagnose_core(dict(flat), cols, options)
+            return _diagnose_core(dict(flat), cols, options, compiled)
         if np.all(step > 0):  # top-down everywhere: reversed views
-            out, exceed = _diagnose_core({k: v[..., ::-1] for k, v in flat.items()}, cols, options)
+            rev = {k: v[..., ::-1] for k, v in flat.items()}
+            out, exceed = _diagnose_core(rev, cols, options, compiled)
             return {
                 k: (v[..., ::-1] if k in _PER_LEVEL_OUT else v) for k, v in out.items()
             }, exceed
@@ -327,7 +338,7 @@ def _diagnose_sorted(flat, cols, options):
     order = np.argsort(np.where(np.isnan(p_in), -np.inf, -p_in), axis=-1, kind="stable")
     inverse = np.argsort(order, axis=-1, kind="stable")
     out, exceed = _diagnose_core(
-        {k: np.take_along_axis(v, order, -1) for k, v in flat.items()}, cols, options
+        {k: np.take_along_axis(v, order, -1) for k, v in flat.items()}, cols, options, compiled
     )
     for name in _PER_LEVEL_OUT:
         out[name] = np.take_along_axis(out[name], inverse, -1)
@@ -354,7 +365,7 @@ def _segment_running_max(values, start):
     return np.maximum.accumulate(values + offset, axis=-1) - offset
 
 
-def _diagnose_core(s, cols, o):
+def _diagnose_core(s, cols, o, compiled=False):
     """Run the physics on ground-up sorted arrays shaped (n, level), one step each."""
     p, t = s["pressure"], s["temperature"]
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
@@ -383,7 +394,22 @@ def _diagnose_core(s, cols, o):
         number, mvd, shape = _droplets(lwc, liquid_ok, w_eff, sel, o)
         glac = _glaciation(s, o, p, t, rho, lwc, w, cloud, lay, (es_w, es_i))
         sld_out = column_sld(
-            p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, f_ice, o
+            p,
+            t,
+            z,
+            rh,
+            cloud,
+            lwc,
+            number,
+            lay,
+            s,
+            cols,
+            valid,
+            below,
+            present,
+            f_ice,
+            o,
+            compiled,
         )
         freezing = _freezing_level(t, z, air)
         lwc_c = _in_air(lwc, air, all_air, 0.0)

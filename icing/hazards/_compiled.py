@@ -19,7 +19,8 @@ default ``~/.cache/icing``, ``numba`` in it) unless ``NUMBA_CACHE_DIR`` says oth
 from __future__ import annotations
 
 import functools
-import os
+
+from icing.cachedir import load_compiled
 
 __all__ = ["compiled_kernels"]
 
@@ -27,20 +28,11 @@ __all__ = ["compiled_kernels"]
 @functools.lru_cache(maxsize=1)
 def compiled_kernels():
     """Return the compiled loops (a namespace), or None without numba or when turned off."""
-    if os.environ.get("ICING_COMPILED", "1") == "0":
-        return None
-    _cache_folder()
-    try:  # optional heavy dependency (numba): only a grid run imports it, and only here
-        from icing.hazards import _loops
-    except ImportError:
-        return None
+    return load_compiled(_import_loops)
+
+
+def _import_loops():
+    # optional heavy dependency (numba): only a grid run imports it, and only here
+    from icing.hazards import _loops
+
     return _loops
-
-
-def _cache_folder():
-    """Point numba's cache at the package's cache folder (before numba is imported)."""
-    from icing.cachedir import cache_folder
-
-    folder = cache_folder()
-    if "NUMBA_CACHE_DIR" not in os.environ and folder is not None:
-        os.environ["NUMBA_CACHE_DIR"] = str(folder / "numba")
