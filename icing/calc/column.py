@@ -31,6 +31,7 @@ import numpy as np
 
 from icing import codes
 from icing.calc import clouds, droplets, thermo
+from icing.calc._column_compiled import compiled_front
 from icing.calc._column_input import _check_units, _prepare
 from icing.calc._column_sld import column_sld
 from icing.calc.column_options import ColumnOptions
@@ -165,6 +166,7 @@ def diagnose_columns(
     surface_pressure=None,
     surface_height=None,
     options=None,
+    compiled: bool = False,
 ) -> ColumnDiagnosis:
     """Diagnose cloud, supercooled liquid, droplets, glaciation and SLD in columns.
 
@@ -196,6 +198,10 @@ def diagnose_columns(
         computed heights against ``surface_height``. [Pa], [m]
     options : ColumnOptions, optional
         Physics choices; ``ColumnOptions()`` by default.
+    compiled : bool, optional
+        Run the physics as compiled loops where numba is installed and the options
+        are transcribed (the same results: see DEVELOPERS.md); False by default, as
+        importing numba costs more than a few hundred columns save. The grid sets it.
 
     Returns
     -------
@@ -250,7 +256,10 @@ def diagnose_columns(
     for start in range(0, max(n, 1), chunk):  # chunks of columns bound the memory
         sl = slice(start, min(start + chunk, n))
         out, exceed = _diagnose_sorted(
-            {k: v[sl] for k, v in flat.items()}, {k: v[sl] for k, v in cols.items()}, options
+            {k: v[sl] for k, v in flat.items()},
+            {k: v[sl] for k, v in cols.items()},
+            options,
+            compiled,
         )
         if n <= chunk:  # one chunk: its arrays are the result (views are copied, so the
             # diagnosis never aliases the caller's input arrays)
@@ -311,15 +320,17 @@ def _merge_warnings(exceed_lists):
     return clouds.appendix_c_warnings(counts)
 
 
-def _diagnose_sorted(flat, cols, options):
+def _diagnose_sorted(flat, cols, options, compiled=False):
     """Diagnose a chunk shaped (n, level); sorts levels ground-up and back."""
     p_in = flat["pressure"]
     with np.errstate(invalid="ignore"):
         step = np.diff(p_in, axis=-1)
         if np.all(step < 0):  # already ground-up everywhere (the usual case): no copy
-            return _diagnose_core(dict(flat), cols, options)
+            return _diagnose_core(dict(flat), cols, options, compiled)
         if np.all(step > 0):  # top-down everywhere: reversed views
-            out, exceed = _diagnose_core({k: v[..., ::-1] for k, v in flat.items()}, cols, options)
+            out, exceed = _diagnose_core(
+                {k: v[..., ::-1] for k, v in flat.items()}, cols, options, compiled
+            )
             return {
                 k: (v[..., ::-1] if k in _PER_LEVEL_OUT else v) for k, v in out.items()
             }, exceed
@@ -327,7 +338,7 @@ def _diagnose_sorted(flat, cols, options):
     order = np.argsort(np.where(np.isnan(p_in), -np.inf, -p_in), axis=-1, kind="stable")
     inverse = np.argsort(order, axis=-1, kind="stable")
     out, exceed = _diagnose_core(
-        {k: np.take_along_axis(v, order, -1) for k, v in flat.items()}, cols, options
+        {k: np.take_along_axis(v, order, -1) for k, v in flat.items()}, cols, options, compiled
     )
     for name in _PER_LEVEL_OUT:
         out[name] = np.take_along_axis(out[name], inverse, -1)
@@ -354,64 +365,96 @@ def _segment_running_max(values, start):
     return np.maximum.accumulate(values + offset, axis=-1) - offset
 
 
-def _diagnose_core(s, cols, o):
-    """Run the physics on ground-up sorted arrays shaped (n, level), one step each."""
+def _diagnose_core(s, cols, o, compiled=False):
+    """Run the physics on ground-up sorted arrays shaped (n, level), one step each.
+
+    ``compiled``: the steps before SLD as compiled loops where they are transcribed
+    (:func:`icing.calc._column_compiled.compiled_front`), else numpy (:func:`_front`).
+    """
     p, t = s["pressure"], s["temperature"]
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         s, present = _absent_per_column(s)
-        es_w = thermo.saturation_vapor_pressure(t)  # once: humidity, cloud, glaciation
-        rh, q, hum = _humidity(s, p, t, es_w)
-        valid = _validity(s, p, t, hum)
-        z = _heights(s, cols, p, t, q, valid)
-        # a level without a height (e.g. a NaN surface anchor) cannot be placed: not valid
-        valid &= np.isfinite(z)
-        below = _below_ground(s, cols, p, z)
-        rho = thermo.air_density(p, t, np.nan_to_num(q))
-        lwc_model = _model_liquid(s, rho, o)
-        cloud, lay, valid, f_ice, es_i = _cloud_and_layers(
-            s, o, p, t, z, rh, lwc_model, valid, below, es_w
-        )
-        air = valid & ~below
-        all_air = bool(air.all())  # the usual case: nothing to mask
-        liquid_ok = cloud & (t > T_HOMOGENEOUS)
-        glaciated = _model_glaciated(s, present, rho, lwc_model, cloud)
-        lwc_model = _in_air(np.where(t > T_HOMOGENEOUS, lwc_model, 0.0), air, all_air, np.nan)
-        w, convective, w_eff = _updraft(s, o, cloud, lay)
-        sel = np.nonzero(liquid_ok)  # only cloudy liquid levels are integrated
-        lwc_diag = _diagnosed_liquid(p, t, z, q, rh, lay, sel, air, all_air, convective, o)
-        lwc, basis = _combine_liquid(lwc_model, lwc_diag, liquid_ok, air, all_air)
-        number, mvd, shape = _droplets(lwc, liquid_ok, w_eff, sel, o)
-        glac = _glaciation(s, o, p, t, rho, lwc, w, cloud, lay, (es_w, es_i))
+        f = compiled_front(s, present, cols, o) if compiled else None
+        if f is None:
+            f = _front(s, present, cols, o)
+        z, lay, valid, below = f["z"], f["lay"], f["valid"], f["below"]
         sld_out = column_sld(
-            p, t, z, rh, cloud, lwc, number, lay, s, cols, valid, below, present, f_ice, o
-        )
-        freezing = _freezing_level(t, z, air)
-        lwc_c = _in_air(lwc, air, all_air, 0.0)
-        exceed = clouds.appendix_c_exceedances(lwc_c, t, convective=convective)
+            p, t, z, f["rh"], f["cloud"], f["lwc"], f["number"], lay, s, cols, valid, below,
+            present, f["f_ice"], o,
+        )  # fmt: skip
     out = {
         "pressure": p,
         "height": z,
         "temperature": t,
-        "relative_humidity": rh,
+        "relative_humidity": f["rh"],
         "valid": valid,
         "below_ground": below,
-        "cloud": cloud,
+        "cloud": f["cloud"],
         "cloud_base_height": lay.base_height,
         "cloud_top_height": lay.top_height,
         "cloud_top_temperature": lay.top_temperature,
-        "lwc": lwc,
-        "lwc_model": lwc_model,
-        "lwc_diagnosed": lwc_diag,
-        "basis": basis,
-        "glaciation": glac,
-        "model_glaciated": glaciated & air,
-        "droplet_number": number,
-        "mvd": mvd,
-        "spectrum_shape": shape,
-        "freezing_level": freezing,
+        "lwc": f["lwc"],
+        "lwc_model": f["lwc_model"],
+        "lwc_diagnosed": f["lwc_diag"],
+        "basis": f["basis"],
+        "glaciation": f["glac"],
+        "model_glaciated": f["model_glaciated"],
+        "droplet_number": f["number"],
+        "mvd": f["mvd"],
+        "spectrum_shape": f["shape"],
+        "freezing_level": f["freezing"],
         **sld_out,
     }
-    return out, exceed
+    return out, f["exceed"]
+
+
+def _front(s, present, cols, o):
+    """The numpy steps before SLD: humidity to Appendix C, keyed as ``_diagnose_core`` reads."""
+    p, t = s["pressure"], s["temperature"]
+    es_w = thermo.saturation_vapor_pressure(t)  # once: humidity, cloud, glaciation
+    rh, q, hum = _humidity(s, p, t, es_w)
+    valid = _validity(s, p, t, hum)
+    z = _heights(s, cols, p, t, q, valid)
+    # a level without a height (e.g. a NaN surface anchor) cannot be placed: not valid
+    valid &= np.isfinite(z)
+    below = _below_ground(s, cols, p, z)
+    rho = thermo.air_density(p, t, np.nan_to_num(q))
+    lwc_model = _model_liquid(s, rho, o)
+    cloud, lay, valid, f_ice, es_i = _cloud_and_layers(
+        s, o, p, t, z, rh, lwc_model, valid, below, es_w
+    )
+    air = valid & ~below
+    all_air = bool(air.all())  # the usual case: nothing to mask
+    liquid_ok = cloud & (t > T_HOMOGENEOUS)
+    glaciated = _model_glaciated(s, present, rho, lwc_model, cloud)
+    lwc_model = _in_air(np.where(t > T_HOMOGENEOUS, lwc_model, 0.0), air, all_air, np.nan)
+    w, convective, w_eff = _updraft(s, o, cloud, lay)
+    sel = np.nonzero(liquid_ok)  # only cloudy liquid levels are integrated
+    lwc_diag = _diagnosed_liquid(p, t, z, q, rh, lay, sel, air, all_air, convective, o)
+    lwc, basis = _combine_liquid(lwc_model, lwc_diag, liquid_ok, air, all_air)
+    number, mvd, shape = _droplets(lwc, liquid_ok, w_eff, sel, o)
+    glac = _glaciation(s, o, p, t, rho, lwc, w, cloud, lay, (es_w, es_i))
+    lwc_c = _in_air(lwc, air, all_air, 0.0)
+    return {
+        "z": z,
+        "rh": rh,
+        "valid": valid,
+        "below": below,
+        "cloud": cloud,
+        "lay": lay,
+        "lwc": lwc,
+        "lwc_model": lwc_model,
+        "lwc_diag": lwc_diag,
+        "basis": basis,
+        "glac": glac,
+        "model_glaciated": glaciated & air,
+        "number": number,
+        "mvd": mvd,
+        "shape": shape,
+        "freezing": _freezing_level(t, z, air),
+        "exceed": clouds.appendix_c_exceedances(lwc_c, t, convective=convective),
+        "f_ice": f_ice,
+    }
 
 
 #: Optional per-level inputs and the value that stands for "not given" in a column
