@@ -160,9 +160,13 @@ def _mixing_ratio(p, es):
 
 
 @_jit
-def _lapse(lnp, temp, es):
-    """``thermo._moist_lapse_rate_lnp``: dT/d ln p of the pseudo-adiabat (Bakhshaii & Stull 2013)."""
-    rs = _mixing_ratio(math.exp(lnp), es)
+def _lapse(pr, temp, es):
+    """``thermo._moist_lapse_rate_lnp`` at ``pr = exp(ln p)``: dT/d ln p of the pseudo-adiabat.
+
+    Bakhshaii & Stull (2013) as MetPy's ``moist_lapse``; ``es`` the saturation vapour
+    pressure over water at ``temp``.
+    """
+    rs = _mixing_ratio(pr, es)
     return (_MRD * temp + _MLV * rs) / (_MCPD + _LV2 * rs * _MEPS / (_MRD * temp**2))
 
 
@@ -172,7 +176,9 @@ def _moist_adiabat(p, lnp, t0, p0, max_step):
 
     The numpy reference advances every value through the batch's largest number of
     sub-steps, the finished ones with a zero step that adds exactly 0 (the lapse rate
-    is finite); here each value stops after its own ``ceil(|span| / max_step)``.
+    is finite); here each value stops after its own ``ceil(|span| / max_step)``. The
+    pressures ``exp(x + h/2)`` of the second and third stages and ``exp(x + h)`` of the
+    fourth and the next step's first are computed once (the same values).
     """
     if not (_isfinite(p) and p > 0 and _isfinite(p0) and p0 > 0 and _isfinite(t0)):
         return _NAN
@@ -181,16 +187,19 @@ def _moist_adiabat(p, lnp, t0, p0, max_step):
     steps = np.ceil(abs(span) / max_step)
     h = span / max(steps, 1.0) if steps > 0 else 0.0
     temp = t0
+    pr = math.exp(x)
     for _ in range(int(steps)):
-        k1 = _lapse(x, temp, _es_water(temp))
+        k1 = _lapse(pr, temp, _es_water(temp))
+        pr_mid = math.exp(x + 0.5 * h)
         t2 = temp + 0.5 * h * k1
-        k2 = _lapse(x + 0.5 * h, t2, _es_water(t2))
+        k2 = _lapse(pr_mid, t2, _es_water(t2))
         t3 = temp + 0.5 * h * k2
-        k3 = _lapse(x + 0.5 * h, t3, _es_water(t3))
-        t4 = temp + h * k3
-        k4 = _lapse(x + h, t4, _es_water(t4))
-        temp = temp + h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4)
+        k3 = _lapse(pr_mid, t3, _es_water(t3))
         x = x + h
+        pr = math.exp(x)
+        t4 = temp + h * k3
+        k4 = _lapse(pr, t4, _es_water(t4))
+        temp = temp + h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4)
     return temp
 
 
@@ -218,7 +227,6 @@ def _humidity_pass(p, t, es_w, kind, hum, aux, given, inputs, rh, q, valid):
     ``kind``: 0 relative humidity, 1 dewpoint (``aux`` its saturation vapour
     pressure), 2 specific humidity; ``inputs`` the per-level inputs, ``given`` which.
     """
-    all_valid = True
     n, m = p.shape
     for i in range(n):
         for j in range(m):
@@ -233,12 +241,18 @@ def _humidity_pass(p, t, es_w, kind, hum, aux, given, inputs, rh, q, valid):
                 qq = EPSILON * e / (pj - _OME * e)
             rh[i, j], q[i, j] = r, qq
             ok = _isfinite(pj) and pj > 0 and _isfinite(tj) and tj > 0
-            ok = ok and _isfinite(hum[i, j])
-            for k in range(len(inputs)):
-                if given[k] and not _isfinite(inputs[k][i, j]):
-                    ok = False
-            valid[i, j] = ok
-            all_valid = all_valid and ok
+            valid[i, j] = ok and _isfinite(hum[i, j])
+    for k in range(len(inputs)):
+        if given[k]:
+            x = inputs[k]
+            for i in range(n):
+                for j in range(m):
+                    if not _isfinite(x[i, j]):
+                        valid[i, j] = False
+    all_valid = True
+    for i in range(n):
+        for j in range(m):
+            all_valid = all_valid and valid[i, j]
     return all_valid
 
 
@@ -298,7 +312,10 @@ def _hypsometric(i, p, t, q, lnp, valid, all_valid, base, log_sp, sh, anchor, tv
 
 @_jit
 def _cloud_column(i, rh, t, f_ice, lwc_model, has_cl, air, blend, bridge, par, cloud, raw):
-    """``clouds.cloud_mask`` and ``clouds.bridge_single_level_gaps`` of column ``i``."""
+    """``clouds.cloud_mask`` and ``clouds.bridge_single_level_gaps`` of column ``i``.
+
+    Returns whether the column holds cloud.
+    """
     m = t.shape[1]
     for j in range(m):
         if blend:
@@ -316,17 +333,21 @@ def _cloud_column(i, rh, t, f_ice, lwc_model, has_cl, air, blend, bridge, par, c
             moist = rh[i, j] >= f_ice[i, j] and air[j]
             if not raw[j] and raw[j - 1] and raw[j + 1] and moist:
                 cloud[i, j] = True
+    for j in range(m):
+        if cloud[i, j]:
+            return True
+    return False
 
 
 @_jit
-def _layers_column(i, cloud, z, p, t, air, base_i, top_i, lay):
+def _layers_column(i, cloud, z, p, t, air, base_i, top_i, lay, work):
     """``clouds.cloud_layers`` of column ``i`` over the air levels (others NaN).
 
     ``lay`` (five arrays): base height, top height, base pressure, base temperature,
     top temperature.
     """
     m = t.shape[1]
-    za, pa, ta = np.empty(m), np.empty(m), np.empty(m)
+    za, pa, ta = work[0], work[1], work[2]
     for j in range(m):
         za[j] = z[i, j] if air[j] else _NAN
         pa[j] = p[i, j] if air[j] else _NAN
@@ -353,7 +374,7 @@ def _layers_column(i, cloud, z, p, t, air, base_i, top_i, lay):
 
 
 @_jit
-def _updraft_column(i, cloud, base_i, top_i, w, has_w, par, conv, w_eff, wcol):
+def _updraft_column(i, cloud, base_i, top_i, w, has_w, par, conv, w_eff, wcol, work):
     """``column._updraft`` of column ``i``: convective layers and the activation updraft.
 
     ``wcol`` receives ``nan_to_num(w)``; ``w_eff`` is written at the cloudy levels.
@@ -361,7 +382,7 @@ def _updraft_column(i, cloud, base_i, top_i, w, has_w, par, conv, w_eff, wcol):
     maximum over levels lifted by ``1e7`` per layer started, then lowered again).
     """
     m = cloud.shape[1]
-    absw, acc, off = np.empty(m), np.empty(m), np.empty(m)
+    absw, acc, off = work[3], work[4], work[5]
     count = 0
     for j in range(m):
         wj = _nan_to_num(w[i, j]) if has_w else 0.0
@@ -426,7 +447,7 @@ def _glaciation(tj, pj, lnp, lwc, ctt_raw, n_primary, ice_above, w, rho, e_w, e_
     rate = par[19] * (s_i - 1.0) / (f_k + f_d)
     growth = _fmax(rate, 0.0) if tj < T0 else 0.0
     uptake = (n_primary + n_falling) * growth
-    dt_dlnp = _lapse(lnp, tj, e_w)
+    dt_dlnp = _lapse(math.exp(lnp), tj, e_w)
     dt_dz = -dt_dlnp * G / (RD * tj)
     rs = _mixing_ratio(pj, e_w)
     drs_dz = rs * (_MLV / (RV * tj**2) * dt_dz + G / (RD * tj))
@@ -539,6 +560,7 @@ def column_front(a, kind, given, inputs, cols, flags, par, fo, bo, io, basis, co
     )
     tv, zc, raw, air = np.empty(m), np.empty(m), np.zeros(m, np.bool_), np.zeros(m, np.bool_)
     w_eff, wcol, ice = np.empty(m), np.empty(m), np.empty(m)
+    work = np.empty((7, m))  # scratch rows of the per-column steps
     for i in range(n):
         if has_height:
             for j in range(m):
@@ -562,11 +584,17 @@ def column_front(a, kind, given, inputs, cols, flags, par, fo, bo, io, basis, co
                 if has_cf:
                     lm = lm / _fmin(_fmax(inputs[8][i, j], par[2]), 1.0)
             lwc_model[i, j] = lm
-        _cloud_column(i, rh, t, f_ice, lwc_model, has_cl, air, blend, bridge, par, cloud, raw)
-        _layers_column(i, cloud, z, p, t, air, io[0], io[1], fo[11:])
+        cloudy = _cloud_column(i, rh, t, f_ice, lwc_model, has_cl, air, blend, bridge, par,
+                               cloud, raw)  # fmt: skip
+        if cloudy:
+            _layers_column(i, cloud, z, p, t, air, io[0], io[1], fo[11:], work)
         for j in range(m):  # a layer resting on a missing level has an unknown base
-            b = io[0][i, j]
-            if cloud[i, j] and b >= 1 and not valid[i, b - 1] and not below[i, b - 1]:
+            b = io[0][i, j] if cloudy else -1
+            if not cloudy:
+                io[0][i, j] = io[1][i, j] = -1
+                for f in range(11, 16):
+                    fo[f][i, j] = _NAN
+            elif cloud[i, j] and b >= 1 and not valid[i, b - 1] and not below[i, b - 1]:
                 valid[i, j] = False
         both = ice_given and has_cl and cols[4, i] > 0.0 and cols[5, i] > 0.0
         for j in range(m):
@@ -581,17 +609,21 @@ def column_front(a, kind, given, inputs, cols, flags, par, fo, bo, io, basis, co
             glaciated[i, j] = gl and air[j]
             lm = lwc_model[i, j] if t[i, j] > T_HOMOGENEOUS else 0.0
             lwc_model[i, j] = lm if air[j] else _NAN
-        _updraft_column(i, cloud, io[0], io[1], inputs[9], has_w, par, conv, w_eff, wcol)
-        _liquid_column(i, p, t, z, q, rh, lnp, rho, io[0], io[1], conv, liquid_b[i], air,
-                       par, lwc_diag)  # fmt: skip
-        _finish_column(i, p, t, lnp, rho, es_w, es_i, fo, bo, io, basis, air, w_eff, wcol, ice,
-                       par)  # fmt: skip
+        if cloudy:
+            _updraft_column(i, cloud, io[0], io[1], inputs[9], has_w, par, conv, w_eff, wcol,
+                            work)  # fmt: skip
+            _liquid_column(i, p, t, z, q, rh, lnp, rho, io[0], io[1], conv, liquid_b[i], air,
+                           par, lwc_diag)  # fmt: skip
+            _finish_column(i, p, t, lnp, rho, es_w, es_i, fo, bo, io, basis, air, w_eff, wcol,
+                           ice, par, work)  # fmt: skip
+        else:
+            _clear_column(i, fo, bo, basis, air)
         col_out[i] = _freezing(i, t, z, air)
 
 
 @_jit
 def _finish_column(i, p, t, lnp, rho, es_w, es_i, fo, bo, io, basis, air, w_eff, wcol, ice,
-                   par):  # fmt: skip
+                   par, work):  # fmt: skip
     """Combined liquid, droplets, glaciation and the Appendix C candidates of column ``i``.
 
     ``column._combine_liquid`` (the larger of model and diagnosed, with its basis),
@@ -603,7 +635,7 @@ def _finish_column(i, p, t, lnp, rho, es_w, es_i, fo, bo, io, basis, air, w_eff,
     lwc_model, lwc_diag, lwc = fo[4], fo[5], fo[6]
     number, mvd, shape, glac, top_t = fo[7], fo[8], fo[9], fo[10], fo[15]
     cloud, liquid, near = bo[2], bo[4], bo[6]
-    ice_above = np.empty(m)
+    ice_above = work[6]
     run = -_INF
     for j in range(m - 1, -1, -1):
         run = _fmax(run, ice[j])
@@ -640,3 +672,18 @@ def _finish_column(i, p, t, lnp, rho, es_w, es_i, fo, bo, io, basis, air, w_eff,
                                      ice_above[j], wcol[j], rho[i, j], es_w[i, j], es_i[i, j],
                                      par)  # fmt: skip
         near[i, j] = air[j] and v > par[21]
+
+
+@_jit
+def _clear_column(i, fo, bo, basis, air):
+    """What :func:`_finish_column` and its steps give a column without cloud.
+
+    No convection, no liquid (0 in air, NaN elsewhere), no basis, no droplets, no
+    glaciation likelihood, nothing near an Appendix C envelope.
+    """
+    for j in range(air.size):
+        v = 0.0 if air[j] else _NAN
+        fo[5][i, j] = fo[6][i, j] = v
+        fo[7][i, j] = fo[8][i, j] = fo[9][i, j] = fo[10][i, j] = _NAN
+        bo[3][i, j] = bo[6][i, j] = False
+        basis[i, j] = BASIS_NONE
