@@ -60,7 +60,7 @@ _BOOL_OUT = ("valid", "below", "cloud", "convective", "liquid_ok", "model_glacia
 
 
 def ported(options, n_columns):
-    """True where the compiled loops transcribe the numpy path for these options."""
+    """Tell whether the compiled loops transcribe the numpy path for these options."""
     return options.ice_nuclei_model == "meyers92" and n_columns > 0
 
 
@@ -147,7 +147,7 @@ def _block_arrays(s, o):
 
 
 def _humidity_kind(s):
-    """The humidity ``column._humidity`` uses: (0 RH, 1 dewpoint, 2 specific), values."""
+    """Return the humidity ``column._humidity`` uses: (0 RH, 1 dewpoint, 2 specific), values."""
     if "relative_humidity" in s:
         return 0, s["relative_humidity"]
     if "dewpoint" in s:
@@ -156,7 +156,7 @@ def _humidity_kind(s):
 
 
 def _columns(s, present, cols, p, o):
-    """The kernel's ``flags`` and per-column values (see ``column_front``)."""
+    """Return the kernel's ``flags`` and per-column values (see ``column_front``)."""
     n = p.shape[0]
     has_sh, has_sp = "surface_height" in cols, "surface_pressure" in cols
     base = has_sp and has_sh and "height" not in s
@@ -201,7 +201,7 @@ def _columns(s, present, cols, p, o):
 
 
 def _parameters(o, names):
-    """The kernel's parameter vector (``_column_loops.PAR``), formed as numpy forms them."""
+    """Return the kernel's parameters (``_column_loops.PAR``), formed as numpy forms them."""
     am = droplets.air_mass(o.air_mass)
     cs, ks, mu = np.float64(am.c_per_cm3), np.float64(am.k), np.asarray(am.shape, float)
     values = {

@@ -516,7 +516,7 @@ def _freezing(i, t, z, air):
 
 @_jit
 def column_front(a, kind, given, inputs, cols, flags, par, fo, bo, io, basis, col_out):
-    """The column diagnosis up to the SLD step (``column._diagnose_core``), in place.
+    """Diagnose columns up to the SLD step (``column._diagnose_core``), in place.
 
     ``a`` (six arrays, n x level): pressure, temperature, ``ln p``, the saturation vapour
     pressures over water and ice, the water humidity of ice saturation (numpy's);
@@ -535,17 +535,8 @@ def column_front(a, kind, given, inputs, cols, flags, par, fo, bo, io, basis, co
     (n,) the freezing level.
     """
     p, t, lnp, es_w, es_i, f_ice = a[0], a[1], a[2], a[3], a[4], a[5]
-    rh, q, z, rho, lwc_model, lwc_diag, lwc = fo[0], fo[1], fo[2], fo[3], fo[4], fo[5], fo[6]
-    number, mvd, shape, glac = fo[7], fo[8], fo[9], fo[10]
-    valid, below, cloud, conv, liquid_b, glaciated, near = (
-        bo[0],
-        bo[1],
-        bo[2],
-        bo[3],
-        bo[4],
-        bo[5],
-        bo[6],
-    )
+    rh, q, z, rho, lwc_model, lwc_diag = fo[0], fo[1], fo[2], fo[3], fo[4], fo[5]
+    valid, below, cloud, conv, liquid_b, glaciated = bo[0], bo[1], bo[2], bo[3], bo[4], bo[5]
     n, m = p.shape
     all_valid = _humidity_pass(p, t, es_w, kind, inputs[11], inputs[10], given, inputs[:10],
                                rh, q, valid)  # fmt: skip
@@ -624,7 +615,7 @@ def column_front(a, kind, given, inputs, cols, flags, par, fo, bo, io, basis, co
 @_jit
 def _finish_column(i, p, t, lnp, rho, es_w, es_i, fo, bo, io, basis, air, w_eff, wcol, ice,
                    par, work):  # fmt: skip
-    """Combined liquid, droplets, glaciation and the Appendix C candidates of column ``i``.
+    """Combine the liquid; droplets, glaciation and Appendix C candidates of column ``i``.
 
     ``column._combine_liquid`` (the larger of model and diagnosed, with its basis),
     ``column._droplets`` (Twomey 1959 at the base, the gamma spectrum's MVD,
@@ -676,7 +667,7 @@ def _finish_column(i, p, t, lnp, rho, es_w, es_i, fo, bo, io, basis, air, w_eff,
 
 @_jit
 def _clear_column(i, fo, bo, basis, air):
-    """What :func:`_finish_column` and its steps give a column without cloud.
+    """Write what :func:`_finish_column` and its steps give a column without cloud.
 
     No convection, no liquid (0 in air, NaN elsewhere), no basis, no droplets, no
     glaciation likelihood, nothing near an Appendix C envelope.

@@ -409,7 +409,7 @@ def _diagnose_core(s, cols, o, compiled=False):
 
 
 def _front(s, present, cols, o):
-    """The numpy steps before SLD: humidity to Appendix C, keyed as ``_diagnose_core`` reads."""
+    """Run the numpy steps before SLD (humidity to Appendix C), keyed for ``_diagnose_core``."""
     p, t = s["pressure"], s["temperature"]
     es_w = thermo.saturation_vapor_pressure(t)  # once: humidity, cloud, glaciation
     rh, q, hum = _humidity(s, p, t, es_w)

@@ -46,7 +46,8 @@ _IN_MEMORY_BYTES = 64 * 2**20
 #: Blocks waiting for or in a worker, per worker: enough to keep it busy, few in memory.
 _IN_FLIGHT_PER_WORKER = 3
 #: Grids of at least this many columns (times x members x cells) use the compiled loops
-#: of the read-off and the bands where numba is installed: importing numba and loading
+#: of the column physics, the read-off and the bands where numba is installed (the
+#: column physics' alone save about 3 us a column more): importing numba and loading
 #: the loops costs about 0.3 s a process and they save about 7 us a column (a
 #: 3,600-column block, measured in benchmarks/grid.py's case), so they pay from about
 #: 50,000 columns a worker.
@@ -117,7 +118,8 @@ class GridJob:
     members: object = None
     """The members (:class:`icing.runs.gridmembers.MemberPlan`), None for one forecast."""
     compiled: bool = False
-    """Use the compiled loops where numba is installed (large grids; the same values)."""
+    """Use the compiled loops where numba is installed (large grids; the same values, the
+    column physics' continuous fields to a few ulp: see DEVELOPERS.md)."""
 
 
 def _workers(workers):
@@ -169,7 +171,7 @@ def block_products(forecast, block, job: GridJob):
         return member_block_products(forecast, block, job)
 
     bc = read_block_columns(forecast, block)
-    diag = diagnose_columns(**bc.columns, options=job.column_options)
+    diag = diagnose_columns(**bc.columns, options=job.column_options, compiled=job.compiled)
     ground = bc.columns.get("surface_height")
     return band_products(diag, job.airframe, job.bands, ground=ground, compiled=job.compiled)
 

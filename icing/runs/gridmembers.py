@@ -155,7 +155,7 @@ def member_block_products(forecast, block, job):
 
         joint = forecast.joint
         bc = read_member_block_columns(joint, _at_time(forecast, joint, block))
-        diag = _diagnose([bc.columns], job.column_options)
+        diag = _diagnose([bc.columns], job)
         ground = bc.columns.get("surface_height")
         prod = band_products(diag, job.airframe, job.bands, ground=ground, compiled=job.compiled)
     elif plan.kind == "spread":
@@ -165,10 +165,10 @@ def member_block_products(forecast, block, job):
     return reduce_band_members(prod, plan.count, plan.statistic)
 
 
-def _diagnose(column_dicts, options):
+def _diagnose(column_dicts, job):
     from icing.runs.members import diagnose_grouped
 
-    return diagnose_grouped(column_dicts, options)[0]
+    return diagnose_grouped(column_dicts, job.column_options, compiled=job.compiled)[0]
 
 
 def _at_time(forecast, member, block):
@@ -188,7 +188,10 @@ def _spread_products(forecast, block, job):
 
     bc = read_block_columns(forecast, block)
     diag = join_diagnoses(
-        [diagnose_columns(**bc.columns, options=v.options) for v in job.members.spread]
+        [
+            diagnose_columns(**bc.columns, options=v.options, compiled=job.compiled)
+            for v in job.members.spread
+        ]
     )
     ground = bc.columns.get("surface_height")
     if ground is not None:
@@ -209,7 +212,7 @@ def _file_member_products(forecast, block, job):
     cells = block.shape[0] * block.shape[1]
     if not present:
         return _gap_products(job.bands.count, job.members.count * cells)
-    diag = _diagnose(cols, job.column_options)
+    diag = _diagnose(cols, job)
     ground = None
     if all("surface_height" in c for c in cols):
         ground = np.concatenate([np.asarray(c["surface_height"], float) for c in cols])

@@ -120,7 +120,7 @@ def _diagnose_groups(colsets, options):
     return diagnose_grouped([cs.columns for cs in colsets], options)
 
 
-def diagnose_grouped(column_dicts, options):
+def diagnose_grouped(column_dicts, options, *, compiled=False):
     """Diagnose several members' columns: one call per group of members with the same inputs.
 
     Parameters
@@ -128,6 +128,8 @@ def diagnose_grouped(column_dicts, options):
     column_dicts : sequence of dict
         Each member's ``diagnose_columns`` keyword arrays, (m_i, level) and (m_i,).
     options : ColumnOptions
+    compiled : bool, optional
+        Passed to ``diagnose_columns`` (the compiled column physics; large grids).
 
     Returns
     -------
@@ -148,7 +150,7 @@ def diagnose_grouped(column_dicts, options):
             key: np.concatenate([np.asarray(column_dicts[j][key]) for j in members])
             for key in column_dicts[members[0]]
         }
-        diags.append(diagnose_columns(**cols, options=options))
+        diags.append(diagnose_columns(**cols, options=options, compiled=compiled))
         for j in members:
             offsets[j] = start
             start += len(np.asarray(column_dicts[j]["pressure"]))
