@@ -15,6 +15,7 @@ the shared canonical columns and a generated sweep (a scenario of our own).
 from __future__ import annotations
 
 import warnings
+import zlib
 
 import numpy as np
 import pytest
@@ -29,11 +30,13 @@ from icing.constants import T0  # noqa: E402
 #: Fields that may differ by the ulps of the loops' transcendentals: field ->
 #: (relative, absolute) tolerance. The adiabatic liquid chains up to ~40 Runge-Kutta
 #: sub-steps of four ``exp``/``pow`` stages each, then ``rho (r_base - r)``, whose
-#: cancellation near the base turns a relative 1e-15 of ``r`` into an absolute 1e-18
-#: kg/m3 or so; 1e-12 relative (a hundred times the 3e-14 seen on the benchmark grid)
-#: and 1e-15 kg/m3 absolute (a millionth of the 0.01 g/m3 in-cloud threshold) bound
-#: both with room. The droplet number, MVD and SLD sizes follow the liquid through
-#: ``pow``; the glaciation likelihood (0-1) through ``exp`` and ``pow``.
+#: cancellation near a base turns a relative 1e-15 of ``r`` into a larger relative
+#: error of a tiny liquid: 1e-12 relative, or 1e-15 kg/m3 absolute (a ten-thousandth of
+#: the 0.01 g/m3 in-cloud threshold), bounds both with room (seen on these columns:
+#: 8e-17 kg/m3 absolute, 4e-13 relative where the liquid is near 1e-12 g/m3, 3e-14
+#: on the benchmark grid). The droplet number, MVD and SLD sizes follow the liquid
+#: through ``pow`` (seen: 1.3e-13 relative); the glaciation likelihood (0-1) through
+#: ``exp`` and ``pow``, 1e-12 absolute (seen: 5e-14).
 TOLERANCE = {
     "lwc": (1e-12, 1e-15),
     "lwc_diagnosed": (1e-12, 1e-15),
@@ -284,7 +287,7 @@ def _sweep(seed, humidity, heights, order, n=240, levels=26):
 @pytest.mark.parametrize("heights", ["given", "anchored", "standard"])
 @pytest.mark.parametrize("humidity", ["relative_humidity", "dewpoint", "specific_humidity"])
 def test_generated_sweep(humidity, heights, order, used):
-    seed = hash((humidity, heights, order)) % 2**32
+    seed = zlib.crc32(f"{humidity} {heights} {order}".encode())  # the same every run
     cols = _sweep(seed, humidity, heights, order)
     d = _compare(cols, name=f"{humidity} {heights} {order}")
     assert used and all(used)
