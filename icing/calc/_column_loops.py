@@ -438,14 +438,21 @@ def _glaciation(tj, pj, lnp, lwc, ctt_raw, n_primary, ice_above, w, rho, e_w, e_
 
     Growth by Rogers & Yau (1989) eq. 9.4 (``clouds.ice_crystal_mass_growth_rate``),
     supply by ``clouds.adiabatic_lwc_gradient``, the Korolev & Mazin (2003) balance.
+    The budget is computed only between -38 and 0 degC, where it is not overwritten.
     """
+    if tj != tj or pj != pj or ctt_raw != ctt_raw:
+        return _NAN
+    if tj <= T_HOMOGENEOUS:
+        return 1.0
+    if tj >= T0:
+        return 0.0
     n_falling = _fmax(ice_above, 0.0) * rho / par[18]
     s_i = e_w / e_i
     k_air = 2.64638e-3 * tj**1.5 / (tj + 245.4 * 10.0 ** (-12.0 / tj))  # US Std Atm eq. 53
     f_k = (LS0 / (RV * tj) - 1.0) * LS0 / (k_air * tj)  # R&Y 9.4
     f_d = RV * tj / (e_i * (2.26e-5 * (tj / 273.15) ** 1.81 * (101325.0 / pj)))
     rate = par[19] * (s_i - 1.0) / (f_k + f_d)
-    growth = _fmax(rate, 0.0) if tj < T0 else 0.0
+    growth = _fmax(rate, 0.0)  # tj < T0 here
     uptake = (n_primary + n_falling) * growth
     dt_dlnp = _lapse(math.exp(lnp), tj, e_w)
     dt_dz = -dt_dlnp * G / (RD * tj)
@@ -455,14 +462,7 @@ def _glaciation(tj, pj, lnp, lwc, ctt_raw, n_primary, ice_above, w, rho, e_w, e_
     supply = _fmax(_fmax(w, 0.0), 0.0) * gradient
     net = _fmax(uptake - supply, 0.0)
     lw = _fmax(lwc, IN_CLOUD_LWC)
-    likelihood = 1.0 - math.exp(par[20] * net / lw)
-    if tj <= T_HOMOGENEOUS:
-        likelihood = 1.0
-    elif tj >= T0:
-        likelihood = 0.0
-    if tj != tj or pj != pj or ctt_raw != ctt_raw:
-        return _NAN
-    return likelihood
+    return 1.0 - math.exp(par[20] * net / lw)
 
 
 @_jit
