@@ -20,23 +20,11 @@ import numpy as np
 
 from icing.calc import _special as special
 from icing.calc import clouds, droplets, thermo
+from icing.calc._column_input import _LEVEL_INPUTS
 from icing.calc._compiled import compiled_loops
 
 __all__ = ["compiled_front"]
 
-#: column._LEVEL_INPUTS, in the order of the kernel's ``inputs``.
-_INPUTS = (
-    "dewpoint",
-    "relative_humidity",
-    "specific_humidity",
-    "height",
-    "cloud_liquid",
-    "cloud_ice",
-    "rain",
-    "snow",
-    "cloud_fraction",
-    "vertical_velocity",
-)
 #: The kernel's float outputs, in order (``lay_*``: the CloudLayers fields).
 _FLOAT_OUT = (
     "rh",
@@ -77,8 +65,8 @@ def compiled_front(s, present, cols, o):
     p, t = a[0], a[1]
     kind, hum = _humidity_kind(s)
     aux = thermo.saturation_vapor_pressure(s["dewpoint"]) if kind == 1 else _DUMMY
-    given = np.array([k in s for k in _INPUTS])
-    inputs = tuple(_c(s[k]) if k in s else _DUMMY for k in _INPUTS) + (_c(aux), _c(hum))
+    given = np.array([k in s for k in _LEVEL_INPUTS])
+    inputs = tuple(_c(s[k]) if k in s else _DUMMY for k in _LEVEL_INPUTS) + (_c(aux), _c(hum))
     flags, column_values = _columns(s, present, cols, p, o)
     n, m = p.shape
     fo = tuple(np.empty((n, m)) for _ in _FLOAT_OUT)

@@ -32,7 +32,7 @@ import numpy as np
 from icing import codes
 from icing.calc import clouds, droplets, thermo
 from icing.calc._column_compiled import compiled_front
-from icing.calc._column_input import _check_units, _prepare
+from icing.calc._column_input import _LEVEL_INPUTS, _check_units, _prepare
 from icing.calc._column_sld import column_sld
 from icing.calc.column_options import ColumnOptions
 from icing.constants import CP_AIR, T0, T_HOMOGENEOUS, G
@@ -106,18 +106,6 @@ class ColumnDiagnosis:
     """``ColumnOptions.describe()`` of the run."""
 
 
-_LEVEL_INPUTS = (
-    "dewpoint",
-    "relative_humidity",
-    "specific_humidity",
-    "height",
-    "cloud_liquid",
-    "cloud_ice",
-    "rain",
-    "snow",
-    "cloud_fraction",
-    "vertical_velocity",
-)
 _COLUMN_INPUTS = ("precipitation_rate_mm_h", "surface_pressure", "surface_height")
 _PER_LEVEL_OUT = (
     "pressure",
