@@ -17,6 +17,10 @@ drizzle content is an output, so a class may differ only at a level whose refere
 drizzle content lies within the tolerance of ``DRIZZLE_LWC_MIN`` (checked as such);
 everywhere else classes must be identical.
 
+The column steps before SLD stay on numpy here (their own loops are held to numpy in
+``tests/test_compiled_column.py``), so that both paths give the SLD step the same
+inputs and every difference is the SLD loops'.
+
 Columns: the benchmark's invented winter columns (demo data) with and without gaps,
 the fixtures' forecasts (a scenario of our own), the real files of ``tests/data/real``
 (origins in its README.md) and a generated sweep of columns of our own: warm noses
@@ -42,6 +46,14 @@ REPO = pathlib.Path(__file__).resolve().parents[1]
 REAL = REPO / "tests" / "data" / "real"
 RTOL = 1e-12  # see the module docstring
 _SLD_FIELDS = ("sld_class", "sld_lwc", "sld_mvd", "sld_dmax", "possible_drizzle", "precip_type")
+
+
+@pytest.fixture(autouse=True)
+def _column_steps_on_numpy(monkeypatch):
+    """The steps before SLD on numpy: the SLD loops alone are compared (module docstring)."""
+    from icing.calc import _column_compiled
+
+    monkeypatch.setattr(_column_compiled, "compiled_loops", lambda name: None)
 
 
 def _kernel():

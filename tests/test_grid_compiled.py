@@ -201,5 +201,11 @@ def test_a_large_grid_runs_the_loops_and_gives_the_same_grid(monkeypatch):
     monkeypatch.setattr(_loops, "reduce_bands", lambda *a: calls.append(1) or real(*a))
     large = grid.grid_forecast(fixture, airframe="twin-turboprop", options=options)
     assert calls  # the loops ran
-    for name in ("severity", "sld", "coverage", "lwc", "mvd", "accretion_rate"):
+    for name in ("severity", "sld", "coverage"):
         _same(getattr(large, name), getattr(small, name), name)
+    # the compiled column physics takes exp/pow from the C library, not numpy's: its
+    # liquid and MVD may differ by a few ulp (tests/test_compiled_column.py), passed on
+    for name in ("lwc", "mvd", "accretion_rate"):
+        a, b = np.asarray(getattr(large, name)), np.asarray(getattr(small, name))
+        assert np.array_equal(np.isnan(a), np.isnan(b)), name
+        np.testing.assert_allclose(a, b, rtol=1e-11, atol=0.0, err_msg=name)

@@ -8,6 +8,20 @@ from icing.errors import InputError
 
 __all__: list[str] = []
 
+#: The per-level inputs of ``diagnose_columns`` beside pressure and temperature.
+_LEVEL_INPUTS = (
+    "dewpoint",
+    "relative_humidity",
+    "specific_humidity",
+    "height",
+    "cloud_liquid",
+    "cloud_ice",
+    "rain",
+    "snow",
+    "cloud_fraction",
+    "vertical_velocity",
+)
+
 
 def _as_float(name, value):
     try:

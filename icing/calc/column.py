@@ -31,7 +31,8 @@ import numpy as np
 
 from icing import codes
 from icing.calc import clouds, droplets, thermo
-from icing.calc._column_input import _check_units, _prepare
+from icing.calc._column_compiled import compiled_front
+from icing.calc._column_input import _LEVEL_INPUTS, _check_units, _prepare
 from icing.calc._column_sld import column_sld
 from icing.calc.column_options import ColumnOptions
 from icing.constants import CP_AIR, T0, T_HOMOGENEOUS, G
@@ -105,18 +106,6 @@ class ColumnDiagnosis:
     """``ColumnOptions.describe()`` of the run."""
 
 
-_LEVEL_INPUTS = (
-    "dewpoint",
-    "relative_humidity",
-    "specific_humidity",
-    "height",
-    "cloud_liquid",
-    "cloud_ice",
-    "rain",
-    "snow",
-    "cloud_fraction",
-    "vertical_velocity",
-)
 _COLUMN_INPUTS = ("precipitation_rate_mm_h", "surface_pressure", "surface_height")
 _PER_LEVEL_OUT = (
     "pressure",
@@ -165,7 +154,7 @@ def diagnose_columns(
     surface_pressure=None,
     surface_height=None,
     options=None,
-    compiled=False,
+    compiled: bool = False,
 ) -> ColumnDiagnosis:
     """Diagnose cloud, supercooled liquid, droplets, glaciation and SLD in columns.
 
@@ -198,11 +187,11 @@ def diagnose_columns(
     options : ColumnOptions, optional
         Physics choices; ``ColumnOptions()`` by default.
     compiled : bool, optional
-        Diagnose SLD in compiled loops where numba is installed
-        (:mod:`icing.calc._sld_compiled`: the same diagnosis, to within a few units in
-        the last place; the numpy path otherwise). Worth it for large grids only:
-        importing numba costs about 0.3 s a process. Not an assumption of the
-        physics, so not in ``assumptions``.
+        Run the physics (the column steps and the SLD diagnosis) as compiled loops
+        where numba is installed and the options are transcribed (the same results, to
+        within a few units in the last place: see DEVELOPERS.md); False by default, as
+        importing numba costs more than a few hundred columns save. The grid sets it.
+        Not an assumption of the physics, so not in ``assumptions``.
 
     Returns
     -------
@@ -329,8 +318,9 @@ def _diagnose_sorted(flat, cols, options, compiled=False):
         if np.all(step < 0):  # already ground-up everywhere (the usual case): no copy
             return _diagnose_core(dict(flat), cols, options, compiled)
         if np.all(step > 0):  # top-down everywhere: reversed views
-            rev = {k: v[..., ::-1] for k, v in flat.items()}
-            out, exceed = _diagnose_core(rev, cols, options, compiled)
+            out, exceed = _diagnose_core(
+                {k: v[..., ::-1] for k, v in flat.items()}, cols, options, compiled
+            )
             return {
                 k: (v[..., ::-1] if k in _PER_LEVEL_OUT else v) for k, v in out.items()
             }, exceed
@@ -366,78 +356,95 @@ def _segment_running_max(values, start):
 
 
 def _diagnose_core(s, cols, o, compiled=False):
-    """Run the physics on ground-up sorted arrays shaped (n, level), one step each."""
+    """Run the physics on ground-up sorted arrays shaped (n, level), one step each.
+
+    ``compiled``: the steps before SLD as compiled loops where they are transcribed
+    (:func:`icing.calc._column_compiled.compiled_front`), else numpy (:func:`_front`).
+    """
     p, t = s["pressure"], s["temperature"]
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         s, present = _absent_per_column(s)
-        es_w = thermo.saturation_vapor_pressure(t)  # once: humidity, cloud, glaciation
-        rh, q, hum = _humidity(s, p, t, es_w)
-        valid = _validity(s, p, t, hum)
-        z = _heights(s, cols, p, t, q, valid)
-        # a level without a height (e.g. a NaN surface anchor) cannot be placed: not valid
-        valid &= np.isfinite(z)
-        below = _below_ground(s, cols, p, z)
-        rho = thermo.air_density(p, t, np.nan_to_num(q))
-        lwc_model = _model_liquid(s, rho, o)
-        cloud, lay, valid, f_ice, es_i = _cloud_and_layers(
-            s, o, p, t, z, rh, lwc_model, valid, below, es_w
-        )
-        air = valid & ~below
-        all_air = bool(air.all())  # the usual case: nothing to mask
-        liquid_ok = cloud & (t > T_HOMOGENEOUS)
-        glaciated = _model_glaciated(s, present, rho, lwc_model, cloud)
-        lwc_model = _in_air(np.where(t > T_HOMOGENEOUS, lwc_model, 0.0), air, all_air, np.nan)
-        w, convective, w_eff = _updraft(s, o, cloud, lay)
-        sel = np.nonzero(liquid_ok)  # only cloudy liquid levels are integrated
-        lwc_diag = _diagnosed_liquid(p, t, z, q, rh, lay, sel, air, all_air, convective, o)
-        lwc, basis = _combine_liquid(lwc_model, lwc_diag, liquid_ok, air, all_air)
-        number, mvd, shape = _droplets(lwc, liquid_ok, w_eff, sel, o)
-        glac = _glaciation(s, o, p, t, rho, lwc, w, cloud, lay, (es_w, es_i))
+        f = compiled_front(s, present, cols, o) if compiled else None
+        if f is None:
+            f = _front(s, present, cols, o)
+        z, lay, valid, below = f["z"], f["lay"], f["valid"], f["below"]
         sld_out = column_sld(
-            p,
-            t,
-            z,
-            rh,
-            cloud,
-            lwc,
-            number,
-            lay,
-            s,
-            cols,
-            valid,
-            below,
-            present,
-            f_ice,
-            o,
-            compiled,
-        )
-        freezing = _freezing_level(t, z, air)
-        lwc_c = _in_air(lwc, air, all_air, 0.0)
-        exceed = clouds.appendix_c_exceedances(lwc_c, t, convective=convective)
+            p, t, z, f["rh"], f["cloud"], f["lwc"], f["number"], lay, s, cols, valid, below,
+            present, f["f_ice"], o, compiled,
+        )  # fmt: skip
     out = {
         "pressure": p,
         "height": z,
         "temperature": t,
-        "relative_humidity": rh,
+        "relative_humidity": f["rh"],
         "valid": valid,
         "below_ground": below,
-        "cloud": cloud,
+        "cloud": f["cloud"],
         "cloud_base_height": lay.base_height,
         "cloud_top_height": lay.top_height,
         "cloud_top_temperature": lay.top_temperature,
-        "lwc": lwc,
-        "lwc_model": lwc_model,
-        "lwc_diagnosed": lwc_diag,
-        "basis": basis,
-        "glaciation": glac,
-        "model_glaciated": glaciated & air,
-        "droplet_number": number,
-        "mvd": mvd,
-        "spectrum_shape": shape,
-        "freezing_level": freezing,
+        "lwc": f["lwc"],
+        "lwc_model": f["lwc_model"],
+        "lwc_diagnosed": f["lwc_diag"],
+        "basis": f["basis"],
+        "glaciation": f["glac"],
+        "model_glaciated": f["model_glaciated"],
+        "droplet_number": f["number"],
+        "mvd": f["mvd"],
+        "spectrum_shape": f["shape"],
+        "freezing_level": f["freezing"],
         **sld_out,
     }
-    return out, exceed
+    return out, f["exceed"]
+
+
+def _front(s, present, cols, o):
+    """Run the numpy steps before SLD (humidity to Appendix C), keyed for ``_diagnose_core``."""
+    p, t = s["pressure"], s["temperature"]
+    es_w = thermo.saturation_vapor_pressure(t)  # once: humidity, cloud, glaciation
+    rh, q, hum = _humidity(s, p, t, es_w)
+    valid = _validity(s, p, t, hum)
+    z = _heights(s, cols, p, t, q, valid)
+    # a level without a height (e.g. a NaN surface anchor) cannot be placed: not valid
+    valid &= np.isfinite(z)
+    below = _below_ground(s, cols, p, z)
+    rho = thermo.air_density(p, t, np.nan_to_num(q))
+    lwc_model = _model_liquid(s, rho, o)
+    cloud, lay, valid, f_ice, es_i = _cloud_and_layers(
+        s, o, p, t, z, rh, lwc_model, valid, below, es_w
+    )
+    air = valid & ~below
+    all_air = bool(air.all())  # the usual case: nothing to mask
+    liquid_ok = cloud & (t > T_HOMOGENEOUS)
+    glaciated = _model_glaciated(s, present, rho, lwc_model, cloud)
+    lwc_model = _in_air(np.where(t > T_HOMOGENEOUS, lwc_model, 0.0), air, all_air, np.nan)
+    w, convective, w_eff = _updraft(s, o, cloud, lay)
+    sel = np.nonzero(liquid_ok)  # only cloudy liquid levels are integrated
+    lwc_diag = _diagnosed_liquid(p, t, z, q, rh, lay, sel, air, all_air, convective, o)
+    lwc, basis = _combine_liquid(lwc_model, lwc_diag, liquid_ok, air, all_air)
+    number, mvd, shape = _droplets(lwc, liquid_ok, w_eff, sel, o)
+    glac = _glaciation(s, o, p, t, rho, lwc, w, cloud, lay, (es_w, es_i))
+    lwc_c = _in_air(lwc, air, all_air, 0.0)
+    return {
+        "z": z,
+        "rh": rh,
+        "valid": valid,
+        "below": below,
+        "cloud": cloud,
+        "lay": lay,
+        "lwc": lwc,
+        "lwc_model": lwc_model,
+        "lwc_diag": lwc_diag,
+        "basis": basis,
+        "glac": glac,
+        "model_glaciated": glaciated & air,
+        "number": number,
+        "mvd": mvd,
+        "shape": shape,
+        "freezing": _freezing_level(t, z, air),
+        "exceed": clouds.appendix_c_exceedances(lwc_c, t, convective=convective),
+        "f_ice": f_ice,
+    }
 
 
 #: Optional per-level inputs and the value that stands for "not given" in a column

@@ -46,11 +46,10 @@ _IN_MEMORY_BYTES = 64 * 2**20
 #: Blocks waiting for or in a worker, per worker: enough to keep it busy, few in memory.
 _IN_FLIGHT_PER_WORKER = 3
 #: Grids of at least this many columns (times x members x cells) use the compiled loops
-#: of the read-off, the bands and the SLD diagnosis where numba is installed: importing
-#: numba and loading the loops costs about 0.3 s a process and they save about 7 us a
-#: column (read-off and bands, a 3,600-column block, measured in benchmarks/grid.py's
-#: case) and as much again in cloudy blocks (SLD), so they pay from about 50,000
-#: columns a worker.
+#: of the column physics (SLD included), the read-off and the bands where numba is
+#: installed: importing numba and loading the loops costs about 0.5 s a process and they
+#: save about 20 us a column on average (a 3,600-column block of benchmarks/grid.py's
+#: case), so they pay from about 50,000 columns a worker.
 _COMPILED_MIN_COLUMNS = 200_000
 
 
@@ -119,7 +118,8 @@ class GridJob:
     """The members (:class:`icing.runs.gridmembers.MemberPlan`), None for one forecast."""
     compiled: bool = False
     """Use the compiled loops where numba is installed (large grids): the read-off and the
-    bands (the same values) and the SLD diagnosis (the same to a few units in the last place)."""
+    bands (the same values), the column physics and the SLD diagnosis (continuous fields
+    to a few units in the last place, classes the same: see DEVELOPERS.md)."""
 
 
 def _workers(workers):

@@ -129,7 +129,7 @@ def diagnose_grouped(column_dicts, options, *, compiled=False):
         Each member's ``diagnose_columns`` keyword arrays, (m_i, level) and (m_i,).
     options : ColumnOptions
     compiled : bool, optional
-        Passed to ``diagnose_columns`` (a large grid: the compiled SLD loops).
+        Passed to ``diagnose_columns`` (large grids: the compiled column physics and SLD).
 
     Returns
     -------
