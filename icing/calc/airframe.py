@@ -127,6 +127,7 @@ from icing.constants import (
 __all__ = [
     "AirframeIcing",
     "airframe_icing",
+    "airframe_severity",
     "fit_range_flags",
     "assumptions",
 ]
@@ -212,8 +213,12 @@ class AirframeIcing:
     per_collector: dict = field(default_factory=dict)
 
 
-def _collector_icing(c, prot, tol_mm, st, recovery_factor):
-    """All fields for one collector on flat arrays (n,); ``st`` holds the air state."""
+def _collector_icing(c, prot, tol_mm, st, recovery_factor, lean=False):
+    """All fields for one collector on flat arrays (n,); ``st`` holds the air state.
+
+    ``lean``: only ``severity``, ``accretion_rate_mm_h`` and the tie-breaker (the same
+    values; :func:`airframe_severity`).
+    """
     d = float(c.diameter)
     v = c.speed(st["v"])
     lwc, sld_lwc, t = st["lwc"], st["sld_lwc"], st["t"]
@@ -233,7 +238,6 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
             freezes, ice_density(bal["mvd_eff"], v, bal["ts"], glaze=~bal["dry"]), np.nan
         )
         per_rho = np.where(freezes, 3.6e6 / rho_i, 0.0)  # kg m-2 s-1 -> mm/h of this ice
-        stag_rate = np.where(stag, m_imp * np.minimum(n0, 1.0) * per_rho, 0.0)
         catch_rate = catch_stag * per_rho  # the whole counted catch, frozen anywhere
         outer_wing = catch_total * (3.6e6 / RHO_ICE)  # as if unprotected [mm/h]
         left = catch_rate * PROTECTION_RESIDUAL[prot]  # what the protection leaves [mm/h]
@@ -257,7 +261,11 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor):
         diagnosed=st["diagnosed"],
         sld=has_sld,
     )
-    with np.errstate(invalid="ignore", divide="ignore"):
+    if lean:
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return {"severity": sev, "accretion_rate_mm_h": left, "_tie": left / tol_mm}
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        stag_rate = np.where(stag, m_imp * np.minimum(n0, 1.0) * per_rho, 0.0)
         total_lwc = lwc + sld_lwc
         e_all = np.where(total_lwc > 0.0, (e * lwc + es * sld_lwc) / total_lwc, e)
         b_all = np.where(total_lwc > 0.0, (b0 * lwc + bs * sld_lwc) / total_lwc, b0)
@@ -487,31 +495,116 @@ def airframe_icing(
     >>> SEVERITY[int(res.severity)] in ("light", "moderate")
     True
     """
-    _model(model)
-    if airspeed is None:
-        airspeed = airframe.cruise_tas
+    shape, gap, st = _prepared(airframe, **_inputs_of(locals()))
+    per = {}
+    for c in airframe.collectors:
+        per[c.name] = _collector_icing(c, *_limits(airframe, c), st, recovery_factor)
+    worst = _worst_collector(airframe, per, gap.size)
+    return _assemble(airframe, per, worst, gap, shape)
+
+
+def airframe_severity(airframe, **inputs):
+    """Return the airframe's severity and accretion rate alone, as :func:`airframe_icing`'s.
+
+    Takes :func:`airframe_icing`'s keywords and gives, to the bit, its ``severity``
+    (``codes.GAP`` in gaps) and ``accretion_rate_mm_h`` (NaN in gaps), computing only
+    what sets them: the collectors that can set the airframe's fields (the critical
+    ones and the reference) and, for each, only the catch, the heat balance, the ice
+    density and the severity rules. What a grid's bands keep of the collector physics,
+    at a fraction of its cost (a twin turboprop's propeller is reported, not
+    severity-setting: a third of the work).
+
+    Returns
+    -------
+    (numpy.ndarray of int8, numpy.ndarray)
+        Severity and accretion rate [mm/h], shaped like the broadcast inputs.
+
+    Examples
+    --------
+    >>> from icing.airframes import load_airframe
+    >>> af = load_airframe("twin-turboprop")
+    >>> kw = dict(lwc=3e-4, mvd=20e-6, temperature=263.15, pressure=80000.0)
+    >>> sev, rate = airframe_severity(af, **kw)
+    >>> full = airframe_icing(af, **kw)
+    >>> int(sev) == int(full.severity) and float(rate) == float(full.accretion_rate_mm_h)
+    True
+    """
+    recovery_factor = inputs.pop("recovery_factor", 1.0)
+    shape, gap, st = _prepared(airframe, **inputs)
+    names = [c.name for c in airframe.collectors]
+    ref = names.index(airframe.reference)
+    per = {}
+    for i, c in enumerate(airframe.collectors):
+        if c.critical or i == ref:
+            per[c.name] = _collector_icing(
+                c, *_limits(airframe, c), st, recovery_factor, lean=True
+            )
+    worst = _worst_collector(airframe, per, gap.size)
+    sev, rate = per[names[ref]]["severity"], per[names[ref]]["accretion_rate_mm_h"]
+    for i, nm in enumerate(names):
+        if i != ref and airframe.collectors[i].critical:
+            sev = np.where(worst == i, per[nm]["severity"], sev)
+            rate = np.where(worst == i, per[nm]["accretion_rate_mm_h"], rate)
+    if gap.any():
+        sev = _mask_gap(sev, gap, "severity")
+        rate = _mask_gap(rate, gap, "accretion_rate_mm_h")
+    return np.asarray(sev).reshape(shape), np.asarray(rate).reshape(shape)
+
+
+_DEFAULTS = {
+    "spectrum_shape": 2.0,
+    "sld_lwc": 0.0,
+    "sld_mvd": np.nan,
+    "sld_class": 0,
+    "airspeed": None,
+    "relative_humidity": 1.0,
+    "model": "finstad88",
+    "n_bins": 7,
+    "spectrum_method": "table",
+    "glaciation": None,
+    "model_glaciated": None,
+    "basis": None,
+}
+
+
+def _inputs_of(args):
+    """``airframe_icing``'s keywords from its locals (all but the airframe and recovery)."""
+    return {k: args[k] for k in ("lwc", "mvd", "temperature", "pressure", *_DEFAULTS)}
+
+
+def _limits(airframe, c):
+    """Return a collector's ice protection and ice tolerance [mm] (the airframe's where unset)."""
+    prot = c.protection or airframe.ice_protection
+    tol = c.ice_tolerance_mm if c.ice_tolerance_mm is not None else airframe.ice_tolerance_mm
+    return prot, float(tol)
+
+
+def _prepared(airframe, *, lwc, mvd, temperature, pressure, **optional):
+    """Broadcast the inputs; return (shape, gap mask, the air state of every collector)."""
+    o = {**_DEFAULTS, **optional}
+    if set(o) != set(_DEFAULTS):
+        unknown = sorted(set(o) - set(_DEFAULTS))
+        raise TypeError(f"unexpected keyword arguments {unknown}")
+    _model(o["model"])
+    airspeed = airframe.cruise_tas if o["airspeed"] is None else o["airspeed"]
     shape, flat = _broadcast_inputs(
         lwc,
         mvd,
         temperature,
         pressure,
-        spectrum_shape,
-        sld_lwc,
-        sld_mvd,
-        sld_class,
+        o["spectrum_shape"],
+        o["sld_lwc"],
+        o["sld_mvd"],
+        o["sld_class"],
         airspeed,
-        relative_humidity,
+        o["relative_humidity"],
     )
     gap = _input_gaps(*flat)
-    st = _working_state(flat, gap, model=model, n_bins=n_bins, spectrum_method=spectrum_method)
-    st.update(_broadcast_phase(shape, glaciation, model_glaciated, basis))
-    per = {}
-    for c in airframe.collectors:
-        prot = c.protection or airframe.ice_protection
-        tol = c.ice_tolerance_mm if c.ice_tolerance_mm is not None else airframe.ice_tolerance_mm
-        per[c.name] = _collector_icing(c, prot, float(tol), st, recovery_factor)
-    worst = _worst_collector(airframe, per, gap.size)
-    return _assemble(airframe, per, worst, gap, shape)
+    st = _working_state(
+        flat, gap, model=o["model"], n_bins=o["n_bins"], spectrum_method=o["spectrum_method"]
+    )
+    st.update(_broadcast_phase(shape, o["glaciation"], o["model_glaciated"], o["basis"]))
+    return shape, gap, st
 
 
 def _broadcast_phase(shape, glaciation, model_glaciated, basis):
@@ -614,8 +707,8 @@ def _worst_collector(airframe, per, n):
         better = score > best
         worst[better] = i
         best = np.maximum(best, score)
-    for c in airframe.collectors:
-        per[c.name].pop("_tie", None)
+    for fields in per.values():
+        fields.pop("_tie", None)
     return worst
 
 

@@ -4,7 +4,7 @@ A grid run diagnoses every column of a block of the forecast
 (:func:`icing.calc.diagnose_columns`) and reduces it at once to a few numbers per
 altitude band, so that memory follows the block, never the grid. Each band is read
 with the same functions as a route and ``icing profile``
-(:func:`icing.hazards.readoff.read_off`, :func:`icing.hazards.readoff.icing_at`, the
+(:func:`icing.hazards.readoff.read_off`, :func:`icing.hazards.readoff.severity_at`, the
 airframe's level-flight speed schedule in the forecast's air):
 
 - **Where a band is read.** At its two edges and at every forecast level inside
@@ -46,7 +46,7 @@ from icing.calc.airspeed import PHASE_LEVEL
 from icing.constants import FT, IN_CLOUD_LWC
 from icing.errors import InputError
 from icing.hazards._compiled import compiled_kernels
-from icing.hazards.readoff import icing_at, locate, read_located, subset
+from icing.hazards.readoff import locate, read_located, severity_at, subset
 
 __all__ = [
     "Bands",
@@ -239,9 +239,7 @@ def _icing_where_liquid(diag, airframe, tgt, located, liquid, valid, compiled):
         tas = airframe.schedule.true_airspeed(
             PHASE_LEVEL, st["pressure"], st["temperature"], st["height"]
         )
-        res, s = icing_at(airframe, st, tas)
-        sev[at] = s
-        rate[at] = res.accretion_rate_mm_h
+        sev[at], rate[at] = severity_at(airframe, st, tas)
         with np.errstate(invalid="ignore"):
             mvd[at] = np.where(st["lwc"] >= IN_CLOUD_LWC, st["mvd"], np.nan)
     return sev, rate, mvd

@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 
 from icing import codes
-from icing.calc.airframe import airframe_icing
+from icing.calc.airframe import airframe_icing, airframe_severity
 from icing.constants import IN_CLOUD_LWC
 from icing.hazards._compiled import compiled_kernels
 
@@ -22,6 +22,7 @@ __all__ = [
     "read_located",
     "subset",
     "icing_at",
+    "severity_at",
     "worst_over_candidates",
     "take_last",
 ]
@@ -362,24 +363,38 @@ def icing_at(airframe, state, airspeed):
     (AirframeIcing, ndarray)
         The collector results and the severity with gaps marked.
     """
-    result = airframe_icing(
-        airframe,
-        lwc=np.where(state["valid"], state["lwc"], np.nan),
-        mvd=state["mvd"],
-        temperature=state["temperature"],
-        pressure=state["pressure"],
-        spectrum_shape=state.get("spectrum_shape", 2.0),
-        sld_lwc=np.nan_to_num(state["sld_lwc"]),
-        sld_mvd=state["sld_mvd"],
-        sld_class=state["sld_class"],
-        airspeed=airspeed,
-        relative_humidity=np.clip(np.nan_to_num(state["relative_humidity"], nan=1.0), 0, 1.2),
-        glaciation=state.get("glaciation"),
-        model_glaciated=state.get("model_glaciated"),
-        basis=state.get("basis"),
-    )
+    result = airframe_icing(airframe, **_collector_inputs(state, airspeed))
     sev = np.where(state["valid"], result.severity, codes.GAP)
     return result, sev
+
+
+def severity_at(airframe, state, airspeed):
+    """Return the airframe's severity and accretion rate [mm/h] alone, as :func:`icing_at` does.
+
+    :func:`icing.calc.airframe.airframe_severity`: only what sets the two (a grid's
+    bands keep nothing else). Severity ``codes.GAP`` where a state is invalid.
+    """
+    sev, rate = airframe_severity(airframe, **_collector_inputs(state, airspeed))
+    return np.where(state["valid"], sev, codes.GAP), rate
+
+
+def _collector_inputs(state, airspeed):
+    """Return the collector physics' keywords of read-off states (no liquid where invalid)."""
+    return {
+        "lwc": np.where(state["valid"], state["lwc"], np.nan),
+        "mvd": state["mvd"],
+        "temperature": state["temperature"],
+        "pressure": state["pressure"],
+        "spectrum_shape": state.get("spectrum_shape", 2.0),
+        "sld_lwc": np.nan_to_num(state["sld_lwc"]),
+        "sld_mvd": state["sld_mvd"],
+        "sld_class": state["sld_class"],
+        "airspeed": airspeed,
+        "relative_humidity": np.clip(np.nan_to_num(state["relative_humidity"], nan=1.0), 0, 1.2),
+        "glaciation": state.get("glaciation"),
+        "model_glaciated": state.get("model_glaciated"),
+        "basis": state.get("basis"),
+    }
 
 
 def worst_over_candidates(sev, rate):
