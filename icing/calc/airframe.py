@@ -292,12 +292,21 @@ def _collector_icing(c, prot, tol_mm, st, recovery_factor, lean=False):
 def _cloud_catch(c, st, v, d):
     """Total and stagnation efficiency of the cloud-drop spectrum on one collector."""
     lwc = st["lwc"]
-    if st["method"] == "table":
-        lv = np.log10(np.maximum(v, 1e-6))
-        ld = np.log10(d)
-        e, b0 = _spectrum_fast(
-            st["lk0"] + lv - ld, st["lp0"] + lv + ld, st["shape"], st["n_bins"], st["model"]
-        )
+    if st["method"] == "table":  # looked up only where there are cloud drops to catch
+        e, b0 = np.zeros(lwc.shape), np.zeros(lwc.shape)
+        at = np.flatnonzero(lwc > 0.0)
+        if at.size:
+            lv = np.log10(np.maximum(np.broadcast_to(v, lwc.shape)[at], 1e-6))
+            ld = np.log10(d)
+            e_at, b0[at] = _spectrum_fast(
+                st["lk0"][at] + lv - ld,
+                st["lp0"][at] + lv + ld,
+                st["shape"][at],
+                st["n_bins"],
+                st["model"],
+            )
+            e[at] = e_at * c.catch_factor
+        return e, b0
     else:
         phi = range_parameter(d, v, st["rho"], st["mu"])
         e, b0 = _spectrum_kernel(

@@ -707,9 +707,12 @@ def _spectrum_fast(log_k, log_phi, shape, n_bins, model):
     if shape.ndim == 0 or shape.size == 1:
         return _table_lookup(collection_table(model, float(shape.flat[0]), n_bins), log_k, log_phi)
     shape = np.broadcast_to(shape, log_k.shape)
+    if shape.size == 0:
+        return np.empty_like(log_k), np.empty_like(log_k)
+    first = float(shape.flat[0])
+    if np.all(shape == first):  # one air mass (the usual case): no sort
+        return _table_lookup(collection_table(model, first, n_bins), log_k, log_phi)
     uniq, inv = np.unique(shape, return_inverse=True)
-    if uniq.size == 1:
-        return _table_lookup(collection_table(model, float(uniq[0]), n_bins), log_k, log_phi)
     if uniq.size > _MAX_TABLES:  # a continuum of shapes: the direct sum, not many tables
         ratios, fractions = _ratios_per_point(shape, n_bins, log_k.size)
         return _spectrum_kernel(10.0**log_k, 10.0**log_phi, ratios, fractions, _model(model))
