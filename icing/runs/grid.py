@@ -24,6 +24,7 @@ Where the blocks run (measured in ``benchmarks/grid.py``; see DEVELOPERS.md):
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
 import os
 import threading
@@ -51,6 +52,16 @@ _IN_FLIGHT_PER_WORKER = 3
 #: so a worker given every other block read every chunk again, and both workers read
 #: each chunk (measured: 1.5 ms a variable and block, against 0.7 ms in runs of 8).
 _RUN_BLOCKS = 8
+#: glibc's allocator in the worker processes: a block's arrays (about a megabyte each)
+#: are taken from and returned to the heap instead of being mapped and unmapped one by
+#: one, which faulted fresh zeroed pages in for every temporary (a tenth of the run's
+#: processor time went to the kernel; measured 0.5-1 s of 23 s on the benchmark's grid).
+#: The mallopt(3) environment variables; ignored where the C library is another.
+_WORKER_MALLOC = {
+    "MALLOC_MMAP_THRESHOLD_": str(64 * 2**20),
+    "MALLOC_TRIM_THRESHOLD_": str(512 * 2**20),
+    "MALLOC_TOP_PAD_": str(64 * 2**20),
+}
 #: Grids of at least this many columns (times x members x cells) use the compiled loops
 #: of the column physics (SLD included), the read-off and the bands where numba is
 #: installed: importing numba and loading the loops costs about 0.5 s a process and they
@@ -447,10 +458,11 @@ def _pool_results(job, blocks, n):
         n, mp_context=ctx, initializer=_init_pool_worker, initargs=(job,)
     ) as pool:
         pending = set()
-        for run in todo:
-            pending.add(pool.submit(_pool_blocks, run))
-            if len(pending) >= n * _IN_FLIGHT_PER_WORKER:
-                break
+        with _environment(_WORKER_MALLOC):  # the fork server starts with the first task
+            for run in todo:
+                pending.add(pool.submit(_pool_blocks, run))
+                if len(pending) >= n * _IN_FLIGHT_PER_WORKER:
+                    break
         while pending:
             done, pending = wait(pending, return_when=FIRST_COMPLETED)
             for fut in done:
@@ -458,6 +470,18 @@ def _pool_results(job, blocks, n):
                 nxt = next(todo, None)
                 if nxt is not None:
                     pending.add(pool.submit(_pool_blocks, nxt))
+
+
+@contextlib.contextmanager
+def _environment(values):
+    """Set environment variables the caller has not set, for the processes started inside."""
+    added = {k: v for k, v in values.items() if k not in os.environ}
+    os.environ.update(added)
+    try:
+        yield
+    finally:
+        for k in added:
+            os.environ.pop(k, None)
 
 
 def _provenance(forecast, times):
