@@ -31,6 +31,9 @@ import math
 import numba
 import numpy as np
 
+from icing.calc._scalars import fmax as _fmax
+from icing.calc._scalars import fmin as _fmin
+from icing.calc._scalars import nan_to_num as _nan_to_num
 from icing.calc.droplets import TWOMEY_A_PERCENT
 from icing.calc.thermo import METPY_CONSTANTS as _C
 from icing.codes import BASIS_DIAGNOSED, BASIS_MODEL, BASIS_NONE
@@ -52,7 +55,6 @@ __all__ = ["column_front", "PAR"]
 _jit = numba.njit(cache=True, error_model="numpy", nogil=True)
 _NAN = np.nan
 _INF = np.inf
-_BIG = np.finfo(np.float64).max
 
 #: Names of the entries of the parameter vector ``par`` of :func:`column_front`.
 PAR = (
@@ -104,34 +106,6 @@ _I_POW = (_C["Cp_i"] - _C["Cp_v"]) / _C["Rv"]
 _I_L0T = _C["Ls"] / _C["T0"]
 _MEYERS = 0.1296 * 100.0  # clouds.ice_nuclei_concentration (Meyers et al. 1992)
 _THIRD = 1.0 / 3.0  # droplets.gamma_slope
-
-
-@_jit
-def _fmin(a, b):
-    """``np.minimum`` of two values (NaN from either)."""
-    if a != a or b != b:
-        return _NAN
-    return a if a <= b else b
-
-
-@_jit
-def _fmax(a, b):
-    """``np.maximum`` of two values (NaN from either)."""
-    if a != a or b != b:
-        return _NAN
-    return a if a >= b else b
-
-
-@_jit
-def _nan_to_num(x):
-    """``np.nan_to_num`` of one value."""
-    if x != x:
-        return 0.0
-    if x == _INF:
-        return _BIG
-    if x == -_INF:
-        return -_BIG
-    return x
 
 
 @_jit

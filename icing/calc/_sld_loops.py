@@ -33,12 +33,15 @@ import math
 import numba
 import numpy as np
 
+from icing.calc._scalars import fmax as _max
+from icing.calc._scalars import fmin as _min
+from icing.calc._scalars import nan_to_num as _nan_to_num
+
 __all__ = ["diagnose_block", "N_FLOAT", "N_CODE"]
 
 _jit = numba.njit(cache=True, error_model="numpy", nogil=True)
 _NAN = np.nan
 _INF = np.inf
-_BIG = np.finfo(np.float64).max
 
 # indices into the float constants ``c`` (icing.calc._sld_compiled.constants)
 (
@@ -139,30 +142,6 @@ N_CODE = 11
     B_ICE,
     B_UIN,
 ) = range(16)
-
-
-@_jit
-def _min(a, b):
-    """``np.minimum`` of two numbers (NaN if either is NaN)."""
-    if a != a or b != b:
-        return _NAN
-    return a if a <= b else b
-
-
-@_jit
-def _max(a, b):
-    """``np.maximum`` of two numbers (NaN if either is NaN)."""
-    if a != a or b != b:
-        return _NAN
-    return a if a >= b else b
-
-
-@_jit
-def _nan_to_num(x):
-    """``np.nan_to_num`` of one number (NaN 0, infinities the largest finite numbers)."""
-    if math.isnan(x):
-        return 0.0
-    return max(-_BIG, min(x, _BIG))
 
 
 @_jit
