@@ -43,6 +43,17 @@ def _counts(zs):
 
 
 @_jit
+def _weight(t, z_lo, z_hi):
+    """Linear weight of ``t`` between two levels, ``np.clip``-ed to 0..1 (NaN, -0.0 kept)."""
+    x = (t - z_lo) / (z_hi - z_lo)
+    if x < 0.0:
+        x = 0.0
+    if x > 1.0:
+        x = 1.0
+    return x
+
+
+@_jit
 def locate(zs, order, c, present, tz, depth, w, inside, f_lo, f_hi):
     """Levels around each target and the weight, into ``w``, ``inside``, ``f_lo``, ``f_hi``.
 
@@ -71,11 +82,7 @@ def locate(zs, order, c, present, tz, depth, w, inside, f_lo, f_hi):
         lo = min(max(above - 1, 0), nlev - 2) % nlev
         hi = (lo + 1) % nlev
         z_lo, z_hi, z_min = zs[r, lo], zs[r, hi], zs[r, 0]
-        x = (t - z_lo) / (z_hi - z_lo)
-        if x < 0.0:  # np.clip: NaN and -0.0 kept
-            x = 0.0
-        if x > 1.0:
-            x = 1.0
+        x = _weight(t, z_lo, z_hi)
         w[s] = x
         ok = present[s] and abs(t) < _INF
         near_base = ok and t < z_min and t >= z_min - depth and lo == 0
@@ -159,11 +166,7 @@ def band_state(z, zs, order, edges, depth, ground, level_valid, level_below, lwc
             lo = min(max(above_n - 1, 0), nlev - 2) if nlev > 1 else 0
             hi = lo + 1 if nlev > 1 else 0
             z_lo, z_hi, z_min = zs[r, lo], zs[r, hi], zs[r, 0]
-            x = (t - z_lo) / (z_hi - z_lo)
-            if x < 0.0:  # np.clip: NaN and -0.0 kept
-                x = 0.0
-            if x > 1.0:
-                x = 1.0
+            x = _weight(t, z_lo, z_hi)
             ok = abs(t) < _INF
             near_base = ok and t < z_min and t >= z_min - depth and lo == 0
             inside = (ok and t >= z_lo and t <= z_hi) or near_base
