@@ -187,6 +187,127 @@ def test_band_products_compiled_are_the_numpy_products(monkeypatch):
         _same(getattr(got, f.name), getattr(want, f.name), f.name)
 
 
+def _hostile(diag, ground, case, rng):
+    """The winter diagnosis with its heights, flags or liquid made awkward (``case``)."""
+    z = diag.height.copy()
+    edges = bands.parse_bands("0:20000:2000").edges_m
+    if case == "nan-levels":
+        z[rng.random(z.shape) < 0.1] = np.nan
+        z[:5] = np.nan  # columns without a level
+    elif case == "descending":
+        z = z[:, ::-1].copy()
+    elif case == "unsorted":
+        z = rng.permuted(z, axis=1)
+    elif case == "on-edges":
+        z[:, :12] = edges[rng.integers(0, edges.size, (z.shape[0], 12))]  # ties of all kinds
+        z.sort(axis=1)
+    elif case == "infinite":
+        z[:20, 0], z[20:40, -1] = -np.inf, np.inf
+    elif case == "infinite-top":  # still ascending: the levels' own order is searched
+        z[20:40, -1] = np.inf
+    elif case == "one-band-between-levels":
+        z = np.where(np.arange(z.shape[1]) % 2, z, z + 0.5)
+    flags = {
+        "valid": diag.valid & (rng.random(z.shape) < 0.93),
+        "below_ground": diag.below_ground | (rng.random(z.shape) < 0.03),
+        "lwc": np.where(rng.random(z.shape) < 0.03, np.nan, diag.lwc),
+    }
+    g = np.where(rng.random(ground.shape) < 0.1, np.nan, ground)
+    g[:8] = 7000.0  # every band of these columns under the ground
+    return dataclasses.replace(diag, height=z, **flags), g
+
+
+@pytest.mark.parametrize(
+    "case",
+    [
+        "plain",
+        "nan-levels",
+        "descending",
+        "unsorted",
+        "on-edges",
+        "infinite",
+        "infinite-top",
+        "one-band-between-levels",
+    ],
+)
+def test_band_products_compiled_on_awkward_columns(case, monkeypatch):
+    cols = _winter_columns(n=120, seed=5)
+    diag, ground = _hostile(
+        diagnose_columns(**cols), cols["surface_height"], case, np.random.default_rng(1)
+    )
+    airframe = load_airframe("twin-turboprop")
+    spec = "0:20000:2000" if case != "one-band-between-levels" else "3000,3100"
+    edges = bands.parse_bands(spec)
+    with np.errstate(all="ignore"):
+        got = bands.band_products(diag, airframe, edges, ground=ground, compiled=True)
+        _numpy_only(monkeypatch)
+        want = bands.band_products(diag, airframe, edges, ground=ground, compiled=True)
+    for f in dataclasses.fields(want):
+        _same(getattr(got, f.name), getattr(want, f.name), f.name)
+    if case == "plain":
+        assert set(np.unique(want.coverage)) == {0, 1, 2, 3}  # every coverage met
+
+
+@pytest.mark.parametrize(
+    "case", ["plain", "nan-levels", "descending", "unsorted", "on-edges", "infinite-top"]
+)
+def test_band_state_targets_are_the_numpy_targets(case):
+    cols = _winter_columns(n=60, seed=2)
+    diag, ground = _hostile(
+        diagnose_columns(**cols), cols["surface_height"], case, np.random.default_rng(4)
+    )
+    edges = bands.parse_bands("0:20000:2000").edges_m
+    z = diag.height
+    zs, order = readoff.sorted_levels(z)
+    m, nlev = z.shape
+    flat = [np.ascontiguousarray(getattr(diag, k)).reshape(-1) for k in ("valid", "below_ground")]
+    liquid = [
+        np.ascontiguousarray(getattr(diag, k), float).reshape(-1) for k in ("lwc", "sld_lwc")
+    ]
+    sld = np.ascontiguousarray(diag.sld_class, np.int8).reshape(-1)
+    got = _loops.band_state(z, zs, order, edges, 300.0, ground, *flat, *liquid, sld)[0]
+    _same(got, bands._targets(z, edges))
+
+
+def _real_blocks(path):
+    """Every block's columns of a real forecast file (4,000 columns a block)."""
+    import warnings
+
+    from icing.forecast import load_forecast
+    from icing.forecast.blocks import plan_blocks, read_block_columns
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        fc = load_forecast(path)
+        src = fc.sources[0]
+        for block in plan_blocks(src.y.size, src.x.size, list(range(len(fc.valid_times)))):
+            yield read_block_columns(fc, block).columns
+
+
+@pytest.mark.parametrize("name", ["GFS_test.nc", "wrf_d01_allvars_cropped.nc"])
+def test_band_products_compiled_on_real_files(name, real_data, monkeypatch):
+    """Real model output (tests/data/real, provenance in its README.md)."""
+    airframe = load_airframe("twin-turboprop")
+    edges = bands.parse_bands("0:30000:1000")
+    results = []
+    for cols in _real_blocks(real_data / name):
+        diag = diagnose_columns(**cols)
+        ground = cols.get("surface_height")
+        results.append(
+            (
+                diag,
+                ground,
+                bands.band_products(diag, airframe, edges, ground=ground, compiled=True),
+            )
+        )
+    _numpy_only(monkeypatch)
+    for diag, ground, got in results:
+        want = bands.band_products(diag, airframe, edges, ground=ground)
+        for f in dataclasses.fields(want):
+            _same(getattr(got, f.name), getattr(want, f.name), f.name)
+    assert any(np.any(r[2].severity > codes.SEV_NONE) for r in results)
+
+
 def test_a_large_grid_runs_the_loops_and_gives_the_same_grid(monkeypatch):
     from pathlib import Path
 

@@ -3,7 +3,8 @@
 A grid run locates ~40 altitudes in every column and reduces them to bands; in numpy
 each step is a pass over the whole block, so these two steps cost as much as a tenth
 of the physics they serve. Where numba is installed (the ``grid`` extra) they run as
-one loop per target and one per column and band instead (:mod:`icing.hazards._loops`).
+one pass per column up to the liquid test and one scan per column and band instead
+(:mod:`icing.hazards._loops`).
 The numpy functions (:func:`icing.hazards.readoff.locate`,
 :func:`icing.hazards.bands.band_products`) remain the reference: the loops do the same
 comparisons and the same IEEE operations in the same order (no fast-math), and the

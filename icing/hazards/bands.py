@@ -46,7 +46,14 @@ from icing.calc.airspeed import PHASE_LEVEL
 from icing.constants import FT, IN_CLOUD_LWC
 from icing.errors import InputError
 from icing.hazards._compiled import compiled_kernels
-from icing.hazards.readoff import locate, read_located, severity_at, subset
+from icing.hazards.readoff import (
+    EXTRAPOLATE_M,
+    locate,
+    read_located,
+    severity_at,
+    sorted_levels,
+    subset,
+)
 
 __all__ = [
     "Bands",
@@ -209,12 +216,12 @@ def _targets(height, edges):
     return np.sort(both, axis=1)  # NaN sort last
 
 
-def _liquid_state(diag, tgt, ground, compiled):
+def _liquid_state(diag, tgt, ground):
     """Read every target for its validity and liquid; return the pieces the bands need."""
     m = tgt.shape[0]
     ci = np.broadcast_to(np.arange(m)[:, None], tgt.shape)
-    at = locate(diag, ci, tgt, compiled=compiled)  # once: the liquid ones are read again
-    s = read_located(diag, at, fields=("lwc", "sld_lwc", "sld_class"), compiled=compiled)
+    at = locate(diag, ci, tgt)  # once: the liquid ones are read again
+    s = read_located(diag, at, fields=("lwc", "sld_lwc", "sld_class"))
     below, valid = s["below_ground"], s["valid"]
     if ground is not None:
         g = np.asarray(ground, float)[:, None]
@@ -227,21 +234,29 @@ def _liquid_state(diag, tgt, ground, compiled):
     return s, at, below, valid, liquid
 
 
-def _icing_where_liquid(diag, airframe, tgt, located, liquid, valid, compiled):
+def _icing_where_liquid(diag, airframe, tgt, located, liquid, valid):
     """Severity, accretion rate [mm/h] and cloud MVD [m] at every target (m, T)."""
     sev = np.where(valid, codes.SEV_NONE, codes.GAP).astype(np.int8)
     rate = np.where(valid, 0.0, np.nan)
     mvd = np.full(tgt.shape, np.nan)
     at = np.nonzero(liquid)
     if at[0].size:
-        st = read_located(diag, subset(located, at), compiled=compiled)
-        st["valid"] = st["valid"] & valid[at]  # the ground test of _liquid_state
-        tas = airframe.schedule.true_airspeed(
-            PHASE_LEVEL, st["pressure"], st["temperature"], st["height"]
+        sev[at], rate[at], mvd[at] = _collector_physics(
+            diag, airframe, subset(located, at), valid[at], compiled=False
         )
-        sev[at], rate[at] = severity_at(airframe, st, tas)
-        with np.errstate(invalid="ignore"):
-            mvd[at] = np.where(st["lwc"] >= IN_CLOUD_LWC, st["mvd"], np.nan)
+    return sev, rate, mvd
+
+
+def _collector_physics(diag, airframe, located, valid, compiled):
+    """Severity, accretion rate [mm/h] and cloud MVD [m] at located liquid targets."""
+    st = read_located(diag, located, compiled=compiled)
+    st["valid"] = st["valid"] & valid  # the ground test of _liquid_state
+    tas = airframe.schedule.true_airspeed(
+        PHASE_LEVEL, st["pressure"], st["temperature"], st["height"]
+    )
+    sev, rate = severity_at(airframe, st, tas)
+    with np.errstate(invalid="ignore"):
+        mvd = np.where(st["lwc"] >= IN_CLOUD_LWC, st["mvd"], np.nan)
     return sev, rate, mvd
 
 
@@ -259,24 +274,67 @@ def band_products(diag, airframe, bands: Bands, *, ground=None, compiled=False) 
     ground : array_like, shape (m,), optional
         Surface height under each column (NaN where unknown). [m]
     compiled : bool, optional
-        Locate, read and reduce in the compiled loops where numba is installed
-        (:mod:`icing.hazards._compiled`; the same values). Worth it for large grids
-        only: importing numba and loading the loops costs about 0.3 s a process.
+        Everything but the collector physics in the compiled loops where numba is
+        installed (:mod:`icing.hazards._compiled`; the same values). Worth it for
+        large grids only: importing numba and loading the loops costs about 0.3 s a
+        process.
 
     Returns
     -------
     BandProducts
         Arrays shaped (band, m); see the module docstring for what each holds.
     """
+    loops = compiled_kernels() if compiled else None
+    if loops is not None:
+        return _products_compiled(loops, diag, airframe, bands.edges_m, ground)
     tgt = _targets(diag.height, bands.edges_m)
-    s, located, below, valid, liquid = _liquid_state(diag, tgt, ground, compiled)
-    sev, rate, mvd = _icing_where_liquid(diag, airframe, tgt, located, liquid, valid, compiled)
+    s, located, below, valid, liquid = _liquid_state(diag, tgt, ground)
+    sev, rate, mvd = _icing_where_liquid(diag, airframe, tgt, located, liquid, valid)
     lwc = np.where(valid, s["lwc"], np.nan)
     sld = np.where(valid, s["sld_class"], codes.GAP)
     present = np.isfinite(tgt)
     known = present & (sev >= codes.SEV_NONE)
     above = present & ~below
-    return _reduce(tgt, bands.edges_m, known, above, sev, sld, rate, lwc, mvd, compiled)
+    return _reduce_numpy(tgt, bands.edges_m, known, above, sev, sld, rate, lwc, mvd)
+
+
+def _products_compiled(loops, diag, airframe, edges, ground):
+    """:func:`band_products` by the compiled loops, the collector physics aside.
+
+    One pass per column to the liquid test (``_loops.band_state``: the targets,
+    located, checked and read as :func:`_liquid_state` reads them), the collector
+    physics at the liquid targets alone as in numpy, one reduction pass.
+    """
+    z = np.asarray(diag.height, float)
+    m, nlev = z.shape
+    with np.errstate(invalid="ignore"):  # strictly ascending and finite: sorted already
+        in_order = bool(np.all(z[:, 1:] > z[:, :-1]) and np.all(z[:, 0] > -np.inf))
+    zs, order = (z, np.empty((0, nlev), np.int64)) if in_order else sorted_levels(z)
+    g = np.full(m, np.nan) if ground is None else np.asarray(ground, float).reshape(m)
+
+    def flat(name, dtype):
+        a = np.broadcast_to(np.asarray(getattr(diag, name)), (m, nlev))
+        return np.ascontiguousarray(a, dtype=dtype).reshape(-1)
+
+    tgt, fields, n, at, w, inside, f_lo, f_hi = loops.band_state(
+        *(np.ascontiguousarray(a) for a in (z, zs)),
+        np.ascontiguousarray(order, dtype=np.int64),
+        np.ascontiguousarray(edges, dtype=float),
+        EXTRAPOLATE_M,
+        np.ascontiguousarray(g),
+        *(flat(k, bool) for k in ("valid", "below_ground")),
+        *(flat(k, float) for k in ("lwc", "sld_lwc")),
+        flat("sld_class", np.int8),
+    )
+    known, above, sev, sld, rate, lwc, mvd = fields
+    if n:
+        located = {"shape": (m, nlev), "present": np.ones(n, bool), "w": w[:n]}
+        located.update(inside=inside[:n], f_lo=f_lo[:n], f_hi=f_hi[:n])
+        got = _collector_physics(diag, airframe, located, True, compiled=True)
+        for a, v in zip((sev, rate, mvd), got, strict=True):
+            a.reshape(-1)[at[:n]] = v
+        known.reshape(-1)[at[:n]] = sev.reshape(-1)[at[:n]] >= codes.SEV_NONE
+    return _reduce(tgt, edges, known, above, sev, sld, rate, lwc, mvd, compiled=True)
 
 
 def _reduce(tgt, edges, known, above, sev, sld, rate, lwc, mvd, compiled=True):

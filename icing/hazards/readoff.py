@@ -19,16 +19,18 @@ from icing.hazards._compiled import compiled_kernels
 __all__ = [
     "read_off",
     "locate",
+    "sorted_levels",
     "read_located",
     "subset",
     "icing_at",
     "severity_at",
     "worst_over_candidates",
     "take_last",
+    "EXTRAPOLATE_M",
 ]
 
 #: Depth below a column's lowest level over which its values are held (near-surface air). [m]
-_EXTRAPOLATE_M = 300.0
+EXTRAPOLATE_M = 300.0
 
 #: Fields of ColumnDiagnosis interpolated linearly in the vertical.
 _LINEAR = (
@@ -131,6 +133,15 @@ def _count_on_grid(zs, finite, c, tz):
     return np.where(nan, 0, left)
 
 
+def sorted_levels(z):
+    """Each column's level coordinates ascending, the non-finite ones last, and their order.
+
+    Returns ``(zs, order)``, both (m, L): ``zs = take_along_axis(z, order, -1)``.
+    """
+    order = np.argsort(np.where(np.isfinite(z), z, np.inf), axis=-1)
+    return np.take_along_axis(z, order, -1), order
+
+
 def locate(diag, column_index, target, *, reference="msl", compiled=False):
     """Where each target stands in its column: the two levels around it and the weight.
 
@@ -142,8 +153,7 @@ def locate(diag, column_index, target, *, reference="msl", compiled=False):
     """
     z = _vertical_coordinate(diag, reference)  # (m, L)
     m, nlev = z.shape
-    order = np.argsort(np.where(np.isfinite(z), z, np.inf), axis=-1)
-    zs = np.take_along_axis(z, order, -1)
+    zs, order = sorted_levels(z)
     ci = np.asarray(column_index)
     present = ci >= 0
     c = np.where(present, ci, 0)
@@ -151,7 +161,7 @@ def locate(diag, column_index, target, *, reference="msl", compiled=False):
     tz = -np.log(tgt) if reference == "pressure" else tgt
     # Between the ground and the lowest forecast level the lowest level's values hold,
     # over a limited depth only (a model's lowest level is its near-surface air).
-    depth = np.log(1.0 + _EXTRAPOLATE_M / 8000.0) if reference == "pressure" else _EXTRAPOLATE_M
+    depth = np.log(1.0 + EXTRAPOLATE_M / 8000.0) if reference == "pressure" else EXTRAPOLATE_M
     loops = compiled_kernels() if compiled else None
     if loops is not None:
         return _locate_compiled(loops, zs, order, c, present, tz, depth)
