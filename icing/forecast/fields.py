@@ -118,8 +118,11 @@ def read_netcdf4(var, idx, fills=None):
         finally:
             var.set_auto_maskandscale(True)
         a = raw.astype(float)
-        for value in fills:
-            a[raw == value] = np.nan
+        missing = raw == fills[0]
+        for value in fills[1:]:
+            missing |= raw == value
+        if missing.any():  # usually none: no masked assignment
+            a[missing] = np.nan
     if reorder is not None:
         a = np.take(a, reorder[1], axis=reorder[0])
     return a

@@ -451,13 +451,17 @@ def _pool_results(job, blocks, n):
     """Run the blocks on ``n`` worker processes (started from a clean fork server).
 
     Each worker takes runs of consecutive blocks (:data:`_RUN_BLOCKS`, fewer on a small
-    grid so that every worker has several runs), which read the file's chunks once.
+    grid so that every worker has several runs), which read the file's chunks once; the
+    last few blocks go one by one, so that no worker is left with a whole run at the end.
     """
     import multiprocessing as mp
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 
     size = max(1, min(_RUN_BLOCKS, len(blocks) // (4 * n)))
-    todo = iter([blocks[i : i + size] for i in range(0, len(blocks), size)])
+    runs = [blocks[i : i + size] for i in range(0, len(blocks), size)]
+    # the last runs one block at a time, so that the workers finish together
+    split = len(runs) - 2 * n if len(runs) > 2 * n else len(runs)
+    todo = iter(runs[:split] + [[b] for run in runs[split:] for b in run])
     ctx = mp.get_context("forkserver")
     ctx.set_forkserver_preload(["icing.runs.grid"])
     with ProcessPoolExecutor(
