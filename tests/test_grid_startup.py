@@ -116,3 +116,27 @@ def test_one_cache_folder_for_the_table_and_the_compiled_loops(monkeypatch, tmp_
     monkeypatch.delenv("ICING_CACHE_DIR")
     monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path / "xdg"))
     assert cache_folder() == tmp_path / "xdg" / "icing"
+
+
+def test_the_workers_warm_up_runs_every_compiled_loop_on_its_invented_columns():
+    """The fork server's warm-up diagnoses its columns and reads their bands, compiled.
+
+    Its invented columns must reach the loops a grid block reaches (cloud, liquid
+    targets, SLD), and the same diagnosis through numpy must agree (a check of the
+    warm-up's inputs, not of physics).
+    """
+    pytest.importorskip("numba")
+    from icing.calc.column import diagnose_columns
+    from icing.runs import _warm
+
+    cols = _warm._columns()
+    diag = diagnose_columns(**cols, compiled=True)
+    assert diag.cloud.any() and (diag.lwc > 0).any() and (diag.sld_class > 0).any()
+    _warm.warm()  # runs again without error
+
+
+def test_start_workers_gives_the_fork_server_context():
+    from icing.runs.grid import start_workers
+
+    ctx = start_workers(warm=False)
+    assert ctx.get_start_method() == "forkserver"

@@ -212,7 +212,7 @@ def cmd_grid(args) -> int:
     from icing.hazards.ensemble import MemberStatistic
     from icing.hazards.gridded import grid_features
     from icing.outputs.write import grid_output_targets, write_grid_outputs
-    from icing.runs.grid import GridOptions, grid_forecast
+    from icing.runs.grid import GridOptions, grid_forecast, start_workers
 
     _check_suffix(args.output, {".geojson", ".json"}, "-o/--output")
     _check_suffix(args.netcdf, {".nc"}, "--netcdf")
@@ -234,6 +234,8 @@ def cmd_grid(args) -> int:
         times = [np.datetime64(t.replace(tzinfo=None), "ms")]  # UTC
     elif args.all_times:
         times = "all"
+    if args.scheduler is None and (args.workers is None or args.workers > 1):
+        start_workers()  # the workers' server starts while the forecast is opened
     forecast = _forecast(args)
     bar = sys.stderr.isatty()
     result = grid_forecast(

@@ -461,4 +461,3 @@ def _as_slice(order):
     if np.array_equal(order, np.arange(n)[::-1]):
         return slice(None, None, -1)
     return order
-

@@ -39,7 +39,14 @@ from icing.errors import ForecastError, InputError
 from icing.hazards.bands import COVERAGE_GAP, PRODUCT_DTYPES, Bands, band_products, parse_bands
 from icing.hazards.gridded import MEMBER_PRODUCTS, PRODUCTS, GridResult
 
-__all__ = ["GridOptions", "GridJob", "grid_forecast", "run_block", "DEFAULT_BANDS_FT"]
+__all__ = [
+    "GridOptions",
+    "GridJob",
+    "grid_forecast",
+    "run_block",
+    "start_workers",
+    "DEFAULT_BANDS_FT",
+]
 
 #: The default bands: every 2,000 ft from the sea to 20,000 ft (where aircraft ice).
 DEFAULT_BANDS_FT = "0:20000:2000"
@@ -454,7 +461,6 @@ def _pool_results(job, blocks, n):
     grid so that every worker has several runs), which read the file's chunks once; the
     last few blocks go one by one, so that no worker is left with a whole run at the end.
     """
-    import multiprocessing as mp
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 
     size = max(1, min(_RUN_BLOCKS, len(blocks) // (4 * n)))
@@ -462,17 +468,15 @@ def _pool_results(job, blocks, n):
     # the last runs one block at a time, so that the workers finish together
     split = len(runs) - 2 * n if len(runs) > 2 * n else len(runs)
     todo = iter(runs[:split] + [[b] for run in runs[split:] for b in run])
-    ctx = mp.get_context("forkserver")
-    ctx.set_forkserver_preload(["icing.runs.grid"])
+    ctx = start_workers(warm=job.compiled)
     with ProcessPoolExecutor(
         n, mp_context=ctx, initializer=_init_pool_worker, initargs=(job,)
     ) as pool:
         pending = set()
-        with _environment(_WORKER_MALLOC):  # the fork server starts with the first task
-            for run in todo:
-                pending.add(pool.submit(_pool_blocks, run))
-                if len(pending) >= n * _IN_FLIGHT_PER_WORKER:
-                    break
+        for run in todo:
+            pending.add(pool.submit(_pool_blocks, run))
+            if len(pending) >= n * _IN_FLIGHT_PER_WORKER:
+                break
         while pending:
             done, pending = wait(pending, return_when=FIRST_COMPLETED)
             for fut in done:
@@ -480,6 +484,25 @@ def _pool_results(job, blocks, n):
                 nxt = next(todo, None)
                 if nxt is not None:
                     pending.add(pool.submit(_pool_blocks, nxt))
+
+
+def start_workers(*, warm=True):
+    """Start the fork server the grid's worker processes come from, if not yet running.
+
+    Called by ``icing grid`` before it opens the forecast, so that the server's start
+    (and, with ``warm``, the imports and compiled loops of :mod:`icing.runs._warm`)
+    overlaps the main process's own work; the pool calls it again (a no-op then).
+    Workers get the allocator settings of :data:`_WORKER_MALLOC`. Returns the
+    multiprocessing context.
+    """
+    import multiprocessing as mp
+    from multiprocessing import forkserver
+
+    ctx = mp.get_context("forkserver")
+    ctx.set_forkserver_preload(["icing.runs.grid"] + (["icing.runs._warm"] if warm else []))
+    with _environment(_WORKER_MALLOC):
+        forkserver.ensure_running()  # no-op when running (its preloads are then kept)
+    return ctx
 
 
 @contextlib.contextmanager
