@@ -84,6 +84,13 @@ def _check_netcdf(path, *, projected):
         if projected:
             assert ds.crs.attrs["grid_mapping_name"] == "lambert_conformal_conic"
             assert "lat" in ds.coords and "lon" in ds.coords
+            from pyproj import CRS, Transformer  # the cells' lon/lat, independently
+
+            crs = CRS.from_wkt(ds.crs.attrs["crs_wkt"])
+            xx, yy = np.meshgrid(ds.x.values, ds.y.values)
+            lon, lat = Transformer.from_crs(crs, "EPSG:4326", always_xy=True).transform(xx, yy)
+            np.testing.assert_allclose(ds.lon.values, lon, atol=1e-9)  # the same transform
+            np.testing.assert_allclose(ds.lat.values, lat, atol=1e-9)
         assert ds.altitude.attrs["bounds"] == "altitude_bnds"
     with xr.open_dataset(path, mask_and_scale=False) as raw:
         assert raw.severity.dtype == np.int8 and raw.severity.attrs["_FillValue"] == -1

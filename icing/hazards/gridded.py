@@ -130,6 +130,9 @@ class GridResult:
     member_fraction: dict | None = None
     """``{word: float32 array}``: fraction of the members with data at that word or worse
     (NaN where no member has data)."""
+    lonlat: tuple | None = field(default=None, repr=False)
+    """(longitude, latitude) of the cell centres, (y, x) [deg], of a projected grid when
+    computed ahead (the run does it while its workers start), else None."""
 
     def time_text(self, t) -> str:
         """ISO 8601 UTC text of valid time ``t`` (an index)."""

@@ -135,7 +135,7 @@ def _horizontal(nc, result):
     crs.crs_wkt = result.crs.to_wkt()
     from icing.forecast.blocks import cell_lonlat
 
-    lon, lat = cell_lonlat(result)
+    lon, lat = result.lonlat if result.lonlat is not None else cell_lonlat(result)
     for name, values, std, units in (
         ("lat", lat, "latitude", "degrees_north"),
         ("lon", lon, "longitude", "degrees_east"),
