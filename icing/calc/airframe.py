@@ -504,7 +504,25 @@ def airframe_icing(
     >>> SEVERITY[int(res.severity)] in ("light", "moderate")
     True
     """
-    shape, gap, st = _prepared(airframe, **_inputs_of(locals()))
+    shape, gap, st = _prepared(
+        airframe,
+        lwc=lwc,
+        mvd=mvd,
+        temperature=temperature,
+        pressure=pressure,
+        spectrum_shape=spectrum_shape,
+        sld_lwc=sld_lwc,
+        sld_mvd=sld_mvd,
+        sld_class=sld_class,
+        airspeed=airspeed,
+        relative_humidity=relative_humidity,
+        model=model,
+        n_bins=n_bins,
+        spectrum_method=spectrum_method,
+        glaciation=glaciation,
+        model_glaciated=model_glaciated,
+        basis=basis,
+    )
     per = {}
     for c in airframe.collectors:
         per[c.name] = _collector_icing(c, *_limits(airframe, c), st, recovery_factor)
@@ -560,6 +578,7 @@ def airframe_severity(airframe, **inputs):
     return np.asarray(sev).reshape(shape), np.asarray(rate).reshape(shape)
 
 
+#: airframe_icing's optional keywords and their defaults (airframe_severity takes the same).
 _DEFAULTS = {
     "spectrum_shape": 2.0,
     "sld_lwc": 0.0,
@@ -574,11 +593,6 @@ _DEFAULTS = {
     "model_glaciated": None,
     "basis": None,
 }
-
-
-def _inputs_of(args):
-    """``airframe_icing``'s keywords from its locals (all but the airframe and recovery)."""
-    return {k: args[k] for k in ("lwc", "mvd", "temperature", "pressure", *_DEFAULTS)}
 
 
 def _limits(airframe, c):

@@ -26,6 +26,8 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from icing.forecast.ncview import read_raw
+
 __all__ = [
     "Field",
     "FileField",
@@ -112,11 +114,7 @@ def read_netcdf4(var, idx, fills=None):
         a = var[tuple(key)]
         a = np.ma.filled(np.ma.asarray(a).astype(float), np.nan)
     else:
-        var.set_auto_maskandscale(False)
-        try:
-            raw = np.asarray(var[tuple(key)])
-        finally:
-            var.set_auto_maskandscale(True)
+        raw = read_raw(var, tuple(key))
         a = raw.astype(float)
         missing = raw == fills[0]
         for value in fills[1:]:
@@ -248,8 +246,6 @@ class FileField(Field):
             d for d in (self.time_dim, self.level_dim, self.y_dim, self.x_dim) if d is not None
         ]
         vals = self.raw.read(idx, order)
-        if self.scale == 1.0:  # x * 1.0 is x: one pass fewer, the same values
-            return vals + self.offset
         return vals * self.scale + self.offset
 
 

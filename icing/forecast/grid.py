@@ -142,8 +142,6 @@ class GridForecast(Forecast):
             np.argsort(-ref.levels) if ref.vertical == "pressure" else np.argsort(ref.levels)
         )
         self.levels = ref.levels[self._order]
-        #: the level order as a slice where it is one (no copy), else the index array
-        self._level_take = _as_slice(self._order)
         self._spec = ColumnSpec(
             self.levels,
             ref.vertical,
@@ -263,8 +261,7 @@ class GridForecast(Forecast):
         """Read a block and put its levels surface first."""
         vals = fld.read(tslice, ys, xs)
         if fld.levelled:
-            axis = 1 if fld.timed else 0
-            vals = vals[(slice(None),) * axis + (self._level_take,)]
+            vals = np.take(vals, self._order, axis=1 if fld.timed else 0)
         return vals
 
     def read_block(self, key, time_index, ys, xs):
@@ -445,19 +442,3 @@ class GridForecast(Forecast):
             "cannot tell which levels lie in the terrain: they are used as the model wrote "
             "them, and heights above ground stay unknown"
         ]
-
-
-def _as_slice(order):
-    """Return ``order`` (an index array) as a slice where it is one's (the same selection).
-
-    >>> _as_slice(np.array([0, 1, 2])), _as_slice(np.array([2, 1, 0]))
-    (slice(None, None, None), slice(None, None, -1))
-    >>> _as_slice(np.array([1, 0, 2])).tolist()
-    [1, 0, 2]
-    """
-    n = order.size
-    if np.array_equal(order, np.arange(n)):
-        return slice(None)
-    if np.array_equal(order, np.arange(n)[::-1]):
-        return slice(None, None, -1)
-    return order

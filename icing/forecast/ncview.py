@@ -34,7 +34,7 @@ import re
 
 import numpy as np
 
-__all__ = ["NcView", "NcVariable", "nc_view"]
+__all__ = ["NcView", "NcVariable", "nc_view", "read_raw"]
 
 #: nanoseconds per CF time unit (singular or plural, as xarray reads them)
 _NS = {
@@ -55,6 +55,19 @@ _REFERENCE = re.compile(
 #: attributes xarray's decoding moves out of ``attrs``
 _MASK_ATTRS = ("_FillValue", "missing_value")
 _ENCODING_ATTRS = ("least_significant_digit",)
+
+
+def read_raw(var, key):
+    """Read ``var[key]`` as stored, undecoded (the caller holds the file's lock).
+
+    The handle decodes (masks and scales) by default; it is turned off for the read
+    and back on after it.
+    """
+    var.set_auto_maskandscale(False)
+    try:
+        return np.asarray(var[key])
+    finally:
+        var.set_auto_maskandscale(True)
 
 
 class _Unsupported(Exception):
@@ -120,11 +133,7 @@ class NcVariable:
     def _read(self, key):
         """Read ``key`` (a tuple over ``dims``) raw and decode it as xarray does."""
         with self._lock:
-            self._var.set_auto_maskandscale(False)
-            try:
-                a = np.asarray(self._var[key] if key else self._var[...])
-            finally:
-                self._var.set_auto_maskandscale(True)
+            a = read_raw(self._var, key if key else Ellipsis)
         if self._time is not None:
             return self._decode_time(a)
         if self._fills is None:

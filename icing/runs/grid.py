@@ -278,17 +278,12 @@ def grid_forecast(
     with ThreadPoolExecutor(max_workers=1) as pool:
         making = pool.submit(_store, *shape, members=plan is not None)
         lonlat = None if src.crs is None else pool.submit(cell_lonlat, src)
-        store, scratch, done = None, None, 0
         position = {t: i for i, t in enumerate(times)}
-        for block, prod in _results(forecast, job, blocks, options):
-            if store is None:
-                store, scratch = making.result()
-            _put(store, position[block.time_index], block, prod)
-            done += 1
+        for done, (block, prod) in enumerate(_results(forecast, job, blocks, options), 1):
+            _put(making.result()[0], position[block.time_index], block, prod)
             if progress is not None:
                 progress(done, len(blocks))
-        if store is None:
-            store, scratch = making.result()
+        store, scratch = making.result()
     return GridResult(
         airframe=airframe.name,
         bands=options.bands,
