@@ -20,7 +20,7 @@ import numpy as np
 
 from icing.constants import G
 from icing.errors import ForecastError
-from icing.forecast import conversions, plausibility
+from icing.forecast import conversions, memo, plausibility
 from icing.forecast.conventions import humidity_convention
 from icing.forecast.coords import (
     check_monotonic,
@@ -88,8 +88,11 @@ class _Found:
     extra: tuple = ()
 
 
-def _sample(ds, lay, var, level_dim):
-    """Read the variable at up to 6 x 6 columns spread over the grid, first time."""
+def _sample(ds, lay, var, level_dim, path):
+    """Read the variable at up to 6 x 6 columns spread over the grid, first time.
+
+    Kept per process for the same file and variable (:func:`icing.forecast.memo.sample`).
+    """
     idx = {
         lay.y_dim: slice(0, None, max(1, ds.sizes[lay.y_dim] // 6)),
         lay.x_dim: slice(0, None, max(1, ds.sizes[lay.x_dim] // 6)),
@@ -102,9 +105,12 @@ def _sample(ds, lay, var, level_dim):
     for d in var.dims:
         if d not in idx and d != level_dim and ds.sizes[d] == 1:
             idx[d] = 0
-    sub = var.isel(idx)
-    order = [d for d in (level_dim, lay.y_dim, lay.x_dim) if d in sub.dims]
-    return np.asarray(sub.transpose(*order).values, dtype=float)
+    order = [d for d in (level_dim, lay.y_dim, lay.x_dim) if d in var.dims]
+
+    def read():
+        return np.asarray(var.isel(idx).transpose(*order).values, dtype=float)
+
+    return memo.sample(path, var, idx, read, order)
 
 
 def _find(ds, kinds, lay, key, var_map, path, vertical=None):
@@ -116,7 +122,7 @@ def _find(ds, kinds, lay, key, var_map, path, vertical=None):
     name, how = res
     var = ds[name]
     ld = level_dim_of(ds, kinds, var) if key in LEVEL_KEYS else None
-    sample = _sample(ds, lay, var, ld)
+    sample = _sample(ds, lay, var, ld, path)
     conv = conversion_of(key, var, path=path, name=name, sample=sample)
     si = sample * conv.scale + conv.offset
     derived = var.attrs.get("derived_from")

@@ -141,6 +141,9 @@ class GridJob:
     """The ColumnOptions."""
     members: object = None
     """The members (:class:`icing.runs.gridmembers.MemberPlan`), None for one forecast."""
+    opened: object = None
+    """What opening the files taught this process (:func:`icing.forecast.memo.export`), so
+    that a worker opens them without looking it all up again."""
     compiled: bool = False
     """Use the compiled loops where numba is installed (large grids): the read-off and the
     bands (the same values), the column physics and the SLD diagnosis (continuous fields
@@ -159,13 +162,14 @@ _OPEN_LOCK = threading.Lock()
 
 def _forecast_of(job: GridJob):
     """Return the job's forecast, opened once per process (a dask worker's threads share it)."""
-    from icing.forecast import load_forecast
+    from icing.forecast import load_forecast, memo
 
     key = (job.paths, job.load)
     with _OPEN_LOCK:
         if key not in _OPEN:
             while len(_OPEN) >= 2:  # a long-lived dask worker may serve several runs
                 _OPEN.pop(next(iter(_OPEN)))
+            memo.adopt(job.opened)
             forecast = load_forecast(list(job.paths), **dict(job.load))
             _bound_caches(forecast)
             _OPEN[key] = forecast
@@ -305,7 +309,7 @@ def _prepared(forecast, airframe, options, column_options, load_options):
     """Open what is given by name; return the forecast, airframe, options, members, job."""
     from icing.airframes import load_airframe
     from icing.calc.column import ColumnOptions
-    from icing.forecast import load_forecast
+    from icing.forecast import load_forecast, memo
     from icing.runs.gridmembers import job_files, member_plan
 
     column_options = column_options or ColumnOptions()
@@ -329,6 +333,7 @@ def _prepared(forecast, airframe, options, column_options, load_options):
         options.bands,
         column_options,
         plan,
+        memo.export(paths),
     )
     return forecast, airframe, column_options, plan, job
 
