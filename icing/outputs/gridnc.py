@@ -25,6 +25,9 @@ and ``member_statistic``.
 from __future__ import annotations
 
 import json
+import os
+from collections import deque
+from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
@@ -283,10 +286,105 @@ def write_grid_netcdf(result, path):
                 }
             )
             variables.update(_member_variables(nc, result))
-        nt, nb = result.severity.shape[:2]
-        for name, v in variables.items():
-            a = _member_array(result, name)
-            for t in range(nt):
-                for b in range(nb):
-                    v[t, b] = np.asarray(a[t, b])
+        arrays = {v.name: _member_array(result, name) for name, v in variables.items()}
+    _write_slices(path, arrays)
     return path
+
+
+def _write_slices(path, arrays):
+    """Write the products ``{variable: array (time, altitude, y, x)}``, one chunk a slice.
+
+    Every product variable is chunked one (y, x) slice a chunk through netCDF's ``zlib``:
+    HDF5's shuffle and deflate filters. The chunks are encoded here as those filters
+    encode them (the bytes of each value spread into planes, then zlib at the
+    variable's level) in a pool of threads, zlib working outside the interpreter lock,
+    and stored as they are with h5py's direct chunk write: the same data as netCDF's own
+    write, on every core instead of one (on the benchmark grid, ten bands: 1.2 s of
+    writing on one core, about 1.0 s of it zlib). Where h5py is missing, or a variable has
+    another filter pipeline, its slices go through netCDF.
+    """
+    encoders = _chunk_encoders(path, arrays)
+    slow = [name for name in arrays if name not in encoders]
+    if slow:
+        import netCDF4
+
+        from icing.forecast.netcdf import NETCDF_LOCK
+
+        with NETCDF_LOCK, netCDF4.Dataset(path, "a") as nc:
+            nc.set_auto_mask(False)
+            for name in slow:
+                a = arrays[name]
+                for t, b in np.ndindex(*a.shape[:2]):
+                    nc.variables[name][t, b] = np.asarray(a[t, b])
+    if not encoders:
+        return
+    import h5py
+
+    jobs = [(name, t, b) for name in encoders for t, b in np.ndindex(*arrays[name].shape[:2])]
+
+    def encode(job):
+        name, t, b = job
+        return encoders[name](np.asarray(arrays[name][t, b]))
+
+    threads = max(1, min(4, os.cpu_count() or 1))
+    with h5py.File(path, "r+") as f, ThreadPoolExecutor(threads) as pool:
+        window = deque()
+        for job in jobs:  # a bounded window in flight: memory of a few slices
+            window.append((job, pool.submit(encode, job)))
+            if len(window) > 2 * threads:
+                _store_chunk(f, *window.popleft())
+        while window:
+            _store_chunk(f, *window.popleft())
+
+
+def _store_chunk(f, job, future):
+    name, t, b = job
+    f[name].id.write_direct_chunk((t, b, 0, 0), future.result(), 0)
+
+
+def _chunk_encoders(path, arrays):
+    """``{variable: encode(slice) -> bytes}`` for the variables h5py can take chunks of."""
+    try:
+        import h5py
+    except ImportError:
+        return {}
+    out = {}
+    with h5py.File(path, "r") as f:
+        for name, a in arrays.items():
+            d = f[name]
+            if d.chunks != (1, 1) + tuple(a.shape[2:]) or d.dtype != a.dtype:
+                continue
+            plist = d.id.get_create_plist()
+            pipeline = [plist.get_filter(i)[:3] for i in range(plist.get_nfilters())]
+            encode = _encoder(pipeline, np.dtype(d.dtype))
+            if encode is not None:
+                out[name] = encode
+    return out
+
+
+def _encoder(pipeline, dtype):
+    """The encoding of HDF5's shuffle (filter 2) then deflate (filter 1); None for others.
+
+    Shuffle stores the first byte of every value, then every second byte, and so on;
+    deflate is zlib's format at the level of its one parameter.
+    """
+    import zlib
+
+    codes = [code for code, _, _ in pipeline]
+    if codes not in ([2, 1], [1]):
+        return None
+    shuffle = codes[0] == 2
+    if shuffle and pipeline[0][2] and pipeline[0][2][0] != dtype.itemsize:
+        return None
+    deflate = pipeline[-1][2]
+    if len(deflate) != 1:
+        return None
+    level = int(deflate[0])
+
+    def encode(values):
+        data = np.ascontiguousarray(values, dtype=dtype).view(np.uint8)
+        if shuffle and dtype.itemsize > 1:
+            data = np.ascontiguousarray(data.reshape(-1, dtype.itemsize).T)
+        return zlib.compress(data, level)
+
+    return encode
