@@ -38,7 +38,7 @@ _SAMPLES: OrderedDict = OrderedDict()  # (file, variable, indices) key -> read-o
 
 
 def _value_key(value):
-    """A hashable, exact stand-in for an attribute or index value."""
+    """Return a hashable, exact stand-in for an attribute or index value."""
     if isinstance(value, slice):
         return ("slice", value.start, value.stop, value.step)
     a = np.asarray(value)
@@ -133,7 +133,7 @@ def sample(path, variable, index, read, order=()):
 
 
 def export(paths=None):
-    """This process's entries, picklable, for :func:`adopt` in another process.
+    """Return this process's entries, picklable, for :func:`adopt` in another process.
 
     ``paths``: keep only the samples of these files (all when None; groups of paths,
     as an ensemble's members are given, are flattened).

@@ -363,10 +363,11 @@ def _chunk_encoders(path, arrays):
 
 
 def _encoder(pipeline, dtype):
-    """The encoding of HDF5's shuffle (filter 2) then deflate (filter 1); None for others.
+    """Return the encoding of HDF5's shuffle (filter 2) then deflate (filter 1), or None.
 
-    Shuffle stores the first byte of every value, then every second byte, and so on;
-    deflate is zlib's format at the level of its one parameter.
+    Shuffle stores the first bytes of all the values, then their second bytes, and so
+    on; deflate is zlib's format at the level of its one parameter. Other pipelines
+    give None.
     """
     import zlib
 
