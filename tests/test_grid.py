@@ -118,6 +118,18 @@ def test_polygons_match_the_classes(latlon_result, check_grid_polygons):
         assert a == pytest.approx(n * cell, rel=0.35, abs=3 * cell)
 
 
+def test_polygons_built_on_threads_are_those_built_one_by_one(latlon_result, monkeypatch):
+    import icing.hazards.gridded as gridded
+
+    seen = []
+    threaded = gridded.grid_features(latlon_result, progress=lambda d, n: seen.append((d, n)))
+    monkeypatch.setattr(gridded, "_threads", lambda n: 1)
+    serial = gridded.grid_features(latlon_result)
+    assert json.dumps(threaded) == json.dumps(serial)  # the same features, the same order
+    nb = latlon_result.bands.count
+    assert seen == [(k, nb) for k in range(1, nb + 1)]
+
+
 def test_same_products_in_every_way_of_running(latlon_result):
     """Blocks of any size and a process pool give the same arrays as one block in-process."""
     small = _run(LATLON, bands="0:20000:2000", block_columns=97)

@@ -10,6 +10,8 @@ provenance, the assumptions and the caution as foreign members (RFC 7946, sectio
 
 from __future__ import annotations
 
+import os
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -147,22 +149,35 @@ def grid_features(result: GridResult, *, progress=None) -> list:
     in longitude and latitude. ``progress(done, total)`` is called after each slice.
     An ensemble's features carry its member properties (:func:`member_properties`).
     """
-    out = []
     nt, nb = result.severity.shape[:2]
-    for t in range(nt):
-        for b in range(nb):
-            cls = class_codes(result.severity[t, b], result.sld[t, b], result.coverage[t, b])
-            wanted = [c for c in np.unique(cls) if c != 0]
-            polys = class_polygons(
-                cls, result.x, result.y, crs=result.crs, periodic=result.periodic, wanted=wanted
-            )
-            for c in sorted(polys):
-                f = _feature(result, t, b, c, polys[c])
-                if result.members > 1:
-                    f["properties"].update(member_properties(result, t, b, cls == c))
-                out.append(f)
+    slices = [(t, b) for t in range(nt) for b in range(nb)]
+    out = []
+    with ThreadPoolExecutor(_threads(len(slices))) as pool:
+        for done, feats in enumerate(pool.map(lambda tb: _slice_features(result, *tb), slices), 1):
+            out += feats
             if progress is not None:
-                progress(t * nb + b + 1, nt * nb)
+                progress(done, len(slices))
+    return out
+
+
+def _threads(n):
+    """Threads for ``n`` slices: the polygons are built mostly outside the interpreter lock."""
+    return max(1, min(n, os.cpu_count() or 1, 4))
+
+
+def _slice_features(result, t, b):
+    """Return the features of one (time, band) slice, in class order."""
+    cls = class_codes(result.severity[t, b], result.sld[t, b], result.coverage[t, b])
+    wanted = [c for c in np.unique(cls) if c != 0]
+    polys = class_polygons(
+        cls, result.x, result.y, crs=result.crs, periodic=result.periodic, wanted=wanted
+    )
+    out = []
+    for c in sorted(polys):
+        f = _feature(result, t, b, c, polys[c])
+        if result.members > 1:
+            f["properties"].update(member_properties(result, t, b, cls == c))
+        out.append(f)
     return out
 
 
