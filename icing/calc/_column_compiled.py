@@ -52,8 +52,10 @@ def ported(options, n_columns):
     return options.ice_nuclei_model == "meyers92" and n_columns > 0
 
 
-def compiled_front(s, present, cols, o):
+def compiled_front(s, present, cols, o, es_w=None):
     """Return the diagnosis up to the SLD step as ``column._front`` does, or None.
+
+    ``es_w``: the saturation vapour pressure over water at the temperatures when given.
 
     None: numba is missing or turned off, or the options are not transcribed
     (:func:`ported`); the caller then runs the numpy path.
@@ -61,7 +63,7 @@ def compiled_front(s, present, cols, o):
     loops = compiled_loops("icing.calc._column_loops")
     if loops is None or not ported(o, s["pressure"].shape[0]):
         return None
-    a, f_ice = _block_arrays(s, o)
+    a, f_ice = _block_arrays(s, o, es_w)
     p, t = a[0], a[1]
     kind, hum = _humidity_kind(s)
     aux = thermo.saturation_vapor_pressure(s["dewpoint"]) if kind == 1 else _DUMMY
@@ -116,16 +118,18 @@ def _c(x):
 _DUMMY = _c(np.zeros((1, 1)))  # an input not given (never read)
 
 
-def _block_arrays(s, o):
+def _block_arrays(s, o, es_w=None):
     """Pressure, temperature, ``ln p`` and the saturation vapour pressures (numpy's).
 
     Also returns the water humidity of ice saturation as ``column._cloud_and_layers``
-    gives it (None when neither the threshold nor the gap bridging needs it).
+    gives it (None when neither the threshold nor the gap bridging needs it). ``es_w``:
+    the saturation vapour pressure over water when the caller has it.
     """
     p, t = _c(s["pressure"]), _c(s["temperature"])
     with np.errstate(invalid="ignore", divide="ignore"):
         lnp = np.log(np.where(p > 0, p, np.nan))
-    es_w = thermo.saturation_vapor_pressure(t)
+    if es_w is None:
+        es_w = thermo.saturation_vapor_pressure(t)
     es_i = thermo.saturation_vapor_pressure(t, phase="solid")
     f_ice = None
     if o.bridge_single_level_gaps or o.rh_threshold_model == "ice-water-blend":

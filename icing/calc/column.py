@@ -153,6 +153,7 @@ def diagnose_columns(
     precipitation_rate_mm_h=None,
     surface_pressure=None,
     surface_height=None,
+    saturation=None,
     options=None,
     compiled: bool = False,
 ) -> ColumnDiagnosis:
@@ -184,6 +185,11 @@ def diagnose_columns(
         For the below-ground mask: level heights against ``surface_height`` when
         ``height`` is given, else pressure against ``surface_pressure``, else
         computed heights against ``surface_height``. [Pa], [m]
+    saturation : array_like, optional
+        ``thermo.saturation_vapor_pressure(temperature)`` (over water, shaped like
+        ``temperature``) when the caller has it already, as the forecast readers do
+        after converting omega: the same values, one pass fewer. Computed here when
+        absent. [Pa]
     options : ColumnOptions, optional
         Physics choices; ``ColumnOptions()`` by default.
     compiled : bool, optional
@@ -231,6 +237,7 @@ def diagnose_columns(
             "snow": snow,
             "cloud_fraction": cloud_fraction,
             "vertical_velocity": vertical_velocity,
+            "saturation": saturation,  # not an input of its own: taken out below
         }.items()
     }
     column_inputs = {
@@ -362,11 +369,12 @@ def _diagnose_core(s, cols, o, compiled=False):
     (:func:`icing.calc._column_compiled.compiled_front`), else numpy (:func:`_front`).
     """
     p, t = s["pressure"], s["temperature"]
+    es_w = s.pop("saturation", None)  # the caller's, sorted and chunked with the levels
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         s, present = _absent_per_column(s)
-        f = compiled_front(s, present, cols, o) if compiled else None
+        f = compiled_front(s, present, cols, o, es_w) if compiled else None
         if f is None:
-            f = _front(s, present, cols, o)
+            f = _front(s, present, cols, o, es_w)
         z, lay, valid, below = f["z"], f["lay"], f["valid"], f["below"]
         sld_out = column_sld(
             p, t, z, f["rh"], f["cloud"], f["lwc"], f["number"], lay, s, cols, valid, below,
@@ -398,10 +406,14 @@ def _diagnose_core(s, cols, o, compiled=False):
     return out, f["exceed"]
 
 
-def _front(s, present, cols, o):
-    """Run the numpy steps before SLD (humidity to Appendix C), keyed for ``_diagnose_core``."""
+def _front(s, present, cols, o, es_w=None):
+    """Run the numpy steps before SLD (humidity to Appendix C), keyed for ``_diagnose_core``.
+
+    ``es_w``: the saturation vapour pressure over water at ``t`` when given.
+    """
     p, t = s["pressure"], s["temperature"]
-    es_w = thermo.saturation_vapor_pressure(t)  # once: humidity, cloud, glaciation
+    if es_w is None:
+        es_w = thermo.saturation_vapor_pressure(t)  # once: humidity, cloud, glaciation
     rh, q, hum = _humidity(s, p, t, es_w)
     valid = _validity(s, p, t, hum)
     z = _heights(s, cols, p, t, q, valid)

@@ -56,16 +56,24 @@ class ColumnSpec:
     (the lowest ground there is) so that levels beneath are below the ground."""
 
 
-def specific_humidity_of(levels, humidity):
-    """Return the specific humidity [kg/kg] from whichever humidity the levels carry."""
+def specific_humidity_of(levels, humidity, *, computed=None):
+    """Return the specific humidity [kg/kg] from whichever humidity the levels carry.
+
+    ``computed``, optional: a dict that receives ``saturation``, the saturation vapour
+    pressure over water at the levels' temperatures [Pa], where it was computed (from
+    relative humidity or dewpoint), for the column diagnosis to take again.
+    """
     p, t, a = levels["pressure"], levels["temperature"], levels[humidity]
     with np.errstate(invalid="ignore"):
         if humidity == "specific_humidity":
             return a
+        es = saturation_vapor_pressure(t)
+        if computed is not None:
+            computed["saturation"] = es
         if humidity == "relative_humidity":
-            return specific_humidity_from_relative_humidity(p, t, a)
+            return specific_humidity_from_relative_humidity(p, t, a, saturation=es)
         e = saturation_vapor_pressure(a)
-        return specific_humidity_from_relative_humidity(p, t, e / saturation_vapor_pressure(t))
+        return specific_humidity_from_relative_humidity(p, t, e / es, saturation=es)
 
 
 def fill_along_levels(a):
@@ -98,9 +106,8 @@ def _clip_humidity(hum, humidity, temperature):
         return np.maximum(hum, 0.0)
 
 
-def _hypsometric_heights(cols, humidity):
-    """Heights of a pressure-level column without heights in the file."""
-    q = np.nan_to_num(specific_humidity_of(cols, humidity), nan=0.0)
+def _hypsometric_heights(cols, q):
+    """Heights of a pressure-level column without heights in the file (``q`` [kg/kg])."""
     anchored = "surface_pressure" in cols and "surface_height" in cols
     with np.errstate(invalid="ignore"):
         return height_from_pressure_hypsometric(
@@ -156,7 +163,7 @@ def _sea_level_ground(cols):
         return np.where(above.any(axis=-1), np.exp(lnp0), np.nan)
 
 
-def assemble_columns(vals, m, spec: ColumnSpec) -> dict:
+def assemble_columns(vals, m, spec: ColumnSpec, *, computed=None) -> dict:
     """Turn interpolated values (SI, surface first) into ``diagnose_columns`` keyword arrays.
 
     Parameters
@@ -168,6 +175,12 @@ def assemble_columns(vals, m, spec: ColumnSpec) -> dict:
         Number of columns.
     spec : ColumnSpec
         What the values are.
+    computed : dict, optional
+        Receives what was computed on the way that the column diagnosis can take
+        again (``diagnose_columns(saturation=...)``): ``saturation``, the saturation
+        vapour pressure over water at the columns' temperatures [Pa], where the
+        specific humidity was needed (hypsometric heights, omega) from relative
+        humidity or dewpoint.
 
     Returns
     -------
@@ -182,9 +195,18 @@ def assemble_columns(vals, m, spec: ColumnSpec) -> dict:
     for key in ("surface_pressure", "surface_height"):
         if key in vals:
             cols[key] = vals[key]
+    kept = {}
+
+    def q():  # the specific humidity, computed once if at all (NaN as dry)
+        if "q" not in kept:
+            kept["q"] = np.nan_to_num(
+                specific_humidity_of(cols, spec.humidity, computed=computed), nan=0.0
+            )
+        return kept["q"]
+
     if spec.vertical == "pressure":
         z = vals.get("height")
-        cols["height"] = z if z is not None else _hypsometric_heights(cols, spec.humidity)
+        cols["height"] = z if z is not None else _hypsometric_heights(cols, q())
     if spec.ground_unknown:
         cols["surface_pressure"] = _sea_level_ground(cols)
     for key in _HYDROMETEORS:
@@ -195,9 +217,8 @@ def assemble_columns(vals, m, spec: ColumnSpec) -> dict:
     if "vertical_velocity" in vals:
         w = vals["vertical_velocity"]
         if spec.omega:
-            q = np.nan_to_num(specific_humidity_of(cols, spec.humidity), nan=0.0)
             with np.errstate(invalid="ignore"):
-                w = vertical_velocity_from_omega(w, cols["pressure"], cols["temperature"], q)
+                w = vertical_velocity_from_omega(w, cols["pressure"], cols["temperature"], q())
         cols["vertical_velocity"] = w
     if "precipitation_rate" in vals:
         cols["precipitation_rate_mm_h"] = np.maximum(vals["precipitation_rate"], 0.0)

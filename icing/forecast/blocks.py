@@ -73,6 +73,9 @@ class BlockColumns:
     usable: np.ndarray
     """bool (m,): the column has at least one level with pressure, temperature, height and
     humidity; the others are coverage gaps ("missing-values")."""
+    saturation: np.ndarray | None = None
+    """The saturation vapour pressure over water at the columns' temperatures [Pa] where
+    assembling them computed it (``diagnose_columns(saturation=...)``), else None."""
 
 
 def plan_blocks(ny, nx, time_indices, *, columns=4000):
@@ -110,8 +113,9 @@ def read_block_columns(forecast, block: Block) -> BlockColumns:
             vals[key] = np.ascontiguousarray(a.reshape(n_lev, m).T)
         else:
             vals[key] = a.reshape(m)
-    cols = assemble_columns(vals, m, forecast.column_spec)
-    return BlockColumns(block, cols, _usable(cols, forecast.humidity))
+    computed = {}
+    cols = assemble_columns(vals, m, forecast.column_spec, computed=computed)
+    return BlockColumns(block, cols, _usable(cols, forecast.humidity), computed.get("saturation"))
 
 
 def read_member_block_columns(forecast, block: Block) -> BlockColumns:

@@ -200,7 +200,12 @@ def block_products(forecast, block, job: GridJob):
         return member_block_products(forecast, block, job)
 
     bc = read_block_columns(forecast, block)
-    diag = diagnose_columns(**bc.columns, options=job.column_options, compiled=job.compiled)
+    diag = diagnose_columns(
+        **bc.columns,
+        saturation=bc.saturation,
+        options=job.column_options,
+        compiled=job.compiled,
+    )
     ground = bc.columns.get("surface_height")
     return band_products(diag, job.airframe, job.bands, ground=ground, compiled=job.compiled)
 
