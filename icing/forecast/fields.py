@@ -56,6 +56,10 @@ class RawVariable:
         """Return the values at ``index`` as float64 with axes in ``order`` (NaN = missing)."""
         raise NotImplementedError
 
+    def read_scaled(self, index: dict, order: list, scale: float, offset: float) -> np.ndarray:
+        """Return ``read(index, order) * scale + offset`` (the same values)."""
+        return self.read(index, order) * scale + offset
+
 
 #: Attributes that make netCDF4 decode more than "these values are missing".
 _DECODED_ATTRS = frozenset(
@@ -159,12 +163,34 @@ class NetcdfVariable(RawVariable):
     def read(self, index, order):
         """Read ``index`` with axes in ``order``; float64, NaN where masked."""
         with self.lock:
-            if self.nc_var is not None and tuple(self.nc_var.dimensions) == self.dims:
-                vals = read_netcdf4(self.nc_var, index, self._fills)
-                kept = [d for d in self.dims if not isinstance(index.get(d), (int, np.integer))]
-                return np.transpose(vals, [kept.index(d) for d in order])
+            if self._direct:
+                return self._read_direct(index, order)
             sub = self.xr_var.isel({d: i for d, i in index.items() if d in self.dims})
             return np.asarray(sub.transpose(*order).values, dtype=float)
+
+    def read_scaled(self, index, order, scale, offset):
+        """Return ``read(index, order) * scale + offset``.
+
+        Read through netCDF4, the values are new and ours: they are scaled in place (the
+        same operations in the same order, without two new arrays).
+        """
+        if not self._direct:
+            return self.read(index, order) * scale + offset
+        with self.lock:
+            vals = self._read_direct(index, order)
+        np.multiply(vals, scale, out=vals)
+        np.add(vals, offset, out=vals)
+        return vals
+
+    @functools.cached_property
+    def _direct(self):
+        """Read through netCDF4 (not xarray)."""
+        return self.nc_var is not None and tuple(self.nc_var.dimensions) == self.dims
+
+    def _read_direct(self, index, order):
+        vals = read_netcdf4(self.nc_var, index, self._fills)  # a new array, ours
+        kept = [d for d in self.dims if not isinstance(index.get(d), (int, np.integer))]
+        return np.transpose(vals, [kept.index(d) for d in order])
 
 
 class Field:
@@ -245,8 +271,7 @@ class FileField(Field):
         order = [
             d for d in (self.time_dim, self.level_dim, self.y_dim, self.x_dim) if d is not None
         ]
-        vals = self.raw.read(idx, order)
-        return vals * self.scale + self.offset
+        return self.raw.read_scaled(idx, order, self.scale, self.offset)
 
 
 @dataclass(frozen=True, eq=False)

@@ -142,6 +142,14 @@ class GridForecast(Forecast):
             np.argsort(-ref.levels) if ref.vertical == "pressure" else np.argsort(ref.levels)
         )
         self.levels = ref.levels[self._order]
+        n_lev = self._order.size  # the order as a slice where it is one (a view, no copy)
+        self._order_slice = (
+            slice(None)
+            if np.array_equal(self._order, np.arange(n_lev))
+            else slice(None, None, -1)
+            if np.array_equal(self._order, np.arange(n_lev)[::-1])
+            else None
+        )
         self._spec = ColumnSpec(
             self.levels,
             ref.vertical,
@@ -261,7 +269,11 @@ class GridForecast(Forecast):
         """Read a block and put its levels surface first."""
         vals = fld.read(tslice, ys, xs)
         if fld.levelled:
-            vals = np.take(vals, self._order, axis=1 if fld.timed else 0)
+            axis = 1 if fld.timed else 0
+            if self._order_slice is None:
+                vals = np.take(vals, self._order, axis=axis)
+            else:
+                vals = vals[(slice(None),) * axis + (self._order_slice,)]
         return vals
 
     def read_block(self, key, time_index, ys, xs):
