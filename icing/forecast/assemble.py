@@ -20,6 +20,8 @@ uses the same column the diagnosis sees.
 
 from __future__ import annotations
 
+import functools
+import importlib
 from dataclasses import dataclass
 
 import numpy as np
@@ -163,7 +165,42 @@ def _sea_level_ground(cols):
         return np.where(above.any(axis=-1), np.exp(lnp0), np.nan)
 
 
-def assemble_columns(vals, m, spec: ColumnSpec, *, computed=None) -> dict:
+@functools.cache
+def _loops():
+    """Return the loops of :mod:`icing.forecast._assemble_loops`, or None (no numba)."""
+    from icing.cachedir import load_compiled
+
+    return load_compiled(lambda: importlib.import_module("icing.forecast._assemble_loops"))
+
+
+def _specific_humidity_compiled(cols, humidity, computed, loops):
+    """Return ``nan_to_num(specific_humidity_of(...), nan=0.0)`` in one compiled pass."""
+    p, t, a = cols["pressure"], cols["temperature"], cols[humidity]
+    kind = {"relative_humidity": 0, "dewpoint": 1, "specific_humidity": 2}[humidity]
+    with np.errstate(invalid="ignore"):
+        es = saturation_vapor_pressure(t) if kind != 2 else p
+        hum = saturation_vapor_pressure(a) if kind == 1 else a
+    if kind != 2 and computed is not None:
+        computed["saturation"] = es
+    shape = np.broadcast_shapes(p.shape, t.shape, a.shape)
+    flat = [np.ascontiguousarray(np.broadcast_to(x, shape), dtype=float).reshape(-1) for x in
+            (p, hum, es)]  # fmt: skip
+    out = np.empty(shape)
+    loops.specific_humidity(*flat, kind, out.reshape(-1))
+    return out
+
+
+def _updraft_compiled(omega, p, t, q, loops):
+    """``thermo.vertical_velocity_from_omega(omega, p, t, q)`` in one compiled pass."""
+    shape = np.broadcast_shapes(np.shape(omega), np.shape(p), np.shape(t), np.shape(q))
+    flat = [np.ascontiguousarray(np.broadcast_to(x, shape), dtype=float).reshape(-1) for x in
+            (omega, p, t, q)]  # fmt: skip
+    out = np.empty(shape)
+    loops.updraft_from_omega(*flat, out.reshape(-1))
+    return out
+
+
+def assemble_columns(vals, m, spec: ColumnSpec, *, computed=None, compiled=False) -> dict:
     """Turn interpolated values (SI, surface first) into ``diagnose_columns`` keyword arrays.
 
     Parameters
@@ -181,6 +218,10 @@ def assemble_columns(vals, m, spec: ColumnSpec, *, computed=None) -> dict:
         vapour pressure over water at the columns' temperatures [Pa], where the
         specific humidity was needed (hypsometric heights, omega) from relative
         humidity or dewpoint.
+    compiled : bool, optional
+        The specific humidity and the omega conversion as compiled loops where numba is
+        installed (:mod:`icing.forecast._assemble_loops`: numpy's values to the bit,
+        one pass each instead of a dozen); the grid sets it for large grids.
 
     Returns
     -------
@@ -196,9 +237,12 @@ def assemble_columns(vals, m, spec: ColumnSpec, *, computed=None) -> dict:
         if key in vals:
             cols[key] = vals[key]
     kept = {}
+    loops = _loops() if compiled else None
 
     def q():  # the specific humidity, computed once if at all (NaN as dry)
-        if "q" not in kept:
+        if "q" not in kept and loops is not None:
+            kept["q"] = _specific_humidity_compiled(cols, spec.humidity, computed, loops)
+        elif "q" not in kept:
             kept["q"] = np.nan_to_num(
                 specific_humidity_of(cols, spec.humidity, computed=computed), nan=0.0
             )
@@ -216,7 +260,9 @@ def assemble_columns(vals, m, spec: ColumnSpec, *, computed=None) -> dict:
         cols["cloud_fraction"] = np.clip(vals["cloud_fraction"], 0.0, 1.0)
     if "vertical_velocity" in vals:
         w = vals["vertical_velocity"]
-        if spec.omega:
+        if spec.omega and loops is not None:
+            w = _updraft_compiled(w, cols["pressure"], cols["temperature"], q(), loops)
+        elif spec.omega:
             with np.errstate(invalid="ignore"):
                 w = vertical_velocity_from_omega(w, cols["pressure"], cols["temperature"], q())
         cols["vertical_velocity"] = w

@@ -101,8 +101,11 @@ def plan_blocks(ny, nx, time_indices, *, columns=4000):
     return out
 
 
-def read_block_columns(forecast, block: Block) -> BlockColumns:
-    """Read every variable of a block and assemble its columns (see the module docstring)."""
+def read_block_columns(forecast, block: Block, *, compiled=False) -> BlockColumns:
+    """Read every variable of a block and assemble its columns (see the module docstring).
+
+    ``compiled``: assemble with the compiled loops (``assemble_columns(compiled=...)``).
+    """
     ny, nx = block.shape
     m = ny * nx
     n_lev = forecast.levels.size
@@ -114,7 +117,7 @@ def read_block_columns(forecast, block: Block) -> BlockColumns:
         else:
             vals[key] = a.reshape(m)
     computed = {}
-    cols = assemble_columns(vals, m, forecast.column_spec, computed=computed)
+    cols = assemble_columns(vals, m, forecast.column_spec, computed=computed, compiled=compiled)
     return BlockColumns(block, cols, _usable(cols, forecast.humidity), computed.get("saturation"))
 
 

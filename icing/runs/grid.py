@@ -199,7 +199,7 @@ def block_products(forecast, block, job: GridJob):
 
         return member_block_products(forecast, block, job)
 
-    bc = read_block_columns(forecast, block)
+    bc = read_block_columns(forecast, block, compiled=job.compiled)
     diag = diagnose_columns(
         **bc.columns,
         saturation=bc.saturation,
