@@ -609,6 +609,25 @@ def columns():
     )
 
 
+def _every_canonical_column():
+    """The seven canonical columns stacked, a gap column last: (7, level) / (7,)."""
+    return stack(
+        warm_nose_column(),
+        supercooled_stratiform_deck(),
+        warm_topped_drizzle_deck(),
+        deep_frontal_deck_with_ice(),
+        thin_minus8_deck(),
+        cold_dry_column(),
+        all_nan_column(),
+    )
+
+
+@pytest.fixture
+def every_canonical_column():
+    """The canonical columns stacked (a fresh dict of arrays for each test)."""
+    return _every_canonical_column()
+
+
 @pytest.fixture(scope="session")
 def make_screening():
     """Build a synthetic screening of the Skerrow Basin scenario (see the module doc)."""

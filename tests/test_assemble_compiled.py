@@ -25,16 +25,8 @@ def _bits(a):
 
 
 @pytest.fixture
-def values(columns):
-    base = columns.stack(
-        columns.warm_nose_column(),
-        columns.supercooled_stratiform_deck(),
-        columns.warm_topped_drizzle_deck(),
-        columns.deep_frontal_deck_with_ice(),
-        columns.thin_minus8_deck(),
-        columns.cold_dry_column(),
-        columns.all_nan_column(),
-    )
+def values(every_canonical_column):
+    base = every_canonical_column
     rng = np.random.default_rng(11)
     t = base["temperature"]
     rh = np.clip(base["relative_humidity"], 0.0, 1.0)

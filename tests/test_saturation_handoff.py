@@ -29,16 +29,8 @@ def _same(a, b):
 
 
 @pytest.fixture
-def stacked(columns):
-    return columns.stack(
-        columns.warm_nose_column(),
-        columns.supercooled_stratiform_deck(),
-        columns.warm_topped_drizzle_deck(),
-        columns.deep_frontal_deck_with_ice(),
-        columns.thin_minus8_deck(),
-        columns.cold_dry_column(),
-        columns.all_nan_column(),
-    )
+def stacked(every_canonical_column):
+    return every_canonical_column
 
 
 @pytest.mark.parametrize("compiled", [False, True], ids=["numpy", "compiled"])
