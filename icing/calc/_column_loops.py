@@ -145,25 +145,42 @@ def _lapse(pr, temp, es):
 
 
 @_jit
-def _moist_adiabat(p, lnp, t0, p0, max_step):
+def _adiabat_start(t0, p0):
+    """Return what every level integrated from ``(p0, t0)`` shares.
+
+    ``ln p0``, ``p0`` as ``exp(ln p0)`` and the first Runge-Kutta stage there: the same
+    values each level would compute (zeros where the start is not valid, which
+    :func:`_moist_adiabat` refuses).
+    """
+    if not (_isfinite(p0) and p0 > 0 and _isfinite(t0)):
+        return 0.0, 0.0, 0.0
+    x0 = math.log(p0)
+    pr0 = math.exp(x0)
+    return x0, pr0, _lapse(pr0, t0, _es_water(t0))
+
+
+@_jit
+def _moist_adiabat(p, lnp, t0, p0, start, max_step):
     """``thermo.moist_adiabat_temperature`` of one level: RK4 in ln p from (p0, t0) [K].
 
     The numpy reference advances every value through the batch's largest number of
     sub-steps, the finished ones with a zero step that adds exactly 0 (the lapse rate
     is finite); here each value stops after its own ``ceil(|span| / max_step)``. The
     pressures ``exp(x + h/2)`` of the second and third stages and ``exp(x + h)`` of the
-    fourth and the next step's first are computed once (the same values).
+    fourth and the next step's first are computed once (the same values), and the
+    start's ``ln p0``, ``exp(ln p0)`` and first stage come from :func:`_adiabat_start`,
+    once a layer.
     """
     if not (_isfinite(p) and p > 0 and _isfinite(p0) and p0 > 0 and _isfinite(t0)):
         return _NAN
-    x = math.log(p0)
+    x, pr, k1 = start
     span = lnp - x
     steps = np.ceil(abs(span) / max_step)
     h = span / max(steps, 1.0) if steps > 0 else 0.0
     temp = t0
-    pr = math.exp(x)
-    for _ in range(int(steps)):
-        k1 = _lapse(pr, temp, _es_water(temp))
+    for step in range(int(steps)):
+        if step > 0:
+            k1 = _lapse(pr, temp, _es_water(temp))
         pr_mid = math.exp(x + 0.5 * h)
         t2 = temp + 0.5 * h * k1
         k2 = _lapse(pr_mid, t2, _es_water(t2))
@@ -451,6 +468,7 @@ def _liquid_column(i, p, t, z, q, rh, lnp, rho, base_i, top_i, conv, liquid, air
     m = p.shape[1]
     last_base = -1
     p_l = t_l = z_l = r_base = 0.0
+    start = (0.0, 0.0, 0.0)
     for j in range(m):
         out[i, j] = 0.0 if air[j] else _NAN
         if not liquid[j]:
@@ -465,7 +483,8 @@ def _liquid_column(i, p, t, z, q, rh, lnp, rho, base_i, top_i, conv, liquid, air
             p_l = p_b * (t_l / t_b) ** _LCL_EXP
             z_l = z_b + _CPG * (t_b - t_l)
             r_base = _mixing_ratio(p_l, _es_water(t_l))
-        t_parcel = _moist_adiabat(p[i, j], lnp[i, j], t_l, p_l, par[6])
+            start = _adiabat_start(t_l, p_l)
+        t_parcel = _moist_adiabat(p[i, j], lnp[i, j], t_l, p_l, start, par[6])
         r_here = _mixing_ratio(p[i, j], _es_water(t_parcel))
         lwc = rho[i, j] * (r_base - r_here)
         ad = _NAN if lwc != lwc else _fmax(lwc, 0.0)
