@@ -178,25 +178,24 @@ def _specific_humidity_compiled(cols, humidity, computed, loops):
     p, t, a = cols["pressure"], cols["temperature"], cols[humidity]
     kind = {"relative_humidity": 0, "dewpoint": 1, "specific_humidity": 2}[humidity]
     with np.errstate(invalid="ignore"):
-        es = saturation_vapor_pressure(t) if kind != 2 else p
+        es = saturation_vapor_pressure(t) if kind != 2 else p  # p: a stand-in, not read
         hum = saturation_vapor_pressure(a) if kind == 1 else a
     if kind != 2 and computed is not None:
         computed["saturation"] = es
-    shape = np.broadcast_shapes(p.shape, t.shape, a.shape)
-    flat = [np.ascontiguousarray(np.broadcast_to(x, shape), dtype=float).reshape(-1) for x in
-            (p, hum, es)]  # fmt: skip
-    out = np.empty(shape)
-    loops.specific_humidity(*flat, kind, out.reshape(-1))
-    return out
+    return _run_flat(loops.specific_humidity, (p, hum, es), kind)
 
 
 def _updraft_compiled(omega, p, t, q, loops):
     """``thermo.vertical_velocity_from_omega(omega, p, t, q)`` in one compiled pass."""
-    shape = np.broadcast_shapes(np.shape(omega), np.shape(p), np.shape(t), np.shape(q))
-    flat = [np.ascontiguousarray(np.broadcast_to(x, shape), dtype=float).reshape(-1) for x in
-            (omega, p, t, q)]  # fmt: skip
+    return _run_flat(loops.updraft_from_omega, (omega, p, t, q))
+
+
+def _run_flat(loop, arrays, *extra):
+    """Run an elementwise ``loop(*flat arrays, *extra, out)`` over the broadcast arrays."""
+    shape = np.broadcast_shapes(*(np.shape(a) for a in arrays))
+    flat = [np.ascontiguousarray(np.broadcast_to(a, shape), dtype=float).ravel() for a in arrays]
     out = np.empty(shape)
-    loops.updraft_from_omega(*flat, out.reshape(-1))
+    loop(*flat, *extra, out.reshape(-1))
     return out
 
 
@@ -240,11 +239,13 @@ def assemble_columns(vals, m, spec: ColumnSpec, *, computed=None, compiled=False
     loops = _loops() if compiled else None
 
     def q():  # the specific humidity, computed once if at all (NaN as dry)
-        if "q" not in kept and loops is not None:
-            kept["q"] = _specific_humidity_compiled(cols, spec.humidity, computed, loops)
-        elif "q" not in kept:
-            kept["q"] = np.nan_to_num(
-                specific_humidity_of(cols, spec.humidity, computed=computed), nan=0.0
+        if "q" not in kept:
+            kept["q"] = (
+                _specific_humidity_compiled(cols, spec.humidity, computed, loops)
+                if loops is not None
+                else np.nan_to_num(
+                    specific_humidity_of(cols, spec.humidity, computed=computed), nan=0.0
+                )
             )
         return kept["q"]
 

@@ -79,6 +79,16 @@ def _time_map(sources):
     return times, [(p[1], p[2]) for p in pairs]
 
 
+def _as_slice(order):
+    """Return the level order as a slice where it is one (a view, no copy), else None."""
+    ascending = np.arange(order.size)
+    if np.array_equal(order, ascending):
+        return slice(None)
+    if np.array_equal(order, ascending[::-1]):
+        return slice(None, None, -1)
+    return None
+
+
 class GridForecast(Forecast):
     """Gridded forecast (one or several files of one grid), read lazily by tiles.
 
@@ -142,14 +152,7 @@ class GridForecast(Forecast):
             np.argsort(-ref.levels) if ref.vertical == "pressure" else np.argsort(ref.levels)
         )
         self.levels = ref.levels[self._order]
-        n_lev = self._order.size  # the order as a slice where it is one (a view, no copy)
-        self._order_slice = (
-            slice(None)
-            if np.array_equal(self._order, np.arange(n_lev))
-            else slice(None, None, -1)
-            if np.array_equal(self._order, np.arange(n_lev)[::-1])
-            else None
-        )
+        self._order_slice = _as_slice(self._order)
         self._spec = ColumnSpec(
             self.levels,
             ref.vertical,
