@@ -464,11 +464,17 @@ def _liquid_column(i, p, t, z, q, rh, lnp, rho, base_i, top_i, conv, liquid, air
     1980 eq. 22, and the dry adiabat) of the air at its lowest cloudy level; per liquid
     level, ``clouds.adiabatic_lwc`` on the pseudo-adiabat from there, thinned by
     ``clouds.sub_adiabatic_factor`` (Braun et al. 2018; Warner 1955 floor in convection).
+    The parcel is carried up the layer as ``column._diagnosed_liquid`` carries it: a
+    level above the condensation level continues from the liquid level below it (from
+    the condensation level at the first, or after a level without a temperature), a
+    level at or under it starts from the condensation level.
     """
     m = p.shape[1]
     last_base = -1
     p_l = t_l = z_l = r_base = 0.0
     start = (0.0, 0.0, 0.0)
+    t_c = p_c = 0.0  # the parcel's last level (pressure, temperature) and its start
+    from_c = start
     for j in range(m):
         out[i, j] = 0.0 if air[j] else _NAN
         if not liquid[j]:
@@ -484,7 +490,16 @@ def _liquid_column(i, p, t, z, q, rh, lnp, rho, base_i, top_i, conv, liquid, air
             z_l = z_b + _CPG * (t_b - t_l)
             r_base = _mixing_ratio(p_l, _es_water(t_l))
             start = _adiabat_start(t_l, p_l)
-        t_parcel = _moist_adiabat(p[i, j], lnp[i, j], t_l, p_l, start, par[6])
+            t_c, p_c, from_c = t_l, p_l, start
+        if p[i, j] < p_l:  # above the condensation level: on from the level below
+            t_parcel = _moist_adiabat(p[i, j], lnp[i, j], t_c, p_c, from_c, par[6])
+            if _isfinite(t_parcel):
+                t_c, p_c = t_parcel, p[i, j]
+                from_c = _adiabat_start(t_c, p_c)
+            else:
+                t_c, p_c, from_c = t_l, p_l, start
+        else:
+            t_parcel = _moist_adiabat(p[i, j], lnp[i, j], t_l, p_l, start, par[6])
         r_here = _mixing_ratio(p[i, j], _es_water(t_parcel))
         lwc = rho[i, j] * (r_base - r_here)
         ad = _NAN if lwc != lwc else _fmax(lwc, 0.0)

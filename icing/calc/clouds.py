@@ -351,12 +351,20 @@ def cloud_layers(cloud, height, pressure, temperature):
 
 
 def adiabatic_lwc(
-    pressure, temperature, base_pressure, base_temperature, *, specific_humidity=0.0, max_step=0.2
+    pressure,
+    temperature,
+    base_pressure,
+    base_temperature,
+    *,
+    specific_humidity=0.0,
+    max_step=0.2,
+    follows=None,
 ):
     """Adiabatic liquid water content of a parcel lifted from cloud base.
 
     ``LWC_ad(z) = rho(z) [r_s(p_b, T_b) - r_s(p, T_parcel(p))]`` with the parcel
-    on the pseudo-adiabat through the base (:func:`icing.thermo.moist_adiabat_temperature`).
+    on the pseudo-adiabat through the base (:func:`icing.thermo.moist_adiabat_temperature`;
+    with ``follows``, carried from level to level by :func:`icing.thermo.moist_adiabat_chain`).
 
     Parameters
     ----------
@@ -368,6 +376,10 @@ def adiabatic_lwc(
         For the air density. [kg/kg]
     max_step : float, optional
         Integration sub-step in ln p (see ``moist_adiabat_temperature``).
+    follows : array_like of int, optional
+        Flat inputs only: for each level, an earlier level of the same parcel to carry
+        it on from, or -1 (``moist_adiabat_chain``). By default every level is
+        integrated from its base.
 
     Returns
     -------
@@ -389,12 +401,19 @@ def adiabatic_lwc(
     pb = np.asarray(base_pressure, dtype=float)
     tb = np.asarray(base_temperature, dtype=float)
     shape = np.broadcast_shapes(p.shape, pb.shape, tb.shape)
-    t_parcel = thermo.moist_adiabat_temperature(
-        np.broadcast_to(p, shape)[..., None],
-        np.broadcast_to(tb, shape),
-        np.broadcast_to(pb, shape),
-        max_step=max_step,
-    )[..., 0]
+    if follows is not None:
+        if len(shape) != 1:
+            raise ValueError("follows needs flat (one-dimensional) levels")
+        t_parcel = thermo.moist_adiabat_chain(
+            np.broadcast_to(p, shape), tb, pb, follows, max_step=max_step
+        )
+    else:
+        t_parcel = thermo.moist_adiabat_temperature(
+            np.broadcast_to(p, shape)[..., None],
+            np.broadcast_to(tb, shape),
+            np.broadcast_to(pb, shape),
+            max_step=max_step,
+        )[..., 0]
     with np.errstate(invalid="ignore"):
         r_base = thermo.saturation_mixing_ratio(pb, tb)
         r_here = thermo.saturation_mixing_ratio(p, t_parcel)

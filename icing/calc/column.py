@@ -641,6 +641,10 @@ def _diagnosed_liquid(p, t, z, q, rh, lay, sel, air, all_air, convective, o):
     threshold flags the cloud, saturation starts its liquid. Levels below that
     condensation level get none. Convective layers keep at least
     ``o.sub_adiabatic_floor_convective`` of adiabatic.
+
+    The parcel is carried up each layer (:func:`_parcel_links`): a level above the
+    condensation level continues from the liquid level below it, so a deep layer costs
+    one crossing of its depth, not one per level.
     """
     lwc_diag = np.zeros(p.shape) if all_air else np.where(air, 0.0, np.nan)
     if sel[0].size:
@@ -652,6 +656,7 @@ def _diagnosed_liquid(p, t, z, q, rh, lay, sel, air, all_air, convective, o):
             t_l,
             specific_humidity=np.nan_to_num(q[sel]),
             max_step=o.moist_adiabat_step,
+            follows=_parcel_links(p[sel], p_l, lay.base_index[sel], sel),
         )
         f = clouds.sub_adiabatic_factor(
             z[sel] - z_l,
@@ -662,6 +667,25 @@ def _diagnosed_liquid(p, t, z, q, rh, lay, sel, air, all_air, convective, o):
         ad_f = np.nan_to_num(ad * f)
         lwc_diag[sel] = np.where(ad_f > 1e-12, ad_f, 0.0)  # drop round-off at the base
     return lwc_diag
+
+
+def _parcel_links(p_sel, p_l, base, sel):
+    """For each selected level, the one the parcel comes from (``moist_adiabat_chain``).
+
+    The selected levels are in column order, ground up (``np.nonzero`` of a (..., level)
+    mask): a level above its layer's condensation level follows the previous selected
+    level when that one is of the same column and layer and above the condensation
+    level too; every other level starts from the condensation level (-1).
+    """
+    n = p_sel.size
+    with np.errstate(invalid="ignore"):
+        above = p_sel < p_l
+    same = np.zeros(n, bool)
+    if n > 1:
+        same[1:] = (base[1:] == base[:-1]) & above[:-1]
+        for rows in sel[:-1]:
+            same[1:] &= rows[1:] == rows[:-1]
+    return np.where(above & same, np.arange(n) - 1, -1)
 
 
 def _condensation_base(p, t, z, rh, lay, sel):
