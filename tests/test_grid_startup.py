@@ -9,6 +9,8 @@ same, and the collection table read back from the cache to the one just built.
 
 from __future__ import annotations
 
+import os
+
 import numpy as np
 import pytest
 
@@ -140,3 +142,31 @@ def test_start_workers_gives_the_fork_server_context():
 
     ctx = start_workers(warm=False)
     assert ctx.get_start_method() == "forkserver"
+
+
+def test_plain_pages_turns_numpy_huge_page_advice_off_and_back():
+    """The grid's arrays are made without huge-page advice; the caller's setting returns."""
+    mod = pytest.importorskip("numpy._core.multiarray")
+    from icing.runs.grid import plain_pages
+
+    before = mod._set_madvise_hugepage(True)
+    try:
+        with plain_pages():
+            assert mod._set_madvise_hugepage(False) is False  # off inside
+        assert mod._set_madvise_hugepage(True) is True  # restored
+        with pytest.raises(RuntimeError), plain_pages():
+            raise RuntimeError("a failed run")
+        assert mod._set_madvise_hugepage(True) is True  # restored after a failure too
+    finally:
+        mod._set_madvise_hugepage(before)
+
+
+def test_the_workers_are_started_without_huge_page_advice(monkeypatch):
+    """The fork server (and so every worker) starts with numpy's advice off."""
+    from icing.runs import grid
+
+    assert grid._WORKER_ENVIRONMENT["NUMPY_MADVISE_HUGEPAGE"] == "0"
+    monkeypatch.delenv("NUMPY_MADVISE_HUGEPAGE", raising=False)
+    with grid._environment(grid._WORKER_ENVIRONMENT):
+        assert os.environ["NUMPY_MADVISE_HUGEPAGE"] == "0"
+    assert "NUMPY_MADVISE_HUGEPAGE" not in os.environ

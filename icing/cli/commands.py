@@ -207,6 +207,13 @@ def cmd_profile(args) -> int:
 
 def cmd_grid(args) -> int:
     """``icing grid``: the hazard over a whole forecast, by altitude band."""
+    from icing.runs.grid import plain_pages
+
+    with plain_pages():  # the whole grid's arrays, from the run to the outputs
+        return _grid(args)
+
+
+def _grid(args) -> int:
     from icing.airframes import load_airframe
     from icing.hazards.bands import parse_bands
     from icing.hazards.ensemble import MemberStatistic

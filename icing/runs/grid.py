@@ -64,11 +64,13 @@ _RUN_BLOCKS = 8
 #: are taken from and returned to the heap instead of being mapped and unmapped one by
 #: one, which faulted fresh zeroed pages in for every temporary (a tenth of the run's
 #: processor time went to the kernel; measured 0.5-1 s of 23 s on the benchmark's grid).
-#: The mallopt(3) environment variables; ignored where the C library is another.
-_WORKER_MALLOC = {
+#: The mallopt(3) environment variables; ignored where the C library is another. And
+#: numpy's huge-page advice off, as in the main process (:func:`plain_pages`).
+_WORKER_ENVIRONMENT = {
     "MALLOC_MMAP_THRESHOLD_": str(64 * 2**20),
     "MALLOC_TRIM_THRESHOLD_": str(512 * 2**20),
     "MALLOC_TOP_PAD_": str(64 * 2**20),
+    "NUMPY_MADVISE_HUGEPAGE": "0",
 }
 #: Grids of at least this many columns (times x members x cells) use the compiled loops
 #: of the column physics (SLD included), the read-off and the bands where numba is
@@ -284,7 +286,7 @@ def grid_forecast(
     shape = (len(times), options.bands.count, src.y.size, src.x.size)
     # made in a thread while the workers start (filling a continental grid's takes 0.3 s,
     # bringing its cells to lon/lat for the NetCDF 0.2 s)
-    with ThreadPoolExecutor(max_workers=1) as pool:
+    with plain_pages(), ThreadPoolExecutor(max_workers=1) as pool:
         making = pool.submit(_store, *shape, members=plan is not None)
         lonlat = None if src.crs is None else pool.submit(cell_lonlat, src)
         position = {t: i for i, t in enumerate(times)}
@@ -500,7 +502,7 @@ def start_workers(*, warm=True):
     Called by ``icing grid`` before it opens the forecast, so that the server's start
     (and, with ``warm``, the imports and compiled loops of :mod:`icing.runs._warm`)
     overlaps the main process's own work; the pool calls it again (a no-op then).
-    Workers get the allocator settings of :data:`_WORKER_MALLOC`. Returns the
+    Workers get the allocator settings of :data:`_WORKER_ENVIRONMENT`. Returns the
     multiprocessing context.
     """
     import multiprocessing as mp
@@ -508,9 +510,33 @@ def start_workers(*, warm=True):
 
     ctx = mp.get_context("forkserver")
     ctx.set_forkserver_preload(["icing.runs.grid"] + (["icing.runs._warm"] if warm else []))
-    with _environment(_WORKER_MALLOC):
+    with _environment(_WORKER_ENVIRONMENT):
         forkserver.ensure_running()  # no-op when running (its preloads are then kept)
     return ctx
+
+
+@contextlib.contextmanager
+def plain_pages():
+    """Make the arrays inside without numpy's huge-page advice (restored after).
+
+    numpy advises the kernel to back each array of 4 MiB or more with huge pages. A
+    grid's products (hundreds of MB for a continental grid, written once) gain nothing
+    from them, and where the kernel compacts memory on demand for advised ranges
+    (transparent huge pages with ``defrag`` at ``madvise``, a common default) their
+    first touch can stall: filling the benchmark grid's products took 1.6-2.0 s of
+    system time with the advice and 0.2 s without, on the benchmark's machine. Where
+    numpy has no such switch, nothing changes.
+    """
+    try:
+        from numpy._core.multiarray import _set_madvise_hugepage
+    except ImportError:  # another numpy: its own default
+        yield
+        return
+    before = _set_madvise_hugepage(False)
+    try:
+        yield
+    finally:
+        _set_madvise_hugepage(before)
 
 
 @contextlib.contextmanager
