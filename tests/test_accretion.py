@@ -668,3 +668,31 @@ def test_stagnation_nusselt_number_is_the_hiemenz_solution_in_potential_flow():
     assert fpp0 == pytest.approx(1.2326, abs=2e-4)
     assert 2.0 * q == pytest.approx(1.14 * PRANDTL_AIR**0.4, rel=0.01)
     assert 2.0 * solve(1.0)[1] == pytest.approx(1.14, rel=0.01)
+
+
+def test_sld_direct_and_table_agree():
+    # equivalence, not physics: the SLD's exponential-spectrum table against the direct
+    # sum it is built from (the table's design tolerance, 1e-3 in E; collection.py)
+    rng = np.random.default_rng(5)
+    n = 3000
+    kw = dict(
+        lwc=0.0,
+        mvd=np.nan,
+        sld_lwc=rng.uniform(2e-5, 5e-4, n),
+        sld_mvd=np.exp(rng.uniform(np.log(40e-6), np.log(3e-3), n)),
+        sld_class=rng.integers(1, 3, n),
+        temperature=rng.uniform(258, 273, n),
+        pressure=rng.uniform(6e4, 1.02e5, n),
+        airspeed=rng.uniform(20.0, 160.0, n),
+    )
+    for name in ("light-piston", "twin-turboprop"):
+        af = load_airframe(name)
+        a = acc.airframe_icing(af, spectrum_method="table", **kw)
+        b = acc.airframe_icing(af, spectrum_method="direct", **kw)
+        for c in af.collectors:
+            ea = a.per_collector[c.name]["collection_efficiency"]
+            eb = b.per_collector[c.name]["collection_efficiency"]
+            assert np.nanmax(np.abs(ea - eb)) < 1e-3 * max(c.catch_factor, 1.0), c.name
+            ba, bb = a.per_collector[c.name]["beta0"], b.per_collector[c.name]["beta0"]
+            assert np.nanmax(np.abs(ba - bb)) < 1e-3, c.name
+        assert np.mean(a.severity != b.severity) < 0.01

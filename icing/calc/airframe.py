@@ -322,7 +322,12 @@ def _cloud_catch(c, st, v, d):
 
 
 def _sld_catch(c, st, v, d, shape):
-    """Total and stagnation efficiency of the SLD population (exponential spectrum)."""
+    """Total and stagnation efficiency of the SLD population (exponential spectrum).
+
+    As the cloud drops' (:func:`_cloud_catch`): with the table method, read from the
+    exponential spectrum's table (``collection_table`` at gamma shape 0, within 1e-3
+    of the direct sum); else the direct sum over its bins.
+    """
     has_sld = st["sld_lwc"] > 0.0
     if not np.any(has_sld):
         zero = np.zeros(shape)
@@ -331,11 +336,20 @@ def _sld_catch(c, st, v, d, shape):
     es = np.zeros(shape)
     bs = np.zeros(shape)
     vs = v[sel] if np.ndim(v) else np.broadcast_to(v, shape)[sel]
-    phi_s = range_parameter(d, vs, st["rho"][sel], st["mu"][sel])
-    k_s = inertia_parameter(st["sld_mvd"][sel], d, vs, st["mu"][sel])
-    es[sel], bs[sel] = _spectrum_kernel(
-        k_s, phi_s, st["sld_ratios"], st["sld_fractions"], st["model_fn"]
-    )
+    if st["method"] == "table":
+        lv = np.log10(np.maximum(vs, 1e-6))
+        ld = np.log10(d)
+        # log10 K at the SLD MVD less log10(V/D), as lk0 of the cloud drops
+        lk0 = 2.0 * np.log10(st["sld_mvd"][sel]) - np.log10(9.0 * st["mu"][sel] / RHO_WATER)
+        es[sel], bs[sel] = _spectrum_fast(
+            lk0 + lv - ld, st["lp0"][sel] + lv + ld, 0.0, st["n_bins"], st["model"]
+        )
+    else:
+        phi_s = range_parameter(d, vs, st["rho"][sel], st["mu"][sel])
+        k_s = inertia_parameter(st["sld_mvd"][sel], d, vs, st["mu"][sel])
+        es[sel], bs[sel] = _spectrum_kernel(
+            k_s, phi_s, st["sld_ratios"], st["sld_fractions"], st["model_fn"]
+        )
     es *= c.catch_factor
     return es, bs, has_sld
 
@@ -470,9 +484,9 @@ def airframe_icing(
     recovery_factor : float
         Recovery factor at the stagnation line. [1]
     spectrum_method : {"table", "direct"}
-        Cloud-drop collection from the precomputed spectrum table
-        (:func:`icing.collection.collection_table`, within 1e-3) or the direct
-        sum over the bins at every point.
+        Collection of the cloud drops and of the SLD from the precomputed spectrum
+        tables (:func:`icing.collection.collection_table`, within 1e-3; the SLD's at
+        gamma shape 0) or the direct sum over the bins at every point.
     glaciation : array_like, optional
         Glaciation likelihood of the cloud liquid (``ColumnDiagnosis.glaciation``). [1]
     model_glaciated : array_like of bool, optional
@@ -833,7 +847,7 @@ def assumptions(*, model="finstad88", n_bins=7, spectrum_method="table"):
         "collision_efficiency": {
             "model": model,
             "spectrum": f"gamma, mass-weighted over {n_bins} bins ({spectrum_method})",
-            "sld_spectrum": "exponential (gamma shape 0)",
+            "sld_spectrum": f"exponential (gamma shape 0), over {n_bins} bins ({spectrum_method})",
             "equivalent_cylinder": "airfoil and rotor sections: D = 2 * 1.1019 t^2 c "
             "(NACA 4-digit leading-edge radius)",
             "below_phi_100": "max(Finstad at phi = 100, Langmuir-Blodgett), flagged",
