@@ -144,10 +144,15 @@ def stagnation_heat_transfer(cylinder_diameter, airspeed, *, pressure, temperatu
     return nu * air_conductivity(temperature) / d
 
 
-def _evaporation_coefficient(pressure, temperature):
-    """``(Pr/Sc)^(2/3) eps / (c_p p)``: mass flux per (h_c * vapour-pressure excess)."""
-    rho = air_density(pressure, temperature)
-    sc = air_viscosity(temperature) / (rho * vapor_diffusivity(temperature, pressure))
+def _evaporation_coefficient(pressure, temperature, *, rho=None, mu=None):
+    """``(Pr/Sc)^(2/3) eps / (c_p p)``: mass flux per (h_c * vapour-pressure excess).
+
+    ``rho`` and ``mu``: the dry air's density and viscosity at (pressure, temperature),
+    when the caller has them (the same values).
+    """
+    rho = air_density(pressure, temperature) if rho is None else rho
+    mu = air_viscosity(temperature) if mu is None else mu
+    sc = mu / (rho * vapor_diffusivity(temperature, pressure))
     return (PRANDTL_AIR / sc) ** (2.0 / 3.0) * EPSILON / (CP_AIR * np.asarray(pressure, float))
 
 
@@ -310,16 +315,18 @@ def _dry_surface_temperature(t, v, m_imp, h_c, evap_coef, e_a, recovery_factor, 
         h_c + m_imp * CP_WATER
     )
     ts = np.clip(ts, t - 5.0, T0)
+    # the factors that do not change from step to step, formed once (the same values:
+    # each product keeps its left-to-right order)
+    h_e = h_c * evap_coef
+    h_el = h_e * LS0
+    m_c = m_imp * CP_WATER
+    slope0 = -h_c - m_c
+    lo = t - 20.0
     for _ in range(iterations):
         es = saturation_vapor_pressure(ts, phase="solid")
-        f = (
-            gain
-            + h_c * (t_r - ts)
-            - h_c * evap_coef * (es - e_a) * LS0
-            - m_imp * CP_WATER * (ts - t)
-        )
-        dfdt = -h_c - m_imp * CP_WATER - h_c * evap_coef * LS0 * es * LS0 / (RV * ts * ts)
-        ts = np.clip(ts - f / dfdt, t - 20.0, T0)
+        f = gain + h_c * (t_r - ts) - h_e * (es - e_a) * LS0 - m_c * (ts - t)
+        dfdt = slope0 - h_el * es * LS0 / (RV * ts * ts)
+        ts = np.clip(ts - f / dfdt, lo, T0)
     return ts
 
 

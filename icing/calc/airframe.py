@@ -711,7 +711,7 @@ def _working_state(flat, gap, *, model, n_bins, spectrum_method):
         "n_bins": n_bins,
         "method": spectrum_method,
         "shape": shape_w,
-        "coef": _evaporation_coefficient(p_w, t_w),
+        "coef": _evaporation_coefficient(p_w, t_w, rho=rho, mu=mu),
         "e_a": rh_w * saturation_vapor_pressure(t_w, phase="liquid"),
     }
     st["sld_ratios"], st["sld_fractions"] = spectrum_quadrature(0.0, n_bins)
