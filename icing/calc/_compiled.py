@@ -2,7 +2,8 @@
 
 A grid run diagnoses millions of columns; there the column physics runs as compiled
 loops over columns and levels (:mod:`icing.calc._column_loops`) instead of numpy passes
-over whole blocks. The numpy functions remain the reference, and only callers that ask
+over whole blocks, and the collector physics looks its collection tables up in one
+compiled pass (:mod:`icing.calc._collection_loops`, ``airframe_severity(compiled=True)``). The numpy functions remain the reference, and only callers that ask
 for the loops get them (``diagnose_columns(..., compiled=True)``, which the grid path
 sets): importing numba costs about 0.3 s a process, more than a route or a profile
 saves. Where the compiled code is kept and how ``ICING_COMPILED=0`` turns the loops off:
@@ -19,7 +20,7 @@ from icing.cachedir import load_compiled
 __all__ = ["compiled_loops"]
 
 #: The modules of compiled loops this loader may import (they import numba).
-_MODULES = ("icing.calc._column_loops",)
+_MODULES = ("icing.calc._column_loops", "icing.calc._collection_loops")
 
 
 @functools.cache

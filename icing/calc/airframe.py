@@ -304,6 +304,7 @@ def _cloud_catch(c, st, v, d):
                 st["shape"][at],
                 st["n_bins"],
                 st["model"],
+                st["compiled"],
             )
             e[at] = e_at * c.catch_factor
         return e, b0
@@ -342,7 +343,7 @@ def _sld_catch(c, st, v, d, shape):
         # log10 K at the SLD MVD less log10(V/D), as lk0 of the cloud drops
         lk0 = 2.0 * np.log10(st["sld_mvd"][sel]) - np.log10(9.0 * st["mu"][sel] / RHO_WATER)
         es[sel], bs[sel] = _spectrum_fast(
-            lk0 + lv - ld, st["lp0"][sel] + lv + ld, 0.0, st["n_bins"], st["model"]
+            lk0 + lv - ld, st["lp0"][sel] + lv + ld, 0.0, st["n_bins"], st["model"], st["compiled"]
         )
     else:
         phi_s = range_parameter(d, vs, st["rho"][sel], st["mu"][sel])
@@ -547,7 +548,9 @@ def airframe_icing(
 def airframe_severity(airframe, **inputs):
     """Return the airframe's severity and accretion rate alone, as :func:`airframe_icing`'s.
 
-    Takes :func:`airframe_icing`'s keywords and gives, to the bit, its ``severity``
+    Takes :func:`airframe_icing`'s keywords (and ``compiled``: the table lookups as
+    compiled loops where numba is installed, the same values) and gives, to the bit,
+    its ``severity``
     (``codes.GAP`` in gaps) and ``accretion_rate_mm_h`` (NaN in gaps), computing only
     what sets them: the collectors that can set the airframe's fields (the critical
     ones and the reference) and, for each, only the catch, the heat balance, the ice
@@ -603,6 +606,7 @@ _DEFAULTS = {
     "model": "finstad88",
     "n_bins": 7,
     "spectrum_method": "table",
+    "compiled": False,
     "glaciation": None,
     "model_glaciated": None,
     "basis": None,
@@ -640,6 +644,7 @@ def _prepared(airframe, *, lwc, mvd, temperature, pressure, **optional):
     st = _working_state(
         flat, gap, model=o["model"], n_bins=o["n_bins"], spectrum_method=o["spectrum_method"]
     )
+    st["compiled"] = bool(o["compiled"])
     st.update(_broadcast_phase(shape, o["glaciation"], o["model_glaciated"], o["basis"]))
     return shape, gap, st
 

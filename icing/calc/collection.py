@@ -38,6 +38,7 @@ import functools
 
 import numpy as np
 
+from icing.calc._compiled import compiled_loops
 from icing.calc.thermo import air_density, air_viscosity
 from icing.constants import RHO_WATER
 
@@ -640,9 +641,32 @@ def _grid(spec):
     return first + step * np.arange(int(round((last - first) / step)) + 1)
 
 
-def _table_lookup(table, log_k, log_phi):
-    """Bilinear interpolation of ``table`` at (log10 K, log10 phi), both (n,)."""
+def _table_lookup(table, log_k, log_phi, compiled=False):
+    """Bilinear interpolation of ``table`` at (log10 K, log10 phi), both (n,).
+
+    ``compiled``: as one compiled pass where numba is installed
+    (:mod:`icing.calc._collection_loops`, the same values to the bit).
+    """
     nk, nphi = table.shape[:2]
+    loops = compiled_loops("icing.calc._collection_loops") if compiled else None
+    if loops is not None:
+        h, cell = _phi_cell_index()
+        e, b = np.empty(log_k.shape), np.empty(log_k.shape)
+        loops.table_lookup(
+            *_planes(table),
+            nphi,
+            float(TABLE_LOG_K[0]),
+            1.0 / TABLE_LOG_K[2],
+            nk - 1.000001,
+            np.ascontiguousarray(log_k, dtype=float),
+            np.ascontiguousarray(log_phi, dtype=float),
+            TABLE_LOG_PHI,
+            1.0 / h,
+            cell,
+            e,
+            b,
+        )
+        return e, b
     x = (log_k - TABLE_LOG_K[0]) * (1.0 / TABLE_LOG_K[2])
     np.clip(x, 0.0, nk - 1.000001, out=x)
     i = x.astype(np.intp)
@@ -701,17 +725,18 @@ def _planes(table):
 _MAX_TABLES = 8
 
 
-def _spectrum_fast(log_k, log_phi, shape, n_bins, model):
+def _spectrum_fast(log_k, log_phi, shape, n_bins, model, compiled=False):
     """Table-interpolated (E, beta0), per-point shapes grouped by unique value."""
     shape = np.asarray(shape, dtype=float)
     if shape.ndim == 0 or shape.size == 1:
-        return _table_lookup(collection_table(model, float(shape.flat[0]), n_bins), log_k, log_phi)
+        table = collection_table(model, float(shape.flat[0]), n_bins)
+        return _table_lookup(table, log_k, log_phi, compiled)
     shape = np.broadcast_to(shape, log_k.shape)
     if shape.size == 0:
         return np.empty_like(log_k), np.empty_like(log_k)
     first = float(shape.flat[0])
     if np.all(shape == first):  # one air mass (the usual case): no sort
-        return _table_lookup(collection_table(model, first, n_bins), log_k, log_phi)
+        return _table_lookup(collection_table(model, first, n_bins), log_k, log_phi, compiled)
     uniq, inv = np.unique(shape, return_inverse=True)
     if uniq.size > _MAX_TABLES:  # a continuum of shapes: the direct sum, not many tables
         ratios, fractions = _ratios_per_point(shape, n_bins, log_k.size)
@@ -721,7 +746,7 @@ def _spectrum_fast(log_k, log_phi, shape, n_bins, model):
     for u_i, u in enumerate(uniq):  # a handful of air-mass shapes, not points
         sel = inv == u_i
         e[sel], b[sel] = _table_lookup(
-            collection_table(model, float(u), n_bins), log_k[sel], log_phi[sel]
+            collection_table(model, float(u), n_bins), log_k[sel], log_phi[sel], compiled
         )
     return e, b
 

@@ -254,7 +254,7 @@ def _collector_physics(diag, airframe, located, valid, compiled):
     tas = airframe.schedule.true_airspeed(
         PHASE_LEVEL, st["pressure"], st["temperature"], st["height"]
     )
-    sev, rate = severity_at(airframe, st, tas)
+    sev, rate = severity_at(airframe, st, tas, compiled=compiled)
     with np.errstate(invalid="ignore"):
         mvd = np.where(st["lwc"] >= IN_CLOUD_LWC, st["mvd"], np.nan)
     return sev, rate, mvd

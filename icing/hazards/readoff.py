@@ -378,13 +378,16 @@ def icing_at(airframe, state, airspeed):
     return result, sev
 
 
-def severity_at(airframe, state, airspeed):
+def severity_at(airframe, state, airspeed, *, compiled=False):
     """Return the airframe's severity and accretion rate [mm/h] alone, as :func:`icing_at` does.
 
     :func:`icing.calc.airframe.airframe_severity`: only what sets the two (a grid's
     bands keep nothing else). Severity ``codes.GAP`` where a state is invalid.
+    ``compiled``: its table lookups as compiled loops (the same values).
     """
-    sev, rate = airframe_severity(airframe, **_collector_inputs(state, airspeed))
+    sev, rate = airframe_severity(
+        airframe, **_collector_inputs(state, airspeed), compiled=compiled
+    )
     return np.where(state["valid"], sev, codes.GAP), rate
 
 
