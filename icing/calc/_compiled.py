@@ -3,11 +3,13 @@
 A grid run diagnoses millions of columns; there the column physics runs as compiled
 loops over columns and levels (:mod:`icing.calc._column_loops`) instead of numpy passes
 over whole blocks, and the collector physics looks its collection tables up in one
-compiled pass (:mod:`icing.calc._collection_loops`, ``airframe_severity(compiled=True)``). The numpy functions remain the reference, and only callers that ask
-for the loops get them (``diagnose_columns(..., compiled=True)``, which the grid path
-sets): importing numba costs about 0.3 s a process, more than a route or a profile
-saves. Where the compiled code is kept and how ``ICING_COMPILED=0`` turns the loops off:
-:func:`icing.cachedir.load_compiled`, shared with the SLD and the read-off loops.
+compiled pass (:mod:`icing.calc._collection_loops`,
+``airframe_severity(compiled=True)``). The numpy functions remain the reference, and
+only callers that ask for the loops get them (``diagnose_columns(..., compiled=True)``,
+which the grid path sets): importing numba costs about 0.3 s a process, more than a
+route or a profile saves. Where the compiled code is kept and how ``ICING_COMPILED=0``
+turns the loops off: :func:`icing.cachedir.load_compiled`, shared with the SLD and the
+read-off loops.
 """
 
 from __future__ import annotations
