@@ -340,8 +340,7 @@ def _sld_catch(c, st, v, d, shape):
     if st["method"] == "table":
         lv = np.log10(np.maximum(vs, 1e-6))
         ld = np.log10(d)
-        # log10 K at the SLD MVD less log10(V/D), as lk0 of the cloud drops
-        lk0 = 2.0 * np.log10(st["sld_mvd"][sel]) - np.log10(9.0 * st["mu"][sel] / RHO_WATER)
+        lk0 = 2.0 * np.log10(st["sld_mvd"][sel]) - st["lmu"][sel]  # as the cloud drops' lk0
         es[sel], bs[sel] = _spectrum_fast(
             lk0 + lv - ld, st["lp0"][sel] + lv + ld, 0.0, st["n_bins"], st["model"], st["compiled"]
         )
@@ -722,8 +721,10 @@ def _working_state(flat, gap, *, model, n_bins, spectrum_method):
     st["sld_ratios"], st["sld_fractions"] = spectrum_quadrature(0.0, n_bins)
     if spectrum_method == "table":
         with np.errstate(divide="ignore"):
-            # log10 K - log10(V/D) and log10 phi - log10(V D)
-            st["lk0"] = 2.0 * np.log10(mvd_w) - np.log10(9.0 * mu / RHO_WATER)
+            # log10 K - log10(V/D) (less the drops' 2 log10 MVD: "lmu") and log10 phi -
+            # log10(V D); the SLD's K is formed from "lmu" at their own MVD
+            st["lmu"] = np.log10(9.0 * mu / RHO_WATER)
+            st["lk0"] = 2.0 * np.log10(mvd_w) - st["lmu"]
             st["lp0"] = np.log10(9.0 * rho * rho / (mu * RHO_WATER))
     elif spectrum_method == "direct":
         st["ratios"], st["fractions"] = _ratios_per_point(shape_w, n_bins, lwc.size)
